@@ -1,0 +1,8 @@
+#!/usr/bin/env node
+// The `reelwright` command. TypeScript sources run through the tsx loader, so a fresh
+// `npm install` leaves a working command with no build step.
+import { register } from 'tsx/esm/api';
+
+register();
+const { main } = await import('../main/cli/index.ts');
+process.exitCode = await main(process.argv.slice(2));

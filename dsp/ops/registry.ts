@@ -1,0 +1,17 @@
+/**
+ * The one list of operations. The command line, the editor and the batch report are built from
+ * it: adding an operation is one module in dsp/ops/ and one line here.
+ */
+import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
+import { info } from './info.ts';
+
+export const operations: readonly Operation[] = [
+  info,
+];
+
+export function findOperation(name: string): Operation | undefined {
+  return operations.find((op) => op.name === name);
+}
+
+export const analyses = (): AnalysisOp[] => operations.filter((op): op is AnalysisOp => op.kind === 'analysis');
+export const corrections = (): CorrectionOp[] => operations.filter((op): op is CorrectionOp => op.kind === 'correction');

@@ -1,0 +1,128 @@
+/**
+ * Operations are data. Each analysis and each correction is one module exporting one object of
+ * these types; dsp/ops/registry.ts lists them once, and the command line, the editor and the batch
+ * report are all built from that list.
+ */
+import type { AudioSource, Block } from '../source.ts';
+import type { Frames, Hertz } from '../units.ts';
+
+export type ParamType = 'number' | 'integer' | 'boolean' | 'string' | 'enum' | 'range' | 'list';
+
+/** One parameter: how it is named, typed, bounded and explained, on the command line and in the editor. */
+export interface ParamSpec {
+  /** Key in the params object, camelCase with the unit in it where there is one (`delaySeconds`). */
+  readonly name: string;
+  /** Command-line flag without the dashes (`delay` → `--delay`). */
+  readonly flag: string;
+  readonly type: ParamType;
+  /** Short label for the editor ("Delay"). */
+  readonly label: string;
+  /** One sentence of help, shown by `--help` and as the editor's tooltip. */
+  readonly help: string;
+  /** Unit shown beside the value: 's', 'ms', 'Hz', 'dB', '%', 'cents', 'semitones', '×'. */
+  readonly unit?: string;
+  readonly min?: number;
+  readonly max?: number;
+  /** For 'enum'. */
+  readonly choices?: readonly string[];
+  /** Absent = optional with no default (undefined means "measure it" / "automatic"). */
+  readonly default?: number | boolean | string | readonly number[];
+  /** Only meaningful on the command line (e.g. a path); the editor hides it. */
+  readonly cliOnly?: boolean;
+}
+
+/** A parsed `range` parameter: `MIN:MAX` on the command line. */
+export type RangeValue = readonly [number, number];
+
+export type ParamValue = number | boolean | string | RangeValue | readonly number[] | undefined;
+export type ParamValues = Record<string, ParamValue>;
+
+export interface OpContext {
+  /** Fraction done 0–1 for this operation's whole run. */
+  progress(fraction: number): void;
+  /** A non-fatal problem worth telling the user (clamped gain, short material…). */
+  warn(message: string): void;
+  /** Set by the caller to stop work early (an AbortSignal fits this shape). */
+  readonly signal?: { readonly aborted: boolean };
+}
+
+export const silentContext: OpContext = { progress() {}, warn() {} };
+
+/** Static facts about the input that decide whether an operation applies. */
+export interface SourceFacts {
+  readonly sampleRateHz: Hertz;
+  readonly channelCount: number;
+  readonly frames: Frames;
+}
+
+/** A plain-language finding for `diagnose`, the editor's findings list and the batch report. */
+export interface Finding {
+  /** The analysis that produced it (its verb). */
+  readonly op: string;
+  /** Short title: "Played 2 % fast". */
+  readonly title: string;
+  /** One plain sentence for a supervisor or an engineer. */
+  readonly sentence: string;
+  /** Headline number and its unit, for tables. */
+  readonly value?: number | string;
+  readonly unit?: string;
+  readonly confidence?: number;
+  /** 'ok' means "looked and found nothing wrong". */
+  readonly severity: 'ok' | 'info' | 'warn' | 'fail';
+  /** The correction that would fix it, with the measured parameters filled in. */
+  readonly suggestion?: { readonly op: string; readonly params: ParamValues };
+}
+
+interface OperationBase {
+  /** The command-line verb, lower-case (`speed`, `unecho`). */
+  readonly name: string;
+  /** Human title for the editor ("Speed"). */
+  readonly title: string;
+  /** One line for `reelwright --help` and the editor. */
+  readonly summary: string;
+  readonly params: readonly ParamSpec[];
+  /** Whether the operation can run on this input (e.g. azimuth needs two channels). */
+  applies?(facts: SourceFacts): boolean;
+}
+
+export interface AnalysisOp<R = unknown> extends OperationBase {
+  readonly kind: 'analysis';
+  /** Key of the result in the JSON output (`speed`, `echo`, …; see the contract). */
+  readonly key: string;
+  /** Include in `diagnose` and `check` (default true). */
+  readonly inDiagnose?: boolean;
+  run(source: AudioSource, params: ParamValues, ctx: OpContext): Promise<R>;
+  /**
+   * Extra top-level JSON keys beside `key` (e.g. echo also prints `printThrough`). The result is
+   * printed as `{ [key]: result }` unless this returns the keys itself.
+   */
+  toJson?(result: R): Record<string, unknown>;
+  /** Plain-language findings for diagnose / editor / report. */
+  findings?(result: R, facts: SourceFacts): Finding[];
+}
+
+/** What a correction produces: the output's shape and its blocks. */
+export interface Rendering {
+  readonly sampleRateHz: Hertz;
+  readonly channelCount: number;
+  /** Expected output length if known in advance (for progress and headers). */
+  readonly framesHint?: Frames;
+  readonly blocks: AsyncIterable<Block>;
+  /** Parameters actually used (after measuring), for the JSON output and coding history. */
+  readonly resolved: ParamValues;
+}
+
+export interface CorrectionOp extends OperationBase {
+  readonly kind: 'correction';
+  /**
+   * Measure what is needed (may read the source), then return the rendering. Reading the source
+   * again inside `blocks` is allowed: sources support many passes.
+   */
+  prepare(source: AudioSource, params: ParamValues, ctx: OpContext): Promise<Rendering>;
+  /** Analysis verb re-measured on input and output for `--json` before/after. */
+  readonly measures?: string;
+  /** Free text for the BWF CodingHistory `T=` field, e.g. "reelwright unecho delay=0.0231s gain=0.42". */
+  history(resolved: ParamValues): string;
+}
+
+export type Operation = AnalysisOp | CorrectionOp;
