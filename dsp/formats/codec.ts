@@ -208,8 +208,8 @@ export function countNonFinite(src: Uint8Array, srcOffset: number, enc: SampleEn
  * Encodes `frames` frames of planar input (starting at `inOffset` in each channel) into interleaved
  * stored samples at byte `dstOffset` of `dst`.
  *
- * Integers: round to nearest of x·2^(b−1) (+ TPDF dither when `rng` is given), clamped to the code
- * range. Float32: nearest binary32. NaN encodes as 0 in integer formats.
+ * Integers: round to nearest (ties to even) of x·2^(b−1) (+ TPDF dither when `rng` is given),
+ * clamped to the code range. Float32: nearest binary32. NaN encodes as 0 in integer formats.
  *
  * Dither: triangular PDF spanning ±1 LSB, the sum of two independent uniform ±½ LSB values
  * (rng() − rng()), added before rounding. Source: Wannamaker, Lipshitz & Vanderkooy, "A Theory of
@@ -301,10 +301,14 @@ export function encodeSamples(
   }
 }
 
-/** Round to nearest integer code, with optional TPDF dither, clamped; NaN → 0. */
+/** 1.5 · 2^52: adding and subtracting it rounds a double of magnitude < 2^51 to the nearest integer (ties to even). */
+const ROUND_MAGIC = 6755399441055744;
+
+/** Round to nearest integer code (ties to even), with optional TPDF dither, clamped; NaN → 0. */
 function quantize(x: number, scale: number, min: number, max: number, rng: (() => number) | undefined): number {
-  const q = rng ? Math.round(x * scale + (rng() - rng())) : Math.round(x * scale);
-  return q > max ? max : q < min ? min : q === q ? q : 0;
+  let v = rng ? x * scale + (rng() - rng()) : x * scale;
+  v = v > max ? max : v < min ? min : v;
+  return (v + ROUND_MAGIC - ROUND_MAGIC) | 0;
 }
 
 /**
