@@ -96,6 +96,22 @@ describe('FLAC frame recognition (pure)', () => {
   });
 });
 
+describe('FLAC with an ID3v2 tag in front', () => {
+  it('skips the tag and decodes the same samples', async () => {
+    // Source: ID3v2.4 §3.1 (10-byte header, syncsafe size); some taggers put ID3v2 before 'fLaC'.
+    const bytes = fileBytes(path.join(FIXTURES, 'flac_24bit.flac'));
+    const tag = new Uint8Array(10 + 300);
+    tag.set([0x49, 0x44, 0x33, 4, 0, 0, 0, 0, 2, 300 - 256]); // size 300 = 0b10_0101100 → 02 2C
+    const file = path.join(dir, 'tagged.flac');
+    fs.writeFileSync(file, Buffer.concat([tag, bytes]));
+    const a = await openAudio(file);
+    const b = await openAudio(path.join(FIXTURES, 'flac_24bit.wav'));
+    expect(a.layout.chunks[0]!.offset).toBe(310 + 8);
+    expect((await readAll(a))[0]).toEqual((await readAll(b))[0]);
+    await Promise.all([a.close(), b.close()]);
+  });
+});
+
 describe('FLAC bad input', () => {
   it('a truncated FLAC file reports where the stream ends', async () => {
     const bytes = fileBytes(path.join(FIXTURES, 'flac_16bit.flac'));

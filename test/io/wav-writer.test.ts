@@ -83,6 +83,23 @@ describe('pure streaming WAV writer (browser-usable)', () => {
   });
 });
 
+describe('BW64', () => {
+  it('reads a BW64 file (ITU-R BS.2088: RF64 structure with the id BW64)', () => {
+    // Source: ITU-R BS.2088-1 — same ds64 mechanism as EBU Tech 3306, outer id 'BW64'.
+    const enc = new WavStreamEncoder({ format: { sampleFormat: 'int', bitsPerSample: 16, channels: 2, sampleRateHz: 48000 }, container: 'rf64' });
+    const part = enc.encode([Float64Array.from([0.5, -0.25, 0]), Float64Array.from([-1, 0.125, 0.75])]);
+    const d = enc.finish();
+    const file = concatBytes([d.header, part, d.trailer]);
+    file.set([0x42, 0x57, 0x36, 0x34], 0); // 'BW64'
+    const layout = parseAudioLayoutFromBytes(file, 'object-audio.wav');
+    expect(layout.container).toBe('BW64');
+    expect([layout.frames, layout.dataBytes, layout.ds64!.sampleCount]).toEqual([3, 12, 3]);
+    const out = [new Float64Array(3), new Float64Array(3)];
+    decodeSamples(file, layout.dataOffset, layout.encoding, 2, 3, out);
+    expect(Array.from(out[1]!)).toEqual([-1, 0.125, 0.75]);
+  });
+});
+
 describe('tolerated quirks of real files', () => {
   const base = () => {
     const enc = new WavStreamEncoder({ format: { sampleFormat: 'int', bitsPerSample: 8, channels: 1, sampleRateHz: 8000 } });
