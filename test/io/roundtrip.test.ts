@@ -135,6 +135,32 @@ describe('WAV family: decode → encode is bit-exact for every sample format × 
   });
 });
 
+describe('a plain RIFF file past 4 GiB whose 32-bit sizes wrapped around', () => {
+  it('is read to its true length when the audio runs to the end of the file (sparse test file)', async () => {
+    // Source: RIFF stores sizes in 32 bits (Microsoft/IBM 1991); some recorders keep writing past
+    // 4 GiB and store size mod 2^32. A sparse file gives the 4.3 GB shape without using the disk.
+    const frames = 2 ** 30 + 1000; // 16-bit stereo: 4 bytes per frame
+    const dataBytes = frames * 4;
+    const header = wavFile(specFor('WAV', 'int', 16, 2), new Uint8Array(4 * 4)).subarray(0, 12 + 36 + 24 + 8);
+    header.set([0x52, 0x49, 0x46, 0x46], 0);
+    new DataView(header.buffer, header.byteOffset).setUint32(4, (header.length + dataBytes - 8) % 2 ** 32, true);
+    new DataView(header.buffer, header.byteOffset).setUint32(header.length - 4, dataBytes % 2 ** 32, true);
+    const file = path.join(dir, 'wrapped.wav');
+    const fd = fs.openSync(file, 'w');
+    fs.writeSync(fd, header, 0, header.length, 0);
+    const last = Uint8Array.from([0xff, 0x7f, 0x00, 0x80]); // final frame: 32767, −32768
+    fs.writeSync(fd, last, 0, 4, header.length + dataBytes - 4);
+    fs.closeSync(fd);
+    expect(fs.statSync(file).size).toBe(header.length + dataBytes);
+    const audio = await openAudio(file);
+    expect(audio.frames).toBe(frames);
+    const tail = await readAll(audio, { startFrame: frames - 2 });
+    expect([tail[0]![1], tail[1]![1], tail[0]![0]]).toEqual([32767 / 32768, -1, 0]);
+    await audio.close();
+    fs.rmSync(file);
+  });
+});
+
 describe('AIFF and AIFC: decode → encode is bit-exact', () => {
   const cases: [AiffFlavour, number][] = [
     ['AIFF', 8], ['AIFF', 16], ['AIFF', 24], ['AIFF', 32],
