@@ -4,7 +4,8 @@ import { silentContext } from '../../dsp/ops/types.ts';
 import { validateParams } from '../../dsp/ops/params.ts';
 import { varispeed } from '../../dsp/ops/varispeed.ts';
 import { speed } from '../../dsp/ops/speed.ts';
-import { synthesizeDemo } from '../../assets/demo/synth.ts';
+import { readFileSync } from 'node:fs';
+import { openAudio } from '../../main/io/index.ts';
 
 /** Frequency (cycles/sample) of the strongest line near `guess`, by maximising |Σ w·y·e^{−jωn}| (golden section). */
 function lineFrequency(y: Float64Array, guess: number, span: number): number {
@@ -80,18 +81,23 @@ describe('varispeed: the time-scaling identity x(a·t) ↔ X(f/a)/|a|', () => {
   });
 });
 
-describe('the demo recording (synthesised by assets/demo/synth.ts; true factor in its parameters)', () => {
+describe('the demo recording (assets/demo; its true factor is stored beside it)', () => {
   it('speed reads the stored factor from hum and tone, and varispeed --undo brings it to 1', async () => {
-    const { parameters: p, channels } = synthesizeDemo();
-    const src = new MemorySource(channels, p.sampleRateHz);
-    const r = await speed.run(src, validateParams(speed.params, {}), silentContext);
-    expect(r.method).not.toBeNull();
-    expect(Math.abs(r.factor / p.speedFactor - 1)).toBeLessThan(2e-4);
-    expect(r.candidates.some((c) => c.method === 'hum' && c.mainsHz === p.mainsHz && Math.abs(c.factor / p.speedFactor - 1) < 2e-4)).toBe(true);
-    expect(r.candidates.some((c) => c.method === 'tone' && c.toneHz === p.toneHz && Math.abs(c.factor / p.speedFactor - 1) < 2e-4)).toBe(true);
-    const out = await varispeed.prepare(src, validateParams(varispeed.params, { undo: r.factor, quality: 'draft' }), silentContext);
-    const y = await collectBlocks(out.blocks, 2);
-    const after = await speed.run(new MemorySource(y, p.sampleRateHz), validateParams(speed.params, {}), silentContext);
-    expect(Math.abs(after.factor - 1)).toBeLessThan(Math.max(2e-4, 3 * (after.uncertaintyPercent ?? 0) / 100));
+    const root = new URL('../../assets/demo/', import.meta.url).pathname;
+    const p = JSON.parse(readFileSync(root + 'thornbury-reel7.json', 'utf8')) as { speedFactor: number; mainsHz: number; toneHz: number; sampleRateHz: number };
+    const file = await openAudio(root + 'thornbury-reel7.wav');
+    try {
+      const r = await speed.run(file, validateParams(speed.params, {}), silentContext);
+      expect(r.method).not.toBeNull();
+      expect(Math.abs(r.factor / p.speedFactor - 1)).toBeLessThan(2e-4);
+      expect(r.candidates.some((c) => c.method === 'hum' && c.mainsHz === p.mainsHz && Math.abs(c.factor / p.speedFactor - 1) < 2e-4)).toBe(true);
+      expect(r.candidates.some((c) => c.method === 'tone' && c.toneHz === p.toneHz && Math.abs(c.factor / p.speedFactor - 1) < 2e-4)).toBe(true);
+      const out = await varispeed.prepare(file, validateParams(varispeed.params, { undo: r.factor, quality: 'draft' }), silentContext);
+      const y = await collectBlocks(out.blocks, 2);
+      const after = await speed.run(new MemorySource(y, p.sampleRateHz), validateParams(speed.params, {}), silentContext);
+      expect(Math.abs(after.factor - 1)).toBeLessThan(Math.max(2e-4, (3 * (after.uncertaintyPercent ?? 0)) / 100));
+    } finally {
+      await file.close();
+    }
   });
 });
