@@ -21,6 +21,13 @@
  * fractional position selects the segment and one Horner evaluation per tap gives the
  * coefficients. For a constant ratio that is an exact fraction a/b with a small enough b, a bank of
  * b exact phases is precomputed instead (plain polyphase FIR, no per-sample coefficient work).
+ * The inner loops run as WebAssembly SIMD kernels (./simd-kernels.ts) when the engine has them,
+ * else as plain loops; both give the same samples to rounding.
+ *
+ * Time-varying ratio (a speed curve): the position advances by 1/ratio(p) per output sample. A
+ * curve whose ratio stays within 5 % of its lowest value is rendered with one kernel designed for
+ * that lowest ratio (no aliasing at any point; the passband edge is 0.45 × the slowest point's
+ * rate, e.g. 0.4455 for a ±0.5 % drift); wider curves rescale the kernel at every output sample.
  *
  * Alignment (latency handling): output frame n is the band-limited input at input position
  * p_n (p_0 = 0, p_{n+1} = p_n + 1/ratio(p_n)), so output frame 0 lines up with input frame 0 and
@@ -166,6 +173,8 @@ export class Resampler {
 
   readonly #constant: number | null;
   readonly #varying: TimeVaryingRatio | null;
+  /** Time-varying ratio rendered with one kernel (see the constructor). */
+  readonly #fixedKernel: boolean = false;
   /** Half-length in input samples of the largest kernel used. */
   readonly #kMax: number;
   readonly #segments: number;
@@ -226,7 +235,12 @@ export class Resampler {
       checkRatio(options.ratio.minRatio, 'minRatio');
       this.#constant = null;
       this.#varying = options.ratio;
-      sConst = 1;
+      const { minRatio, maxRatio } = options.ratio;
+      // A curve that stays within 5 % (drift, slow wow) uses one kernel designed for its lowest
+      // ratio: no aliasing anywhere, passband edge at 0.45 × the slowest point's rate, and the fast
+      // fixed-kernel loops. Wider curves rescale the kernel at every output sample (exact, slower).
+      this.#fixedKernel = maxRatio !== undefined && maxRatio / minRatio <= 1.05;
+      sConst = this.#fixedKernel ? Math.min(1, minRatio) : 1;
     }
     const sMin = this.#varying ? Math.min(1, this.#varying.minRatio) : sConst;
     this.#kMax = Math.ceil(d.halfWidth / sMin) + 1;
@@ -302,7 +316,7 @@ export class Resampler {
     }
 
     // Symmetric table for time-varying ratios below 1.
-    if (this.#varying && this.#varying.minRatio < 1) {
+    if (this.#varying && !this.#fixedKernel && this.#varying.minRatio < 1) {
       const segs = Math.ceil(d.halfWidth * L) + 1;
       const t = new Float64Array(segs * 4 + 8);
       const vals = new Float64Array(3 * segs + 1);
@@ -472,10 +486,11 @@ export class Resampler {
       }
       this.#base = base;
       this.#phase = phase;
-    } else if (this.#constant !== null) {
+    } else if (this.#constant !== null || this.#fixedKernel) {
       const T = this.#uniTaps, Ku = this.#uniK;
       let base = this.#base, frac = this.#frac;
       const si = this.#stepInt, sf = this.#stepFrac;
+      const v = this.#varying;
       const fused = this.#simd && this.channelCount === 2 ? this.#simd : null;
       const L = this.#segments;
       while (base + K <= lastIndex && base + frac < limit) {
@@ -493,10 +508,21 @@ export class Resampler {
           this.#uniformCoefficients(frac);
           this.#apply(this.#coef, 0, this.#coefAt, T, start, out, acc.count++);
         }
-        frac += sf;
-        const carry = Math.floor(frac);
-        frac -= carry;
-        base += si + carry;
+        if (v) {
+          const r = v.ratioAt(base + frac);
+          if (!(r >= v.minRatio * (1 - 1e-9) && r <= (v.maxRatio ?? MAX_RATIO) * (1 + 1e-9))) {
+            throw new ParameterError(`ratio ${r} at input frame ${base + frac} is outside the declared range`);
+          }
+          frac += 1 / r;
+          const carry = Math.floor(frac);
+          frac -= carry;
+          base += carry;
+        } else {
+          frac += sf;
+          const carry = Math.floor(frac);
+          frac -= carry;
+          base += si + carry;
+        }
       }
       this.#base = base;
       this.#frac = frac;
