@@ -99,7 +99,7 @@ export const speed: AnalysisOp<SpeedResult> = {
         op: 'speed',
         title: `Played ${pct(r.factor).toFixed(2)} % ${dir}`,
         sentence:
-          `The recording plays ${pct(r.factor).toFixed(2)} % ${dir} (factor ${r.factor.toFixed(4)}, ${r.cents >= 0 ? '+' : ''}${r.cents.toFixed(1)} cents, ±${u.toFixed(3)} %), measured from ${how}; ` +
+          `The recording plays ${pct(r.factor).toFixed(2)} % ${dir} (factor ${r.factor.toFixed(4)}, ${r.cents >= 0 ? '+' : ''}${r.cents.toFixed(1)} cents, ±${u.toPrecision(2)} %), measured from ${how}; ` +
           `everything sounds ${dir === 'fast' ? 'higher and shorter' : 'lower and longer'} than it was recorded.${pair}`,
         value: r.factor,
         unit: '×',

@@ -65,11 +65,11 @@ const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
 
 /**
  * Evidence (0–1) that a measured series is mains hum: it must stand clearly above noise (coherent
- * harmonic-sum statistic: 4 dB is what noise alone reaches somewhere in the search, 10 dB is a clear
- * line) and be there all the time (steadiness: music partials come and go).
+ * harmonic-sum statistic: from 1 dB above what noise alone reaches in the search, to 6 dB above it)
+ * and be there all the time (steadiness: music partials come and go).
  */
 function humEvidence(m: HumMeasurement): number {
-  const detection = clamp01((m.detectionDb - 4) / 6);
+  const detection = clamp01((m.detectionDb - m.noiseDetectionDb - 1) / 5);
   const steady = clamp01((m.steadiness - 0.6) / 0.3);
   return detection * steady;
 }
@@ -288,6 +288,20 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
       if (Math.abs(d) <= 5) c.confidence = 1 - (1 - c.confidence) * (1 - tuningCand.confidence / 2);
     }
   }
+
+  // Hum and tone are independent evidence: when a hum reading and a tone reading agree (within
+  // three combined standard uncertainties, or 0.02 %), each corroborates the other.
+  const before = candidates.map((c) => c.confidence);
+  candidates.forEach((c) => {
+    if (c.method === 'tuning') return;
+    for (const [j, o] of candidates.entries()) {
+      if (o.method === 'tuning' || o.method === c.method) continue;
+      const u = Math.hypot(c.uncertaintyPercent ?? 0, o.uncertaintyPercent ?? 0);
+      if (Math.abs(c.factor / o.factor - 1) * 100 <= Math.max(3 * u, 0.02)) {
+        c.confidence = 1 - (1 - c.confidence) * (1 - before[j]! / 2);
+      }
+    }
+  });
 
   // Choose: the most confident candidate; a method forced by --mains / --tone wins when credible.
   const ranked = [...candidates].sort(

@@ -50,6 +50,12 @@ export interface SeriesMeasurement {
   fundamentalsHz: number[];
   /** Coherent detection statistic ÷ its noise-only expectation, in dB (0 dB = noise). */
   detectionDb: number;
+  /**
+   * What noise alone typically reaches for detectionDb after searching this many cells and keeping
+   * this many harmonics: 10·log10(1 + ln(cells)/H) (the largest of `cells` exponential variables is
+   * about ln(cells) above its mean, shared among H harmonics).
+   */
+  noiseDetectionDb: number;
   /** Coherent SNR of each harmonic over the whole track (dB; ≈0 dB or below = noise only). */
   harmonicSnrDb: number[];
   /** Median ÷ mean of the windows' harmonic-sum statistic: ≈1 for a steady line, ≪1 for bursts. */
@@ -122,7 +128,7 @@ function segmentDft(
   return out;
 }
 
-export function measureSeries(set: TrackSet, layout: TrackLayout): SeriesMeasurement | null {
+export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: number): SeriesMeasurement | null {
   const fb = layout.trackRateHz;
   const H = set.harmonics.length;
   const n = set.tracks[0]!.length;
@@ -173,9 +179,11 @@ export function measureSeries(set: TrackSet, layout: TrackLayout): SeriesMeasure
     }
     return v;
   };
-
   // Offsets δ (Hz of f₀) searched: ±min(1.5 % of f₀, what the tracks pass at the top harmonic).
   const span = Math.min(0.015 * f0c, (0.3 * fb) / hMax);
+  // Independent cells the search looked at (sets how high noise alone can reach), counted on the
+  // first call, before harmonics were dropped.
+  const cells = searchCells ?? Math.max(1, 2 * span * T * hMax * H);
   /**
    * Robust harmonic-sum rows on a grid: Σ_h log(1 + SNR_h(δ)) with SNR_h = |Z_h(h·δ)|²/(σ_h²·Q),
    * |Z_h|² read from a zero-padded FFT. The log keeps one strong passing partial (music near a
@@ -293,7 +301,9 @@ export function measureSeries(set: TrackSet, layout: TrackLayout): SeriesMeasure
     // Overlapping windows are correlated: inflate the slope's standard error by √(winLen/hop).
     const se = (scatter / Math.sqrt(sxx)) * Math.sqrt(winLen / hop);
     const dur = times[W - 1]! - times[0]!;
-    drifting = Math.abs(slope) > 4 * se && Math.abs(slope * dur) > 0.25 / (T * hMax);
+    // Significant against the scatter, and large enough to matter: more than 0.02 % of f₀ over
+    // the file (smaller drifts change the mean by less than the coherent estimate's own error).
+    drifting = Math.abs(slope) > 4 * se && Math.abs(slope * dur) > Math.max(0.25 / (T * hMax), 2e-4 * f0c);
   }
   if (drifting) dCoherent = curveMean - f0c;
   const coherentAt = drifting ? curveMean - f0c : dCoherent;
@@ -325,15 +335,38 @@ export function measureSeries(set: TrackSet, layout: TrackLayout): SeriesMeasure
       }
       const m = est.reduce((a, b) => a + b, 0) / nseg;
       const sd = Math.sqrt(est.reduce((a, b) => a + (b - m) ** 2, 0) / (nseg - 1));
-      // Standard error of the mean of the segment estimates: conservative (a steady line in white
-      // noise would do better, as n^{-3/2}), but honest when music partials perturb the line.
-      uncertainty = sd / nseg;
+      // Standard error of the mean of the segment estimates: conservative (for a steady line in
+      // white noise the whole-file estimate does better, as n^{-3/2}), but honest when music
+      // partials sweeping through the hum perturb it segment by segment.
+      uncertainty = sd / Math.sqrt(nseg);
     } else {
       uncertainty = scatter / Math.sqrt(independent);
     }
   }
-  // Keep only the harmonics that are really there (coherent SNR ≥ 3 dB) and measure again.
-  const keep = harmonicSnrDb.map((v, j) => (v >= 3 ? j : -1)).filter((j) => j >= 0);
+  // Each harmonic on its own must tell the same story: the weighted spread of the per-harmonic
+  // estimates (weights h²·SNR) bounds the uncertainty from below when interference hits some
+  // harmonics and not others.
+  if (!drifting && H >= 2) {
+    const est: number[] = [], wts: number[] = [];
+    for (let j = 0; j < H; j++) {
+      const h = set.harmonics[j]!, t = set.tracks[j]!;
+      const lobeH = 1 / (T * h);
+      const one = (d: number) => {
+        const [ar, ai] = segmentDft(t.re, t.im, first, all, fb, h * d, dft);
+        return ar * ar + ai * ai;
+      };
+      est.push(goldenMax(one, dCoherent - lobeH / 2, dCoherent + lobeH / 2, 30));
+      wts.push(h * h * Math.pow(10, harmonicSnrDb[j]! / 10));
+    }
+    const wsum = wts.reduce((a, b) => a + b, 0);
+    const m = est.reduce((a, v, j) => a + wts[j]! * v, 0) / wsum;
+    const spread = Math.sqrt(est.reduce((a, v, j) => a + wts[j]! * (v - m) ** 2, 0) / wsum / (H - 1));
+    uncertainty = Math.max(uncertainty, spread);
+  }
+  // Floor: below 0.1 ppm the statistics only say "identical segments" (exactly periodic test data).
+  uncertainty = Math.max(uncertainty, 1e-7 * f0c);
+  // Keep only the harmonics that are clearly there (coherent SNR ≥ 6 dB) and measure again.
+  const keep = harmonicSnrDb.map((v, j) => (v >= 6 ? j : -1)).filter((j) => j >= 0);
   if (keep.length > 0 && keep.length < H) {
     const again = measureSeries(
       {
@@ -343,6 +376,7 @@ export function measureSeries(set: TrackSet, layout: TrackLayout): SeriesMeasure
         tracks: keep.map((j) => set.tracks[j]!),
       },
       layout,
+      cells,
     );
     if (again) return again;
   }
@@ -354,6 +388,7 @@ export function measureSeries(set: TrackSet, layout: TrackLayout): SeriesMeasure
     timesSeconds: curveReliable ? times : [],
     fundamentalsHz: curveReliable ? smoothLinear(times, f0s, 2) : [],
     detectionDb,
+    noiseDetectionDb: 10 * Math.log10(1 + Math.log(cells) / H),
     harmonicSnrDb,
     steadiness,
     drifting,
