@@ -78,6 +78,20 @@ describe('speed from a reference tone', () => {
   }
 });
 
+describe('speed from a tone at the tail of a long file', () => {
+  it('finds a 1 kHz tone in the last minute of a 150 s transfer (only the head and tail are scanned)', async () => {
+    const fs = 8000, n = 150 * fs, a = 0.9871;
+    const x = programme(n, fs, a, 8);
+    for (let i = 140 * fs; i < 146 * fs; i++) x[i] = 0.3 * Math.sin((2 * Math.PI * 1000 * a * i) / fs);
+    const r = await runSpeed([x], fs, { toneHz: 1000 });
+    expect(r.method).toBe('tone');
+    expect(Math.abs((r.factor / a - 1) * 100)).toBeLessThan(0.005);
+    // The curve covers the tone, 140–146 s.
+    expect(r.curve.timesSeconds[0]!).toBeGreaterThan(139);
+    expect(r.curve.timesSeconds.at(-1)!).toBeLessThan(147);
+  });
+});
+
 describe('speed from musical tuning', () => {
   // A harmonic melody in equal temperament tuned off by c cents (A4 = 440·2^(c/1200), ISO 16):
   // the tuning reads c within ±3 cents; the factor is only known modulo a semitone.
