@@ -152,8 +152,12 @@ export function exactFraction(x: number, maxDen: number): [number, number] | nul
   return null;
 }
 
-/** Upper bound on the bank size (coefficients) for the exact-phase polyphase path. */
-const MAX_BANK = 1 << 17;
+/**
+ * Upper bound on the bank size (coefficients = phases × taps) for the exact-phase polyphase path; a
+ * constant ratio num/den uses the bank when den × taps fits, else the Farrow path (same result).
+ */
+export const MAX_BANK_COEFFICIENTS = 1 << 17;
+const MAX_BANK = MAX_BANK_COEFFICIENTS;
 /** Input frames handled per emission step (bounds the history buffer). */
 const CHUNK = 8192;
 
@@ -245,7 +249,9 @@ export class Resampler {
     const sMin = this.#varying ? Math.min(1, this.#varying.minRatio) : sConst;
     this.#kMax = Math.ceil(d.halfWidth / sMin) + 1;
     this.lookaheadFrames = this.#kMax;
-    const L = d.segmentsPerSample;
+    // Segments per input sample: the kernel stretched by 1/s is smoother by s, so the same accuracy
+    // per lower-rate sample needs only s·L of them (keeps the table small at large ratios).
+    const L = Math.max(4, Math.ceil(d.segmentsPerSample * sConst));
     this.#segments = L;
     const K = Math.ceil(d.halfWidth / sConst);
     const T = 2 * K;
