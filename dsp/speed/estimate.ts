@@ -10,7 +10,7 @@
  * Choice: the candidate with the highest confidence; when none reaches 0.5 the result says so
  * (method null, factor 1, no pair) instead of guessing.
  */
-import { NotFoundError, ParameterError } from '../errors.ts';
+import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import type { OpContext } from '../ops/types.ts';
 import { HumSearch, HumTracker, humHypotheses, type HumMeasurement } from './hum.ts';
@@ -114,7 +114,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
   if (N < fs) throw new NotFoundError(`too short to measure speed (${(N / fs).toFixed(2)} s; at least 1 s is needed)`);
   const notes: string[] = [];
   const aborted = () => {
-    if (ctx.signal?.aborted) throw new ParameterError('cancelled');
+    if (ctx.signal?.aborted) throw new CancelledError('speed analysis cancelled');
   };
 
   // Pass 1: hum search spectrum, tone frames at head/tail, tuning frames.
