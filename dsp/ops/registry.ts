@@ -4,9 +4,11 @@
  */
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
+import { levels } from './levels.ts';
 
 export const operations: readonly Operation[] = [
   info,
+  levels,
 ];
 
 export function findOperation(name: string): Operation | undefined {
