@@ -5,10 +5,12 @@
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
 import { levels } from './levels.ts';
+import { flutter } from './flutter.ts';
 
 export const operations: readonly Operation[] = [
   info,
   levels,
+  flutter,
 ];
 
 export function findOperation(name: string): Operation | undefined {
