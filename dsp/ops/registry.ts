@@ -4,11 +4,13 @@
  */
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
+import { spectrum } from './spectrum.ts';
 import { levels } from './levels.ts';
 import { flutter } from './flutter.ts';
 
 export const operations: readonly Operation[] = [
   info,
+  spectrum,
   levels,
   flutter,
 ];
