@@ -9,6 +9,7 @@
  * bilinear transform at the demodulator's output rate (≈ 4 kHz; warping at 200 Hz is < 0.1 dB),
  * as four first-order sections, then normalised to exactly 0 dB at 4 Hz in the digital domain.
  */
+import { designBiquad } from '../core/biquad.ts';
 
 export const WEIGHTING_POLE_LOW_HZ = 0.6143;
 export const WEIGHTING_POLE_HIGH_HZ = 11.834;
@@ -95,19 +96,14 @@ export function weightingFilter(fs: number): SectionCascade {
   return f;
 }
 
-/** Second-order Butterworth sections by the bilinear transform with pre-warping (common practice). */
-function butter2(kind: 'low' | 'high', cutoffHz: number, fs: number) {
-  const k = Math.tan((Math.PI * cutoffHz) / fs);
-  const q = Math.SQRT1_2;
-  const norm = 1 / (1 + k / q + k * k);
-  const a: [number, number, number] = [1, 2 * (k * k - 1) * norm, (1 - k / q + k * k) * norm];
-  const b: [number, number, number] =
-    kind === 'low' ? [k * k * norm, 2 * k * k * norm, k * k * norm] : [norm, -2 * norm, norm];
-  return { b, a };
+/** Second-order Butterworth section (RBJ design with Q = 1/√2, dsp/core/biquad.ts) as b/a arrays. */
+function butter2(kind: 'lowpass' | 'highpass', cutoffHz: number, fs: number) {
+  const c = designBiquad({ kind, frequencyHz: cutoffHz, sampleRateHz: fs, q: Math.SQRT1_2 });
+  return { b: [c.b0, c.b1, c.b2] as [number, number, number], a: [1, c.a1, c.a2] as [number, number, number] };
 }
 
 /** Flat measuring band for unweighted figures: 0.5–200 Hz, second-order Butterworth on each side. */
 export const UNWEIGHTED_BAND_HZ = [0.5, 200] as const;
 export function unweightedFilter(fs: number): SectionCascade {
-  return new SectionCascade([], [butter2('high', UNWEIGHTED_BAND_HZ[0], fs), butter2('low', Math.min(UNWEIGHTED_BAND_HZ[1], 0.45 * fs), fs)], 1);
+  return new SectionCascade([], [butter2('highpass', UNWEIGHTED_BAND_HZ[0], fs), butter2('lowpass', Math.min(UNWEIGHTED_BAND_HZ[1], 0.45 * fs), fs)], 1);
 }
