@@ -7,12 +7,16 @@ import { info } from './info.ts';
 import { spectrum } from './spectrum.ts';
 import { levels } from './levels.ts';
 import { flutter } from './flutter.ts';
+import { azimuth } from './azimuth.ts';
+import { align } from './align.ts';
 
 export const operations: readonly Operation[] = [
   info,
   spectrum,
   levels,
   flutter,
+  azimuth,
+  align,
 ];
 
 export function findOperation(name: string): Operation | undefined {
