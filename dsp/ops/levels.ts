@@ -2,7 +2,8 @@
  * `levels`: sample peak, true peak (4× oversampling, ITU-R BS.1770-4 Annex 2), RMS, DC offset,
  * clipped samples and runs, integrated loudness (BS.1770-4 K-weighting and gating) with momentary
  * and short-term maxima and the loudness range (EBU Tech 3342), dropouts, silence at head and
- * tail, and the effective bandwidth. Methods: dsp/levels/.
+ * tail, and the effective bandwidth (in the numbers only: the `spectrum` analysis words the
+ * bandwidth finding). Methods: dsp/levels/.
  */
 import type { AnalysisOp, Finding } from './types.ts';
 import { num } from './params.ts';
@@ -95,10 +96,6 @@ export const levels: AnalysisOp<LevelsResult> = {
         sentence: `The file starts with ${r.silence.headSeconds.toFixed(1)} s and ends with ${r.silence.tailSeconds.toFixed(1)} s below ${r.silence.thresholdDbfs} dBFS.`,
       });
     }
-    out.push({
-      op, title: `Content up to ${(r.bandwidthHz / 1000).toFixed(1)} kHz`, severity: 'info', value: r.bandwidthHz, unit: 'Hz',
-      sentence: `The long-term spectrum stays above its floor up to ${(r.bandwidthHz / 1000).toFixed(1)} kHz (effective bandwidth of the recording and the transfer chain).`,
-    });
     return out;
   },
 };
