@@ -1,10 +1,12 @@
 /**
- * Finds the test-tone segment of a recording: short probes (≈43 ms, Hann) spaced ≈0.1 s apart
- * (further apart in long files, at most 20 000 probes) are tested for one dominant spectral line
+ * Finds the test-tone segment of a recording: short probes (≈21–43 ms, Hann) of the channels'
+ * average, spaced ≈0.1 s apart (further apart in long files, at most 8000 probes), are tested for
+ * one dominant spectral line
  * near the nominal tone (within ±20 %, so an off-speed transfer is still found): at least 80 % of
  * the probe's power within ±3 bins of the strongest bin, and louder than −50 dBFS. The longest run
  * of consecutive tonal probes at a steady frequency (±1 % probe to probe) is the segment; its ends
- * are trimmed by 0.25 s to skip the tone's start and stop.
+ * are trimmed by 0.25 s to skip the tone's start and stop. The channel to demodulate is the one
+ * with the stronger tone in the middle of the segment.
  */
 import type { AudioSource } from '../source.ts';
 import type { OpContext } from '../ops/types.ts';
@@ -33,7 +35,7 @@ export interface LocateOptions {
 
 const TONAL_FRACTION = 0.8;
 const MIN_LEVEL_DBFS = -50;
-const MAX_PROBES = 20000;
+const MAX_PROBES = 8000;
 const TRIM_SECONDS = 0.25;
 
 export async function locateTone(source: AudioSource, toneHz: number, options: LocateOptions, ctx: OpContext): Promise<ToneSegment> {
@@ -42,7 +44,7 @@ export async function locateTone(source: AudioSource, toneHz: number, options: L
   const minSeconds = options.minSeconds ?? 1;
   const maxSeconds = options.maxSeconds ?? 300;
   let n = 512;
-  while (n < 0.04 * fs) n *= 2;
+  while (n < 0.02 * fs) n *= 2;
   if (source.frames < n) throw new NotFoundError(`the file is too short to hold a ${toneHz} Hz test tone`);
   const hop = Math.max(Math.round(0.1 * fs), Math.ceil(source.frames / MAX_PROBES));
   const plan = new FftPlan(n);
@@ -55,41 +57,49 @@ export async function locateTone(source: AudioSource, toneHz: number, options: L
   const kHi = Math.min(n / 2 - 4, Math.ceil(((toneHz * (1 + search)) * n) / fs));
   if (kHi <= kLo) throw new NotFoundError(`a ${toneHz} Hz tone cannot be carried at ${fs} Hz`);
 
-  interface Probe { start: number; hz: number; channel: number; levelDbfs: number }
+  interface Probe { start: number; hz: number; levelDbfs: number }
+  /** Tone in one frame of samples: frequency and level, or null when the frame is not tonal. */
+  const analyse = (x: Float64Array): Probe | null => {
+    for (let i = 0; i < n; i++) frame[i] = x[i]! * win[i]!;
+    plan.realForward(frame, spec);
+    let total = 0, kp = kLo, pk = -1;
+    for (let k = 1; k <= n / 2; k++) {
+      const pw = spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2;
+      total += pw;
+      if (k >= kLo && k <= kHi && pw > pk) { pk = pw; kp = k; }
+    }
+    let tone = 0;
+    for (let k = kp - 3; k <= kp + 3; k++) tone += spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2;
+    const levelDbfs = 10 * Math.log10(Math.max((4 * tone) / (n * sw2), 1e-30));
+    if (!(total > 0 && tone / total >= TONAL_FRACTION && levelDbfs > MIN_LEVEL_DBFS)) return null;
+    // Parabolic interpolation of the log magnitude around the peak bin.
+    const lm = (k: number) => 0.5 * Math.log(spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + 1e-300);
+    const a = lm(kp - 1), b = lm(kp), g = lm(kp + 1);
+    const den = a - 2 * b + g;
+    const delta = den < 0 ? (0.5 * (a - g)) / den : 0;
+    return { start: 0, hz: ((kp + delta) * fs) / n, levelDbfs };
+  };
+  const read = async (start: number): Promise<Float64Array[]> => {
+    const out = Array.from({ length: source.channelCount }, () => new Float64Array(n));
+    let at = 0;
+    for await (const block of source.blocks({ startFrame: start, endFrame: start + n, blockFrames: n })) {
+      block.forEach((c, i) => out[i]!.set(c, at));
+      at += block[0]!.length;
+    }
+    return out;
+  };
+
   const hits: (Probe | null)[] = [];
   const probes = Math.floor((source.frames - n) / hop) + 1;
+  const mix = new Float64Array(n);
   for (let p = 0; p < probes; p++) {
     if (ctx.signal?.aborted) throw new CancelledError('flutter cancelled');
     const start = p * hop;
-    let best: Probe | null = null;
-    let bestPower = 0;
-    for await (const block of source.blocks({ startFrame: start, endFrame: start + n, blockFrames: n })) {
-      for (let c = 0; c < block.length; c++) {
-        const x = block[c]!;
-        for (let i = 0; i < n; i++) frame[i] = x[i]! * win[i]!;
-        plan.realForward(frame, spec);
-        let total = 0, kp = kLo, pk = -1;
-        for (let k = 1; k <= n / 2; k++) {
-          const pw = spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2;
-          total += pw;
-          if (k >= kLo && k <= kHi && pw > pk) { pk = pw; kp = k; }
-        }
-        let tone = 0;
-        for (let k = kp - 3; k <= kp + 3; k++) tone += spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2;
-        const amp2 = (4 * tone) / (n * sw2);
-        const levelDbfs = 10 * Math.log10(Math.max(amp2, 1e-30));
-        if (total > 0 && tone / total >= TONAL_FRACTION && levelDbfs > MIN_LEVEL_DBFS && tone > bestPower) {
-          // Parabolic interpolation of the log magnitude around the peak bin.
-          const lm = (k: number) => 0.5 * Math.log(spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + 1e-300);
-          const a = lm(kp - 1), b = lm(kp), g = lm(kp + 1);
-          const den = a - 2 * b + g;
-          const delta = den < 0 ? (0.5 * (a - g)) / den : 0;
-          bestPower = tone;
-          best = { start, hz: ((kp + delta) * fs) / n, channel: c, levelDbfs };
-        }
-      }
-    }
-    hits.push(best);
+    const chans = await read(start);
+    mix.fill(0);
+    for (const c of chans) for (let i = 0; i < n; i++) mix[i]! += c[i]! / chans.length;
+    const hit = analyse(mix);
+    hits.push(hit && { ...hit, start });
     ctx.progress((0.5 * (p + 1)) / probes);
   }
 
@@ -117,9 +127,16 @@ export async function locateTone(source: AudioSource, toneHz: number, options: L
   }
   endFrame = Math.min(endFrame, startFrame + Math.round(maxSeconds * fs));
   const freqs = run.map((h) => h.hz).sort((a, b) => a - b);
-  const channelVotes = new Map<number, number>();
-  for (const h of run) channelVotes.set(h.channel, (channelVotes.get(h.channel) ?? 0) + 1);
-  const channel = [...channelVotes.entries()].sort((a, b) => b[1] - a[1])[0]![0];
+  // Demodulate the channel where the tone is strongest, judged in the middle of the segment.
+  const middle = await read(Math.max(0, Math.floor((startFrame + endFrame - n) / 2)));
+  let channel = 0, best = -Infinity;
+  middle.forEach((x, c) => {
+    const h = analyse(x);
+    if (h && h.levelDbfs > best) {
+      best = h.levelDbfs;
+      channel = c;
+    }
+  });
   const levels = run.map((h) => h.levelDbfs).sort((a, b) => a - b);
   return {
     startFrame,
