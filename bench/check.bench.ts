@@ -1,7 +1,9 @@
 /**
  * `reelwright check` on one long 96 kHz 24-bit stereo file: wall time and peak memory of the whole
- * command (one worker thread, pinned to one core when `taskset` exists), plus the time of each
- * analysis run on its own. Target (issue): 1 hour in ≤ 90 s with peak RSS ≤ 400 MB.
+ * command (one worker thread, pinned to one core when `taskset` exists) — wall and CPU time, since
+ * on a shared machine the wall time mostly measures the other work — plus the time of each analysis
+ * run on its own (each includes its own decoding pass; inside `check` they share one).
+ * Target (issue): 1 hour in ≤ 90 s with peak RSS ≤ 400 MB.
  *
  * The file is generated here in a temp folder and removed afterwards: 1 hour with REELWRIGHT_BIG=1,
  * otherwise 5 minutes, with the hour extrapolated (time × 12; memory is not extrapolated — the
@@ -93,10 +95,14 @@ export default async function run(): Promise<void> {
     const res = JSON.parse(r.stdout.trim().split('\n').pop()!) as { code: number; seconds: number; cpuSeconds: number; maxRssKb: number };
     const label = pin ? 'one core (taskset -c 0), --jobs 1' : '--jobs 1 (taskset not available)';
     line('check', `check ${seconds / 60} min file, ${label}`, `${fmt(res.seconds, 1)} s`, `CPU ${fmt(res.cpuSeconds, 1)} s, peak RSS ${fmt(res.maxRssKb / 1024, 0)} MB, exit ${res.code}`);
+    const load = os.loadavg()[0]!;
+    const verdict = (v: number, limit: number) => (v <= limit ? 'met' : 'NOT met');
     if (big) {
-      line('check', '1 hour: target ≤ 90 s, ≤ 400 MB', res.seconds <= 90 && res.maxRssKb / 1024 <= 400 ? 'MET' : 'NOT MET');
+      line('check', '1 hour, target ≤ 90 s on one core: CPU time', `${fmt(res.cpuSeconds, 1)} s`, verdict(res.cpuSeconds, 90));
+      line('check', '1 hour, target ≤ 90 s on one core: wall time', `${fmt(res.seconds, 1)} s`, `${verdict(res.seconds, 90)} (load average ${fmt(load, 1)} on ${os.cpus().length} cores while measuring)`);
+      line('check', '1 hour, target peak RSS ≤ 400 MB', `${fmt(res.maxRssKb / 1024, 0)} MB`, verdict(res.maxRssKb / 1024, 400));
     } else {
-      line('check', '1 hour EXTRAPOLATED (× 12 from 5 min; REELWRIGHT_BIG=1 measures it)', `${fmt(res.seconds * scale, 0)} s`, `CPU ${fmt(res.cpuSeconds * scale, 0)} s; target ≤ 90 s. Over-estimates: the test tone, and the capped sparse frames of azimuth, flutter and the levels spectrum, do not grow with length`);
+      line('check', '1 hour EXTRAPOLATED (× 12 from 5 min; REELWRIGHT_BIG=1 measures it)', `${fmt(res.seconds * scale, 0)} s`, `CPU ${fmt(res.cpuSeconds * scale, 0)} s; target ≤ 90 s. Over-estimates: the test tone, and the capped sparse frames of azimuth, flutter and the levels spectrum, do not grow with length (load average ${fmt(load, 1)})`);
     }
 
     // Each analysis on its own (in this process), for the breakdown.

@@ -237,7 +237,18 @@ export function collectAudioFiles(paths: readonly string[]): string[] {
     if (st.isDirectory()) walk(p);
     else found.add(p); // named explicitly: checked whatever its extension
   }
-  return [...found].sort();
+  // The same file named twice (a folder and a file inside it, or two spellings of a path) is checked once.
+  const byReal = new Map<string, string>();
+  for (const f of [...found].sort()) {
+    let key = path.resolve(f);
+    try {
+      key = fs.realpathSync(f);
+    } catch {
+      /* keep the resolved path */
+    }
+    if (!byReal.has(key)) byReal.set(key, f);
+  }
+  return [...byReal.values()];
 }
 
 function fileSize(p: string): number {

@@ -8,7 +8,7 @@ import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { runCheck } from '../../main/check/index.ts';
+import { collectAudioFiles, runCheck } from '../../main/check/index.ts';
 import type { CheckReport } from '../../main/check/report.ts';
 import { writeAudio } from '../../main/io/writer.ts';
 import { analyses } from '../../dsp/ops/registry.ts';
@@ -154,6 +154,13 @@ describe('reelwright check over a folder', () => {
     expect(r.files.filter((f) => f.status === 'fail').map((f) => [f.file.path, f.reasons])).toEqual([]);
     expect(code).toBe(0);
   }, 120_000);
+
+  it('lists audio files once each, skipping hidden, AppleDouble and non-audio files', () => {
+    const files = collectAudioFiles([dir, path.join(dir, 'reel-01', 'side-a.wav'), dir + path.sep + '.']);
+    expect(files.map((f) => path.relative(dir, path.resolve(f))).sort()).toEqual([
+      'reel-01/side-a.wav', 'reel-01/side-b.wav', 'reel-02/broken.wav', 'reel-02/clipped.wav', 'reel-03/mono.wav',
+    ]);
+  });
 
   it('says so when there is nothing to check (exit 2)', async () => {
     const empty = fs.mkdtempSync(path.join(os.tmpdir(), 'reelwright-empty-'));
