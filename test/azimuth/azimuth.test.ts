@@ -1,5 +1,6 @@
 /**
- * Azimuth (inter-channel delay) and align. Test programme: 2^20 samples (10.9 s) at 96 kHz of
+ * Azimuth (inter-channel delay) and align. Test programme: 2^20 samples (10.9 s; 2^18 where the
+ * issue's accuracy is not what is tested) at 96 kHz of
  * Gaussian noise shaped like programme material (−3 dB/octave above 200 Hz, band 40 Hz–18 kHz),
  * made in the frequency domain; channel 2 is the same spectrum times e^{−j2πfτ}, which by the DFT
  * shift theorem (REFERENCES.md §10) is channel 1 delayed by exactly τ (circularly, any fraction of
@@ -19,7 +20,7 @@ import { seededRng, gaussian } from '../helpers/rng.ts';
 const FS = 96000;
 const N = 1 << 20;
 
-function programme(delaySeconds: number, seed: number): Float64Array[] {
+function programme(delaySeconds: number, seed: number, N = 1 << 20): Float64Array[] {
   const g = gaussian(seededRng(seed));
   const plan = new FftPlan(N);
   const x = Float64Array.from({ length: N }, () => g());
@@ -80,7 +81,7 @@ describe('azimuth: delay between channels', () => {
   });
 
   it('reads a negative delay when channel 1 lags, and obeys --delay', async () => {
-    const ch = programme(-20e-6, 7);
+    const ch = programme(-20e-6, 7, 1 << 18); // 2.7 s is plenty here
     const r = await measure(ch);
     expect(Math.abs(r.delaySeconds * 1e6 + 20)).toBeLessThan(0.5);
     const f = azimuth.findings!(r, { sampleRateHz: FS, channelCount: 2, frames: N });
@@ -138,7 +139,7 @@ describe('azimuth: angle and mono null', () => {
   });
 
   it('reports the angle only when tape speed and track spacing are both given', async () => {
-    const ch = programme(37.6e-6, 11);
+    const ch = programme(37.6e-6, 11, 1 << 18);
     const none = await measure(ch, { tapeSpeedIps: 7.5 });
     expect(none.azimuthArcMinutes).toBeNull();
     const r = await measure(ch, { tapeSpeedIps: 7.5, trackSpacingMm: 4.1 });
