@@ -58,10 +58,13 @@ export async function checkFile(job: CheckJob, open: Opener, onProgress: (fracti
     const warnings: string[] = [];
     const result = await diagnoseTogether(file, job.params, (f) => onProgress(MD5_SHARE + (1 - MD5_SHARE) * f), (m) => warnings.push(m), signal);
     info = { ...info, ...file.info, audioMd5: info.audioMd5 };
+    // Float files may hold NaN/Inf samples; the reader counts them (they are read as 0).
+    const nonFinite = file.nonFiniteSamples ?? 0;
     return {
       kind: 'entry',
       entry: {
         file: info,
+        ...(nonFinite > 0 ? { nonFiniteSamples: nonFinite } : {}),
         ...result.sections,
         findings: result.findings,
         notes: [...result.notes, ...warnings.map((w) => ({ op: w.split(':')[0] ?? '', reason: w }))],

@@ -41,6 +41,7 @@ export const COLUMNS: Column[] = [
   { header: 'sampleFormat', get: (e) => e.file.sampleFormat },
   { header: 'durationSeconds', get: (e) => round(e.file.durationSeconds, 3) },
   { header: 'audioMd5', get: (e) => e.file.audioMd5 },
+  { header: 'nonFiniteSamples', get: (e) => (e.error === undefined ? num(e.nonFiniteSamples) ?? 0 : undefined) },
   { header: 'loudnessLufs', get: (e) => round(num(obj(e.levels)?.loudnessLufs), 2) },
   { header: 'truePeakDbtp', get: (e) => round(num(obj(e.levels)?.truePeakDbtp), 2) },
   { header: 'loudnessRangeLu', get: (e) => round(num(obj(e.levels)?.loudnessRangeLu), 1) },

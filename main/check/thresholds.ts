@@ -42,6 +42,7 @@ const arr = (v: unknown): unknown[] | undefined => (Array.isArray(v) ? v : undef
 
 export const METRICS: Record<string, Metric> = {
   'file.unreadable': { label: 'unreadable file', unit: '', digits: 0, get: (s) => (s.error !== undefined ? 1 : 0) },
+  'file.nonFiniteSamples': { label: 'NaN or infinite samples', unit: '', digits: 0, get: (s) => (s.error !== undefined ? undefined : numOf(s.nonFiniteSamples) ?? 0) },
   'file.sampleRateHz': { label: 'sample rate', unit: 'Hz', digits: 0, get: (s) => numOf(obj(s.file)?.sampleRateHz) },
   'file.bitsPerSample': { label: 'word length', unit: 'bits', digits: 0, get: (s) => numOf(obj(s.file)?.bitsPerSample) },
   'levels.clippedRuns': {

@@ -76,6 +76,10 @@ describe('check thresholds', () => {
     expect(judge(e, t).reasons.some((r) => r.includes('speed'))).toBe(false);
   });
 
+  it('fails a float file holding NaN or infinite samples', () => {
+    expect(judge(entry({ nonFiniteSamples: 3 }), t)).toEqual({ status: 'fail', reasons: ['fail: NaN or infinite samples 3 ≥ 1'] });
+  });
+
   it('fails unreadable files with the reason', () => {
     expect(judge({ file: { path: 'x.wav' }, findings: [], notes: [], seconds: 0, error: 'truncated data chunk' }, t)).toEqual({
       status: 'fail',
