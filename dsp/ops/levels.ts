@@ -74,12 +74,6 @@ export const levels: AnalysisOp<LevelsResult> = {
           sentence: `Channel ${ch.channel} sits at full scale for runs of several samples ${ch.clippedRunCount} times (${ch.clippedSamples} samples in all): the transfer level was too high; redo it with less gain.`,
         });
       }
-      if (Math.abs(ch.dcOffset) > 0.001) {
-        out.push({
-          op, title: `Channel ${ch.channel}: DC offset ${(ch.dcOffset * 100).toFixed(2)} %`, severity: 'info', value: ch.dcOffset,
-          sentence: `Channel ${ch.channel} sits off centre by ${(ch.dcOffset * 100).toFixed(2)} % of full scale, a DC offset from the converter or the playback chain.`,
-        });
-      }
     }
     if (r.dropouts.length > 0) {
       const d = r.dropouts[0]!;
