@@ -72,10 +72,11 @@ export const METRICS: Record<string, Metric> = {
   'levels.dropouts': { label: 'dropouts', unit: '', digits: 0, get: (s) => arr(obj(s.levels)?.dropouts)?.length },
   'levels.headSilenceSeconds': { label: 'silence at the head', unit: 's', digits: 1, get: (s) => silence(s, 'headSeconds') },
   'levels.tailSilenceSeconds': { label: 'silence at the tail', unit: 's', digits: 1, get: (s) => silence(s, 'tailSeconds') },
-  'spectrum.bandwidthHz': {
-    // The spectrum analysis's figure (the one its finding words), else the levels analysis's.
+  'levels.bandwidthHz': {
+    // The levels analysis's figure (its rule finds band edges and reads full-band pink-ish
+    // programme as full band), else the spectrum analysis's.
     label: 'effective bandwidth', unit: 'Hz', digits: 0,
-    get: (s) => (obj(obj(s.levels)?.silence)?.allSilent === true ? undefined : numOf(obj(s.spectrum)?.bandwidthHz) ?? numOf(obj(s.levels)?.bandwidthHz)),
+    get: (s) => (obj(obj(s.levels)?.silence)?.allSilent === true ? undefined : numOf(obj(s.levels)?.bandwidthHz) ?? numOf(obj(s.spectrum)?.bandwidthHz)),
   },
   'flutter.weightedPeakPercent': { label: 'wow and flutter (weighted)', unit: '%', digits: 3, get: (s) => numOf(obj(s.flutter)?.weightedPeakPercent) },
   'flutter.driftPercent': { label: 'speed drift', unit: '%', digits: 2, get: (s) => numOf(obj(s.flutter)?.driftPercent) },

@@ -88,9 +88,9 @@ describe('check thresholds', () => {
   });
 
   it('takes user rules one by one, null switches one off, and refuses unknown names', () => {
-    const m = mergeThresholds(t, { 'levels.loudnessLufs': { warnBelow: -20 }, 'spectrum.bandwidthHz': null }, 'mine.json');
+    const m = mergeThresholds(t, { 'levels.loudnessLufs': { warnBelow: -20 }, 'levels.bandwidthHz': null }, 'mine.json');
     expect(m['levels.loudnessLufs']).toEqual({ warnBelow: -20 });
-    expect(m['spectrum.bandwidthHz']).toBeUndefined();
+    expect(m['levels.bandwidthHz']).toBeUndefined();
     expect(m['levels.clippedRuns']).toEqual(t['levels.clippedRuns']);
     expect(judge(entry(), m).reasons).toEqual(['warn: loudness -24.0 LUFS < -20.0 LUFS']);
     expect(() => mergeThresholds(t, { 'levels.loudnes': { warnAt: 1 } }, 'mine.json')).toThrow(ParameterError);
