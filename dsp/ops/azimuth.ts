@@ -65,7 +65,7 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
     const out: Finding[] = [];
     const d = r.delaySeconds;
     const lagging = d >= 0 ? 'Channel 2 lags channel 1' : 'Channel 1 lags channel 2';
-    const angle = r.azimuthArcMinutes !== null ? ` That is a head azimuth error of ${Math.abs(r.azimuthArcMinutes).toFixed(1)} arc-minutes at ${r.tapeSpeedIps} ips.` : '';
+    const angle = r.azimuthArcMinutes !== null ? ` At ${r.tapeSpeedIps} ips with tracks ${r.trackSpacingMm} mm apart that is ${Math.abs(r.azimuthArcMinutes).toFixed(1)} arc-minutes of azimuth error.` : '';
     if (r.coherence < 0.3) {
       out.push({
         op: 'azimuth', title: 'Channels too different to judge azimuth', severity: 'info', value: Math.round(r.coherence * 100) / 100,
