@@ -42,7 +42,10 @@ interface ExportInProgress {
   bytes: number;
 }
 
-export function createWebBridge(): Bridge {
+/** The web bridge, plus one web-only extra: the picked file itself, for the workers to read directly. */
+export type WebBridge = Bridge & { blobOf(handle: string): Blob | undefined };
+
+export function createWebBridge(): WebBridge {
   const files = new Map<string, { file: File; isDemo: boolean }>();
   const exports = new Map<string, ExportInProgress>();
   const opened = (file: File, isDemo: boolean): OpenedFile => {
@@ -57,6 +60,7 @@ export function createWebBridge(): Bridge {
   };
   return {
     mode: 'web',
+    blobOf: (handle) => files.get(handle)?.file,
     async openDemo() {
       const list = await fetch('demo/').then((r) => (r.ok ? (r.json() as Promise<string[]>) : []), () => []);
       const name = list.find((n) => n.toLowerCase().endsWith('.wav'));

@@ -7,7 +7,7 @@ import type { Bridge, OpenedFile } from '../../../main/bridge/contract.ts';
 import { findOperation, corrections } from '../../../dsp/ops/registry.ts';
 import type { Finding, ParamValues } from '../../../dsp/ops/types.ts';
 import { Engine, JobError, type Task } from '../lib/engine.ts';
-import type { PeakPyramid } from '../lib/peaks.ts';
+import { BASE_BUCKET_FRAMES, pyramidFromParts, type PeakPyramid } from '../lib/peaks.ts';
 import { parseSession, sessionText } from '../lib/session-file.ts';
 import type { DiagnoseEntry, ExportFormat, OpenResult, PreviewResult, Remeasure, SpectrumPair } from '../worker/protocol.ts';
 import { Player } from './player.svelte.ts';
@@ -39,8 +39,8 @@ export class Editor {
   compareOpen = $state(false);
   /** Timing of the last overview (ms), shown in the status line and read by the browser test. */
   overviewMs = $state<number | null>(null);
-  view: Engine | null = null;
-  work: Engine | null = null;
+  view = $state.raw<Engine | null>(null);
+  work = $state.raw<Engine | null>(null);
   #taskId = 0;
   #noteId = 0;
 
@@ -114,16 +114,32 @@ export class Editor {
     this.opened = null; this.peaks = null; this.corrected = null; this.diagnosis = null;
     this.spectra = null; this.remeasures = null; this.checksum = null; this.overviewMs = null;
     this.steps.reset([]);
-    const ref = { handle: f.handle, name: f.name, sizeBytes: f.sizeBytes };
+    const blob = 'blobOf' in this.bridge ? (this.bridge as { blobOf(h: string): Blob | undefined }).blobOf(f.handle) : undefined;
+    const ref = { handle: f.handle, name: f.name, sizeBytes: f.sizeBytes, ...(blob ? { blob } : {}) };
     const [opened] = await Promise.all([this.view.run({ type: 'open', file: ref }).promise, this.work.run({ type: 'open', file: ref }).promise]);
     this.opened = opened;
     this.timeline.reset(opened.layout.frames / opened.layout.sampleRateHz);
     const t0 = performance.now();
     const view = this.view, work = this.work;
-    void this.#track('Overview', (p) => view.run({ type: 'overview' }, { progress: p }))
-      .then((pyr) => { if (this.view === view) { this.peaks = pyr; this.overviewMs = performance.now() - t0; } }, this.#fail('Overview'));
-    void this.#track('Diagnosis', (p) => work.run({ type: 'diagnose' }, { progress: p }))
-      .then((d) => { if (this.work === work) this.diagnosis = d; }, this.#fail('Diagnosis'))
+    // The overview first (it has both cores to itself), then the diagnosis and the checksum.
+    // Both workers build half of the overview each (two cores), joined here.
+    const { frames, sampleRateHz } = opened.layout;
+    const half = Math.ceil(frames / 2 / BASE_BUCKET_FRAMES) * BASE_BUCKET_FRAMES;
+    const parts = frames > 8 * 1024 * 1024
+      ? [{ e: view, s: 0, t: half }, { e: work, s: half, t: frames }]
+      : [{ e: view, s: 0, t: frames }];
+    const overview = this.#track('Overview', (p) => {
+      const fr = parts.map(() => 0);
+      const tasks = parts.map((x, i) => x.e.run({ type: 'overview', startFrame: x.s, endFrame: x.t }, { progress: (f) => { fr[i] = f; p(fr.reduce((a, b) => a + b, 0) / parts.length, ''); } }));
+      return { promise: Promise.all(tasks.map((t) => t.promise)), cancel: () => tasks.forEach((t) => t.cancel()) };
+    }).then((levels) => {
+      if (this.view !== view) return;
+      this.peaks = pyramidFromParts(levels, frames, sampleRateHz);
+      this.overviewMs = performance.now() - t0;
+    }, this.#fail('Overview'));
+    void overview
+      .then(() => (this.work === work ? this.#track('Diagnosis', (p) => work.run({ type: 'diagnose' }, { progress: p })) : null))
+      .then((d) => { if (d && this.work === work) this.diagnosis = d; }, this.#fail('Diagnosis'))
       .then(() => this.work === work ? this.#track('Checksum', (p) => work.run({ type: 'checksum' }, { progress: p })) : null)
       .then((sum) => { if (sum && this.work === work) this.checksum = sum; }, this.#fail('Checksum'));
   }
@@ -175,8 +191,9 @@ export class Editor {
     try {
       const result = await this.#track('Preview', (p) => (this.#previewTask = work.run({ type: 'preview', steps, ...region }, { progress: p, warn: (m) => this.note(m, 'warn') })));
       if (this.work !== work) return;
-      const copies = result.channels.map((c) => c.slice());
-      const peaks = await view.run({ type: 'adoptProcessed', channels: copies, sampleRateHz: result.sampleRateHz, startFrame: result.startFrame }, { transfer: copies.map((c) => c.buffer) }).promise;
+      // The samples go on to the view worker (playback, drawing); the page keeps none of them.
+      const channels = result.channels;
+      const peaks = await view.run({ type: 'adoptProcessed', channels, sampleRateHz: result.sampleRateHz, startFrame: result.startFrame }, { transfer: channels.map((c) => c.buffer) }).promise;
       this.corrected = { peaks, offsetSeconds: result.startFrame / this.sampleRateHz, preview: { ...result, channels: [] }, version };
       for (const w of result.warnings) this.note(w, 'warn');
       void this.compare();

@@ -58,15 +58,22 @@ export class Player {
       this.caution = { reason: 'first', detail: '' };
       return;
     }
-    void this.#start(this.host.timeline.playhead);
+    this.#begin(this.host.timeline.playhead);
   };
+
+  #begin(from: number, fade = FADE_IN_SECONDS): void {
+    this.#start(from, fade).catch((e: unknown) => {
+      this.stop();
+      console.warn('playback stopped:', e);
+    });
+  }
 
   acceptCaution = () => {
     const c = this.caution;
     this.caution = null;
     this.#accepted = true;
     if (c?.reason === 'loud') this.#loudAcceptedAtDb = this.levelDb;
-    void this.#start(this.host.timeline.playhead);
+    this.#begin(this.host.timeline.playhead);
   };
 
   declineCaution = () => {
@@ -89,7 +96,7 @@ export class Player {
     if (which === 'processed' && !this.host.hasCorrected) return;
     if (this.which === which) return;
     this.which = which;
-    if (this.playing) void this.#start(this.host.timeline.playhead, 0.01);
+    if (this.playing) this.#begin(this.host.timeline.playhead, 0.01);
   };
 
   swap = () => this.switchTo(this.which === 'original' ? 'processed' : 'original');

@@ -11,7 +11,7 @@ import { MemorySource } from '../../../dsp/source.ts';
 import { PeakBuilder, pyramidBuffers, BASE_BUCKET_FRAMES } from '../lib/peaks.ts';
 import { Md5 } from '../lib/md5.ts';
 import { FileSource } from './file-source.ts';
-import { parseWavLayout, codingHistoryOf, type PcmLayout } from './wav-format.ts';
+import { parseWavLayout, codingHistoryOf, decodePcmFloat32, type PcmLayout } from './wav-format.ts';
 import type { FromWorker, Job, JobResults, ToWorker, Which } from './protocol.ts';
 import { TILE_COLUMNS, SPECTRO_ROWS } from './protocol.ts';
 import { spectroTile, longTermSpectrum, toDb, type Placed } from './spectral.ts';
@@ -34,7 +34,13 @@ let layout: PcmLayout | null = null;
 let original: FileSource | null = null;
 let processed: Processed | null = null;
 
+/** Web mode hands the worker the file itself; reads then never go through the page. */
+let directBlob: Blob | null = null;
+
 function readBytes(handle: string, offset: number, length: number): Promise<Uint8Array> {
+  if (directBlob && file?.handle === handle) {
+    return directBlob.slice(offset, Math.min(directBlob.size, offset + length)).arrayBuffer().then((b) => new Uint8Array(b));
+  }
   const id = ++rid;
   return new Promise((resolve, reject) => {
     reads.set(id, { resolve, reject });
@@ -67,7 +73,8 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
   const ctx = { progress, warn, signal };
   switch (job.type) {
     case 'open': {
-      file = job.file;
+      file = { handle: job.file.handle, name: job.file.name, sizeBytes: job.file.sizeBytes };
+      directBlob = job.file.blob ?? null;
       processed = null;
       let want = Math.min(job.file.sizeBytes, 65536);
       for (;;) {
@@ -90,15 +97,26 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
     }
     case 'overview': {
       const src = needOriginal();
-      const builder = new PeakBuilder(src.channelCount, src.frames, src.sampleRateHz);
+      const total = job.endFrame - job.startFrame;
+      const builder = new PeakBuilder(src.channelCount, total, src.sampleRateHz);
       let last = 0;
-      for await (const block of src.blocks({ blockFrames: 1 << 16 })) {
+      // Straight from the stored bytes into reused float32 buffers: no per-block allocation.
+      let planar: Float32Array[] = [];
+      for await (const { bytes } of src.rawChunks(job.startFrame, job.endFrame)) {
         if (signal.aborted) throw new CancelledError('cancelled');
-        builder.push(block);
-        if (builder.frames - last > src.frames / 50) { last = builder.frames; progress(builder.frames / src.frames, 'Drawing the overview'); }
+        const frames = Math.floor(bytes.length / src.layout.blockAlign);
+        if (src.layout.sampleFormat === 'int' && src.layout.blockAlign === 2 * src.channelCount && bytes.byteOffset % 4 === 0) {
+          builder.pushInterleavedInt16(new Int16Array(bytes.buffer, bytes.byteOffset, frames * src.channelCount), frames);
+          if (builder.frames - last > total / 50) { last = builder.frames; progress(builder.frames / total, 'Drawing the overview'); }
+          continue;
+        }
+        if (planar.length === 0 || planar[0]!.length < frames) planar = Array.from({ length: src.channelCount }, () => new Float32Array(frames));
+        decodePcmFloat32(bytes, src.layout, planar);
+        builder.push(frames === planar[0]!.length ? planar : planar.map((c) => c.subarray(0, frames)));
+        if (builder.frames - last > total / 50) { last = builder.frames; progress(builder.frames / total, 'Drawing the overview'); }
       }
-      const p = builder.finish();
-      return { result: p, transfer: pyramidBuffers(p) };
+      const level = builder.level0();
+      return { result: level, transfer: [...level.min, ...level.max].map((a) => a.buffer) };
     }
     case 'checksum': {
       const src = needOriginal();
@@ -115,8 +133,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
     case 'preview': {
       const r = await preview(needOriginal(), job.steps, job.startFrame, job.endFrame, ctx);
       processed = r.processed;
-      const channels = r.result.channels.map((c) => c.slice());
-      return { result: { ...r.result, channels }, transfer: channels.map((c) => c.buffer) };
+      return { result: r.result, transfer: r.result.channels.map((c) => c.buffer) };
     }
     case 'adoptProcessed': {
       const data = job.channels.map((c) => Float64Array.from(c));

@@ -6,7 +6,7 @@ import { decodePcm, type PcmLayout } from './wav-format.ts';
 export type ReadBytes = (offset: number, length: number) => Promise<Uint8Array>;
 
 /** Bytes per read: large reads keep the bridge round trips few. */
-const READ_BYTES = 4 * 1024 * 1024;
+const READ_BYTES = 8 * 1024 * 1024;
 
 export class FileSource implements AudioSource {
   constructor(private readonly read: ReadBytes, readonly layout: PcmLayout) {}

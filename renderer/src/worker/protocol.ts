@@ -1,6 +1,6 @@
 /** Messages between the page and the editor's workers. */
 import type { Finding, ParamValues } from '../../../dsp/ops/types.ts';
-import type { PeakPyramid } from '../lib/peaks.ts';
+import type { PeakLevel, PeakPyramid } from '../lib/peaks.ts';
 import type { PcmLayout } from './wav-format.ts';
 
 export type Which = 'original' | 'processed';
@@ -14,6 +14,11 @@ export interface FileRef {
   readonly handle: string;
   readonly name: string;
   readonly sizeBytes: number;
+  /**
+   * Web mode only: the picked file itself, so the worker reads its slices directly instead of
+   * asking the page for each one (the page stays free for drawing). Absent in Electron.
+   */
+  readonly blob?: Blob;
 }
 
 export interface OpenResult {
@@ -79,7 +84,7 @@ export interface SpectroTile {
 
 export type Job =
   | { type: 'open'; file: FileRef }
-  | { type: 'overview' }
+  | { type: 'overview'; startFrame: number; endFrame: number }
   | { type: 'checksum' }
   | { type: 'diagnose' }
   | { type: 'preview'; steps: StepSpec[]; startFrame: number; endFrame: number }
@@ -93,7 +98,7 @@ export type Job =
 
 export interface JobResults {
   open: OpenResult;
-  overview: PeakPyramid;
+  overview: PeakLevel;
   checksum: string;
   diagnose: DiagnoseEntry[];
   preview: PreviewResult;

@@ -133,8 +133,9 @@ export async function spectroTile(p: Placed, colSeconds: number, index: number, 
   const tileStart = Math.round(t0 * rate);
   const tileFrames = Math.round(TILE_COLUMNS * colFrames);
   if (tileStart + tileFrames + n < 0 || tileStart - n > src.frames) return out;
-  const sub = Math.max(1, Math.min(4, Math.floor(colFrames / n)));
   const whole = tileFrames <= 1 << 20 ? await readRange(src, tileStart - n, tileStart + tileFrames + n) : null;
+  // Wide columns average a few frames; read one by one, two per column keep tiles quick.
+  const sub = Math.max(1, Math.min(whole ? 4 : 2, Math.floor(colFrames / n)));
   for (let c = 0; c < TILE_COLUMNS; c++) {
     if (signal.aborted) throw new CancelledError('cancelled');
     acc.fill(0);

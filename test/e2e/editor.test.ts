@@ -1,0 +1,165 @@
+/// <reference lib="dom" />
+/**
+ * The editor end to end, in web mode (the page `npm start` serves when Electron cannot start),
+ * driven through Debian's Chromium: open a recording, see the findings, add the correction a
+ * finding suggests, render the preview, see the before/after spectra change, export, and check
+ * the exported file with an independent WAV reader against the same correction run in Node.
+ * Screenshots of the main screens go to test-output/screenshots/.
+ *
+ * Which finding: REELWRIGHT_E2E_FINDING (default "echo"). While that analysis is not in the
+ * registry, the first finding that suggests a correction is used.
+ */
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { createHash } from 'node:crypto';
+import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
+import type { Browser, Page } from 'playwright-core';
+import wavefile from 'wavefile';
+import { findOperation } from '../../dsp/ops/registry.ts';
+import { validateParams } from '../../dsp/ops/params.ts';
+import { silentContext, type AnalysisOp, type CorrectionOp, type Finding } from '../../dsp/ops/types.ts';
+import { MemorySource, collectBlocks } from '../../dsp/source.ts';
+import { launch, watchErrors } from './browser.ts';
+import { voiceLike, wav24 } from './make-wav.ts';
+
+const root = path.resolve(import.meta.dirname, '../..');
+const shots = path.join(root, 'test-output/screenshots');
+const work = fs.mkdtempSync(path.join(os.tmpdir(), 'reelwright-e2e-'));
+const preferred = process.env.REELWRIGHT_E2E_FINDING ?? 'echo';
+const demoDir = path.join(root, 'assets/demo');
+const demoName = fs.existsSync(demoDir) ? fs.readdirSync(demoDir).filter((n) => /\.wav$/i.test(n)).sort()[0] : undefined;
+
+const md5 = (file: string) => createHash('md5').update(fs.readFileSync(file)).digest('hex');
+
+/** Planar float samples from a WAV, read by the `wavefile` package (not the editor's reader). */
+function readWav(file: string) {
+  const w = new wavefile.WaveFile(fs.readFileSync(file));
+  const fmt = w.fmt as { numChannels: number; sampleRate: number; bitsPerSample: number; audioFormat: number };
+  const raw = w.getSamples(false, Float64Array) as unknown as Float64Array[] | Float64Array;
+  const chans = fmt.numChannels === 1 ? [raw as Float64Array] : (raw as Float64Array[]);
+  const scale = fmt.audioFormat === 3 ? 1 : 2 ** (fmt.bitsPerSample - 1);
+  const bext = (w as unknown as { bext?: { codingHistory?: string } }).bext;
+  return { fmt, channels: chans.map((c) => Float64Array.from(c, (v) => v / scale)), codingHistory: bext?.codingHistory ?? '' };
+}
+
+let browser: Browser;
+let page: Page;
+let errors: string[];
+let inputPath: string;
+
+beforeAll(async () => {
+  if (demoName) inputPath = path.join(demoDir, demoName);
+  else {
+    inputPath = path.join(work, 'harbour-office-take3.wav');
+    fs.writeFileSync(inputPath, wav24(voiceLike(8, 48000)));
+  }
+  browser = await launch();
+  const ctx = await browser.newContext({ acceptDownloads: true, viewport: { width: 1440, height: 900 } });
+  page = await ctx.newPage();
+  errors = watchErrors(page);
+});
+
+afterAll(async () => {
+  await browser?.close();
+  fs.rmSync(work, { recursive: true, force: true });
+});
+
+describe('editor in web mode', () => {
+  it('opens a recording, corrects a finding, compares before/after and exports', async () => {
+    const url = inject('editorUrl');
+    const sourceSum = md5(inputPath);
+    if (demoName) {
+      await page.goto(url);
+    } else {
+      await page.goto(`${url}?nodemo`);
+      const chooser = page.waitForEvent('filechooser');
+      await page.getByRole('button', { name: 'Open recording' }).click();
+      await (await chooser).setFiles(inputPath);
+    }
+    await page.getByTestId('file-name').filter({ hasText: path.basename(inputPath) }).waitFor();
+    await page.locator('[data-testid=finding], [data-testid=no-findings]').first().waitFor({ timeout: 60_000 });
+    await page.getByTestId('overview-time').waitFor({ timeout: 30_000 });
+    await page.screenshot({ path: path.join(shots, '01-opened-findings.png') });
+
+    // The same analysis in Node gives the finding and its suggested correction.
+    const input = readWav(inputPath);
+    const source = new MemorySource(input.channels, input.fmt.sampleRate);
+    const facts = { sampleRateHz: source.sampleRateHz, channelCount: source.channelCount, frames: source.frames };
+    const analysisNames = findOperation(preferred)?.kind === 'analysis'
+      ? [preferred]
+      : await page.locator('[data-testid=finding]:not([data-suggests=""])').evaluateAll((els) => els.map((e) => (e as HTMLElement).dataset.op!));
+    expect(analysisNames.length, 'a finding that suggests a correction').toBeGreaterThan(0);
+    const analysis = findOperation(analysisNames[0]!) as AnalysisOp;
+    const result = await analysis.run(source, validateParams(analysis.params, {}), silentContext);
+    const finding = analysis.findings!(result, facts).find((f: Finding) => f.suggestion && findOperation(f.suggestion.op)?.kind === 'correction')!;
+    expect(finding, `${analysis.name} suggests a correction`).toBeDefined();
+    const correction = findOperation(finding.suggestion!.op) as CorrectionOp;
+
+    const card = page.locator(`[data-testid=finding][data-op="${analysis.name}"][data-suggests="${correction.name}"]`).first();
+    await expect(card.textContent()).resolves.toContain(finding.title);
+    await card.getByTestId('add-fix').click();
+    await page.locator(`[data-testid=step][data-op="${correction.name}"]`).waitFor();
+
+    // Undo and redo the addition from the keyboard.
+    await page.locator('body').press('Control+z');
+    await page.locator('[data-testid=step]').waitFor({ state: 'detached' });
+    await page.locator('body').press('Control+Shift+Z');
+    await page.locator(`[data-testid=step][data-op="${correction.name}"]`).waitFor();
+
+    await page.getByTestId('preview').click();
+    await page.getByTestId('preview-state').filter({ hasText: 'up to date' }).waitFor({ timeout: 60_000 });
+    await page.screenshot({ path: path.join(shots, '02-corrections-preview.png') });
+
+    await page.getByTestId('open-compare').click();
+    const chart = page.locator('[data-testid=spectrum-chart][data-has-after=yes]');
+    await chart.waitFor({ timeout: 60_000 });
+    const change = page.getByTestId('spectra-change');
+    await change.waitFor();
+    const maxDb = Number(await change.getAttribute('data-max-db'));
+    console.log(`[e2e] ${correction.name}: largest before/after spectrum change ${maxDb.toFixed(1)} dB at ${await change.getAttribute('data-at-hz')} Hz`);
+    expect(Math.abs(maxDb)).toBeGreaterThan(1);
+    if (correction.measures) await page.locator(`[data-testid=remeasure][data-analysis="${correction.measures}"]`).waitFor({ timeout: 60_000 });
+    await page.waitForTimeout(600); // spectrogram tiles arrive
+    await page.screenshot({ path: path.join(shots, '03-compare.png') });
+
+    // Listening: the caution comes first, then playback moves the meter; B switches to corrected.
+    await page.getByTestId('play').click();
+    await page.getByTestId('caution').waitFor();
+    await page.screenshot({ path: path.join(shots, '04-listening-caution.png') });
+    await page.getByTestId('caution-ok').click();
+    await page.waitForFunction(() => Number(document.querySelector('[data-testid=meter]')?.getAttribute('aria-valuenow')) > -60, null, { timeout: 10_000 });
+    await page.locator('body').press('b');
+    await expect(page.getByTestId('listen-corrected').getAttribute('aria-pressed')).resolves.toBe('true');
+    await page.locator('body').press(' ');
+
+    // Export: the source's own name is refused; another name downloads.
+    await page.getByTestId('open-export').click();
+    await page.getByTestId('export-name').fill(path.basename(inputPath));
+    await expect(page.getByTestId('export-go').isDisabled()).resolves.toBe(true);
+    await page.getByTestId('export-name').fill('e2e-restored.wav');
+    await page.screenshot({ path: path.join(shots, '05-export.png') });
+    const download = page.waitForEvent('download');
+    await page.getByTestId('export-go').click();
+    const outPath = path.join(work, 'e2e-restored.wav');
+    await (await download).saveAs(outPath);
+
+    const out = readWav(outPath);
+    expect(out.fmt.sampleRate).toBe(input.fmt.sampleRate);
+    expect(out.fmt.numChannels).toBe(input.fmt.numChannels);
+    expect(out.fmt.bitsPerSample).toBe(24);
+    const params = validateParams(correction.params, finding.suggestion!.params);
+    const rendering = await correction.prepare(source, params, silentContext);
+    const expected = await collectBlocks(rendering.blocks, rendering.channelCount);
+    expect(out.channels[0]!.length).toBe(expected[0]!.length);
+    let worst = 0;
+    for (let c = 0; c < expected.length; c++) {
+      for (let i = 0; i < expected[c]!.length; i++) worst = Math.max(worst, Math.abs(out.channels[c]![i]! - expected[c]![i]!));
+    }
+    // 24-bit rounding (½ LSB) plus TPDF dither (< 1 LSB each side).
+    expect(worst).toBeLessThanOrEqual(2 / 2 ** 23);
+    expect(out.codingHistory).toContain(correction.history({ ...params, ...rendering.resolved }).replace(/[\r\n,]/g, ' '));
+    expect(md5(inputPath), 'the source is untouched').toBe(sourceSum);
+    expect(errors, errors.join('\n')).toEqual([]);
+  });
+});
