@@ -20,8 +20,8 @@ let server: PreviewServer | undefined;
 export async function setup(project: TestProject): Promise<void> {
   const out = path.join(root, 'test-output');
   fs.mkdirSync(path.join(out, 'screenshots'), { recursive: true });
-  // The folder ignores itself, so nothing the tests leave there is committed.
-  fs.writeFileSync(path.join(out, '.gitignore'), '*\n');
+
+
   await build({ configFile, logLevel: 'warn' });
   server = await preview({ configFile, logLevel: 'warn', preview: { host: '127.0.0.1', port: 0, strictPort: false, open: false } });
   const url = server.resolvedUrls?.local[0];

@@ -9,7 +9,8 @@ import type { Finding, ParamValues } from '../../../dsp/ops/types.ts';
 import { Engine, JobError, type Task } from '../lib/engine.ts';
 import { BASE_BUCKET_FRAMES, pyramidFromParts, type PeakPyramid } from '../lib/peaks.ts';
 import { parseSession, sessionText } from '../lib/session-file.ts';
-import type { DiagnoseEntry, ExportFormat, OpenResult, PreviewResult, Remeasure, SpectrumPair } from '../worker/protocol.ts';
+import type { DiagnoseResult } from '../../../dsp/ops/diagnose.ts';
+import type { ExportFormat, OpenResult, PreviewResult, Remeasure, SpectrumPair } from '../worker/protocol.ts';
 import { Player } from './player.svelte.ts';
 import { StepsState } from './steps.svelte.ts';
 import { Timeline } from './timeline.svelte.ts';
@@ -28,7 +29,7 @@ export class Editor {
   opened = $state.raw<OpenResult | null>(null);
   peaks = $state.raw<PeakPyramid | null>(null);
   corrected = $state.raw<{ peaks: PeakPyramid; offsetSeconds: number; preview: PreviewResult; version: number } | null>(null);
-  diagnosis = $state.raw<DiagnoseEntry[] | null>(null);
+  diagnosis = $state.raw<DiagnoseResult | null>(null);
   spectra = $state.raw<SpectrumPair | null>(null);
   remeasures = $state.raw<Remeasure[] | null>(null);
   checksum = $state<string | null>(null);
@@ -56,7 +57,7 @@ export class Editor {
   }
 
   get sampleRateHz(): number { return this.opened?.layout.sampleRateHz ?? 48000; }
-  get channelCount(): number { return this.opened?.layout.channelCount ?? 1; }
+  get channelCount(): number { return this.opened?.layout.channels ?? 1; }
   get correctionOps() { return corrections(); }
   /** The corrected preview no longer matches the steps. */
   get stale(): boolean { return this.corrected !== null && this.corrected.version !== this.steps.version; }
@@ -145,7 +146,7 @@ export class Editor {
   }
 
   get findings(): Finding[] {
-    return (this.diagnosis ?? []).flatMap((d) => d.findings);
+    return this.diagnosis?.findings ?? [];
   }
 
   /** The correction a finding suggests, when the registry has it. */

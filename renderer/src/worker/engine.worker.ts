@@ -11,11 +11,13 @@ import { MemorySource } from '../../../dsp/source.ts';
 import { PeakBuilder, pyramidBuffers, BASE_BUCKET_FRAMES } from '../lib/peaks.ts';
 import { Md5 } from '../lib/md5.ts';
 import { FileSource } from './file-source.ts';
-import { parseWavLayout, codingHistoryOf, decodePcmFloat32, type PcmLayout } from './wav-format.ts';
+import { decodeSamples, type AudioLayout } from '../../../dsp/formats/index.ts';
+import { readLayout } from './audio-layout.ts';
 import type { FromWorker, Job, JobResults, ToWorker, Which } from './protocol.ts';
 import { TILE_COLUMNS, SPECTRO_ROWS } from './protocol.ts';
 import { spectroTile, longTermSpectrum, toDb, type Placed } from './spectral.ts';
-import { diagnose, preview, remeasure, type Processed } from './jobs.ts';
+import { preview, remeasure, type Processed } from './jobs.ts';
+import { diagnose } from '../../../dsp/ops/diagnose.ts';
 import { exportFile } from './export.ts';
 
 const scope = self as unknown as {
@@ -30,7 +32,7 @@ const writes = new Map<number, { resolve: () => void; reject: (e: Error) => void
 const running = new Map<number, { aborted: boolean }>();
 
 let file: { handle: string; name: string; sizeBytes: number } | null = null;
-let layout: PcmLayout | null = null;
+let layout: AudioLayout | null = null;
 let original: FileSource | null = null;
 let processed: Processed | null = null;
 
@@ -76,23 +78,13 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       file = { handle: job.file.handle, name: job.file.name, sizeBytes: job.file.sizeBytes };
       directBlob = job.file.blob ?? null;
       processed = null;
-      let want = Math.min(job.file.sizeBytes, 65536);
-      for (;;) {
-        const head = await readBytes(job.file.handle, 0, want);
-        const parsed = parseWavLayout(head, job.file.sizeBytes);
-        if ('needBytes' in parsed) {
-          if (want >= job.file.sizeBytes || parsed.needBytes > 16 * 1024 * 1024) throw new InputError(`${job.file.name}: the header is cut short`);
-          want = Math.min(job.file.sizeBytes, Math.max(parsed.needBytes, want * 4));
-          continue;
-        }
-        layout = parsed;
-        break;
-      }
       const handle = job.file.handle;
+      layout = await readLayout((o, l) => readBytes(handle, o, l), job.file.sizeBytes, job.file.name);
+      if (layout.container === 'FLAC' || layout.blockAlign === 0) {
+        throw new InputError('the editor opens WAV, BWF, RF64 and AIFF; convert FLAC first (reelwright varispeed IN OUT --factor 1 writes a WAV)', job.file.name);
+      }
       original = new FileSource((o, l) => readBytes(handle, o, l), layout);
-      const bext = layout.chunks.find((c) => c.id === 'bext');
-      const bextBytes = bext && bext.size < 1 << 20 ? await readBytes(handle, bext.offset, bext.size) : null;
-      const result: JobResults['open'] = { layout, codingHistory: codingHistoryOf(bextBytes), chunkIds: layout.chunks.map((c) => c.id) };
+      const result: JobResults['open'] = { layout, codingHistory: layout.bext?.codingHistory ?? '', chunkIds: layout.chunks.map((c) => c.id) };
       return { result, transfer: [] };
     }
     case 'overview': {
@@ -105,13 +97,13 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       for await (const { bytes } of src.rawChunks(job.startFrame, job.endFrame)) {
         if (signal.aborted) throw new CancelledError('cancelled');
         const frames = Math.floor(bytes.length / src.layout.blockAlign);
-        if (src.layout.sampleFormat === 'int' && src.layout.blockAlign === 2 * src.channelCount && bytes.byteOffset % 4 === 0) {
+        if (src.layout.encoding.sampleFormat === 'int' && src.layout.encoding.bytesPerSample === 2 && !src.layout.encoding.bigEndian && bytes.byteOffset % 4 === 0) {
           builder.pushInterleavedInt16(new Int16Array(bytes.buffer, bytes.byteOffset, frames * src.channelCount), frames);
           if (builder.frames - last > total / 50) { last = builder.frames; progress(builder.frames / total, 'Drawing the overview'); }
           continue;
         }
         if (planar.length === 0 || planar[0]!.length < frames) planar = Array.from({ length: src.channelCount }, () => new Float32Array(frames));
-        decodePcmFloat32(bytes, src.layout, planar);
+        decodeSamples(bytes, 0, src.layout.encoding, src.channelCount, frames, planar, 0);
         builder.push(frames === planar[0]!.length ? planar : planar.map((c) => c.subarray(0, frames)));
         if (builder.frames - last > total / 50) { last = builder.frames; progress(builder.frames / total, 'Drawing the overview'); }
       }
@@ -129,7 +121,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       return { result: md5.hex(), transfer: [] };
     }
     case 'diagnose':
-      return { result: await diagnose(needOriginal(), ctx), transfer: [] };
+      return { result: await diagnose(needOriginal(), { progress: (f) => progress(f, 'examining'), warn, signal }), transfer: [] };
     case 'preview': {
       const r = await preview(needOriginal(), job.steps, job.startFrame, job.endFrame, ctx);
       processed = r.processed;

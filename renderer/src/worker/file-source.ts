@@ -1,7 +1,7 @@
 /** An AudioSource over a file's bytes, read on demand through the bridge (never the whole file). */
 import type { AudioSource, Block, BlockOptions } from '../../../dsp/source.ts';
 import { DEFAULT_BLOCK_FRAMES, resolveRange } from '../../../dsp/source.ts';
-import { decodePcm, type PcmLayout } from './wav-format.ts';
+import { decodeSamples, type AudioLayout } from '../../../dsp/formats/index.ts';
 
 export type ReadBytes = (offset: number, length: number) => Promise<Uint8Array>;
 
@@ -9,9 +9,9 @@ export type ReadBytes = (offset: number, length: number) => Promise<Uint8Array>;
 const READ_BYTES = 8 * 1024 * 1024;
 
 export class FileSource implements AudioSource {
-  constructor(private readonly read: ReadBytes, readonly layout: PcmLayout) {}
+  constructor(private readonly read: ReadBytes, readonly layout: AudioLayout) {}
   get sampleRateHz() { return this.layout.sampleRateHz; }
-  get channelCount() { return this.layout.channelCount; }
+  get channelCount() { return this.layout.channels; }
   get frames() { return this.layout.frames; }
   get bitsPerSample() { return this.layout.bitsPerSample; }
   get sampleFormat() { return this.layout.sampleFormat; }
@@ -43,7 +43,7 @@ export class FileSource implements AudioSource {
       for await (const { bytes } of this.rawChunks(start, end, true)) {
         const frames = Math.floor(bytes.length / this.layout.blockAlign);
         const dec = Array.from({ length: n }, () => new Float64Array(frames));
-        decodePcm(bytes, this.layout, dec, 0);
+        decodeSamples(bytes, 0, this.layout.encoding, n, frames, dec, 0);
         for (const d of dec) d.reverse();
         let at = 0;
         while (at < frames) {
@@ -66,7 +66,7 @@ export class FileSource implements AudioSource {
       while (at < frames) {
         if (!pending) { pending = Array.from({ length: n }, () => new Float64Array(Math.min(size, end - start))); have = 0; }
         const take = Math.min(pending[0]!.length - have, frames - at);
-        decodePcm(bytes.subarray(at * this.layout.blockAlign, (at + take) * this.layout.blockAlign), this.layout, pending, have);
+        decodeSamples(bytes, at * this.layout.blockAlign, this.layout.encoding, n, take, pending, have);
         have += take;
         at += take;
         if (have === pending[0]!.length) { yield pending; pending = null; }

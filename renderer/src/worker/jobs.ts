@@ -1,58 +1,18 @@
 /** The worker's analysis jobs, all driven by the operation registry. */
 import { CancelledError, NotFoundError } from '../../../dsp/errors.ts';
 import { validateParams } from '../../../dsp/ops/params.ts';
-import { analyses, findOperation } from '../../../dsp/ops/registry.ts';
-import type { AnalysisOp, SourceFacts } from '../../../dsp/ops/types.ts';
+import { findOperation } from '../../../dsp/ops/registry.ts';
+import { analysisJson } from '../../../dsp/ops/diagnose.ts';
 import type { AudioSource } from '../../../dsp/source.ts';
 import { MemorySource, readAll } from '../../../dsp/source.ts';
 import { correctionOf, renderInMemory, type Progress } from './pipeline.ts';
-import type { DiagnoseEntry, PreviewResult, Remeasure, StepSpec } from './protocol.ts';
+import type { PreviewResult, Remeasure, StepSpec } from './protocol.ts';
 
 export interface Processed {
   readonly source: AudioSource;
   readonly offsetSeconds: number;
   /** The original region it was rendered from (for re-measuring); null when adopted by the view worker. */
   readonly region: AudioSource | null;
-}
-
-const factsOf = (s: AudioSource): SourceFacts => ({ sampleRateHz: s.sampleRateHz, channelCount: s.channelCount, frames: s.frames });
-
-/** The JSON an analysis prints for its key (as the command line would). */
-export function jsonOf(op: AnalysisOp, result: unknown): Record<string, unknown> {
-  return op.toJson ? op.toJson(result) : { [op.key]: result };
-}
-
-/** Runs every analysis that belongs in `diagnose` and applies to this input; one failure does not stop the others. */
-export async function diagnose(source: AudioSource, p: Progress): Promise<DiagnoseEntry[]> {
-  const facts = factsOf(source);
-  const ops = analyses().filter((op) => op.inDiagnose !== false && (op.applies?.(facts) ?? true));
-  const out: DiagnoseEntry[] = [];
-  for (let k = 0; k < ops.length; k++) {
-    const op = ops[k]!;
-    const ctx = {
-      progress: (f: number) => p.progress((k + Math.min(1, Math.max(0, f))) / ops.length, op.title),
-      warn: (m: string) => p.warn(`${op.title}: ${m}`),
-      signal: p.signal,
-    };
-    try {
-      const result = await op.run(source, validateParams(op.params, {}), ctx);
-      out.push({ op: op.name, title: op.title, findings: op.findings?.(result, facts) ?? [], json: jsonOf(op, result), error: null });
-    } catch (err) {
-      if (err instanceof CancelledError || p.signal.aborted) throw new CancelledError('cancelled');
-      const message = err instanceof Error ? err.message : String(err);
-      out.push({
-        op: op.name,
-        title: op.title,
-        findings: err instanceof NotFoundError
-          ? [{ op: op.name, title: `${op.title}: nothing to measure`, sentence: message, severity: 'ok' }]
-          : [],
-        json: null,
-        error: err instanceof NotFoundError ? null : message,
-      });
-    }
-  }
-  p.progress(1, 'done');
-  return out;
 }
 
 function rmsDbfs(s: Float64Array[]): number {
@@ -115,7 +75,7 @@ export async function remeasure(region: AudioSource, after: AudioSource, steps: 
     const ctx = { progress: (f: number) => p.progress(f, `Re-measuring ${op.title}`), warn: p.warn, signal: p.signal };
     const measure = async (s: AudioSource) => {
       try {
-        return headline(jsonOf(op, await op.run(s, validateParams(op.params, {}), ctx)));
+        return headline(analysisJson(op, await op.run(s, validateParams(op.params, {}), ctx)));
       } catch (err) {
         if (err instanceof NotFoundError) return new Map<string, number | string>([['found', 'nothing']]);
         throw err;

@@ -1,7 +1,8 @@
 /** Messages between the page and the editor's workers. */
-import type { Finding, ParamValues } from '../../../dsp/ops/types.ts';
+import type { ParamValues } from '../../../dsp/ops/types.ts';
+import type { DiagnoseResult } from '../../../dsp/ops/diagnose.ts';
 import type { PeakLevel, PeakPyramid } from '../lib/peaks.ts';
-import type { PcmLayout } from './wav-format.ts';
+import type { AudioLayout } from '../../../dsp/formats/index.ts';
 
 export type Which = 'original' | 'processed';
 
@@ -22,19 +23,11 @@ export interface FileRef {
 }
 
 export interface OpenResult {
-  readonly layout: PcmLayout;
+  readonly layout: AudioLayout;
   readonly codingHistory: string;
   readonly chunkIds: readonly string[];
 }
 
-export interface DiagnoseEntry {
-  readonly op: string;
-  readonly title: string;
-  readonly findings: readonly Finding[];
-  /** The JSON the command line would print for this analysis (without `file`). */
-  readonly json: Record<string, unknown> | null;
-  readonly error: string | null;
-}
 
 export interface PreviewResult {
   readonly startFrame: number;
@@ -100,7 +93,7 @@ export interface JobResults {
   open: OpenResult;
   overview: PeakLevel;
   checksum: string;
-  diagnose: DiagnoseEntry[];
+  diagnose: DiagnoseResult;
   preview: PreviewResult;
   adoptProcessed: PeakPyramid;
   dropProcessed: null;
