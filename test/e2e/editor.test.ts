@@ -3,7 +3,7 @@
  * The editor end to end, in web mode (the page `npm start` serves when Electron cannot start),
  * driven through Debian's Chromium: open a recording, see the findings, add the correction a
  * finding suggests, render the preview, see the before/after spectra change, export, and check
- * the exported file with an independent WAV reader against the same correction run in Node.
+ * the exported file with the project's Node reader (main/io) against the same correction run in Node.
  * Screenshots of the main screens go to test-output/screenshots/.
  *
  * Which finding: REELWRIGHT_E2E_FINDING (default "echo"). While that analysis is not in the
@@ -15,12 +15,12 @@ import path from 'node:path';
 import { createHash } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, inject, it } from 'vitest';
 import type { Browser, Page } from 'playwright-core';
-import wavefile from 'wavefile';
 import { corrections, findOperation } from '../../dsp/ops/registry.ts';
 import { parseHistoryLine } from '../../dsp/formats/index.ts';
 import { validateParams } from '../../dsp/ops/params.ts';
 import { silentContext, type AnalysisOp, type CorrectionOp, type Finding, type ParamValues } from '../../dsp/ops/types.ts';
-import { MemorySource, collectBlocks } from '../../dsp/source.ts';
+import { MemorySource, collectBlocks, readAll } from '../../dsp/source.ts';
+import { openAudio } from '../../main/io/index.ts';
 import { launch, watchErrors } from './browser.ts';
 import { voiceLike, wav24 } from './make-wav.ts';
 
@@ -33,15 +33,14 @@ const demoName = fs.existsSync(demoDir) ? fs.readdirSync(demoDir).filter((n) => 
 
 const md5 = (file: string) => createHash('md5').update(fs.readFileSync(file)).digest('hex');
 
-/** Planar float samples from a WAV, read by the `wavefile` package (not the editor's reader). */
-function readWav(file: string) {
-  const w = new wavefile.WaveFile(fs.readFileSync(file));
-  const fmt = w.fmt as { numChannels: number; sampleRate: number; bitsPerSample: number; audioFormat: number };
-  const raw = w.getSamples(false, Float64Array) as unknown as Float64Array[] | Float64Array;
-  const chans = fmt.numChannels === 1 ? [raw as Float64Array] : (raw as Float64Array[]);
-  const scale = fmt.audioFormat === 3 ? 1 : 2 ** (fmt.bitsPerSample - 1);
-  const bext = (w as unknown as { bext?: { codingHistory?: string } }).bext;
-  return { fmt, channels: chans.map((c) => Float64Array.from(c, (v) => v / scale)), codingHistory: bext?.codingHistory ?? '' };
+/** A file read with the project's Node reader (main/io): its facts, samples and CodingHistory. */
+async function readWav(file: string) {
+  const a = await openAudio(file);
+  try {
+    return { info: a.info, bitsPerSample: a.bitsPerSample, channels: await readAll(a), codingHistory: a.codingHistory };
+  } finally {
+    await a.close();
+  }
 }
 
 let browser: Browser;
@@ -85,8 +84,8 @@ describe('editor in web mode', () => {
 
     // Which correction: the preferred analysis's suggestion when that analysis exists, else the
     // first finding in the page that suggests one. Only a registry without corrections skips it.
-    const input = readWav(inputPath);
-    const source = new MemorySource(input.channels, input.fmt.sampleRate);
+    const input = await readWav(inputPath);
+    const source = new MemorySource(input.channels, input.info.sampleRateHz);
     const facts = { sampleRateHz: source.sampleRateHz, channelCount: source.channelCount, frames: source.frames };
     const analysisNames = findOperation(preferred)?.kind === 'analysis'
       ? [preferred]
@@ -157,10 +156,11 @@ describe('editor in web mode', () => {
     if (typeof first === 'string' || first === null) throw new Error(`export failed: ${first}`);
     await first.saveAs(outPath);
 
-    const out = readWav(outPath);
-    expect(out.fmt.sampleRate).toBe(input.fmt.sampleRate);
-    expect(out.fmt.numChannels).toBe(input.fmt.numChannels);
-    expect(out.fmt.bitsPerSample).toBe(24);
+    const out = await readWav(outPath);
+    expect(out.info.sampleRateHz).toBe(input.info.sampleRateHz);
+    expect(out.info.channels).toBe(input.info.channels);
+    expect(out.bitsPerSample).toBe(24);
+    expect(out.info.format).toBe('BWF');
     let expected: readonly Float64Array[] = input.channels;
     if (correction) {
       const rendering = await correction.prepare(source, params, silentContext);
@@ -177,6 +177,30 @@ describe('editor in web mode', () => {
     const texts = out.codingHistory.split('\r\n').filter(Boolean).map((l) => parseHistoryLine(l)['T'] ?? '');
     if (correction) expect(texts).toContain(correction.history(params).replace(/[\r\n]+/g, ' ').replace(/,/g, ';').trim());
     expect(texts.at(-1)).toMatch(/^reelwright export/);
+    // Metadata kept: the source's history comes first, its other chunks are carried over.
+    expect(out.codingHistory.startsWith(input.codingHistory.trimEnd())).toBe(true);
+    for (const id of input.info.chunks.filter((c) => !['fmt ', 'data', 'bext', 'JUNK', 'ds64', 'fact'].includes(c))) expect(out.info.chunks).toContain(id);
+
+    // The session: saved with the source's audio checksum (the same MD5 as the Node reader's), reopened with its steps.
+    const saved = page.waitForEvent('download');
+    await page.getByRole('button', { name: 'Save session' }).click();
+    const sessionPath = path.join(work, 'session.json');
+    await (await saved).saveAs(sessionPath);
+    const session = JSON.parse(fs.readFileSync(sessionPath, 'utf8'));
+    const reader = await openAudio(inputPath);
+    expect(session.source.audioMd5).toBe(await reader.audioMd5());
+    await reader.close();
+    expect(session.steps.map((x: { op: string }) => x.op)).toEqual(correction ? [correction.name] : []);
+    await page.goto(`${url}?nodemo`);
+    const pickSession = page.waitForEvent('filechooser');
+    await page.getByRole('button', { name: 'Open session' }).click();
+    await (await pickSession).setFiles(sessionPath);
+    const pickSource = page.waitForEvent('filechooser');
+    await page.getByTestId('find-source').click();
+    await (await pickSource).setFiles(inputPath);
+    await page.getByText('checksum matches').waitFor({ timeout: 60_000 });
+    if (correction) await page.locator(`[data-testid=step][data-op="${correction.name}"]`).waitFor();
+
     expect(md5(inputPath), 'the source is untouched').toBe(sourceSum);
     expect(errors, errors.join('\n')).toEqual([]);
   });

@@ -8,7 +8,7 @@ import { findOperation, corrections } from '../../../dsp/ops/registry.ts';
 import type { Finding, ParamValues } from '../../../dsp/ops/types.ts';
 import { Engine, JobError, type Task } from '../lib/engine.ts';
 import { BASE_BUCKET_FRAMES, pyramidFromParts, type PeakPyramid } from '../lib/peaks.ts';
-import { parseSession, sessionText } from '../lib/session-file.ts';
+import { parseSession, sessionText, type Session } from '../lib/session-file.ts';
 import type { DiagnoseResult } from '../../../dsp/ops/diagnose.ts';
 import type { ExportFormat, OpenResult, PreviewResult, Remeasure, SpectrumPair } from '../worker/protocol.ts';
 import { Player } from './player.svelte.ts';
@@ -246,11 +246,22 @@ export class Editor {
     } catch (e) { this.#fail('Saving the session')(e); }
   };
 
+  /** A session waiting for its recording (web mode asks the user to pick it: a picker needs a click). */
+  pendingSession = $state.raw<Session | null>(null);
+
   openSession = async () => {
     try {
       const t = await this.bridge.openSession();
       if (!t) return;
       const s = parseSession(t.text);
+      if (this.bridge.mode === 'web') this.pendingSession = s;
+      else await this.resumeSession(s);
+    } catch (e) { this.#fail('Opening the session')(e); }
+  };
+
+  resumeSession = async (s: Session) => {
+    this.pendingSession = null;
+    try {
       const f = await this.bridge.reopenSource(s.source.path, s.source.name);
       if (!f) return;
       await this.open(f);
