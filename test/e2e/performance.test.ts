@@ -34,10 +34,22 @@ const pct = (xs: number[], p: number) => {
   return s[Math.min(s.length - 1, Math.floor(p * s.length))] ?? NaN;
 };
 
-it('shows a 1-hour 96 kHz stereo overview within 5 s and keeps frames under 50 ms while a preview renders', async () => {
+// One retry: a timing check on a shared 2-core machine can be thrown by another job's burst.
+it('shows a 1-hour 96 kHz stereo overview within 5 s and keeps frames under 50 ms while a preview renders', { retry: 1 }, async () => {
   const page = await browser.newPage({ viewport: { width: 1440, height: 900 } });
   const errors = watchErrors(page);
   await page.goto(`${inject('editorUrl')}?nodemo`);
+  // Context for the numbers: how long this browser takes just to read the file once, and the load.
+  await page.evaluate(() => { const i = document.createElement('input'); i.type = 'file'; i.id = 'calibrate'; i.hidden = true; document.body.append(i); });
+  await page.setInputFiles('#calibrate', longPath);
+  const bareReadMs = await page.evaluate(async () => {
+    const f = (document.getElementById('calibrate') as HTMLInputElement).files![0]!;
+    const t = performance.now();
+    for (let o = 0; o < f.size; o += 16 << 20) await f.slice(o, o + (16 << 20)).arrayBuffer();
+    document.getElementById('calibrate')!.remove();
+    return performance.now() - t;
+  });
+  console.log(`[perf] reading the file once in this browser, nothing else: ${(bareReadMs / 1000).toFixed(2)} s; load average ${os.loadavg()[0]!.toFixed(1)} on ${os.cpus().length} cores`);
   const chooser = page.waitForEvent('filechooser');
   await page.getByRole('button', { name: 'Open recording' }).click();
   const t0 = performance.now();

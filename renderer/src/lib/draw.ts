@@ -20,10 +20,19 @@ export function tickStep(minSeconds: number): number {
   return steps.find((s) => s >= minSeconds) ?? 7200;
 }
 
-/** Canvas colours read once from the palette variables. */
+const colours = new Map<string, string>();
+
+/**
+ * Canvas colours from the palette variables, read once each: getComputedStyle forces a style
+ * recalculation, which is too dear to do on every frame.
+ */
 export function cssColor(name: string, fallback: string): string {
-  const v = getComputedStyle(document.documentElement).getPropertyValue(name).trim();
-  return v || fallback;
+  let v = colours.get(name);
+  if (v === undefined) {
+    v = getComputedStyle(document.documentElement).getPropertyValue(name).trim() || fallback;
+    colours.set(name, v);
+  }
+  return v;
 }
 
 /** Spectrogram colour map: ink → deep teal → teal → amber → cream (256 RGBA entries). */

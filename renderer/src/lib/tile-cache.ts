@@ -4,6 +4,8 @@ import { SPECTRO_LUT } from './draw.ts';
 import type { Which } from '../worker/protocol.ts';
 
 const LIMIT = 600;
+/** The colour map as one 32-bit RGBA word per level (byte order of ImageData on this machine). */
+const LUT32 = new Uint32Array(SPECTRO_LUT.buffer.slice(0));
 
 export class TileCache {
   #tiles = new Map<string, ImageBitmap | 'pending'>();
@@ -21,11 +23,9 @@ export class TileCache {
     this.#tiles.set(key, 'pending');
     this.engine.run({ type: 'tile', which, level, index }).promise.then(async (t) => {
       const img = new ImageData(t.columns, t.rows);
+      const px = new Uint32Array(img.data.buffer);
       for (let c = 0; c < t.columns; c++) {
-        for (let r = 0; r < t.rows; r++) {
-          const v8 = t.values[c * t.rows + r]!;
-          img.data.set(SPECTRO_LUT.subarray(v8 * 4, v8 * 4 + 4), ((t.rows - 1 - r) * t.columns + c) * 4);
-        }
+        for (let r = 0; r < t.rows; r++) px[(t.rows - 1 - r) * t.columns + c] = LUT32[t.values[c * t.rows + r]!]!;
       }
       this.#tiles.set(key, await createImageBitmap(img));
       while (this.#tiles.size > LIMIT) {
