@@ -5,7 +5,8 @@
  * of stored audio. With REELWRIGHT_BIG=1 a 1-hour file is also copied (target peak RSS ≤ 200 MB).
  * A numpy reference reads the same file in 4 MiB pieces and converts 24-bit to float64.
  *
- * Run alone: `npx tsx bench/io.bench.ts` (or through `npm run bench`).
+ * Run alone: `npx tsx bench/io.bench.ts`, or `npm run bench -- io`; add REELWRIGHT_BIG=1 for the
+ * 1-hour run.
  */
 import { spawnSync } from 'node:child_process';
 import fs from 'node:fs';
@@ -15,6 +16,7 @@ import { fileURLToPath } from 'node:url';
 import { openAudio } from '../main/io/reader.ts';
 import { writeAudio } from '../main/io/writer.ts';
 import type { Block } from '../dsp/source.ts';
+import { fmt, line } from './util.ts';
 
 const RATE = 96000;
 const CHILD_FLAG = '--io-bench-child';
@@ -102,7 +104,7 @@ function numpyRead(file: string, dataOffset: number, dataBytes: number): number 
   return r.status === 0 ? Number(r.stdout.trim()) : undefined;
 }
 
-const mbps = (bytes: number, seconds: number) => (bytes / 1e6 / seconds).toFixed(1);
+const mbps = (bytes: number, seconds: number) => bytes / 1e6 / seconds;
 
 export default async function run(): Promise<void> {
   const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'reelwright-bench-io-'));
@@ -112,20 +114,23 @@ export default async function run(): Promise<void> {
     const audio = await openAudio(file);
     const { dataBytes, dataOffset } = audio.layout;
     await audio.close();
-    console.log(`io: write 10 min 96k/24 stereo (encode from float64)  ${mbps(dataBytes, genSeconds)} MB/s`);
-    const read = runChild('read', file);
-    console.log(`io: read 10 min 96k/24 stereo  ${mbps(read.audioBytes, read.seconds)} MB/s  (peak RSS ${read.maxRssMb.toFixed(0)} MB)`);
-    const copy = runChild('copy', file, path.join(dir, 'copy.wav'));
-    console.log(`io: copy 10 min 96k/24 stereo read→write  ${mbps(copy.audioBytes, copy.seconds)} MB/s  (peak RSS ${copy.maxRssMb.toFixed(0)} MB)`);
     const np = numpyRead(file, dataOffset, dataBytes);
-    if (np !== undefined) console.log(`io: numpy reference, 24-bit → float64 in 4 MiB pieces  ${mbps(dataBytes, np)} MB/s`);
+    const read = runChild('read', file);
+    const copy = runChild('copy', file, path.join(dir, 'copy.wav'));
+    const readRate = mbps(read.audioBytes, read.seconds);
+    line('io', 'write 10 min 96k/24 stereo, from float64 (MB/s)', fmt(mbps(dataBytes, genSeconds), 1), 'includes fsync');
+    line('io', 'read 10 min 96k/24 stereo, blocks() (MB/s)', fmt(readRate, 1), `peak RSS ${read.maxRssMb.toFixed(0)} MB`);
+    if (np !== undefined) {
+      line('io', '  numpy: 4 MiB reads, 24-bit → float64 (MB/s)', fmt(mbps(dataBytes, np), 1), `ratio ${fmt(readRate / mbps(dataBytes, np))}×`);
+    } else line('io', '  numpy', 'unavailable');
+    line('io', 'copy 10 min 96k/24 stereo, read → write (MB/s)', fmt(mbps(copy.audioBytes, copy.seconds), 1), `peak RSS ${copy.maxRssMb.toFixed(0)} MB`);
     fs.rmSync(path.join(dir, 'copy.wav'), { force: true });
     fs.rmSync(file, { force: true });
     if (process.env.REELWRIGHT_BIG === '1') {
       const big = path.join(dir, 'one-hour.wav');
       await generate(big, 3600);
       const c = runChild('copy', big, path.join(dir, 'one-hour-copy.wav'));
-      console.log(`io: copy 1 h 96k/24 stereo read→write  ${mbps(c.audioBytes, c.seconds)} MB/s  (peak RSS ${c.maxRssMb.toFixed(0)} MB, target ≤ 200)`);
+      line('io', 'copy 1 h 96k/24 stereo, read → write (MB/s)', fmt(mbps(c.audioBytes, c.seconds), 1), `peak RSS ${c.maxRssMb.toFixed(0)} MB (target ≤ 200)`);
     }
   } finally {
     fs.rmSync(dir, { recursive: true, force: true });

@@ -153,7 +153,17 @@ export function parseWav(read: ReadFn, fileSize: number, name: string, head: Uin
       throw new InputError(`${outer} file must start with a 'ds64' chunk, found ${showId(id)}`, name, pos);
     }
     if (id === 'data' && ds64) size = ds64.dataSize;
-    else if (ds64 && size32 === 0xffffffff) {
+    else if (id === 'data' && !isRf64 && fileSize - (pos + 8) > 0xffffffff) {
+      // A plain RIFF file past 4 GiB from a writer that let the 32-bit size wrap around: when the
+      // audio runs to the end of the file and the stored size equals the true size modulo 2^32,
+      // take the true size.
+      const rest = fileSize - (pos + 8);
+      const whole = rest - (rest % 2 === 1 && size32 % 2 === 0 ? 1 : 0);
+      if ((whole - size32) % 0x1_0000_0000 === 0) {
+        size = whole;
+        limit = fileSize;
+      }
+    } else if (ds64 && size32 === 0xffffffff) {
       const big = ds64.table[id];
       if (big === undefined) throw new InputError(`chunk ${showId(id)} has size 0xFFFFFFFF but no ds64 table entry`, name, pos + 4);
       size = big;

@@ -124,6 +124,7 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
     }
     const ctx = context(progress);
     const result = await op.run(file, params, ctx);
+    warnNonFinite(file);
     const info = { ...file.info };
     if (op.name === 'info') info.audioMd5 = await file.audioMd5();
     const output: Record<string, unknown> = { file: info, ...analysisJson(op, result) };
@@ -181,6 +182,10 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
   const progress = new Progress(op.name, args.flags.get('quiet') === true);
   const source = await openAudio(inPath);
   try {
+    const bad = await source.scanNonFinite();
+    if (bad > 0) {
+      throw new InputError(`${bad} samples are NaN or infinite; refusing to process a damaged file (repair or re-export it first)`, source.path);
+    }
     const format = outputFormat(source, args.flags);
     const ctx = context(progress);
     const measure = op.measures ? (findOperation(op.measures) as AnalysisOp | undefined) : undefined;
@@ -215,6 +220,12 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
   }
 }
 
+/** Float files may hold NaN/Inf samples; the reader counts them (read as 0) and we say so once. */
+function warnNonFinite(file: OpenedAudio): void {
+  const n = file.nonFiniteSamples ?? 0;
+  if (n > 0) io.err(`warning: ${file.path}: ${n} samples are NaN or infinite and were read as 0`);
+}
+
 const silentProgress = (ctx: OpContext): OpContext => ({ ...ctx, progress: () => {} });
 
 async function runDiagnose(argv: string[]): Promise<number> {
@@ -231,6 +242,7 @@ async function runDiagnose(argv: string[]): Promise<number> {
   const file = await openAudio(args.positionals[0]!);
   try {
     const result = await diagnose(file, context(progress));
+    warnNonFinite(file);
     const info = { ...file.info, audioMd5: await file.audioMd5() };
     progress.done();
     if (args.flags.get('json') === true) {

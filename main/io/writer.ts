@@ -150,7 +150,8 @@ export async function writeAudio(outPath: string, rendering: RenderingLike, opti
   });
 
   const dir = path.dirname(path.resolve(outPath));
-  const tmp = path.join(dir, `${TEMP_PREFIX}${process.pid}-${randomBytes(4).toString('hex')}-${path.basename(outPath)}`);
+  // The final name is kept (shortened) in the temp name so a stray temp file can be recognised.
+  const tmp = path.join(dir, `${TEMP_PREFIX}${process.pid}-${randomBytes(4).toString('hex')}-${path.basename(outPath).slice(0, 100)}`);
   let fd: number | undefined;
   try {
     try {

@@ -108,6 +108,42 @@ describe('bad input: one line naming the file, exit 2', () => {
   }
 });
 
+/** A 32-bit float mono WAV built byte by byte (RIFF/fmt/data per the WAVE spec), one sample NaN. */
+function floatWavWithNaN(file: string): void {
+  const n = 4800;
+  const data = Buffer.alloc(n * 4);
+  for (let i = 0; i < n; i++) data.writeFloatLE(0.25 * Math.sin((2 * Math.PI * 440 * i) / 48000), i * 4);
+  data.writeFloatLE(NaN, 100 * 4);
+  const fmt = Buffer.alloc(16);
+  fmt.writeUInt16LE(3, 0); // WAVE_FORMAT_IEEE_FLOAT
+  fmt.writeUInt16LE(1, 2);
+  fmt.writeUInt32LE(48000, 4);
+  fmt.writeUInt32LE(48000 * 4, 8);
+  fmt.writeUInt16LE(4, 12);
+  fmt.writeUInt16LE(32, 14);
+  const chunk = (id: string, b: Buffer) => Buffer.concat([Buffer.from(id, 'latin1'), Buffer.from(Uint32Array.of(b.length).buffer), b]);
+  const body = Buffer.concat([Buffer.from('WAVE'), chunk('fmt ', fmt), chunk('data', data)]);
+  writeFileSync(file, Buffer.concat([Buffer.from('RIFF'), Buffer.from(Uint32Array.of(body.length).buffer), body]));
+}
+
+describe('NaN / infinite float samples', () => {
+  it('analyses report them in one line; corrections refuse the file', async () => {
+    const p = path.join(dir, 'nan.wav');
+    floatWavWithNaN(p);
+    const r = await run('info', p, '--json');
+    expect(r.code).toBe(0);
+    expect(r.err).toMatch(/1 samples are NaN or infinite/);
+    expect(r.err).toContain(p);
+    for (const op of operations.filter((o) => o.kind === 'correction')) {
+      const out = path.join(dir, `nan-${op.name}.wav`);
+      const c = await run(op.name, p, out);
+      expect(c.code).toBe(2);
+      expect(c.err).toMatch(/NaN or infinite/);
+      expect(() => statSync(out)).toThrow();
+    }
+  });
+});
+
 describe('corrections never touch the source', () => {
   const corrections = operations.filter((o) => o.kind === 'correction');
   for (const op of corrections) {

@@ -46,3 +46,12 @@ export function fileBytes(file: string, offset = 0, length?: number): Uint8Array
 export function tempLeftovers(dir: string): string[] {
   return fs.readdirSync(dir).filter((n) => n.startsWith('.reelwright-tmp-'));
 }
+
+/** Byte-array equality with a fast path; on mismatch reports the first differing offset. */
+export function firstDifference(a: Uint8Array, b: Uint8Array): string {
+  if (a.length !== b.length) return `lengths ${a.length} and ${b.length}`;
+  if (Buffer.from(a.buffer, a.byteOffset, a.length).equals(Buffer.from(b.buffer, b.byteOffset, b.length))) return 'equal';
+  let i = 0;
+  while (a[i] === b[i]) i++;
+  return `first difference at byte ${i}: ${a[i]} vs ${b[i]}`;
+}
