@@ -2,35 +2,15 @@
 // `npm start`: builds the editor page and the Electron shell, then starts Electron on the demo
 // recording. Where Electron's runtime cannot be had (offline, as in CI), it says so in one line
 // and serves the same editor on http://127.0.0.1:PORT (web mode, PORT from the environment or
-// 5183), where the page opens the demo by itself. Ctrl+C stops it.
+// 5183), where the page opens the demo by itself. Ctrl+C stops it. `npm start -- --web` skips Electron.
 import { spawn, spawnSync } from 'node:child_process';
 import fs from 'node:fs';
 import path from 'node:path';
-import { fileURLToPath } from 'node:url';
-import { build, preview } from 'vite';
+import { preview } from 'vite';
+import { buildPage, buildShell, rendererConfig, root } from './build-editor.mjs';
 
-const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
-const rendererConfig = path.join(root, 'renderer/vite.config.ts');
 const electronDir = path.join(root, 'node_modules/electron');
 const webOnly = process.argv.includes('--web');
-
-async function buildAll() {
-  await build({ configFile: rendererConfig, logLevel: 'error' });
-  for (const [entry, out, empty] of [['main.ts', 'main.cjs', true], ['preload.ts', 'preload.cjs', false]]) {
-    await build({
-      configFile: false,
-      logLevel: 'error',
-      build: {
-        outDir: path.join(root, 'main/electron/build'),
-        emptyOutDir: empty,
-        ssr: path.join(root, 'main/electron', entry),
-        target: 'node20',
-        minify: false,
-        rollupOptions: { external: ['electron', /^node:/], output: { format: 'cjs', entryFileNames: out } },
-      },
-    });
-  }
-}
 
 /** The Electron executable if it is installed, trying its own download once (quietly) if not. */
 function electronBinary() {
@@ -79,7 +59,8 @@ async function serveWeb(reason) {
   process.on('SIGTERM', stop);
 }
 
-await buildAll();
+await buildPage();
+await buildShell();
 if (webOnly) {
   await serveWeb('Web mode requested');
 } else {
