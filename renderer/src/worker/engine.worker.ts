@@ -94,7 +94,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       let last = 0;
       // Straight from the stored bytes into reused float32 buffers: no per-block allocation.
       let planar: Float32Array[] = [];
-      for await (const { bytes } of src.rawChunks(job.startFrame, job.endFrame)) {
+      for await (const { bytes } of src.rawChunks(job.startFrame, job.endFrame, false, 16 << 20, 2)) {
         if (signal.aborted) throw new CancelledError('cancelled');
         const frames = Math.floor(bytes.length / src.layout.blockAlign);
         if (src.layout.encoding.sampleFormat === 'int' && src.layout.encoding.bytesPerSample === 2 && !src.layout.encoding.bigEndian && bytes.byteOffset % 4 === 0) {

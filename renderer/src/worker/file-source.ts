@@ -16,18 +16,21 @@ export class FileSource implements AudioSource {
   get bitsPerSample() { return this.layout.bitsPerSample; }
   get sampleFormat() { return this.layout.sampleFormat; }
 
-  /** Raw stored bytes of frames [start, end) in reads of about 4 MB, the next read already under way. */
-  async *rawChunks(start: number, end: number, reverse = false): AsyncIterable<{ firstFrame: number; bytes: Uint8Array }> {
+  /** Raw stored bytes of frames [start, end) in reads of about `readBytes`, the next `ahead` reads already under way. */
+  async *rawChunks(start: number, end: number, reverse = false, readBytes = READ_BYTES, ahead = 1): AsyncIterable<{ firstFrame: number; bytes: Uint8Array }> {
     const align = this.layout.blockAlign;
-    const per = Math.max(1, Math.floor(READ_BYTES / align));
+    const per = Math.max(1, Math.floor(readBytes / align));
     const spans: [number, number][] = [];
     if (reverse) for (let hi = end; hi > start; hi -= per) spans.push([Math.max(start, hi - per), hi]);
     else for (let lo = start; lo < end; lo += per) spans.push([lo, Math.min(end, lo + per)]);
     const fetch = (s: [number, number]) => this.read(this.layout.dataOffset + s[0] * align, (s[1] - s[0]) * align);
-    let next = spans.length > 0 ? fetch(spans[0]!) : null;
+    const inFlight: Promise<Uint8Array>[] = [];
+    let issued = 0;
+    const top = () => { while (issued < spans.length && inFlight.length <= ahead) inFlight.push(fetch(spans[issued++]!)); };
+    top();
     for (let k = 0; k < spans.length; k++) {
-      const bytes = await next!;
-      next = k + 1 < spans.length ? fetch(spans[k + 1]!) : null;
+      const bytes = await inFlight.shift()!;
+      top();
       yield { firstFrame: spans[k]![0], bytes };
     }
   }
