@@ -75,14 +75,30 @@ export function drawEnvelope(
   const mn = scratch.min.subarray(0, w), mx = scratch.max.subarray(0, w);
   const fpp = secondsPerPx * p.sampleRateHz;
   if (!columnsFromPyramid(p, channel, (t0 - offsetSeconds) * p.sampleRateHz, fpp, mn, mx)) return false;
+  // One polygon per run of columns (upper edge left to right, lower edge back): a single fill is
+  // far cheaper to rasterise than one rectangle per column.
   const mid = top + height / 2, half = height / 2 - 1;
   ctx.fillStyle = color;
-  for (let x = 0; x < w; x++) {
-    const a = mn[x]!, b = mx[x]!;
-    if (Number.isNaN(a)) continue;
-    const y0 = mid - Math.min(1, b) * half, y1 = mid - Math.max(-1, a) * half;
-    ctx.fillRect(x, y0, 1, Math.max(1, y1 - y0));
+  ctx.beginPath();
+  let x = 0;
+  while (x < w) {
+    while (x < w && Number.isNaN(mn[x]!)) x++;
+    const start = x;
+    while (x < w && !Number.isNaN(mn[x]!)) x++;
+    if (x === start) break;
+    for (let i = start; i < x; i++) {
+      const y = Math.round(mid - Math.min(1, mx[i]!) * half);
+      if (i === start) ctx.moveTo(i, y); else ctx.lineTo(i, y);
+      ctx.lineTo(i + 1, y);
+    }
+    for (let i = x - 1; i >= start; i--) {
+      const y = Math.max(Math.round(mid - Math.max(-1, mn[i]!) * half), Math.round(mid - Math.min(1, mx[i]!) * half) + 1);
+      ctx.lineTo(i + 1, y);
+      ctx.lineTo(i, y);
+    }
+    ctx.closePath();
   }
+  ctx.fill();
   return true;
 }
 
