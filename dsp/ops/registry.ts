@@ -4,9 +4,11 @@
  */
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
+import { spectrum } from './spectrum.ts';
 
 export const operations: readonly Operation[] = [
   info,
+  spectrum,
 ];
 
 export function findOperation(name: string): Operation | undefined {
