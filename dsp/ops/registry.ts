@@ -5,10 +5,14 @@
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
 import { spectrum } from './spectrum.ts';
+import { speed } from './speed.ts';
+import { varispeed } from './varispeed.ts';
 
 export const operations: readonly Operation[] = [
   info,
   spectrum,
+  speed,
+  varispeed,
 ];
 
 export function findOperation(name: string): Operation | undefined {
