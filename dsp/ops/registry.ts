@@ -7,12 +7,20 @@ import { info } from './info.ts';
 import { spectrum } from './spectrum.ts';
 import { speed } from './speed.ts';
 import { varispeed } from './varispeed.ts';
+import { stretch } from './stretch.ts';
+import { transpose } from './transpose.ts';
+import { reverse } from './reverse.ts';
+import { reversed } from './reversed.ts';
 
 export const operations: readonly Operation[] = [
   info,
   spectrum,
   speed,
   varispeed,
+  stretch,
+  transpose,
+  reverse,
+  reversed,
 ];
 
 export function findOperation(name: string): Operation | undefined {
