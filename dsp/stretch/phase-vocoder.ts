@@ -85,6 +85,10 @@ const wrap = (x: number): number => x - TWO_PI * Math.round(x / TWO_PI);
 const CHUNK = 8192;
 /** Smallest step between time-map anchors, samples (a shorter step would be a jump). */
 const MIN_ANCHOR_GAP = 16;
+/** Peaks this far below the frame's largest (power ratio, −50 dB) advance by table. */
+const WEAK_PEAK = 1e-5;
+/** Resolution of the tabled frequency offset: 1/64 bin. */
+const FRACTION_STEPS = 64;
 
 export class TimeStretcher {
   readonly sampleRateHz: number;
@@ -123,10 +127,15 @@ export class TimeStretcher {
   readonly #y: Float64Array[]; // per channel modified spectrum
   #power: Float64Array;
   #powerPrev: Float64Array;
-  readonly #theta: Float64Array; // φ_out − φ_in per bin
   readonly #omega: Float64Array; // last ω̂ per bin (used when the analysis hop is 0)
-  readonly #rotRe: Float64Array; // rotation held through a transient zone
+  readonly #rotRe: Float64Array; // e^{jθ} per bin, θ = φ_out − φ_in (held through a transient zone)
   readonly #rotIm: Float64Array;
+  // e^{jΔω_k} for the current Δ = H_s − H_a, and e^{jΔ·2π(q/64)/N} for q = −64…64 (weak peaks).
+  readonly #stepRe: Float64Array;
+  readonly #stepIm: Float64Array;
+  readonly #fracRe: Float64Array;
+  readonly #fracIm: Float64Array;
+  #stepDelta = NaN;
   readonly #gain: Float64Array | null; // formant gains
   readonly #peaks: Int32Array;
   #prevValid = false;
@@ -202,7 +211,10 @@ export class TimeStretcher {
     this.#y = perChannel();
     this.#power = new Float64Array(bins);
     this.#powerPrev = new Float64Array(bins);
-    this.#theta = new Float64Array(bins);
+    this.#stepRe = new Float64Array(bins);
+    this.#stepIm = new Float64Array(bins);
+    this.#fracRe = new Float64Array(2 * FRACTION_STEPS + 1);
+    this.#fracIm = new Float64Array(2 * FRACTION_STEPS + 1);
     this.#omega = new Float64Array(bins);
     this.#rotRe = new Float64Array(bins).fill(1);
     this.#rotIm = new Float64Array(bins);
@@ -442,8 +454,8 @@ export class TimeStretcher {
     }
     this.#analyze(alpha);
     if (zoneOnset >= 0) this.#rotateHeld();
-    else if (!this.#prevValid) this.#rotateBy(this.#theta.fill(0));
-    else if (!this.#lockPhases(alpha - this.#prevAlpha)) this.#rotateBy(this.#theta);
+    else if (!this.#prevValid) this.#resetRotation();
+    else if (!this.#lockPhases(alpha - this.#prevAlpha)) this.#rotateHeld();
     if (this.#gain) this.#applyEnvelope();
     if (this.#onFrame) this.#onFrame({ outputCenter: sigma, inputCenter: alpha, spectra: this.#y, fftSize: this.#n });
     this.#synthesize(sigma);
@@ -465,20 +477,23 @@ export class TimeStretcher {
   #enterZone(t0: number): void {
     this.#zone = t0;
     const bins = this.#bins;
-    const theta = this.#theta;
+    const rr = this.#rotRe, ri = this.#rotIm;
     if (this.#prevValid) {
       // #powerPrev is the last frame's power; the onset frame is analysed into the current buffers,
       // which the zone's first frame overwrites next.
       this.#analyze(t0);
       const pc = this.#power, pp = this.#powerPrev;
-      for (let k = 0; k < bins; k++) if (pc[k]! > 4 * pp[k]! + 1e-30) theta[k] = 0;
+      for (let k = 0; k < bins; k++) {
+        if (pc[k]! > 4 * pp[k]! + 1e-30) {
+          rr[k] = 1;
+          ri[k] = 0;
+        }
+      }
+      rr[0] = rr[bins - 1] = 1;
+      ri[0] = ri[bins - 1] = 0;
     } else {
-      theta.fill(0);
-    }
-    theta[0] = theta[bins - 1] = 0;
-    for (let k = 0; k < bins; k++) {
-      this.#rotRe[k] = Math.cos(theta[k]!);
-      this.#rotIm[k] = Math.sin(theta[k]!);
+      rr.fill(1);
+      ri.fill(0);
     }
   }
 
@@ -544,53 +559,79 @@ export class TimeStretcher {
   }
 
   /**
-   * Identity phase locking around the peaks of the summed power: advances each peak's θ, gives
-   * its region the same rotation and writes Y = X·e^{jθ}. Returns false when there is no peak.
+   * Identity phase locking around the peaks of the summed power: advances each peak's rotation,
+   * gives its region the same rotation and writes Y = X·e^{jθ}. Returns false when there is no peak.
+   * Peaks within 50 dB of the frame's largest get the exact hop-phase frequency; weaker ones (the
+   * noise floor) advance by table: Grandke's offset rounded to 1/64 bin, no trigonometry.
    */
   #lockPhases(hopIn: number): boolean {
     const bins = this.#bins, last = bins - 1;
     const pw = this.#power, peaks = this.#peaks;
-    let count = 0;
+    let count = 0, top = 0;
     for (let k = 2; k < last - 1; k++) {
       const v = pw[k]!;
-      if (v > pw[k - 1]! && v > pw[k + 1]! && v >= pw[k - 2]! && v >= pw[k + 2]! && v > 0) peaks[count++] = k;
+      if (v > pw[k - 1]! && v > pw[k + 1]! && v >= pw[k - 2]! && v >= pw[k + 2]! && v > 0) {
+        peaks[count++] = k;
+        if (v > top) top = v;
+      }
     }
     if (count === 0) return false;
     const hs = this.#hs, n = this.#n;
-    const theta = this.#theta, omega = this.#omega;
+    const omega = this.#omega, rr = this.#rotRe, ri = this.#rotIm;
     const channels = this.channelCount;
     const xw = this.#xw, xp = this.#xwPrev, y = this.#y;
     const binRad = TWO_PI / n;
     const advance = hs - hopIn;
+    if (advance !== this.#stepDelta) this.#buildSteps(advance);
+    const stepRe = this.#stepRe, stepIm = this.#stepIm, fracRe = this.#fracRe, fracIm = this.#fracIm;
+    const weak = top * WEAK_PEAK;
     let regionStart = 0;
     for (let p = 0; p < count; p++) {
       const kp = peaks[p]!;
-      // Instantaneous frequency (rad/sample).
-      let w: number;
-      if (hopIn > 0) {
-        // Coarse: Grandke's Hann interpolation on the larger neighbour.
-        const up = pw[kp + 1]! >= pw[kp - 1]!;
-        const a = Math.sqrt((up ? pw[kp + 1]! : pw[kp - 1]!) / pw[kp]!);
-        const coarse = (kp + (up ? 1 : -1) * ((2 * a - 1) / (a + 1))) * binRad;
-        // Fine: phase advance over the hop (cross-spectrum with the previous frame).
-        let hr = 0, hi = 0;
-        for (let c = 0; c < channels; c++) {
-          const cur = xw[c]!, prev = xp[c]!;
-          const cr = cur[2 * kp]!, ci = cur[2 * kp + 1]!, pr = prev[2 * kp]!, pi = prev[2 * kp + 1]!;
-          hr += cr * pr + ci * pi;
-          hi += ci * pr - cr * pi;
-        }
-        if (hr === 0 && hi === 0) w = coarse;
-        else {
-          const dphi = Math.atan2(hi, hr);
-          w = (dphi + TWO_PI * Math.round((hopIn * coarse - dphi) / TWO_PI)) / hopIn;
+      // Coarse frequency offset (bins): Grandke's Hann interpolation on the larger neighbour.
+      const up = pw[kp + 1]! >= pw[kp - 1]!;
+      const a = Math.sqrt((up ? pw[kp + 1]! : pw[kp - 1]!) / pw[kp]!);
+      const delta = (up ? 1 : -1) * ((2 * a - 1) / (a + 1));
+      let cr: number, ci: number;
+      if (pw[kp]! >= weak) {
+        let w: number;
+        if (hopIn > 0) {
+          const coarse = (kp + delta) * binRad;
+          // Fine: the phase advance over the hop (cross-spectrum with the previous frame).
+          let hr = 0, hi = 0;
+          for (let c = 0; c < channels; c++) {
+            const cur = xw[c]!, prev = xp[c]!;
+            const ar = cur[2 * kp]!, ai = cur[2 * kp + 1]!, br = prev[2 * kp]!, bi = prev[2 * kp + 1]!;
+            hr += ar * br + ai * bi;
+            hi += ai * br - ar * bi;
+          }
+          if (hr === 0 && hi === 0) w = coarse;
+          else {
+            const dphi = Math.atan2(hi, hr);
+            w = (dphi + TWO_PI * Math.round((hopIn * coarse - dphi) / TWO_PI)) / hopIn;
+          }
+        } else {
+          w = omega[kp]!; // the same analysis frame again: keep the last estimate
         }
         omega[kp] = w;
+        const phi = wrap(advance * w);
+        cr = Math.cos(phi);
+        ci = Math.sin(phi);
       } else {
-        w = omega[kp]!; // the same analysis frame again: keep the last estimate
+        // e^{jΔ(ω_k + 2π·q/(64N))} from the two tables.
+        let q = Math.round(delta * FRACTION_STEPS);
+        q = q > FRACTION_STEPS ? FRACTION_STEPS : q < -FRACTION_STEPS ? -FRACTION_STEPS : q;
+        const fr = fracRe[q + FRACTION_STEPS]!, fi = fracIm[q + FRACTION_STEPS]!;
+        const sr = stepRe[kp]!, si = stepIm[kp]!;
+        cr = sr * fr - si * fi;
+        ci = sr * fi + si * fr;
+        omega[kp] = (kp + q / FRACTION_STEPS) * binRad;
       }
-      const th = wrap(theta[kp]! + advance * w);
-      const cr = Math.cos(th), ci = Math.sin(th);
+      // New rotation of the peak, renormalised to unit length (first-order correction).
+      let nr = rr[kp]! * cr - ri[kp]! * ci, ni = rr[kp]! * ci + ri[kp]! * cr;
+      const g = 1.5 - 0.5 * (nr * nr + ni * ni);
+      nr *= g;
+      ni *= g;
       // The region reaches the lowest bin between this peak and the next.
       let regionEnd = last;
       if (p + 1 < count) {
@@ -598,22 +639,25 @@ export class TimeStretcher {
         regionEnd = kp;
         for (let k = kp + 1; k < next; k++) if (pw[k]! < pw[regionEnd]!) regionEnd = k;
       }
+      const wk = omega[kp]!;
       for (let k = regionStart; k <= regionEnd; k++) {
-        theta[k] = th;
-        omega[k] = w;
+        rr[k] = nr;
+        ri[k] = ni;
+        omega[k] = wk;
       }
       for (let c = 0; c < channels; c++) {
         const x = xw[c]!, out = y[c]!;
         for (let k = regionStart; k <= regionEnd; k++) {
           const re = x[2 * k]!, im = x[2 * k + 1]!;
-          out[2 * k] = re * cr - im * ci;
-          out[2 * k + 1] = re * ci + im * cr;
+          out[2 * k] = re * nr - im * ni;
+          out[2 * k + 1] = re * ni + im * nr;
         }
       }
       regionStart = regionEnd + 1;
     }
     // DC and Nyquist stay real (the two-channels-per-FFT packing needs real spectra there).
-    theta[0] = theta[last] = 0;
+    rr[0] = rr[last] = 1;
+    ri[0] = ri[last] = 0;
     for (let c = 0; c < channels; c++) {
       const x = xw[c]!, out = y[c]!;
       out[0] = x[0]!;
@@ -624,13 +668,36 @@ export class TimeStretcher {
     return true;
   }
 
-  /** Y = X·e^{jθ} bin by bin (first frame, or a frame without peaks). */
-  #rotateBy(theta: Float64Array): void {
-    const bins = this.#bins;
+  /** Tables e^{jΔω_k} (by recurrence) and e^{jΔ·2π(q/64)/N} for the advance Δ = H_s − H_a. */
+  #buildSteps(advance: number): void {
+    this.#stepDelta = advance;
+    const n = this.#n, bins = this.#bins;
+    const a = (TWO_PI * advance) / n;
+    const ur = Math.cos(a), ui = Math.sin(a);
+    const sr = this.#stepRe, si = this.#stepIm;
+    let r = 1, i = 0;
     for (let k = 0; k < bins; k++) {
-      this.#rotRe[k] = Math.cos(theta[k]!);
-      this.#rotIm[k] = Math.sin(theta[k]!);
+      if ((k & 255) === 0) {
+        // Restart from exact values now and then so rounding cannot accumulate.
+        r = Math.cos(a * k);
+        i = Math.sin(a * k);
+      }
+      sr[k] = r;
+      si[k] = i;
+      const t = r * ur - i * ui;
+      i = r * ui + i * ur;
+      r = t;
     }
+    for (let q = -FRACTION_STEPS; q <= FRACTION_STEPS; q++) {
+      this.#fracRe[q + FRACTION_STEPS] = Math.cos((a * q) / FRACTION_STEPS);
+      this.#fracIm[q + FRACTION_STEPS] = Math.sin((a * q) / FRACTION_STEPS);
+    }
+  }
+
+  /** First frame: the output takes the analysis phases (rotation 1). */
+  #resetRotation(): void {
+    this.#rotRe.fill(1);
+    this.#rotIm.fill(0);
     this.#rotateHeld();
   }
 
