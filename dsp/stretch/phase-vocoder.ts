@@ -254,14 +254,8 @@ export class TimeStretcher {
       if (room <= 0) throw new BugError('time-stretch input ring overflow');
       const take = Math.min(room, len - at, CHUNK);
       for (let c = 0; c < this.channelCount; c++) {
-        const src = block[c]!, ring = this.#inRings[c]!;
-        let i = 0;
-        while (i < take) {
-          const idx = (this.#written + i) & mask;
-          const run = Math.min(take - i, mask + 1 - idx);
-          ring.set(src.subarray(at + i, at + i + run), idx);
-          i += run;
-        }
+        const src = block[c]!, ring = this.#inRings[c]!, from = this.#written;
+        for (let i = 0; i < take; i++) ring[(from + i) & mask] = src[at + i]!;
       }
       this.#written += take;
       at += take;
@@ -800,13 +794,11 @@ export class TimeStretcher {
     const mask = this.#outMask;
     for (let c = 0; c < this.channelCount; c++) {
       const ring = this.#outRings[c]!, st = this.#stage[c]!;
-      let i = 0;
-      while (i < count) {
-        const idx = (this.#emitted + i) & mask;
-        const run = Math.min(count - i, mask + 1 - idx);
-        st.set(ring.subarray(idx, idx + run), this.#staged + i);
-        ring.fill(0, idx, idx + run);
-        i += run;
+      const base = this.#staged, from = this.#emitted;
+      for (let i = 0; i < count; i++) {
+        const idx = (from + i) & mask;
+        st[base + i] = ring[idx]!;
+        ring[idx] = 0;
       }
     }
     this.#staged += count;

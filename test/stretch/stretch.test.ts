@@ -118,6 +118,32 @@ describe('time-stretch: duration', () => {
   });
 });
 
+describe('time-stretch: sample rates', () => {
+  it('keeps a 1 kHz tone and the duration at 8, 44.1 and 96 kHz, and clicks sharp at 96 kHz', () => {
+    // Source: as above (REFERENCES §7); the FFT size follows the rate (≈ 85 ms) and the onset
+    // detector runs on a mix decimated to ≤ 24 kHz.
+    for (const fs of [8000, 44100, 96000]) {
+      const x = Float64Array.from({ length: Math.round(1.2 * fs) }, (_, i) => 0.5 * Math.sin((2 * Math.PI * 1000 * i) / fs));
+      const [y] = stretchArrays([x], { sampleRateHz: fs, ratio: 1.5 });
+      expect(y!.length).toBe(Math.round(1.5 * x.length));
+      const skip = Math.round(0.2 * fs);
+      const fit = fitSine(y!, fs, 1000, skip, y!.length - skip);
+      expect(Math.abs(1200 * Math.log2(fit.frequencyHz / 1000))).toBeLessThan(0.5);
+      expect(Math.abs(20 * Math.log10(fit.amplitude / 0.5))).toBeLessThan(0.2);
+    }
+    const fs = 96000;
+    const signal = new Float64Array(fs);
+    const clicks = [0.2, 0.45, 0.7].map((t) => Math.round(t * fs));
+    for (const c of clicks) signal[c] = 0.8;
+    const [y] = stretchArrays([signal], { sampleRateHz: fs, ratio: 1.5 });
+    for (const c of clicks) {
+      let peakAt = 0, peak = 0;
+      for (let i = Math.round(1.5 * c - 0.05 * fs); i < 1.5 * c + 0.05 * fs; i++) if (y![i]! ** 2 > peak) [peak, peakAt] = [y![i]! ** 2, i];
+      expect(Math.abs(peakAt - 1.5 * c) / fs).toBeLessThan(0.002);
+    }
+  });
+});
+
 describe('time-stretch: transients', () => {
   it('a click train stretched by 1.5 keeps every click within ±2 ms and ≥ 80 % of its energy in 5 ms', () => {
     // Source: required by the issue; expected position R·t for a click at t (definition of the ratio).
