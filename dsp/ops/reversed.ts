@@ -40,7 +40,7 @@ export const reversed: AnalysisOp<ReversedResult> = {
         title: judged.length > 0 ? 'No channel plays backwards' : 'Too little material to judge direction',
         sentence:
           judged.length > 0
-            ? `Every channel starts its sounds quickly and lets them decay, as forward material does (scores ${result.channels.map((c) => c.score.toFixed(2)).join(', ')}; ${REVERSED_SCORE_THRESHOLD} or more would mean reversed).`
+            ? `No channel shows the swell-then-stop shape of sound played backwards (scores ${result.channels.map((c) => c.score.toFixed(2)).join(', ')}; ${REVERSED_SCORE_THRESHOLD} or more would mean reversed, below 0 reads as forward).`
             : `Less than ${REVERSED_MIN_ACTIVE_SECONDS} s of sound loud enough to tell whether a channel plays backwards.`,
         severity: judged.length > 0 ? 'ok' : 'info',
       });
