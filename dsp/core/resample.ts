@@ -21,6 +21,13 @@
  * fractional position selects the segment and one Horner evaluation per tap gives the
  * coefficients. For a constant ratio that is an exact fraction a/b with a small enough b, a bank of
  * b exact phases is precomputed instead (plain polyphase FIR, no per-sample coefficient work).
+ * The inner loops run as WebAssembly SIMD kernels (./simd-kernels.ts) when the engine has them,
+ * else as plain loops; both give the same samples to rounding.
+ *
+ * Time-varying ratio (a speed curve): the position advances by 1/ratio(p) per output sample. A
+ * curve whose ratio stays within 5 % of its lowest value is rendered with one kernel designed for
+ * that lowest ratio (no aliasing at any point; the passband edge is 0.45 × the slowest point's
+ * rate, e.g. 0.4455 for a ±0.5 % drift); wider curves rescale the kernel at every output sample.
  *
  * Alignment (latency handling): output frame n is the band-limited input at input position
  * p_n (p_0 = 0, p_{n+1} = p_n + 1/ratio(p_n)), so output frame 0 lines up with input frame 0 and
@@ -32,7 +39,8 @@
  * Ratio convention: ratio = output frames per input frame = (outRate / inRate) / factor, where
  * factor is the varispeed factor (played speed ÷ recorded speed; 2 plays twice as fast).
  */
-import { ParameterError } from '../errors.ts';
+import { BugError, ParameterError } from '../errors.ts';
+import { createSimdKernels, type SimdKernels } from './simd-kernels.ts';
 import type { AudioSource, Block } from '../source.ts';
 import { besselI0, kaiserBeta } from './window.ts';
 
@@ -145,7 +153,14 @@ export function exactFraction(x: number, maxDen: number): [number, number] | nul
 }
 
 /** Upper bound on the bank size (coefficients) for the exact-phase polyphase path. */
-const MAX_BANK = 1 << 16;
+const MAX_BANK = 1 << 17;
+/** Input frames handled per emission step (bounds the history buffer). */
+const CHUNK = 8192;
+
+export type ResampleEngine = 'auto' | 'simd' | 'js';
+
+/** Index of coefficient c (0…3) of tap k in the pair-interleaved Farrow layout of one segment. */
+const farrowIndex = (k: number, c: number) => 8 * (k >> 1) + 2 * c + (k & 1);
 
 export class Resampler {
   readonly channelCount: number;
@@ -153,27 +168,38 @@ export class Resampler {
   readonly design: KernelDesign;
   /** Input frames the kernel reaches past the current output position (held back until flush). */
   readonly lookaheadFrames: number;
+  /** 'simd' when the WebAssembly SIMD kernels run the inner loops, else 'js'. */
+  readonly engine: 'simd' | 'js';
 
   readonly #constant: number | null;
   readonly #varying: TimeVaryingRatio | null;
-  /** Half-length in input samples for the largest kernel used (history kept behind the position). */
+  /** Time-varying ratio rendered with one kernel (see the constructor). */
+  readonly #fixedKernel: boolean = false;
+  /** Half-length in input samples of the largest kernel used. */
   readonly #kMax: number;
-  // Uniform Farrow table for the constant / s = 1 kernel: [segment j][tap k][4].
+  readonly #segments: number;
+  // Uniform Farrow table (constant kernel, or s = 1): [segment j][tap pair][c0 c0' c1 c1' c2 c2' c3 c3'].
   readonly #uniK: number;
   readonly #uniTaps: number;
-  readonly #uniTable: Float64Array;
-  readonly #segments: number;
-  // Exact-phase bank (constant rational ratio): [phase j][tap k].
+  readonly #uni: Float64Array;
+  readonly #uniAt: number; // byte offset in kernel memory (SIMD)
+  // Exact-phase bank (constant rational step num/den): [phase j][tap k].
   readonly #bank: Float64Array | null;
-  readonly #bankNum: number; // step = num/den input frames per output frame
+  readonly #bankAt: number;
+  readonly #bankNum: number;
   readonly #bankDen: number;
-  // Symmetric table of h(u), u ≥ 0, for the time-varying path with s < 1: [segment][4].
+  // Symmetric table of h(u), u ≥ 0, for time-varying ratios below 1: [segment][4].
   readonly #symTable: Float64Array | null;
   readonly #symSegments: number;
   readonly #coef: Float64Array;
+  readonly #coefAt: number;
+  readonly #outSlot: Float64Array;
+  readonly #outAt: number;
+  readonly #simd: SimdKernels | null;
 
   // Input history: #hist[c][i] is input frame #origin + i; #filled frames are valid.
-  #hist: Float64Array[];
+  readonly #hist: Float64Array[];
+  readonly #histAt: number[];
   #origin: number;
   #filled = 0;
   // Position of the next output: #base + #frac (or #base + #phase/#bankDen in bank mode).
@@ -185,7 +211,7 @@ export class Resampler {
   readonly #stepInt: number;
   readonly #stepFrac: number;
 
-  constructor(options: ResamplerOptions) {
+  constructor(options: ResamplerOptions & { engine?: ResampleEngine }) {
     const { channelCount } = options;
     if (!Number.isInteger(channelCount) || channelCount < 1) {
       throw new ParameterError(`channelCount=${channelCount} must be a whole number ≥ 1`);
@@ -209,61 +235,92 @@ export class Resampler {
       checkRatio(options.ratio.minRatio, 'minRatio');
       this.#constant = null;
       this.#varying = options.ratio;
-      sConst = 1;
+      const { minRatio, maxRatio } = options.ratio;
+      // A curve that stays within 5 % (drift, slow wow) uses one kernel designed for its lowest
+      // ratio: no aliasing anywhere, passband edge at 0.45 × the slowest point's rate, and the fast
+      // fixed-kernel loops. Wider curves rescale the kernel at every output sample (exact, slower).
+      this.#fixedKernel = maxRatio !== undefined && maxRatio / minRatio <= 1.05;
+      sConst = this.#fixedKernel ? Math.min(1, minRatio) : 1;
     }
     const sMin = this.#varying ? Math.min(1, this.#varying.minRatio) : sConst;
     this.#kMax = Math.ceil(d.halfWidth / sMin) + 1;
     this.lookaheadFrames = this.#kMax;
-
-    // Uniform table: taps k = 0…T−1 sit at t = (k − K + 1) − frac for frac ∈ [0, 1).
     const L = d.segmentsPerSample;
     this.#segments = L;
     const K = Math.ceil(d.halfWidth / sConst);
     const T = 2 * K;
     this.#uniK = K;
     this.#uniTaps = T;
-    this.#uniTable = new Float64Array(L * T * 4);
-    const g = (t: number) => sConst * kernelValue(d, sConst * t);
-    // Values at frac = j/L + i/(3L), i = 0…3, shared between neighbouring segments.
-    const col = new Float64Array(3 * L + 1);
-    for (let k = 0; k < T; k++) {
-      const t0 = k - K + 1;
-      for (let q = 0; q <= 3 * L; q++) col[q] = g(t0 - q / (3 * L));
-      for (let j = 0; j < L; j++) {
-        const q = 3 * j;
-        cubicThrough(col[q]!, col[q + 1]!, col[q + 2]!, col[q + 3]!, this.#uniTable, (j * T + k) * 4);
-      }
-    }
 
-    // Exact-phase bank for constant rational steps.
-    this.#bank = null;
-    this.#bankNum = 0;
-    this.#bankDen = 0;
-    let stepInt = 0, stepFrac = 0;
+    // Exact-phase bank for constant rational steps (decided first: it sizes the memory).
+    let stepInt = 0, stepFrac = 0, num = 0, den = 0;
     if (this.#constant !== null) {
       const step = 1 / this.#constant;
       stepInt = Math.floor(step);
       stepFrac = step - stepInt;
       const frac = exactFraction(step, Math.floor(MAX_BANK / T));
-      if (frac) {
-        const [num, den] = frac;
-        this.#bankNum = num;
-        this.#bankDen = den;
-        const bank = new Float64Array(den * T);
-        for (let j = 0; j < den; j++) this.#uniformCoefficients(j / den, bank, j * T);
-        this.#bank = bank;
-      }
+      if (frac) [num, den] = frac;
     }
     this.#stepInt = stepInt;
     this.#stepFrac = stepFrac;
+    this.#bankNum = num;
+    this.#bankDen = den;
+
+    // One memory for everything the inner loops touch (WebAssembly memory when SIMD is used).
+    const coefLen = 2 * this.#kMax + 2;
+    const histCap = CHUNK + 2 * this.#kMax + 8;
+    const sizes = [L * T * 4, den * T, coefLen, 2 * channelCount, ...Array.from({ length: channelCount }, () => histCap)];
+    const offsets: number[] = [];
+    let total = 0;
+    for (const n of sizes) {
+      offsets.push(total);
+      total += n + (n & 1); // keep every region 16-byte aligned
+    }
+    const engine = options.engine ?? 'auto';
+    this.#simd = engine === 'js' ? null : createSimdKernels(8 * total);
+    if (engine === 'simd' && !this.#simd) throw new ParameterError('WebAssembly SIMD is not available here');
+    this.engine = this.#simd ? 'simd' : 'js';
+    const memory = this.#simd ? this.#simd.f64 : new Float64Array(total);
+    const view = (i: number) => memory.subarray(offsets[i]!, offsets[i]! + sizes[i]!);
+    this.#uni = view(0);
+    this.#uniAt = 8 * offsets[0]!;
+    this.#coef = view(2);
+    this.#coefAt = 8 * offsets[2]!;
+    this.#outSlot = view(3);
+    this.#outAt = 8 * offsets[3]!;
+    this.#hist = Array.from({ length: channelCount }, (_, c) => view(4 + c));
+    this.#histAt = Array.from({ length: channelCount }, (_, c) => 8 * offsets[4 + c]!);
+
+    // Uniform table: taps k = 0…T−1 sit at t = (k − K + 1) − frac for frac ∈ [0, 1); each segment a
+    // cubic through four exact kernel values (shared with the neighbouring segments).
+    const g = (t: number) => sConst * kernelValue(d, sConst * t);
+    const col = new Float64Array(3 * L + 1);
+    const cubic = new Float64Array(4);
+    for (let k = 0; k < T; k++) {
+      const t0 = k - K + 1;
+      for (let q = 0; q <= 3 * L; q++) col[q] = g(t0 - q / (3 * L));
+      for (let j = 0; j < L; j++) {
+        const q = 3 * j;
+        cubicThrough(col[q]!, col[q + 1]!, col[q + 2]!, col[q + 3]!, cubic, 0);
+        for (let c = 0; c < 4; c++) this.#uni[j * T * 4 + farrowIndex(k, c)] = cubic[c]!;
+      }
+    }
+    if (den > 0) {
+      const bank = view(1);
+      for (let j = 0; j < den; j++) this.#uniformCoefficientsJs(j / den, bank, j * T);
+      this.#bank = bank;
+      this.#bankAt = 8 * offsets[1]!;
+    } else {
+      this.#bank = null;
+      this.#bankAt = 0;
+    }
 
     // Symmetric table for time-varying ratios below 1.
-    if (this.#varying && this.#varying.minRatio < 1) {
-      const Ls = L;
-      const segs = Math.ceil(d.halfWidth * Ls) + 1;
+    if (this.#varying && !this.#fixedKernel && this.#varying.minRatio < 1) {
+      const segs = Math.ceil(d.halfWidth * L) + 1;
       const t = new Float64Array(segs * 4 + 8);
       const vals = new Float64Array(3 * segs + 1);
-      for (let q = 0; q <= 3 * segs; q++) vals[q] = kernelValue(d, q / (3 * Ls));
+      for (let q = 0; q <= 3 * segs; q++) vals[q] = kernelValue(d, q / (3 * L));
       for (let j = 0; j < segs; j++) cubicThrough(vals[3 * j]!, vals[3 * j + 1]!, vals[3 * j + 2]!, vals[3 * j + 3]!, t, j * 4);
       this.#symTable = t;
       this.#symSegments = segs;
@@ -271,13 +328,10 @@ export class Resampler {
       this.#symTable = null;
       this.#symSegments = 0;
     }
-    this.#coef = new Float64Array(2 * this.#kMax + 2);
 
     // History starts with kMax frames of silence before input frame 0.
     this.#origin = -this.#kMax;
     this.#filled = this.#kMax;
-    const cap = Math.max(8192, 4 * this.#kMax);
-    this.#hist = Array.from({ length: channelCount }, () => new Float64Array(cap));
   }
 
   /** Output frames a constant-ratio run over `inputFrames` produces: ⌈N·ratio⌉ (p_n < N). */
@@ -289,18 +343,55 @@ export class Resampler {
     return Math.ceil(inputFrames * this.#constant - 1e-9);
   }
 
-  /** Coefficients of the uniform kernel at fractional position `frac` into out[at…at+T). */
-  #uniformCoefficients(frac: number, out: Float64Array, at: number): void {
+  /** Coefficients of the uniform kernel at fractional position `frac` into out[at…at+T) (plain loop). */
+  #uniformCoefficientsJs(frac: number, out: Float64Array, at: number): void {
     const T = this.#uniTaps;
     const x = frac * this.#segments;
     let j = Math.floor(x);
     if (j >= this.#segments) j = this.#segments - 1;
     const mu = x - j;
-    const tab = this.#uniTable;
+    const tab = this.#uni;
     let o = j * T * 4;
-    for (let k = 0; k < T; k++, o += 4) {
-      out[at + k] = tab[o]! + mu * (tab[o + 1]! + mu * (tab[o + 2]! + mu * tab[o + 3]!));
+    for (let k = 0; k < T; k += 2, o += 8) {
+      out[at + k] = tab[o]! + mu * (tab[o + 2]! + mu * (tab[o + 4]! + mu * tab[o + 6]!));
+      out[at + k + 1] = tab[o + 1]! + mu * (tab[o + 3]! + mu * (tab[o + 5]! + mu * tab[o + 7]!));
     }
+  }
+
+  /** Uniform-kernel coefficients at `frac` into the coefficient scratch. */
+  #uniformCoefficients(frac: number): void {
+    if (!this.#simd) {
+      this.#uniformCoefficientsJs(frac, this.#coef, 0);
+      return;
+    }
+    const x = frac * this.#segments;
+    let j = Math.floor(x);
+    if (j >= this.#segments) j = this.#segments - 1;
+    this.#simd.farrow(this.#uniAt + 32 * j * this.#uniTaps, x - j, this.#uniTaps, this.#coefAt);
+  }
+
+  /**
+   * One output frame at `count` from T coefficients (in `h` at element `hOff`, byte `hAt` for SIMD)
+   * applied to history index `start` of every channel.
+   */
+  #apply(h: Float64Array, hOff: number, hAt: number, T: number, start: number, out: Float64Array[], count: number): void {
+    const C = this.channelCount;
+    const k = this.#simd;
+    if (k) {
+      if (C === 2) {
+        k.dot2(hAt, this.#histAt[0]! + 8 * start, this.#histAt[1]! + 8 * start, T, this.#outAt);
+        out[0]![count] = this.#outSlot[0]!;
+        out[1]![count] = this.#outSlot[1]!;
+      } else {
+        for (let c = 0; c < C; c++) {
+          k.dot1(hAt, this.#histAt[c]! + 8 * start, T, this.#outAt);
+          out[c]![count] = this.#outSlot[0]!;
+        }
+      }
+      return;
+    }
+    if (C === 2) dot2(h, hOff, T, this.#hist[0]!, this.#hist[1]!, start, out[0]!, out[1]!, count);
+    else for (let c = 0; c < C; c++) out[c]![count] = dot1(h, hOff, T, this.#hist[c]!, start);
   }
 
   /** Feeds one planar block; returns the output frames that are complete so far. */
@@ -313,19 +404,30 @@ export class Resampler {
     for (const ch of block) {
       if (ch.length !== n) throw new ParameterError('all channels of a block must have the same length');
     }
-    this.#append(block, n);
-    this.#inputFrames += n;
-    return this.#emit(Infinity);
+    const acc = new Collector(this.channelCount, this.#estimate(n));
+    for (let i = 0; i < n; i += CHUNK) {
+      const m = Math.min(CHUNK, n - i);
+      this.#append(block, i, m);
+      this.#inputFrames += m;
+      this.#emit(Infinity, acc);
+    }
+    return acc.result();
   }
 
   /** Ends the input: pads with silence and returns the remaining output frames. */
   flush(): Float64Array[] {
     if (this.#finished) return emptyBlock(this.channelCount, 0);
-    const pad = this.#kMax + 2;
-    const zeros = Array.from({ length: this.channelCount }, () => new Float64Array(pad));
-    this.#append(zeros, pad);
+    const acc = new Collector(this.channelCount, this.#estimate(this.#kMax + 2));
+    let pad = this.#kMax + 2;
+    const zeros = Array.from({ length: this.channelCount }, () => new Float64Array(Math.min(pad, CHUNK)));
+    while (pad > 0) {
+      const m = Math.min(pad, CHUNK);
+      this.#append(zeros, 0, m);
+      pad -= m;
+      this.#emit(this.#inputFrames, acc);
+    }
     this.#finished = true;
-    return this.#emit(this.#inputFrames);
+    return acc.result();
   }
 
   /** Starts a new run (same ratio and quality). */
@@ -340,64 +442,41 @@ export class Resampler {
     this.#finished = false;
   }
 
-  #append(block: Block, n: number): void {
-    let hist = this.#hist;
-    const cap = hist[0]!.length;
+  #estimate(inputFrames: number): number {
+    const r = this.#constant ?? Math.max(this.#varying!.maxRatio ?? 1, 1);
+    return Math.min(1 << 24, Math.ceil((inputFrames + this.#kMax + 2) * r) + 16);
+  }
+
+  #append(block: Block, from: number, n: number): void {
+    const cap = this.#hist[0]!.length;
     if (this.#filled + n > cap) {
       // Drop history no future output can reach.
       const keepFrom = Math.max(this.#origin, this.#base - this.#kMax - 1);
       const drop = keepFrom - this.#origin;
       const keep = this.#filled - drop;
-      const need = keep + n;
-      if (need > cap) {
-        const newCap = Math.max(need, 2 * cap);
-        hist = hist.map((h) => {
-          const g = new Float64Array(newCap);
-          g.set(h.subarray(drop, drop + keep));
-          return g;
-        });
-        this.#hist = hist;
-      } else {
-        for (const h of hist) h.copyWithin(0, drop, drop + keep);
-      }
+      if (keep + n > cap) throw new BugError('resampler history overflow');
+      for (const h of this.#hist) h.copyWithin(0, drop, drop + keep);
       this.#origin = keepFrom;
       this.#filled = keep;
     }
-    for (let c = 0; c < this.channelCount; c++) hist[c]!.set(block[c]!, this.#filled);
+    for (let c = 0; c < this.channelCount; c++) this.#hist[c]!.set(block[c]!.subarray(from, from + n), this.#filled);
     this.#filled += n;
   }
 
   /** Emits outputs whose kernel is covered by the history; with `limit`, only positions < limit. */
-  #emit(limit: number): Float64Array[] {
+  #emit(limit: number, acc: Collector): void {
     const lastIndex = this.#origin + this.#filled - 1; // newest input frame held
     const K = this.#kMax;
-    // Estimate how many outputs can come out, for allocation.
-    const avail = lastIndex - K - this.#base;
-    if (avail < 0) return emptyBlock(this.channelCount, 0);
-    const maxRatio = this.#constant ?? Math.max(this.#varying!.maxRatio ?? MAX_RATIO, 1);
-    let cap = Math.ceil((avail + 2) * maxRatio) + 2;
-    if (!Number.isFinite(cap) || cap > 1 << 24) cap = 1 << 24;
-    let out = emptyBlock(this.channelCount, cap);
-    let count = 0;
-    const C = this.channelCount;
-    const hist = this.#hist;
     const origin = this.#origin;
-    const x0 = hist[0]!;
-    const x1 = C > 1 ? hist[1]! : x0;
-
     if (this.#bank) {
-      const bank = this.#bank;
+      const bank = this.#bank, bankAt = this.#bankAt;
       const T = this.#uniTaps, Ku = this.#uniK;
       const num = this.#bankNum, den = this.#bankDen;
       const advInt = Math.floor(num / den), advRem = num - advInt * den;
       let base = this.#base, phase = this.#phase;
       while (base + K <= lastIndex && base + phase / den < limit) {
-        if (count === cap) out = grow(out, (cap *= 2));
-        const start = base - Ku + 1 - origin;
-        const off = phase * T;
-        if (C === 2) dot2(bank, off, T, x0, x1, start, out[0]!, out[1]!, count);
-        else for (let c = 0; c < C; c++) out[c]![count] = dot1(bank, off, T, hist[c]!, start);
-        count++;
+        const out = acc.slot();
+        this.#apply(bank, phase * T, bankAt + 8 * phase * T, T, base - Ku + 1 - origin, out, acc.count++);
         base += advInt;
         phase += advRem;
         if (phase >= den) {
@@ -407,31 +486,51 @@ export class Resampler {
       }
       this.#base = base;
       this.#phase = phase;
-    } else if (this.#constant !== null) {
-      const T = this.#uniTaps, Ku = this.#uniK, coef = this.#coef;
+    } else if (this.#constant !== null || this.#fixedKernel) {
+      const T = this.#uniTaps, Ku = this.#uniK;
       let base = this.#base, frac = this.#frac;
       const si = this.#stepInt, sf = this.#stepFrac;
+      const v = this.#varying;
+      const fused = this.#simd && this.channelCount === 2 ? this.#simd : null;
+      const L = this.#segments;
       while (base + K <= lastIndex && base + frac < limit) {
-        if (count === cap) out = grow(out, (cap *= 2));
+        const out = acc.slot();
         const start = base - Ku + 1 - origin;
-        this.#uniformCoefficients(frac, coef, 0);
-        if (C === 2) dot2(coef, 0, T, x0, x1, start, out[0]!, out[1]!, count);
-        else for (let c = 0; c < C; c++) out[c]![count] = dot1(coef, 0, T, hist[c]!, start);
-        count++;
-        frac += sf;
-        const carry = Math.floor(frac);
-        frac -= carry;
-        base += si + carry;
+        if (fused) {
+          // Coefficients and both channels' sums in one pass over the table.
+          const x = frac * L;
+          let j = Math.floor(x);
+          if (j >= L) j = L - 1;
+          fused.farrowDot2(this.#uniAt + 32 * j * T, x - j, this.#histAt[0]! + 8 * start, this.#histAt[1]! + 8 * start, T, this.#outAt);
+          out[0]![acc.count] = this.#outSlot[0]!;
+          out[1]![acc.count++] = this.#outSlot[1]!;
+        } else {
+          this.#uniformCoefficients(frac);
+          this.#apply(this.#coef, 0, this.#coefAt, T, start, out, acc.count++);
+        }
+        if (v) {
+          const r = v.ratioAt(base + frac);
+          if (!(r >= v.minRatio * (1 - 1e-9) && r <= (v.maxRatio ?? MAX_RATIO) * (1 + 1e-9))) {
+            throw new ParameterError(`ratio ${r} at input frame ${base + frac} is outside the declared range`);
+          }
+          frac += 1 / r;
+          const carry = Math.floor(frac);
+          frac -= carry;
+          base += carry;
+        } else {
+          frac += sf;
+          const carry = Math.floor(frac);
+          frac -= carry;
+          base += si + carry;
+        }
       }
       this.#base = base;
       this.#frac = frac;
     } else {
       const v = this.#varying!;
-      const coef = this.#coef;
       const d = this.design;
       let base = this.#base, frac = this.#frac;
       while (base + K <= lastIndex && base + frac < limit) {
-        if (count === cap) out = grow(out, (cap *= 2));
         const r = v.ratioAt(base + frac);
         if (!(r >= MIN_RATIO && r <= MAX_RATIO) || r < v.minRatio * (1 - 1e-9)) {
           throw new ParameterError(`ratio ${r} at input frame ${base + frac} is outside the declared range`);
@@ -440,16 +539,14 @@ export class Resampler {
         if (r >= 1) {
           Kc = this.#uniK;
           T = this.#uniTaps;
-          this.#uniformCoefficients(frac, coef, 0);
+          this.#uniformCoefficients(frac);
         } else {
           Kc = Math.ceil(d.halfWidth / r);
           T = 2 * Kc;
-          this.#scaledCoefficients(r, frac, Kc, T, coef);
+          this.#scaledCoefficients(r, frac, Kc, T, this.#coef);
         }
-        const start = base - Kc + 1 - origin;
-        if (C === 2) dot2(coef, 0, T, x0, x1, start, out[0]!, out[1]!, count);
-        else for (let c = 0; c < C; c++) out[c]![count] = dot1(coef, 0, T, hist[c]!, start);
-        count++;
+        const out = acc.slot();
+        this.#apply(this.#coef, 0, this.#coefAt, T, base - Kc + 1 - origin, out, acc.count++);
         frac += 1 / r;
         const carry = Math.floor(frac);
         frac -= carry;
@@ -458,7 +555,6 @@ export class Resampler {
       this.#base = base;
       this.#frac = frac;
     }
-    return out.map((o) => o.slice(0, count));
   }
 
   /** Coefficients s·h(s·t) for taps t = (k − K + 1) − frac, from the symmetric table. */
@@ -482,16 +578,32 @@ export class Resampler {
   }
 }
 
-function emptyBlock(channelCount: number, frames: number): Float64Array[] {
-  return Array.from({ length: channelCount }, () => new Float64Array(frames));
+/** Growable planar output for one process()/flush() call. */
+class Collector {
+  count = 0;
+  #out: Float64Array[];
+  constructor(readonly channelCount: number, capacity: number) {
+    this.#out = emptyBlock(channelCount, Math.max(16, capacity));
+  }
+  /** The arrays to write frame `count` into (grown when full). */
+  slot(): Float64Array[] {
+    if (this.count === this.#out[0]!.length) {
+      const cap = 2 * this.count;
+      this.#out = this.#out.map((o) => {
+        const g = new Float64Array(cap);
+        g.set(o);
+        return g;
+      });
+    }
+    return this.#out;
+  }
+  result(): Float64Array[] {
+    return this.#out.map((o) => o.slice(0, this.count));
+  }
 }
 
-function grow(out: Float64Array[], cap: number): Float64Array[] {
-  return out.map((o) => {
-    const g = new Float64Array(cap);
-    g.set(o);
-    return g;
-  });
+function emptyBlock(channelCount: number, frames: number): Float64Array[] {
+  return Array.from({ length: channelCount }, () => new Float64Array(frames));
 }
 
 /** Σ h[off+k]·x[start+k], two independent partial sums. */

@@ -167,9 +167,20 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
       for (const c of usable) {
         if (!kept.some((b) => sharedShare(c.m, b.m) >= 0.5)) kept.push(c);
       }
-      kept.sort((a, b) => b.evidence - a.evidence || b.total - a.total);
-      for (const { m, evidence } of kept) {
-        const hyps = humHypotheses(m.meanFundamentalHz, options.mainsHz);
+      // Several steady lines can each look like hum (a pure test tone, an electronic whine): rank
+      // them by evidence × the plausibility of the speed they imply, and let the winner keep only
+      // its share when another credible line implies a different speed.
+      const ranked = kept
+        .map((c) => {
+          const hyps = humHypotheses(c.m.meanFundamentalHz, options.mainsHz);
+          return { ...c, hyps, weight: c.evidence * (hyps[0]?.prior ?? 0) };
+        })
+        .filter((c) => c.hyps.length > 0)
+        .sort((a, b) => b.weight - a.weight || b.total - a.total);
+      const credible = ranked.filter((c) => c.evidence >= 0.5);
+      const weightSum = credible.reduce((s, c) => s + c.weight, 0);
+      for (const [rank, { m, evidence, hyps, weight }] of ranked.entries()) {
+        const lineShare = weightSum > 0 ? Math.min(1, 0.3 + weight / weightSum) : 1;
         const priorSum = hyps.reduce((s, h) => s + h.prior, 0);
         for (const h of hyps) {
           const share = priorSum > 0 ? h.prior / priorSum : 0;
@@ -177,7 +188,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
             method: 'hum',
             factor: m.meanFundamentalHz / h.mainsHz,
             // Unforced mains: both 50 and 60 Hz explain the line; the less plausible speed keeps less.
-            confidence: evidence * (options.mainsHz ? 1 : Math.min(1, 0.3 + share)),
+            confidence: evidence * lineShare * (options.mainsHz ? 1 : Math.min(1, 0.3 + share)),
             mainsHz: h.mainsHz,
             observedHz: m.meanFundamentalHz,
             uncertaintyPercent: (100 * m.uncertaintyHz) / m.meanFundamentalHz,
@@ -185,12 +196,15 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
           candidates.push(cand);
           if (!found.hum && h === hyps[0]) found.hum = { m, cand };
         }
-        if (m === kept[0]!.m && hyps.length > 1 && evidence >= 0.5) {
+        if (rank === 0 && hyps.length > 1 && evidence >= 0.5) {
           notes.push(
             `hum at ${fmtHz(m.meanFundamentalHz)} Hz fits ${hyps
               .map((h) => `${h.mainsHz} Hz mains at factor ${(m.meanFundamentalHz / h.mainsHz).toFixed(4)}`)
               .join(' or ')}; ${hyps[0]!.mainsHz} Hz was preferred as the more plausible speed (give --mains to decide)`,
           );
+        }
+        if (rank === 1 && evidence >= 0.5) {
+          notes.push(`another steady line at ${fmtHz(m.meanFundamentalHz)} Hz could also be hum (factor ${(m.meanFundamentalHz / hyps[0]!.mainsHz).toFixed(4)} with ${hyps[0]!.mainsHz} Hz mains)`);
         }
       }
     } else if (options.mainsHz) {
