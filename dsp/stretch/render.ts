@@ -40,7 +40,11 @@ export interface TransposePlan {
   readonly errorCents: number;
 }
 
-/** Size of the resampler's exact-phase bank (coefficients), as in dsp/core/resample.ts. */
+/**
+ * A lower bound on the resampler's exact-phase bank size (coefficients; dsp/core/resample.ts keeps
+ * its own, currently 2^17). Only speed depends on it: a fraction that does not fit makes the
+ * resampler take its general path, with the same result.
+ */
 const RESAMPLER_BANK = 1 << 16;
 const MAX_FRACTION_ERROR_CENTS = 0.05;
 
