@@ -127,7 +127,7 @@ export class TimeStretcher {
   readonly #y: Float64Array[]; // per channel modified spectrum
   #power: Float64Array;
   #powerPrev: Float64Array;
-  readonly #omega: Float64Array; // last ω̂ per bin (used when the analysis hop is 0)
+  readonly #omega: Float64Array; // last ω̂ of each peak bin (used when the analysis hop is 0)
   readonly #rotRe: Float64Array; // e^{jθ} per bin, θ = φ_out − φ_in (held through a transient zone)
   readonly #rotIm: Float64Array;
   // e^{jΔω_k} for the current Δ = H_s − H_a, and e^{jΔ·2π(q/64)/N} for q = −64…64 (weak peaks).
@@ -319,12 +319,15 @@ export class TimeStretcher {
     const d = this.#decimation, channels = this.channelCount, inMask = this.#inMask, monoMask = this.#monoMask;
     const scale = 1 / (d * channels);
     const limit = Math.floor(this.#written / d) + (this.#ended && this.#written % d ? 1 : 0);
-    for (let m = this.#monoWritten; m < limit; m++) {
-      let v = 0;
-      for (let i = m * d; i < Math.min(m * d + d, this.#written); i++) {
-        for (let c = 0; c < channels; c++) v += this.#inRings[c]![i & inMask]!;
+    const rings = this.#inRings, mono = this.#mono, written = this.#written;
+    for (let c = 0; c < channels; c++) {
+      const r = rings[c]!;
+      for (let m = this.#monoWritten; m < limit; m++) {
+        const start = m * d, stop = start + d <= written ? start + d : written;
+        let v = 0;
+        for (let i = start; i < stop; i++) v += r[i & inMask]!;
+        mono[m & monoMask] = c === 0 ? v * scale : mono[m & monoMask]! + v * scale;
       }
-      this.#mono[m & monoMask] = v * scale;
     }
     this.#monoWritten = Math.max(this.#monoWritten, limit);
     const size = det.frameSize, hop = det.hopSize;
@@ -335,9 +338,10 @@ export class TimeStretcher {
         // Zero-padded frames until the peak picker has decided on every frame that has input.
         if (start >= this.#monoWritten + (ONSET_LOOKAHEAD_FRAMES + 1) * hop) break;
       } else if (start + size > this.#monoWritten) break;
+      const have = this.#monoWritten;
       for (let i = 0; i < size; i++) {
         const t = start + i;
-        buf[i] = t < this.#monoWritten ? this.#mono[t & monoMask]! : 0;
+        buf[i] = t < have ? mono[t & monoMask]! : 0;
       }
       det.analyze(buf);
       const j = det.decide();
@@ -633,11 +637,9 @@ export class TimeStretcher {
         regionEnd = kp;
         for (let k = kp + 1; k < next; k++) if (pw[k]! < pw[regionEnd]!) regionEnd = k;
       }
-      const wk = omega[kp]!;
       for (let k = regionStart; k <= regionEnd; k++) {
         rr[k] = nr;
         ri[k] = ni;
-        omega[k] = wk;
       }
       for (let c = 0; c < channels; c++) {
         const x = xw[c]!, out = y[c]!;
