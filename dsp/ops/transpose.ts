@@ -21,12 +21,22 @@ export const transpose: CorrectionOp = {
     { name: 'cents', flag: 'cents', type: 'number', label: 'Cents', help: 'Raise or lower by this many cents (added to --semitones).', unit: 'cents', min: -2400, max: 2400 },
     { name: 'keepFormants', flag: 'keep-formants', type: 'boolean', label: 'Keep formants', help: 'Keep the spectral envelope, so a transposed voice still sounds like the same speaker.', default: false },
   ],
-  async prepare(source, params) {
+  async prepare(source, params, ctx) {
     const semitones = num(params, 'semitones'), cents = num(params, 'cents');
     if (semitones === undefined && cents === undefined) throw new ParameterError('say how far: --semitones S or --cents C');
     const total = 100 * (semitones ?? 0) + (cents ?? 0);
     const keepFormants = bool(params, 'keepFormants');
     const plan = planTranspose(total, QUALITY); // throws ParameterError beyond ±2400 cents
+    if (total === 0) {
+      ctx.warn('a transposition of 0 cents changes nothing; the output is an exact copy');
+      return {
+        sampleRateHz: source.sampleRateHz,
+        channelCount: source.channelCount,
+        framesHint: source.frames,
+        blocks: source.blocks(),
+        resolved: { cents: 0, factor: 1, stretchRatio: 1, fractionErrorCents: 0, keepFormants, quality: 'copy' },
+      };
+    }
     return {
       sampleRateHz: source.sampleRateHz,
       channelCount: source.channelCount,

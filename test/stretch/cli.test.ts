@@ -136,6 +136,17 @@ describe('reelwright stretch and transpose', () => {
   });
 });
 
+describe('reelwright transpose by nothing', () => {
+  it('copies the audio data exactly and says so', async () => {
+    // Source: exact identity (a transposition of 0 cents is the identity).
+    const out = path.join(dir, 'same.wav');
+    const r = await run('transpose', material, out, '--semitones', '0', '--quiet');
+    expect(r.code).toBe(0);
+    expect(r.err).toMatch(/changes nothing/);
+    expect(dataChunkBytes(out).equals(dataChunkBytes(material))).toBe(true);
+  });
+});
+
 describe('reelwright reversed', () => {
   it('does not flag the demo recording', async () => {
     // Source: the demo's true parameters (assets/demo/thornbury-reel7.json: reversedChannels []).
