@@ -99,17 +99,18 @@ export class SpectralEnvelope {
     this.estimate(power);
     const v = this.#env;
     const top = this.#m / 2;
-    const at = (x: number): number => {
-      if (x >= top) return v[top]!;
-      const i = Math.floor(x), f = x - i;
-      return v[i]! + f * (v[i + 1]! - v[i]!);
-    };
     const bins = this.fftSize / 2 + 1;
     const f = this.frequencyFactor;
     const lim = this.#limit;
     for (let k = 0; k < bins; k++) {
+      // Linear interpolation of the pooled envelope at k/4 and at k·f/4 (clamped at the top).
       const x = k / POOL;
-      let d = at(x * f) - at(x);
+      const i = Math.floor(x);
+      const here = i >= top ? v[top]! : v[i]! + (x - i) * (v[i + 1]! - v[i]!);
+      const xf = x * f;
+      const j = Math.floor(xf);
+      const there = j >= top ? v[top]! : v[j]! + (xf - j) * (v[j + 1]! - v[j]!);
+      let d = there - here;
       if (d > lim) d = lim;
       else if (d < -lim) d = -lim;
       out[k] = Math.exp(d);
