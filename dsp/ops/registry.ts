@@ -5,6 +5,10 @@
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
 import { spectrum } from './spectrum.ts';
+import { levels } from './levels.ts';
+import { flutter } from './flutter.ts';
+import { azimuth } from './azimuth.ts';
+import { align } from './align.ts';
 import { speed } from './speed.ts';
 import { varispeed } from './varispeed.ts';
 import { stretch } from './stretch.ts';
@@ -15,6 +19,10 @@ import { reversed } from './reversed.ts';
 export const operations: readonly Operation[] = [
   info,
   spectrum,
+  levels,
+  flutter,
+  azimuth,
+  align,
   speed,
   varispeed,
   stretch,

@@ -26,6 +26,7 @@ const OUTPUT_FLAGS: ParamSpec[] = [
 type Builtin = (argv: string[]) => Promise<number>;
 const BUILTINS: Record<string, { summary: string; run: Builtin }> = {
   diagnose: { summary: 'Run every analysis that applies and list the findings in plain words.', run: runDiagnose },
+  check: { summary: 'Check folders of transfers: every analysis, pass/warn/fail per file, HTML/JSON/CSV reports.', run: async (argv) => (await import('../check/index.ts')).runCheck(argv) },
 };
 
 /** Writes to stdout/stderr; replaceable in tests. */
