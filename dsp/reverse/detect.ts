@@ -18,8 +18,8 @@
  * Time reversal maps every step d to −d, so A(reversed) = −A(forward) exactly for a block-aligned
  * signal: the score is antisymmetric by construction. The reported `score` is −A: near +1 for
  * reversed percussive or spoken material, near −1 for the same played forwards, near 0 for
- * stationary material (tones, hiss) whose steps are symmetric. `likely` is score ≥ 0.3 over at
- * least 2 s of active material.
+ * stationary material (tones, hiss) whose steps are symmetric. `likely` also needs repeated
+ * evidence (see `looksReversed`): a single abrupt stop is not enough.
  *
  * Streaming: one pass; the only summary kept is the block-level envelope (100 values per second
  * per channel).
@@ -34,6 +34,9 @@ export interface ReversedChannel {
   readonly score: number;
   /** Seconds of material loud enough to judge. */
   readonly activeSeconds: number;
+  /** Level rises and falls of at least 6 dB within 10 ms. */
+  readonly abruptStarts: number;
+  readonly abruptStops: number;
 }
 
 export interface ReversedResult {
@@ -43,6 +46,7 @@ export interface ReversedResult {
 export const REVERSED_BLOCK_SECONDS = 0.01;
 export const REVERSED_SCORE_THRESHOLD = 0.3;
 export const REVERSED_MIN_ACTIVE_SECONDS = 2;
+export const REVERSED_MIN_EVENTS = 5;
 const FLOOR_DB = 60;
 const ACTIVE_DB = 35;
 
@@ -84,16 +88,28 @@ class Envelope {
   }
 }
 
+/** Steps of at least this size (dB per block) count as attacks or abrupt stops. */
+export const LARGE_STEP_DB = 6;
+
+export interface Asymmetry {
+  /** −A (see the module comment): positive when the envelope swells and stops abruptly. */
+  readonly score: number;
+  readonly activeBlocks: number;
+  /** Rising and falling steps of at least LARGE_STEP_DB among the active ones. */
+  readonly largeRises: number;
+  readonly largeFalls: number;
+}
+
 /** The asymmetry score of one block-power envelope (see the module comment). */
-export function asymmetryScore(power: Float32Array): { score: number; activeBlocks: number } {
+export function asymmetryScore(power: Float32Array): Asymmetry {
   const n = power.length;
-  if (n < 2) return { score: 0, activeBlocks: 0 };
+  if (n < 2) return { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0 };
   const db = new Float64Array(n);
   for (let i = 0; i < n; i++) db[i] = 10 * Math.log10(power[i]! + 1e-30);
   const sorted = Float64Array.from(db).sort();
   const peak = sorted[Math.min(n - 1, Math.floor(0.99 * (n - 1)))]!;
   const floor = peak - FLOOR_DB, active = peak - ACTIVE_DB;
-  let up = 0, down = 0, activeBlocks = 0;
+  let up = 0, down = 0, activeBlocks = 0, largeRises = 0, largeFalls = 0;
   for (let i = 0; i + 1 < n; i++) {
     const a = Math.max(db[i]!, floor), b = Math.max(db[i + 1]!, floor);
     if (Math.max(a, b) < active) continue;
@@ -101,9 +117,22 @@ export function asymmetryScore(power: Float32Array): { score: number; activeBloc
     const d = b - a;
     if (d > 0) up += d * d * d;
     else down -= d * d * d;
+    if (d >= LARGE_STEP_DB) largeRises++;
+    else if (d <= -LARGE_STEP_DB) largeFalls++;
   }
   const total = up + down;
-  return { score: total > 0 ? (down - up) / total : 0, activeBlocks };
+  return { score: total > 0 ? (down - up) / total : 0, activeBlocks, largeRises, largeFalls };
+}
+
+/**
+ * The decision: a clear asymmetry (score ≥ 0.3) over at least 2 s of active material, carried by
+ * repeated evidence — at least 5 abrupt stops (falls ≥ 6 dB within 10 ms). One abrupt stop (a tone
+ * that ends, an edit) weighs heavily in the score but is not evidence of reversal. (Counting alone
+ * would not do: the releases of speech also fall fast near their ends; the score weighs the size
+ * of the steps.)
+ */
+export function looksReversed(a: Asymmetry, activeSeconds: number): boolean {
+  return a.score >= REVERSED_SCORE_THRESHOLD && activeSeconds >= REVERSED_MIN_ACTIVE_SECONDS && a.largeFalls >= REVERSED_MIN_EVENTS;
 }
 
 /** Reads the source once and scores every channel. */
@@ -117,13 +146,15 @@ export async function detectReversedChannels(source: AudioSource, onProgress?: (
     onProgress?.(done / Math.max(1, source.frames));
   }
   const channels = envs.map((env, c) => {
-    const { score, activeBlocks } = asymmetryScore(env.values);
-    const activeSeconds = (activeBlocks * blockFrames) / source.sampleRateHz;
+    const a = asymmetryScore(env.values);
+    const activeSeconds = (a.activeBlocks * blockFrames) / source.sampleRateHz;
     return {
       channel: c + 1,
-      likely: score >= REVERSED_SCORE_THRESHOLD && activeSeconds >= REVERSED_MIN_ACTIVE_SECONDS,
-      score,
+      likely: looksReversed(a, activeSeconds),
+      score: a.score,
       activeSeconds,
+      abruptStarts: a.largeRises,
+      abruptStops: a.largeFalls,
     };
   });
   return { channels };

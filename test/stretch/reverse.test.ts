@@ -156,11 +156,13 @@ describe('reversed-channel detection', () => {
       ['noise', Float64Array.from({ length: 4 * FS }, () => 0.1 * g())],
       ['click train', clickTrain(FS, 4, 0.1, 0.2).signal],
       ['tone bursts', Float64Array.from({ length: 4 * FS }, (_, i) => (Math.floor(i / 12000) % 2 ? 0.3 * Math.sin(i * 0.05) : 0))],
+      // A line-up tone that ends abruptly into quieter programme: one abrupt stop, no reversal.
+      ['tone then noise', Float64Array.from({ length: 10 * FS }, (_, i) => (i < 7 * FS ? 0.25 * Math.sin((2 * Math.PI * 3150 * i) / FS) : 0.05 * g()))],
     ];
     const lines: string[] = [];
     for (const [name, x] of signals) {
       const res = await detectReversedChannels(new MemorySource([x], FS));
-      lines.push(`${name}: ${res.channels[0]!.score.toFixed(3)}`);
+      lines.push(`${name}: ${res.channels[0]!.score.toFixed(3)} (${res.channels[0]!.abruptStops} abrupt stops)`);
       expect(res.channels[0]!.likely).toBe(false);
     }
     console.log('[reversed] forward signals:\n  ' + lines.join('\n  '));
