@@ -25,7 +25,7 @@ export const reversed: AnalysisOp<ReversedResult> = {
         out.push({
           op: 'reversed',
           title: `Channel ${ch.channel} plays backwards`,
-          sentence: `Channel ${ch.channel} swells into its sounds and stops them abruptly — the signature of a recording played in reverse (score ${ch.score.toFixed(2)}; forward material scores below 0).`,
+          sentence: `Channel ${ch.channel} swells into its sounds and stops them abruptly — the signature of a recording played in reverse (score ${ch.score.toFixed(2)}, ${ch.abruptStops} abrupt stops against ${ch.abruptStarts} abrupt starts; forward material scores below 0).`,
           value: ch.score,
           confidence: Math.min(1, ch.score),
           severity: 'warn',
