@@ -11,6 +11,10 @@ import { flutter } from './flutter.ts';
 import { azimuth } from './azimuth.ts';
 import { varispeed } from './varispeed.ts';
 import { align } from './align.ts';
+import { stretch } from './stretch.ts';
+import { transpose } from './transpose.ts';
+import { reverse } from './reverse.ts';
+import { reversed } from './reversed.ts';
 
 export const operations: readonly Operation[] = [
   info,
@@ -21,6 +25,10 @@ export const operations: readonly Operation[] = [
   azimuth,
   varispeed,
   align,
+  stretch,
+  transpose,
+  reverse,
+  reversed,
 ];
 
 export function findOperation(name: string): Operation | undefined {
