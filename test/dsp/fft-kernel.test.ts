@@ -1,0 +1,203 @@
+/**
+ * The radix-4 kernel behind FftPlan at every power-of-two size: against the direct DFT for the
+ * smallest sizes, against fft.js (an independent npm implementation) at every size, round trips,
+ * and the input/aliasing cases the plan promises to handle.
+ */
+import { describe, expect, it } from 'vitest';
+import FFT from 'fft.js';
+import { FftPlan } from '../../dsp/core/fft.ts';
+import { seededRng } from '../helpers/rng.ts';
+
+type FftJs = {
+  transform(out: Float64Array, data: Float64Array): void;
+  inverseTransform(out: Float64Array, data: Float64Array): void;
+};
+
+const SIZES = Array.from({ length: 16 }, (_, i) => 2 ** (i + 1)); // 2 … 65536
+
+const noise = (n: number, seed: number) => {
+  const r = seededRng(seed);
+  return Float64Array.from({ length: n }, () => r() - 0.5);
+};
+const maxAbs = (a: ArrayLike<number>) => {
+  let m = 0;
+  for (let i = 0; i < a.length; i++) m = Math.max(m, Math.abs(a[i]!));
+  return m;
+};
+const maxDiff = (a: ArrayLike<number>, b: ArrayLike<number>, len = a.length) => {
+  let m = 0;
+  for (let i = 0; i < len; i++) m = Math.max(m, Math.abs(a[i]! - b[i]!));
+  return m;
+};
+
+/** Direct DFT of interleaved complex data; sign −1 forward, +1 inverse (unscaled). */
+function directDft(x: Float64Array, sign: number): Float64Array {
+  const n = x.length / 2;
+  const out = new Float64Array(2 * n);
+  for (let k = 0; k < n; k++) {
+    let sr = 0, si = 0;
+    for (let t = 0; t < n; t++) {
+      const a = (sign * 2 * Math.PI * ((k * t) % n)) / n;
+      const c = Math.cos(a), s = Math.sin(a);
+      sr += x[2 * t]! * c - x[2 * t + 1]! * s;
+      si += x[2 * t]! * s + x[2 * t + 1]! * c;
+    }
+    out[2 * k] = sr;
+    out[2 * k + 1] = si;
+  }
+  return out;
+}
+
+describe('FftPlan kernel at the smallest sizes', () => {
+  // Source: the DFT definition X[k] = Σ x[n] e^{−j2πkn/N} (Oppenheim & Schafer, DTSP, ch. 8).
+  for (const n of [2, 4, 8, 16, 32]) {
+    it(`N=${n}: complex forward/inverse and real forward/inverse equal the direct DFT`, () => {
+      const plan = new FftPlan(n);
+      const z = noise(2 * n, 17 + n);
+      const out = plan.createComplex();
+      plan.forward(z, out);
+      expect(maxDiff(out, directDft(z, -1))).toBeLessThan(1e-13);
+      plan.inverse(z, out);
+      const inv = directDft(z, 1).map((v) => v / n);
+      expect(maxDiff(out, inv)).toBeLessThan(1e-14);
+
+      const x = noise(n, 31 + n);
+      const xc = new Float64Array(2 * n);
+      for (let i = 0; i < n; i++) xc[2 * i] = x[i]!;
+      const full = directDft(xc, -1);
+      const half = plan.createHalfSpectrum();
+      plan.realForward(x, half);
+      expect(maxDiff(half, full, n + 2)).toBeLessThan(1e-13);
+      // Bins 0 and N/2 of a real signal are real: the plan writes exact zeros there.
+      expect(half[1]).toBe(0);
+      expect(half[n + 1]).toBe(0);
+      const y = new Float64Array(n);
+      plan.realInverse(half, y);
+      expect(maxDiff(y, x)).toBeLessThan(1e-15);
+    });
+  }
+});
+
+describe('FftPlan kernel at every power of two from 2 to 65536', () => {
+  it('complex transforms agree with fft.js and real transforms with fft.js on the zero-imaginary input', () => {
+    // Source: fft.js 4.0.4 (npm), an independent radix-4 implementation; float64 tolerance.
+    for (const n of SIZES) {
+      const plan = new FftPlan(n);
+      const ref = new FFT(n) as unknown as FftJs;
+      const z = noise(2 * n, n);
+      const ours = plan.createComplex(), theirs = plan.createComplex();
+      plan.forward(z, ours);
+      ref.transform(theirs, z);
+      const scale = maxAbs(theirs);
+      expect(maxDiff(ours, theirs) / scale, `forward N=${n}`).toBeLessThan(1e-13);
+      plan.inverse(z, ours);
+      ref.inverseTransform(theirs, z);
+      expect(maxDiff(ours, theirs) / maxAbs(theirs), `inverse N=${n}`).toBeLessThan(1e-13);
+
+      const x = noise(n, 3 * n);
+      const xc = new Float64Array(2 * n);
+      for (let i = 0; i < n; i++) xc[2 * i] = x[i]!;
+      ref.transform(theirs, xc);
+      const half = plan.createHalfSpectrum();
+      plan.realForward(x, half);
+      expect(maxDiff(half, theirs, n + 2) / maxAbs(theirs), `real forward N=${n}`).toBeLessThan(1e-13);
+    }
+  });
+
+  it('round trips: inverse(forward(z)) = z and realInverse(realForward(x)) = x', () => {
+    // Source: exact identity x = IDFT(DFT(x)); rounding grows like log2 N.
+    for (const n of SIZES) {
+      const plan = new FftPlan(n);
+      const z = noise(2 * n, 5 * n);
+      const spec = plan.createComplex(), back = plan.createComplex();
+      plan.forward(z, spec);
+      plan.inverse(spec, back);
+      expect(maxDiff(back, z), `complex N=${n}`).toBeLessThan(1e-14);
+      const x = noise(n, 7 * n);
+      const half = plan.createHalfSpectrum();
+      const y = new Float64Array(n);
+      plan.realForward(x, half);
+      plan.realInverse(half, y);
+      expect(maxDiff(y, x), `real N=${n}`).toBeLessThan(1e-14);
+    }
+  });
+
+  it('realInverse treats bins 0 and N/2 like the fft.js-based split it replaced', () => {
+    // Source: the split identity IDFT_{N/2}(E + jO) = x[2n] + j·x[2n+1] with
+    // E[k] = (X[k] + X*[N/2−k])/2, O[k] = (X[k] − X*[N/2−k])/2·e^{+j2πk/N}, evaluated here with
+    // fft.js; a half spectrum with imaginary parts at DC and Nyquist (not a real signal's) must
+    // give the same samples as before.
+    for (const n of [4, 8, 64, 2048]) {
+      const plan = new FftPlan(n);
+      const h = n / 2;
+      const spec = noise(n + 2, 11 * n);
+      const z = new Float64Array(n);
+      for (let k = 0; k < h; k++) {
+        const xr = spec[2 * k]!, xi = spec[2 * k + 1]!;
+        const yr = spec[2 * (h - k)]!, yi = -spec[2 * (h - k) + 1]!;
+        const c = Math.cos((2 * Math.PI * k) / n), s = Math.sin((2 * Math.PI * k) / n);
+        const dr = 0.5 * (xr - yr), di = 0.5 * (xi - yi);
+        z[2 * k] = 0.5 * (xr + yr) - (dr * s + di * c);
+        z[2 * k + 1] = 0.5 * (xi + yi) + (dr * c - di * s);
+      }
+      const expected = new Float64Array(n);
+      (new FFT(h) as unknown as FftJs).inverseTransform(expected, z);
+      const y = new Float64Array(n);
+      plan.realInverse(spec, y);
+      expect(maxDiff(y, expected), `N=${n}`).toBeLessThan(1e-15);
+    }
+  });
+});
+
+describe('FftPlan inputs', () => {
+  it('realForward accepts plain arrays, Float32Arrays and an input sharing memory with the output', () => {
+    // Source: exact identity — the same numbers give the same spectrum whatever holds them.
+    const n = 256;
+    const plan = new FftPlan(n);
+    const x = noise(n, 99);
+    const want = plan.createHalfSpectrum();
+    plan.realForward(x, want);
+    const got = plan.createHalfSpectrum();
+    plan.realForward(Array.from(x), got);
+    expect(maxDiff(got, want)).toBe(0);
+    const x32 = Float32Array.from(x);
+    const want32 = plan.createHalfSpectrum();
+    plan.realForward(Float64Array.from(x32), want32);
+    plan.realForward(x32, got);
+    expect(maxDiff(got, want32)).toBe(0);
+    // Input in the first N numbers of the output buffer itself.
+    const shared = plan.createHalfSpectrum();
+    shared.set(x);
+    plan.realForward(shared.subarray(0, n), shared);
+    expect(maxDiff(shared, want)).toBe(0);
+  });
+
+  it('realInverse may write over its own spectrum buffer', () => {
+    // Source: exact identity x = IDFT(DFT(x)).
+    const n = 512;
+    const plan = new FftPlan(n);
+    const x = noise(n, 123);
+    const spec = plan.createHalfSpectrum();
+    plan.realForward(x, spec);
+    plan.realInverse(spec, spec.subarray(0, n));
+    expect(maxDiff(spec.subarray(0, n), x)).toBeLessThan(1e-15);
+  });
+
+  it('complex transforms refuse the same array as input and output', () => {
+    const plan = new FftPlan(8);
+    const z = plan.createComplex();
+    expect(() => plan.forward(z, z)).toThrow(/must be different/);
+    expect(() => plan.inverse(z, z)).toThrow(/must be different/);
+  });
+
+  it('plans of the same size are independent (shared tables are read-only)', () => {
+    // Source: exact identity — two plans given the same input give the same output.
+    const a = new FftPlan(1024), b = new FftPlan(1024);
+    const x = noise(1024, 5), y = noise(1024, 6);
+    const sa = a.createHalfSpectrum(), sb = b.createHalfSpectrum(), sa2 = a.createHalfSpectrum();
+    a.realForward(x, sa);
+    b.realForward(y, sb);
+    a.realForward(x, sa2);
+    expect(maxDiff(sa, sa2)).toBe(0);
+  });
+});
