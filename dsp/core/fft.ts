@@ -16,6 +16,7 @@
  * inverse (before the transform), so no call allocates.
  */
 import { ParameterError } from '../errors.ts';
+import { wasmFft, type WasmComplexTables, type WasmFft } from './fft-wasm.ts';
 
 export const isPowerOfTwo = (n: number): boolean => Number.isInteger(n) && n >= 2 && (n & (n - 1)) === 0;
 export const nextPowerOfTwo = (n: number): number => {
@@ -168,9 +169,57 @@ function complexTransform(src: Float64Array, dst: Float64Array, t: Radix4Tables,
   }
 }
 
+/** Kernels a plan runs on: WebAssembly SIMD (see fft-wasm.ts) or the TypeScript ones above. */
+export type FftKernels = 'wasm-simd' | 'js';
+
+/** Below this size the copies in and out of WebAssembly memory cost more than they save. */
+const WASM_MIN_SIZE = 16;
+let allowWasm = true;
+
+/**
+ * Chooses the kernels for plans created from now on: 'auto' (WebAssembly SIMD where available,
+ * the default) or 'js'. Both give identical numbers; this exists for tests and benchmarks.
+ */
+export function setFftKernels(choice: 'auto' | 'js'): void {
+  allowWasm = choice === 'auto';
+}
+
+/** The kernels a plan of `size` created now would use. */
+export function fftKernelsFor(size: number): FftKernels {
+  return allowWasm && size >= WASM_MIN_SIZE && wasmFft() !== null ? 'wasm-simd' : 'js';
+}
+
+/** A window held in WebAssembly memory: which array it was copied from, and where it is. */
+interface WindowCopy {
+  readonly source: Float64Array;
+  readonly at: number;
+}
+
+/** State of a plan running on the WebAssembly kernels. */
+interface WasmPlan {
+  readonly fft: WasmFft;
+  readonly half: WasmComplexTables;
+  full: WasmComplexTables | null;
+  readonly split: number;
+  readonly join: number;
+  /** fft.generation the views below were made for. */
+  generation: number;
+  heap: Float64Array;
+  /** Persistent copies of the windows last given to realForwardWindowed / realInverseAdd. */
+  forwardWindow: WindowCopy | null;
+  inverseWindow: WindowCopy | null;
+  /** Views of the scratch areas: B as a half spectrum, A as N samples, B as 2N numbers, C as N. */
+  spectrumB: Float64Array;
+  samplesA: Float64Array;
+  complexB: Float64Array;
+  samplesC: Float64Array;
+}
+
 /** A power-of-two FFT plan. Not re-entrant: one plan per thread of work. */
 export class FftPlan {
   readonly size: number;
+  /** Which kernels this plan runs on (fixed at construction). */
+  readonly kernels: FftKernels;
   /** Tables for N-point complex transforms, made on first use. */
   #full: Radix4Tables | null = null;
   /** Tables for the N/2-point complex transform behind the real transforms. */
@@ -179,6 +228,9 @@ export class FftPlan {
   readonly #split: Float64Array;
   /** Scratch of N numbers for inputs that are not Float64Arrays or share memory with the output. */
   readonly #scratch: Float64Array;
+  /** Second scratch of N numbers (realInverseAdd on the TypeScript kernels), made on first use. */
+  #scratch2: Float64Array | null = null;
+  readonly #wasm: WasmPlan | null;
 
   constructor(size: number) {
     if (!isPowerOfTwo(size)) throw new ParameterError(`fftSize=${size} must be a power of two ≥ 2`);
@@ -192,19 +244,63 @@ export class FftPlan {
       this.#split[2 * k + 1] = -0.5 * Math.sin(ang);
     }
     this.#scratch = new Float64Array(size);
+    this.kernels = fftKernelsFor(size);
+    this.#wasm = null;
+    if (this.kernels === 'wasm-simd') {
+      const fft = wasmFft()!;
+      fft.ensureScratch(2 * size + 2);
+      const half = fft.complexTables(this.#half);
+      const split = fft.splitTable(size, this.#split);
+      const join = fft.joinTable(size, this.#split);
+      const none = new Float64Array(0);
+      this.#wasm = { fft, half, full: null, split, join, forwardWindow: null, inverseWindow: null, generation: -1, heap: none, spectrumB: none, samplesA: none, complexB: none, samplesC: none };
+    }
+  }
+
+  /** The plan's WebAssembly state with views refreshed after any growth of the shared memory. */
+  #w(): WasmPlan {
+    const w = this.#wasm!;
+    const f = w.fft;
+    if (w.generation !== f.generation) {
+      const n = this.size, h = f.heap;
+      w.heap = h;
+      w.spectrumB = h.subarray(f.b / 8, f.b / 8 + n + 2);
+      w.samplesA = h.subarray(f.a / 8, f.a / 8 + n);
+      w.complexB = h.subarray(f.b / 8, f.b / 8 + 2 * n);
+      w.samplesC = h.subarray(f.c / 8, f.c / 8 + n);
+      w.generation = f.generation;
+    }
+    return w;
   }
 
   /** Complex forward transform. `out` and `input` (length 2N) must be different arrays. */
   forward(input: Float64Array, out: Float64Array): void {
     if (out === input) throw new Error('Input and output buffers must be different');
+    if (this.#wasm) {
+      const t = (this.#wasm.full ??= this.#wasm.fft.complexTables(this.#fullTables())); // may grow memory
+      const w = this.#w(), f = w.fft;
+      copyIn(w.heap, f.a / 8, input, 2 * this.size);
+      f.kernels.fft(f.a, f.b, t.rev, t.forward, t.m, t.radix, 0);
+      out.set(w.complexB);
+      return;
+    }
     complexTransform(input, out, this.#fullTables(), false);
   }
 
   /** Complex inverse transform with 1/N scaling. */
   inverse(input: Float64Array, out: Float64Array): void {
     if (out === input) throw new Error('Input and output buffers must be different');
-    complexTransform(input, out, this.#fullTables(), true);
     const s = 1 / this.size, n2 = 2 * this.size;
+    if (this.#wasm) {
+      const t = (this.#wasm.full ??= this.#wasm.fft.complexTables(this.#fullTables())); // may grow memory
+      const w = this.#w(), f = w.fft;
+      copyIn(w.heap, f.a / 8, input, n2);
+      f.kernels.fft(f.a, f.b, t.rev, t.inverse, t.m, t.radix, 1);
+      f.kernels.scale(f.b, n2, s);
+      out.set(w.complexB);
+      return;
+    }
+    complexTransform(input, out, this.#fullTables(), true);
     for (let i = 0; i < n2; i++) out[i]! *= s;
   }
 
@@ -215,6 +311,14 @@ export class FftPlan {
   /** Real forward transform: `input` length N, `out` length N+2 (bins 0…N/2, interleaved). */
   realForward(input: ArrayLike<number>, out: Float64Array): void {
     const n = this.size;
+    if (this.#wasm) {
+      const w = this.#w(), f = w.fft;
+      copyIn(w.heap, f.a / 8, input, n);
+      f.kernels.fft(f.a, f.b, w.half.rev, w.half.forward, w.half.m, w.half.radix, 0);
+      f.kernels.split(f.b, w.split, n);
+      out.set(w.spectrumB);
+      return;
+    }
     let x: Float64Array;
     if (input instanceof Float64Array && input.buffer !== out.buffer) x = input;
     else {
@@ -235,6 +339,28 @@ export class FftPlan {
   }
 
   /**
+   * Real forward transform of the windowed segment input[offset + i]·window[i], i = 0…N−1 (for
+   * streaming analysers). Same numbers as windowing into a buffer and calling realForward.
+   * The plan may keep its own copy of `window` while the same array is passed again: treat the
+   * window as read-only, and pass a new array to change it.
+   */
+  realForwardWindowed(input: Float64Array, offset: number, window: Float64Array, out: Float64Array): void {
+    const n = this.size;
+    if (this.#wasm) {
+      const win = this.#windowCopy(window, false);
+      const w = this.#w(), f = w.fft;
+      w.heap.set(input.subarray(offset, offset + n), f.a / 8);
+      f.kernels.fftWindowed(f.a, win, f.b, w.half.rev, w.half.forward, w.half.m, w.half.radix, 0);
+      f.kernels.split(f.b, w.split, n);
+      out.set(w.spectrumB);
+      return;
+    }
+    const x = this.#scratch;
+    for (let i = 0; i < n; i++) x[i] = input[offset + i]! * window[i]!;
+    this.realForward(x, out);
+  }
+
+  /**
    * Real inverse transform with 1/N scaling: `spectrum` holds bins 0…N/2 (length N+2) of a real
    * signal, `out` receives N samples. Uses one N/2-point complex transform: with
    * E[k] = (X[k] + X*[N/2−k])/2 and O[k] = (X[k] − X*[N/2−k])/2 · e^{+j2πk/N},
@@ -242,6 +368,14 @@ export class FftPlan {
    */
   realInverse(spectrum: Float64Array, out: Float64Array): void {
     const n = this.size;
+    if (this.#wasm) {
+      const w = this.#w(), f = w.fft;
+      copyIn(w.heap, f.a / 8, spectrum, n + 2);
+      f.kernels.join(f.a, f.b, w.join, n, 1 / n);
+      f.kernels.fft(f.b, f.a, w.half.rev, w.half.inverse, w.half.m, w.half.radix, 1);
+      out.set(w.samplesA);
+      return;
+    }
     if (n === 2) {
       const a = spectrum[0]!, b = spectrum[2]!;
       out[0] = (a + b) / 2;
@@ -253,6 +387,47 @@ export class FftPlan {
     complexTransform(z, out, this.#half, true);
   }
 
+  /**
+   * Weighted overlap-add of one frame: acc[offset + i] += window[i]·x[i], i = 0…N−1, where x is
+   * realInverse(spectrum). Same numbers as realInverse into a buffer followed by that loop.
+   * As for realForwardWindowed, treat `window` as read-only (the plan may keep a copy).
+   */
+  realInverseAdd(spectrum: Float64Array, window: Float64Array, acc: Float64Array, offset: number): void {
+    const n = this.size;
+    if (this.#wasm) {
+      const win = this.#windowCopy(window, true);
+      const w = this.#w(), f = w.fft, h = w.heap;
+      copyIn(h, f.a / 8, spectrum, n + 2);
+      h.set(acc.subarray(offset, offset + n), f.c / 8);
+      f.kernels.join(f.a, f.b, w.join, n, 1 / n);
+      f.kernels.fft(f.b, f.a, w.half.rev, w.half.inverse, w.half.m, w.half.radix, 1);
+      f.kernels.overlapAdd(f.c, f.a, win, n);
+      acc.set(w.samplesC, offset);
+      return;
+    }
+    const t = (this.#scratch2 ??= new Float64Array(n));
+    this.realInverse(spectrum, t);
+    for (let i = 0; i < n; i++) acc[offset + i]! += t[i]! * window[i]!;
+  }
+
+  /**
+   * Byte offset of this plan's copy of `window` in WebAssembly memory, copied again only when a
+   * different array is passed (see the contract on realForwardWindowed). May grow the memory, so
+   * call it before #w().
+   */
+  #windowCopy(window: Float64Array, inverse: boolean): number {
+    const w = this.#wasm!;
+    const held = inverse ? w.inverseWindow : w.forwardWindow;
+    if (held && held.source === window) return held.at;
+    const n = this.size;
+    const at = held ? held.at : w.fft.area(this, 8 * n);
+    w.fft.heap.set(window.length === n ? window : window.subarray(0, n), at / 8);
+    const copy = { source: window, at };
+    if (inverse) w.inverseWindow = copy;
+    else w.forwardWindow = copy;
+    return at;
+  }
+
   /** A zeroed buffer for complex data of this size (2N numbers). */
   createComplex(): Float64Array {
     return new Float64Array(2 * this.size);
@@ -262,6 +437,15 @@ export class FftPlan {
   createHalfSpectrum(): Float64Array {
     return new Float64Array(this.size + 2);
   }
+}
+
+/** Copies the first `count` numbers of `src` into heap[at…]. */
+function copyIn(heap: Float64Array, at: number, src: ArrayLike<number>, count: number): void {
+  if (src instanceof Float64Array || src instanceof Float32Array) {
+    heap.set(src.length === count ? src : src.subarray(0, count), at);
+    return;
+  }
+  for (let i = 0; i < count; i++) heap[at + i] = src[i]!;
 }
 
 /**
