@@ -48,7 +48,9 @@ function checkFraming(fftSize: number, hopSize: number): void {
 export class StftAnalyzer {
   readonly fftSize: number;
   readonly hopSize: number;
+  /** The analysis window. Frames use a copy taken at construction. */
   readonly window: Float64Array;
+  readonly #window: Float64Array;
   readonly #plan: FftPlan;
   /**
    * Input history. The current frame's samples are #buf[#start … #start + #filled); frames move
@@ -56,7 +58,6 @@ export class StftAnalyzer {
    * next hop would not fit.
    */
   readonly #buf: Float64Array;
-  readonly #windowed: Float64Array;
   readonly #spec: Float64Array;
   #start = 0;
   #filled: number;
@@ -72,8 +73,8 @@ export class StftAnalyzer {
     checkFraming(this.fftSize, this.hopSize);
     this.#plan = new FftPlan(this.fftSize);
     this.window = resolveWindow(options.window, this.fftSize);
+    this.#window = this.window.slice();
     this.#buf = new Float64Array(bufferLength(this.fftSize, this.hopSize));
-    this.#windowed = new Float64Array(this.fftSize);
     this.#spec = this.#plan.createHalfSpectrum();
     // The leading fftSize − hopSize zeros are already in the buffer.
     this.#filled = this.fftSize - this.hopSize;
@@ -91,8 +92,7 @@ export class StftAnalyzer {
     while (i < len) {
       if (this.#start + n > b.length) this.#compact();
       const take = Math.min(n - this.#filled, len - i);
-      const at = this.#start + this.#filled;
-      for (let j = 0; j < take; j++) b[at + j] = samples[i + j]!;
+      b.set(take === len ? samples : samples.subarray(i, i + take), this.#start + this.#filled);
       this.#filled += take;
       this.#inputTotal += take;
       i += take;
@@ -123,9 +123,8 @@ export class StftAnalyzer {
   }
 
   #emit(): void {
-    const n = this.fftSize, w = this.window, b = this.#buf, x = this.#windowed, s = this.#start;
-    for (let i = 0; i < n; i++) x[i] = b[s + i]! * w[i]!;
-    this.#plan.realForward(x, this.#spec);
+    const n = this.fftSize, s = this.#start;
+    this.#plan.realForwardWindowed(this.#buf, s, this.#window, this.#spec);
     this.onFrame(this.#spec, this.#frame++);
     this.#start = s + this.hopSize;
     this.#filled = n - this.hopSize;
@@ -168,7 +167,6 @@ export class OverlapAdder {
    * zeroed) only when the next frame would not fit.
    */
   readonly #acc: Float64Array;
-  readonly #time: Float64Array;
   readonly #out: Float64Array;
   #start = 0;
 
@@ -178,23 +176,22 @@ export class OverlapAdder {
     checkFraming(this.fftSize, this.hopSize);
     this.#plan = new FftPlan(this.fftSize);
     const analysis = resolveWindow(options.window, this.fftSize);
-    this.#synthesis = options.synthesisWindow ? resolveWindow(options.synthesisWindow, this.fftSize) : analysis;
+    // Copies: the plan may keep its own copy of the window, so ours must not change.
+    this.#synthesis = (options.synthesisWindow ? resolveWindow(options.synthesisWindow, this.fftSize) : analysis).slice();
     this.#norm = wolaNormalizer(analysis, this.#synthesis, this.hopSize);
     this.#acc = new Float64Array(bufferLength(this.fftSize, this.hopSize));
-    this.#time = new Float64Array(this.fftSize);
     this.#out = new Float64Array(this.hopSize);
   }
 
   addFrame(spectrum: Float64Array): Float64Array {
-    const n = this.fftSize, h = this.hopSize, t = this.#time, a = this.#acc, w = this.#synthesis;
+    const n = this.fftSize, h = this.hopSize, a = this.#acc, w = this.#synthesis;
     let s = this.#start;
     if (s + n > a.length) {
       a.copyWithin(0, s, s + n - h);
       a.fill(0, n - h);
       s = 0;
     }
-    this.#plan.realInverse(spectrum, t);
-    for (let i = 0; i < n; i++) a[s + i]! += t[i]! * w[i]!;
+    this.#plan.realInverseAdd(spectrum, w, a, s);
     const out = this.#out, d = this.#norm;
     for (let i = 0; i < h; i++) out[i] = a[s + i]! / d[i]!;
     this.#start = s + h;
@@ -260,7 +257,7 @@ export class StftProcessor {
       grown.set(p.subarray(0, at));
       this.#pending = p = grown;
     }
-    for (let i = 0; i < count; i++) p[at + i] = hopOut[from + i]!;
+    p.set(from === 0 ? hopOut : hopOut.subarray(from), at);
     this.#pendingLength = at + count;
   }
 
