@@ -510,23 +510,22 @@ export class WasmFft {
   heap: Float64Array;
   /** Bumped whenever `heap` or the scratch offsets change, so callers can refresh cached views. */
   generation = 0;
-  /** Scratch areas (byte offsets), each `scratchDoubles` long. */
+  /** Scratch areas (byte offsets), each `scratchDoubles` long; wf and wi hold windows (see window()). */
   a = 0;
   b = 0;
   c = 0;
-  w = 0;
+  wf = 0;
+  wi = 0;
   scratchDoubles = 0;
   #top: number;
   readonly #complex = new Map<number, WasmComplexTables>();
-  /** Released persistent areas by size in bytes, for reuse. */
-  readonly #free = new Map<number, number[]>();
-  readonly #owners = new FinalizationRegistry<{ at: number; bytes: number }>(({ at, bytes }) => {
-    let list = this.#free.get(bytes);
-    if (!list) this.#free.set(bytes, (list = []));
-    list.push(at);
-  });
   readonly #split = new Map<number, number>();
   readonly #join = new Map<number, number>();
+  /** Which arrays (and lengths) the two window areas hold copies of. */
+  #forwardWindow: Float64Array | null = null;
+  #forwardWindowLength = 0;
+  #inverseWindow: Float64Array | null = null;
+  #inverseWindowLength = 0;
 
   constructor(kernels: Kernels) {
     this.kernels = kernels;
@@ -549,12 +548,24 @@ export class WasmFft {
   }
 
   /**
-   * A persistent area of `bytes` that belongs to `owner` and returns to a free list once the owner
-   * has been garbage-collected. May grow the memory (check `generation`).
+   * Byte offset of a copy of window[0…n−1] in one of two shared window areas (one for forward,
+   * one for inverse transforms). The copy is made again only when a different array or length is
+   * passed, so callers must not change a window's values between calls (pass a new array
+   * instead). Holding the array keeps it alive, so an identical reference is the same array.
    */
-  area(owner: object, bytes: number): number {
-    const at = this.#free.get(bytes)?.pop() ?? this.#alloc(bytes);
-    this.#owners.register(owner, { at, bytes });
+  window(window: Float64Array, n: number, inverse: boolean): number {
+    const at = inverse ? this.wi : this.wf;
+    if (inverse ? this.#inverseWindow === window && this.#inverseWindowLength === n : this.#forwardWindow === window && this.#forwardWindowLength === n) {
+      return at;
+    }
+    this.heap.set(window.length === n ? window : window.subarray(0, n), at / 8);
+    if (inverse) {
+      this.#inverseWindow = window;
+      this.#inverseWindowLength = n;
+    } else {
+      this.#forwardWindow = window;
+      this.#forwardWindowLength = n;
+    }
     return at;
   }
 
@@ -565,7 +576,9 @@ export class WasmFft {
     this.a = this.#alloc(8 * size);
     this.b = this.#alloc(8 * size);
     this.c = this.#alloc(8 * size);
-    this.w = this.#alloc(8 * size);
+    this.wf = this.#alloc(8 * size);
+    this.wi = this.#alloc(8 * size);
+    this.#forwardWindow = this.#inverseWindow = null;
     this.scratchDoubles = size;
     this.generation++;
   }

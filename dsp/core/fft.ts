@@ -189,12 +189,6 @@ export function fftKernelsFor(size: number): FftKernels {
   return allowWasm && size >= WASM_MIN_SIZE && wasmFft() !== null ? 'wasm-simd' : 'js';
 }
 
-/** A window held in WebAssembly memory: which array it was copied from, and where it is. */
-interface WindowCopy {
-  readonly source: Float64Array;
-  readonly at: number;
-}
-
 /** State of a plan running on the WebAssembly kernels. */
 interface WasmPlan {
   readonly fft: WasmFft;
@@ -205,9 +199,6 @@ interface WasmPlan {
   /** fft.generation the views below were made for. */
   generation: number;
   heap: Float64Array;
-  /** Persistent copies of the windows last given to realForwardWindowed / realInverseAdd. */
-  forwardWindow: WindowCopy | null;
-  inverseWindow: WindowCopy | null;
   /** Views of the scratch areas: B as a half spectrum, A as N samples, B as 2N numbers, C as N. */
   spectrumB: Float64Array;
   samplesA: Float64Array;
@@ -253,7 +244,7 @@ export class FftPlan {
       const split = fft.splitTable(size, this.#split);
       const join = fft.joinTable(size, this.#split);
       const none = new Float64Array(0);
-      this.#wasm = { fft, half, full: null, split, join, forwardWindow: null, inverseWindow: null, generation: -1, heap: none, spectrumB: none, samplesA: none, complexB: none, samplesC: none };
+      this.#wasm = { fft, half, full: null, split, join, generation: -1, heap: none, spectrumB: none, samplesA: none, complexB: none, samplesC: none };
     }
   }
 
@@ -341,14 +332,14 @@ export class FftPlan {
   /**
    * Real forward transform of the windowed segment input[offset + i]·window[i], i = 0…N−1 (for
    * streaming analysers). Same numbers as windowing into a buffer and calling realForward.
-   * The plan may keep its own copy of `window` while the same array is passed again: treat the
-   * window as read-only, and pass a new array to change it.
+   * The WebAssembly kernels keep a copy of `window` while the same array is passed again: treat
+   * the window as read-only, and pass a new array to change it.
    */
   realForwardWindowed(input: Float64Array, offset: number, window: Float64Array, out: Float64Array): void {
     const n = this.size;
     if (this.#wasm) {
-      const win = this.#windowCopy(window, false);
       const w = this.#w(), f = w.fft;
+      const win = f.window(window, n, false);
       w.heap.set(input.subarray(offset, offset + n), f.a / 8);
       f.kernels.fftWindowed(f.a, win, f.b, w.half.rev, w.half.forward, w.half.m, w.half.radix, 0);
       f.kernels.split(f.b, w.split, n);
@@ -390,13 +381,13 @@ export class FftPlan {
   /**
    * Weighted overlap-add of one frame: acc[offset + i] += window[i]·x[i], i = 0…N−1, where x is
    * realInverse(spectrum). Same numbers as realInverse into a buffer followed by that loop.
-   * As for realForwardWindowed, treat `window` as read-only (the plan may keep a copy).
+   * As for realForwardWindowed, treat `window` as read-only (a copy may be kept).
    */
   realInverseAdd(spectrum: Float64Array, window: Float64Array, acc: Float64Array, offset: number): void {
     const n = this.size;
     if (this.#wasm) {
-      const win = this.#windowCopy(window, true);
       const w = this.#w(), f = w.fft, h = w.heap;
+      const win = f.window(window, n, true);
       copyIn(h, f.a / 8, spectrum, n + 2);
       h.set(acc.subarray(offset, offset + n), f.c / 8);
       f.kernels.join(f.a, f.b, w.join, n, 1 / n);
@@ -408,24 +399,6 @@ export class FftPlan {
     const t = (this.#scratch2 ??= new Float64Array(n));
     this.realInverse(spectrum, t);
     for (let i = 0; i < n; i++) acc[offset + i]! += t[i]! * window[i]!;
-  }
-
-  /**
-   * Byte offset of this plan's copy of `window` in WebAssembly memory, copied again only when a
-   * different array is passed (see the contract on realForwardWindowed). May grow the memory, so
-   * call it before #w().
-   */
-  #windowCopy(window: Float64Array, inverse: boolean): number {
-    const w = this.#wasm!;
-    const held = inverse ? w.inverseWindow : w.forwardWindow;
-    if (held && held.source === window) return held.at;
-    const n = this.size;
-    const at = held ? held.at : w.fft.area(this, 8 * n);
-    w.fft.heap.set(window.length === n ? window : window.subarray(0, n), at / 8);
-    const copy = { source: window, at };
-    if (inverse) w.inverseWindow = copy;
-    else w.forwardWindow = copy;
-    return at;
   }
 
   /** A zeroed buffer for complex data of this size (2N numbers). */

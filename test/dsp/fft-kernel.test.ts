@@ -320,6 +320,31 @@ for (const choice of ['auto', 'js'] as const) {
       plan.realForwardWindowed(input, 0, w1, got);
       expect(maxDiff(got, want1)).toBe(0);
     });
+
+    it('plans of different sizes and windows interleaved each get their own window', () => {
+      // Source: definition of the method; windows longer than N contribute their first N values.
+      const long = noise(1024, 91), other = noise(256, 92);
+      const cases = [
+        { plan: new FftPlan(256), win: long },
+        { plan: new FftPlan(512), win: long },
+        { plan: new FftPlan(256), win: other },
+      ];
+      const input = noise(1024, 93);
+      for (let round = 0; round < 3; round++) {
+        for (const { plan, win } of cases) {
+          const n = plan.size;
+          const want = plan.createHalfSpectrum(), got = plan.createHalfSpectrum();
+          plan.realForward(input.subarray(0, n).map((v, i) => v * win[i]!), want);
+          plan.realForwardWindowed(input, 0, win, got);
+          expect(maxDiff(got, want), `round ${round} N=${n}`).toBe(0);
+          const acc = new Float64Array(n), accWant = new Float64Array(n), x = new Float64Array(n);
+          plan.realInverse(want, x);
+          for (let i = 0; i < n; i++) accWant[i] = x[i]! * win[i]!;
+          plan.realInverseAdd(want, win, acc, 0);
+          expect(maxDiff(acc, accWant), `inverse round ${round} N=${n}`).toBe(0);
+        }
+      }
+    });
   });
 }
 
