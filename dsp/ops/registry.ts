@@ -5,10 +5,22 @@
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
 import { spectrum } from './spectrum.ts';
+import { levels } from './levels.ts';
+import { speed } from './speed.ts';
+import { flutter } from './flutter.ts';
+import { azimuth } from './azimuth.ts';
+import { varispeed } from './varispeed.ts';
+import { align } from './align.ts';
 
 export const operations: readonly Operation[] = [
   info,
   spectrum,
+  levels,
+  speed,
+  flutter,
+  azimuth,
+  varispeed,
+  align,
 ];
 
 export function findOperation(name: string): Operation | undefined {

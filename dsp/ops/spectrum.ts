@@ -2,10 +2,12 @@
  * `spectrum`: the long-term average spectrum (Welch, Hann, 50 % overlap) per channel, in dB re a
  * full-scale sine (a full-scale sine reads 0 dBFS at its bin), and the effective bandwidth.
  *
- * Effective bandwidth: the highest frequency at which the third-octave-smoothed level is both
- * within 60 dB of the smoothed maximum and at least 10 dB above the noise floor (the 10th
- * percentile of the smoothed levels). It answers "where does the programme stop?" — about 5 kHz
- * for many acoustic discs, 12–16 kHz for cassettes, the converter's limit for modern material.
+ * Effective bandwidth: the same rule as `levels` (dsp/levels/spectrum.ts, effectiveBandwidthHz):
+ * the highest frequency still at least 10 dB above the spectrum's floor. It answers "where does the
+ * programme stop?" — about 5 kHz for many acoustic discs, 12–16 kHz for cassettes, the converter's
+ * limit for modern material.
+ *
+ * Long files are estimated from at most MAX_FRAMES evenly spaced frames (see welchSpectrum).
  */
 import type { AnalysisOp, Finding } from './types.ts';
 import { num } from './params.ts';
@@ -13,6 +15,10 @@ import { welchSpectrum } from '../core/welch.ts';
 import { isPowerOfTwo } from '../core/fft.ts';
 import { ParameterError } from '../errors.ts';
 import { lineChartSvg } from '../plot/svg.ts';
+import { effectiveBandwidthHz } from '../levels/spectrum.ts';
+
+/** Frames analysed at most; beyond that, evenly spaced frames stand for the whole file. */
+export const MAX_FRAMES = 4000;
 
 export interface SpectrumResult {
   frequenciesHz: number[];
@@ -25,38 +31,11 @@ export interface SpectrumResult {
 
 const round3 = (v: number) => Math.round(v * 1000) / 1000;
 
-/** Third-octave smoothing by power averaging over ±1/6 octave (prefix sums, O(N)). */
-export function smoothThirdOctave(frequenciesHz: ArrayLike<number>, levelsDb: ArrayLike<number>): Float64Array {
-  const n = levelsDb.length;
-  const prefix = new Float64Array(n + 1);
-  for (let k = 0; k < n; k++) prefix[k + 1] = prefix[k]! + Math.pow(10, levelsDb[k]! / 10);
-  const df = frequenciesHz[1]! - frequenciesHz[0]!;
-  const out = new Float64Array(n);
-  const r = Math.pow(2, 1 / 6);
-  for (let k = 0; k < n; k++) {
-    const f = frequenciesHz[k]!;
-    const lo = Math.max(0, Math.floor(f / r / df));
-    const hi = Math.min(n - 1, Math.max(lo, Math.ceil((f * r) / df)));
-    out[k] = 10 * Math.log10(Math.max((prefix[hi + 1]! - prefix[lo]!) / (hi - lo + 1), 1e-30));
-  }
-  return out;
-}
-
-export function effectiveBandwidthHz(frequenciesHz: ArrayLike<number>, levelsDb: ArrayLike<number>): number {
-  const sm = smoothThirdOctave(frequenciesHz, levelsDb);
-  const from = Math.max(1, Math.ceil(20 / Math.max(1e-9, frequenciesHz[1]! - frequenciesHz[0]!))); // ignore < 20 Hz
-  const body = Array.from(sm.subarray(from)).sort((a, b) => a - b);
-  if (body.length === 0) return 0;
-  const floor = body[Math.floor(body.length * 0.1)]!;
-  const max = body[body.length - 1]!;
-  const threshold = Math.max(max - 60, floor + 10);
-  for (let k = sm.length - 1; k >= from; k--) if (sm[k]! >= threshold) return frequenciesHz[k]!;
-  return 0;
-}
-
-/** Levels of `r` interpolated at frequencies `f` (linear in frequency). */
+/** Levels of `r` at frequencies `f`: bin by bin on the same grid, else linear in frequency. */
 function levelsAt(r: SpectrumResult, channel: number, f: readonly number[]): number[] {
   const src = r.levelsDb[Math.min(channel, r.levelsDb.length - 1)]!;
+  const same = r.frequenciesHz.length === f.length && r.frequenciesHz[1] === f[1];
+  if (same) return src.slice();
   const df = r.frequenciesHz[1]! - r.frequenciesHz[0]!;
   return f.map((hz) => {
     const pos = hz / df;
@@ -88,10 +67,10 @@ export const spectrum: AnalysisOp<SpectrumResult> = {
   async run(source, params, ctx) {
     const fftSize = num(params, 'fftSize') ?? 8192;
     if (!isPowerOfTwo(fftSize)) throw new ParameterError(`--fft-size ${fftSize}: must be a power of two`);
-    const r = await welchSpectrum(source, { fftSize }, (f) => ctx.progress(f));
+    const r = await welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => ctx.progress(f));
+    const bandwidthHz = Math.max(...r.levelsDb.map((l) => effectiveBandwidthHz(l, source.sampleRateHz)));
     const levelsDb = r.levelsDb.map((l) => Array.from(l, round3));
     const frequenciesHz = Array.from(r.frequenciesHz, round3);
-    const bandwidthHz = Math.max(...levelsDb.map((l) => effectiveBandwidthHz(frequenciesHz, l)));
     return { frequenciesHz, levelsDb, bandwidthHz, fftSize, frames: r.frames };
   },
   findings(result, facts) {

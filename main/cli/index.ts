@@ -12,7 +12,7 @@ import type { AnalysisOp, CorrectionOp, Finding, OpContext, Operation, ParamSpec
 import { BugError, CancelledError, InputError, NotFoundError, ParameterError } from '../../dsp/errors.ts';
 import { openAudio } from '../io/reader.ts';
 import { writeAudio } from '../io/writer.ts';
-import type { OpenedAudio, WriteOptions } from '../io/types.ts';
+import type { FileInfo, OpenedAudio, WriteOptions } from '../io/types.ts';
 import { parseArgs, type FlagShape } from './args.ts';
 import { humanize, Progress, toJson } from './output.ts';
 
@@ -26,6 +26,7 @@ const OUTPUT_FLAGS: ParamSpec[] = [
 type Builtin = (argv: string[]) => Promise<number>;
 const BUILTINS: Record<string, { summary: string; run: Builtin }> = {
   diagnose: { summary: 'Run every analysis that applies and list the findings in plain words.', run: runDiagnose },
+  check: { summary: 'Check folders of transfers: every analysis, pass/warn/fail per file, HTML/JSON/CSV reports.', run: async (argv) => (await import('../check/index.ts')).runCheck(argv) },
 };
 
 /** Writes to stdout/stderr; replaceable in tests. */
@@ -124,6 +125,7 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
     }
     const ctx = context(progress);
     const result = await op.run(file, params, ctx);
+    warnNonFinite(file);
     const info = { ...file.info };
     if (op.name === 'info') info.audioMd5 = await file.audioMd5();
     const output: Record<string, unknown> = { file: info, ...analysisJson(op, result) };
@@ -146,7 +148,7 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
     await other?.close();
     progress.done();
     if (json) io.out(toJson(output));
-    else io.out(describe(file.info.path, findings, { ...output, file: undefined }));
+    else io.out(describe(fileLine(info), findings, { ...output, file: undefined, ...(op.name === 'info' ? { chunks: info.chunks.join(' '), audioMd5: info.audioMd5 } : {}) }));
     return 0;
   } finally {
     progress.done();
@@ -181,6 +183,10 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
   const progress = new Progress(op.name, args.flags.get('quiet') === true);
   const source = await openAudio(inPath);
   try {
+    const bad = await source.scanNonFinite();
+    if (bad > 0) {
+      throw new InputError(`${bad} samples are NaN or infinite; refusing to process a damaged file (repair or re-export it first)`, source.path);
+    }
     const format = outputFormat(source, args.flags);
     const ctx = context(progress);
     const measure = op.measures ? (findOperation(op.measures) as AnalysisOp | undefined) : undefined;
@@ -215,6 +221,12 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
   }
 }
 
+/** Float files may hold NaN/Inf samples; the reader counts them (read as 0) and we say so once. */
+function warnNonFinite(file: OpenedAudio): void {
+  const n = file.nonFiniteSamples ?? 0;
+  if (n > 0) io.err(`warning: ${file.path}: ${n} samples are NaN or infinite and were read as 0`);
+}
+
 const silentProgress = (ctx: OpContext): OpContext => ({ ...ctx, progress: () => {} });
 
 async function runDiagnose(argv: string[]): Promise<number> {
@@ -231,13 +243,14 @@ async function runDiagnose(argv: string[]): Promise<number> {
   const file = await openAudio(args.positionals[0]!);
   try {
     const result = await diagnose(file, context(progress));
+    warnNonFinite(file);
     const info = { ...file.info, audioMd5: await file.audioMd5() };
     progress.done();
     if (args.flags.get('json') === true) {
       io.out(toJson({ file: info, ...result.sections, findings: result.findings, notes: result.notes }));
     } else {
       const notes = result.notes.map((n) => `  (${n.op}: ${n.reason})`).join('\n');
-      io.out(describe(info.path, result.findings, {}) + (notes ? `\nNot reported:\n${notes}` : ''));
+      io.out(describe(fileLine(info), result.findings, {}) + (notes ? `\nNot reported:\n${notes}` : ''));
     }
     return 0;
   } finally {
@@ -246,9 +259,22 @@ async function runDiagnose(argv: string[]): Promise<number> {
   }
 }
 
+/** "path — BWF, 48000 Hz, 2 ch, 24-bit int, 0:00:24.000". */
+function fileLine(info: FileInfo): string {
+  return `${info.path} — ${info.format}, ${info.sampleRateHz} Hz, ${info.channels} ch, ${info.bitsPerSample}-bit ${info.sampleFormat}, ${clock(info.durationSeconds)}`;
+}
+
+/** Seconds as h:mm:ss.mmm. */
+export function clock(seconds: number): string {
+  const ms = Math.round(seconds * 1000);
+  const h = Math.floor(ms / 3600000), m = Math.floor((ms % 3600000) / 60000), s = Math.floor((ms % 60000) / 1000);
+  return `${h}:${String(m).padStart(2, '0')}:${String(s).padStart(2, '0')}.${String(ms % 1000).padStart(3, '0')}`;
+}
+
 /** Findings first (plain sentences and the command that would fix each), then the numbers. */
-function describe(filePath: string, findings: readonly Finding[], numbers: Record<string, unknown>): string {
-  const lines = [filePath];
+function describe(heading: string, findings: readonly Finding[], numbers: Record<string, unknown>): string {
+  const lines = [heading];
+  const filePath = heading.split(' — ')[0]!;
   for (const f of findings) {
     const mark = { ok: '  ok  ', info: '  ·   ', warn: '  !   ', fail: '  ✗   ' }[f.severity];
     lines.push(`${mark}${f.sentence}${f.confidence !== undefined ? ` (confidence ${f.confidence.toFixed(2)})` : ''}`);
