@@ -14,6 +14,11 @@
  * laid out in the order the butterflies use them. Real transforms of size N run as one N/2-point
  * complex transform of z[n] = x[2n] + j·x[2n+1] plus the usual split step (forward) or its
  * inverse (before the transform), so no call allocates.
+ *
+ * Two implementations of that kernel: WebAssembly SIMD (fft-wasm.ts; used for N ≥ 16 wherever
+ * WebAssembly SIMD works — Node 20, Chromium, Electron) and the TypeScript functions below (small
+ * sizes, and everywhere else). They evaluate the same expressions in the same order, so a plan
+ * gives the same numbers on either; `plan.kernels` says which one it runs on.
  */
 import { ParameterError } from '../errors.ts';
 import { wasmFft, type WasmComplexTables, type WasmFft } from './fft-wasm.ts';

@@ -21,9 +21,9 @@ export interface StftOptions {
   fftSize: number;
   /** Hop between frames in samples, 1 ≤ hopSize ≤ fftSize. */
   hopSize: number;
-  /** Analysis window (periodic). Default 'hann'. */
+  /** Analysis window (periodic). Default 'hann'. A given array is copied at construction. */
   window?: WindowName | Float64Array;
-  /** Synthesis window for OverlapAdder / StftProcessor. Default: the analysis window. */
+  /** Synthesis window for OverlapAdder / StftProcessor. Default: the analysis window. Copied at construction. */
   synthesisWindow?: Float64Array;
 }
 
