@@ -138,6 +138,7 @@ class Fn {
   vadd = () => this.#simd(0xf0); // f64x2.add
   vsub = () => this.#simd(0xf1); // f64x2.sub
   vmul = () => this.#simd(0xf2); // f64x2.mul
+  xor = () => this.#simd(0x51); // v128.xor
 
   /** `if (cond) then` — cond must be on the stack. */
   if(then: () => void): this {
@@ -227,8 +228,9 @@ function fftFunction(windowed: boolean): Fn {
   const rot = f.local(V128), a0 = f.local(V128), a1 = f.local(V128), a2 = f.local(V128), a3 = f.local(V128);
   const s = f.local(V128), d = f.local(V128), t = f.local(V128), e = f.local(V128), fr = f.local(V128);
 
-  // ∓j rotation as a lane mask on swap(E): forward [1, −1] (−jE), inverse [−1, 1] (+jE).
-  f.get(inv).ifElse(() => f.vconst(-1, 1).set(rot), () => f.vconst(1, -1).set(rot));
+  // ∓j rotation as a sign flip of one lane of swap(E): forward flips lane 1 (−jE = [ei, −er]),
+  // inverse lane 0 (+jE = [−ei, er]). XOR with −0 flips the sign bit: the same bits as × −1.
+  f.get(inv).ifElse(() => f.vconst(-0, 0).set(rot), () => f.vconst(0, -0).set(rot));
 
   /** Push input element at byte offset (local b) + extra, times the window when windowed. */
   const input = (extra: number) => {
@@ -266,7 +268,7 @@ function fftFunction(windowed: boolean): Fn {
           f.get(a0).get(a1).vsub().set(d);
           f.get(a2).get(a3).vadd().set(t);
           f.get(a2).get(a3).vsub().set(e);
-          f.get(e).get(e).swap().get(rot).vmul().set(fr);
+          f.get(e).get(e).swap().get(rot).xor().set(fr);
           f.get(j).get(s).get(t).vadd().store(0);
           f.get(j).get(d).get(fr).vadd().store(16);
           f.get(j).get(s).get(t).vsub().store(32);
@@ -349,7 +351,7 @@ function fftFunction(windowed: boolean): Fn {
               f.get(a0).get(a1).vsub().set(d);
               f.get(a2).get(a3).vadd().set(t);
               f.get(a2).get(a3).vsub().set(e);
-              f.get(e).get(e).swap().get(rot).vmul().set(fr);
+              f.get(e).get(e).swap().get(rot).xor().set(fr);
               f.get(i0).get(s).get(t).vadd().store();
               f.get(i2).get(s).get(t).vsub().store();
               f.get(i1).get(d).get(fr).vadd().store();
@@ -374,6 +376,9 @@ function splitFunction(): Fn {
   const sp = 0, table = 1, n = 2;
   const z0r = f.local(F64), z0i = f.local(F64), i = f.local(I32), j = f.local(I32), hp = f.local(I32);
   const v = f.local(V128), u = f.local(V128), fe = f.local(V128), p = f.local(V128), t = f.local(V128);
+  const conj = f.local(V128), half = f.local(V128);
+  f.vconst(0, -0).set(conj); // XOR: negate lane 1 (conjugate), the same bits as × [1, −1]
+  f.vconst(0.5, 0.5).set(half);
   f.get(sp).loadF64(0).set(z0r);
   f.get(sp).loadF64(8).set(z0i);
   f.get(sp).get(z0r).get(z0i).fadd().storeF64(0);
@@ -389,11 +394,11 @@ function splitFunction(): Fn {
       f.get(i).load().set(v);
       f.get(j).load().set(u);
       // Fe = ½(v + [c, −d]); P = swap(v)·[1, −1] + swap(u) = [b + d, c − a]
-      f.vconst(0.5, 0.5).get(v).get(u).vconst(1, -1).vmul().vadd().vmul().set(fe);
-      f.get(v).get(v).swap().vconst(1, -1).vmul().get(u).get(u).swap().vadd().set(p);
+      f.get(half).get(v).get(u).get(conj).xor().vadd().vmul().set(fe);
+      f.get(v).get(v).swap().get(conj).xor().get(u).get(u).swap().vadd().set(p);
       f.get(p).get(hp).load(0).vmul().get(p).get(p).swap().get(hp).load(16).vmul().vadd().set(t);
       f.get(i).get(fe).get(t).vadd().store();
-      f.get(j).get(fe).get(t).vsub().vconst(1, -1).vmul().store();
+      f.get(j).get(fe).get(t).vsub().get(conj).xor().store();
       f.get(i).i32(16).add().set(i);
       f.get(j).i32(16).sub().set(j);
       f.get(hp).i32(32).add().set(hp);
@@ -408,6 +413,9 @@ function joinFunction(): Fn {
   const x = 0, z = 1, table = 2, n = 3, scale = 4;
   const i = f.local(I32), j = f.local(I32), cp = f.local(I32), last = f.local(I32);
   const sv = f.local(V128), xv = f.local(V128), yv = f.local(V128), e = f.local(V128), dd = f.local(V128), o = f.local(V128), so = f.local(V128);
+  const conj = f.local(V128), neg0 = f.local(V128);
+  f.vconst(0, -0).set(conj); // XOR masks: negate lane 1 / lane 0 (same bits as × [1, −1] / [−1, 1])
+  f.vconst(-0, 0).set(neg0);
   f.get(scale).splat().set(sv);
   f.i32(0).set(i);
   f.get(n).i32(8).mul().set(j);
@@ -417,15 +425,15 @@ function joinFunction(): Fn {
     () => f.get(i).get(last).leU(),
     () => {
       f.get(x).get(i).add().load().set(xv);
-      f.get(x).get(j).add().load().vconst(1, -1).vmul().set(yv); // X*[M−k]
+      f.get(x).get(j).add().load().get(conj).xor().set(yv); // X*[M−k]
       f.get(sv).get(xv).get(yv).vadd().vmul().set(e);
       f.get(sv).get(xv).get(yv).vsub().vmul().set(dd);
       // O = D·e^{+j2πk/N}; keep swap(O)
       f.get(dd).get(cp).load(0).vmul().get(dd).get(dd).swap().get(cp).load(16).vmul().vadd().set(o);
       f.get(o).get(o).swap().set(so);
-      f.get(z).get(i).add().get(e).get(so).vconst(-1, 1).vmul().vadd().store(); // E + jO
+      f.get(z).get(i).add().get(e).get(so).get(neg0).xor().vadd().store(); // E + jO
       f.get(i).eqz().eqz().get(i).get(j).ne().and().if(() => {
-        f.get(z).get(j).add().get(so).get(e).vconst(1, -1).vmul().vadd().store(); // E* + jO*
+        f.get(z).get(j).add().get(so).get(e).get(conj).xor().vadd().store(); // E* + jO*
       });
       f.get(i).i32(16).add().set(i);
       f.get(j).i32(16).sub().set(j);
