@@ -15,9 +15,9 @@
  * complex transform of z[n] = x[2n] + j·x[2n+1] plus the usual split step (forward) or its
  * inverse (before the transform), so no call allocates.
  *
- * Two implementations of that kernel: WebAssembly SIMD (fft-wasm.ts; used for N ≥ 16 wherever
- * WebAssembly SIMD works — Node 20, Chromium, Electron) and the TypeScript functions below (small
- * sizes, and everywhere else). They evaluate the same expressions in the same order, so a plan
+ * Two implementations of that kernel: WebAssembly SIMD (fft-wasm.ts; used for 16 ≤ N ≤ 65536
+ * wherever WebAssembly SIMD works — Node 20, Chromium, Electron) and the TypeScript functions
+ * below (other sizes, and everywhere else). They evaluate the same expressions in the same order, so a plan
  * gives the same numbers on either; `plan.kernels` says which one it runs on.
  */
 import { ParameterError } from '../errors.ts';
@@ -179,6 +179,11 @@ export type FftKernels = 'wasm-simd' | 'js';
 
 /** Below this size the copies in and out of WebAssembly memory cost more than they save. */
 const WASM_MIN_SIZE = 16;
+/**
+ * Above this size plans use the TypeScript kernels: the shared WebAssembly memory never shrinks,
+ * and one-off transforms of whole signals (up to millions of points) would pin it at that size.
+ */
+const WASM_MAX_SIZE = 65536;
 let allowWasm = true;
 
 /**
@@ -191,7 +196,7 @@ export function setFftKernels(choice: 'auto' | 'js'): void {
 
 /** The kernels a plan of `size` created now would use. */
 export function fftKernelsFor(size: number): FftKernels {
-  return allowWasm && size >= WASM_MIN_SIZE && wasmFft() !== null ? 'wasm-simd' : 'js';
+  return allowWasm && size >= WASM_MIN_SIZE && size <= WASM_MAX_SIZE && wasmFft() !== null ? 'wasm-simd' : 'js';
 }
 
 /** State of a plan running on the WebAssembly kernels. */

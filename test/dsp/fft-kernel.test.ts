@@ -8,7 +8,7 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import FFT from 'fft.js';
 import { FftPlan, fftKernelsFor, setFftKernels, type FftKernels } from '../../dsp/core/fft.ts';
-import { fftModuleBytes } from '../../dsp/core/fft-wasm.ts';
+import { fftModuleBytes, wasmFft } from '../../dsp/core/fft-wasm.ts';
 import { seededRng } from '../helpers/rng.ts';
 
 type FftJs = {
@@ -50,6 +50,34 @@ function directDft(x: Float64Array, sign: number): Float64Array {
   }
   return out;
 }
+
+describe('shared WebAssembly memory', () => {
+  // First in this file, before other tests have grown the memory to its largest size.
+  it('plans keep working after larger plans grow the memory', () => {
+    // Source: exact identity — the same plan and input give the same spectrum before and after.
+    const memory = () => wasmFft()!.kernels.memory.buffer.byteLength;
+    const small = new FftPlan(512);
+    const x = noise(512, 81), win = noise(512, 82);
+    const before = small.createHalfSpectrum(), after = small.createHalfSpectrum();
+    small.realForwardWindowed(x, 0, win, before);
+    const bytesBefore = memory();
+    for (const n of [8192, 32768, 65536]) {
+      const big = new FftPlan(n);
+      const y = noise(2 * n, n), back = big.createComplex(), spec = big.createComplex();
+      big.forward(y, spec); // complex tables of the full size too
+      big.inverse(spec, back);
+      expect(maxDiff(back, y)).toBeLessThan(1e-14);
+    }
+    expect(memory()).toBeGreaterThan(bytesBefore);
+    small.realForwardWindowed(x, 0, win, after);
+    expect(maxDiff(after, before)).toBe(0);
+  });
+
+  it('sizes above 65536 run on the TypeScript kernels (the shared memory never shrinks)', () => {
+    expect(new FftPlan(65536).kernels).toBe('wasm-simd');
+    expect(new FftPlan(131072).kernels).toBe('js');
+  });
+});
 
 /**
  * Plans made by the tests of the enclosing block use the given kernels ('auto' = WebAssembly SIMD
@@ -347,23 +375,3 @@ for (const choice of ['auto', 'js'] as const) {
     });
   });
 }
-
-describe('shared WebAssembly memory', () => {
-  it('plans keep working after a larger plan grows the memory', () => {
-    // Source: exact identity — the same plan and input give the same spectrum before and after.
-    const small = new FftPlan(512);
-    const x = noise(512, 81), win = noise(512, 82);
-    const before = small.createHalfSpectrum(), after = small.createHalfSpectrum();
-    small.realForwardWindowed(x, 0, win, before);
-    // Several large sizes, each needing new tables and bigger scratch areas.
-    for (const n of [131072, 262144]) {
-      const big = new FftPlan(n);
-      const y = noise(n, n), back = new Float64Array(n), spec = big.createHalfSpectrum();
-      big.realForward(y, spec);
-      big.realInverse(spec, back);
-      expect(maxDiff(back, y)).toBeLessThan(1e-14);
-    }
-    small.realForwardWindowed(x, 0, win, after);
-    expect(maxDiff(after, before)).toBe(0);
-  });
-});
