@@ -8,6 +8,7 @@
 import { writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { MemorySource } from '../dsp/source.ts';
+import { seededRng } from '../dsp/random.ts';
 import { writeAudio } from '../main/io/writer.ts';
 import { DEMO_NAME, synthesizeDemo } from './demo/synth.ts';
 
@@ -23,19 +24,8 @@ const result = await writeAudio(
     sampleFormat: 'int',
     dither: true,
     historyText: 'reelwright demo synthesis (invented recording; see thornbury-reel7.json)',
-    rng: mulberry32(7),
+    rng: seededRng(7),
   },
 );
 writeFileSync(path.join(here, 'demo', `${DEMO_NAME}.json`), JSON.stringify(parameters, null, 2) + '\n');
 process.stdout.write(`wrote ${result.path} (${result.frames} frames) and ${DEMO_NAME}.json\n`);
-
-function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}

@@ -19,6 +19,7 @@
  * speed, reflection delay and azimuth delay are exact, with no resampling involved.
  * Pure TypeScript (no Node APIs) so tests can regenerate the clean source.
  */
+import { seededRng } from '../../dsp/random.ts';
 
 export interface DemoParameters {
   description: string;
@@ -72,18 +73,6 @@ export function demoParameters(): DemoParameters {
     humLevelDbfs: -52,
     hissLevelDbfs: -66,
     reversedChannels: [],
-  };
-}
-
-/** Deterministic uniform random numbers (mulberry32). */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
   };
 }
 
@@ -175,7 +164,7 @@ export function synthesizeDemo(options: DemoOptions = {}): { parameters: DemoPar
   for (let c = 0; c < p.channels; c++) {
     const lag = c === 0 ? 0 : p.interChannelDelaySeconds;
     const gainCh = c === 0 ? 1 : 0.94;
-    const noise = rng(1961 + c);
+    const noise = seededRng(1961 + c);
     const x = new Float64Array(n);
     for (let i = 0; i < n; i++) {
       const t = i / fs - lag; // played time at this channel's head position

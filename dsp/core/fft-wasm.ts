@@ -16,6 +16,7 @@
  * Where WebAssembly or its SIMD extension is missing (or compiling throws, as Chromium does for
  * synchronous compiles on its main thread), `wasmFft()` returns null and fft.ts uses its own kernels.
  */
+import { F64, I32, name, section, sleb, uleb, V128, vec } from './wasm-encoding.ts';
 
 // ---------------------------------------------------------------------------------------------
 // Minimal typings: dsp/ compiles against lib ES2022 only, which does not declare WebAssembly.
@@ -49,32 +50,6 @@ interface Kernels {
 
 // ---------------------------------------------------------------------------------------------
 // A small WebAssembly assembler: just the instructions the kernels use.
-
-const I32 = 0x7f, F64 = 0x7c, V128 = 0x7b;
-
-function uleb(v: number): number[] {
-  const out: number[] = [];
-  do {
-    let b = v & 0x7f;
-    v >>>= 7;
-    if (v !== 0) b |= 0x80;
-    out.push(b);
-  } while (v !== 0);
-  return out;
-}
-
-function sleb(v: number): number[] {
-  const out: number[] = [];
-  for (;;) {
-    const b = v & 0x7f;
-    v >>= 7;
-    if ((v === 0 && (b & 0x40) === 0) || (v === -1 && (b & 0x40) !== 0)) {
-      out.push(b);
-      return out;
-    }
-    out.push(b | 0x80);
-  }
-}
 
 function f64Bytes(v: number): number[] {
   const b = new Uint8Array(new Float64Array([v]).buffer);
@@ -179,18 +154,6 @@ class Fn {
     const body = [...uleb(runs), ...groups, ...this.code, 0x0b];
     return [...uleb(body.length), ...body];
   }
-}
-
-function section(id: number, payload: number[]): number[] {
-  return [id, ...uleb(payload.length), ...payload];
-}
-
-function vec(items: number[][]): number[] {
-  return [...uleb(items.length), ...items.flat()];
-}
-
-function name(s: string): number[] {
-  return [...uleb(s.length), ...Array.from(s, (c) => c.charCodeAt(0))];
 }
 
 /** Assembles a module from named functions; exports them and its memory ("memory"). */

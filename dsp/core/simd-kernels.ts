@@ -13,6 +13,7 @@
  * globalThis with a minimal local type so dsp/ still compiles with lib ES2022 only. When it is
  * missing or rejects SIMD, `createSimdKernels` returns null and callers use their plain loops.
  */
+import { F64, I32, name, section, sleb, uleb, V128, vec } from './wasm-encoding.ts';
 
 interface WasmMemory {
   readonly buffer: ArrayBuffer;
@@ -33,33 +34,6 @@ export interface SimdKernels {
 }
 
 // --- a tiny assembler -------------------------------------------------------------------------
-const uleb = (v: number): number[] => {
-  const out: number[] = [];
-  do {
-    let b = v & 0x7f;
-    v >>>= 7;
-    if (v !== 0) b |= 0x80;
-    out.push(b);
-  } while (v !== 0);
-  return out;
-};
-const sleb = (v: number): number[] => {
-  const out: number[] = [];
-  for (;;) {
-    const b = v & 0x7f;
-    v >>= 7;
-    if ((v === 0 && (b & 0x40) === 0) || (v === -1 && (b & 0x40) !== 0)) {
-      out.push(b);
-      return out;
-    }
-    out.push(b | 0x80);
-  }
-};
-const vec = (items: number[][]): number[] => [...uleb(items.length), ...items.flat()];
-const section = (id: number, body: number[]): number[] => [id, ...uleb(body.length), ...body];
-const str = (s: string): number[] => [...uleb(s.length), ...Array.from(s, (c) => c.charCodeAt(0))];
-
-const I32 = 0x7f, F64 = 0x7c, V128 = 0x7b;
 // Instructions
 const get = (i: number) => [0x20, ...uleb(i)];
 const set = (i: number) => [0x21, ...uleb(i)];
@@ -95,13 +69,13 @@ function moduleBytes(): Uint8Array {
     [0x60, ...vec([[I32], [F64], [I32], [I32]]), ...vec([])],
     [0x60, ...vec([[I32], [F64], [I32], [I32], [I32], [I32]]), ...vec([])],
   ]);
-  const imports = vec([[...str('env'), ...str('mem'), 0x02, 0x00, ...uleb(1)]]);
+  const imports = vec([[...name('env'), ...name('mem'), 0x02, 0x00, ...uleb(1)]]);
   const funcs = vec([[0], [1], [2], [3]]);
   const exports = vec([
-    [...str('dot1'), 0x00, ...uleb(0)],
-    [...str('dot2'), 0x00, ...uleb(1)],
-    [...str('farrow'), 0x00, ...uleb(2)],
-    [...str('farrowDot2'), 0x00, ...uleb(3)],
+    [...name('dot1'), 0x00, ...uleb(0)],
+    [...name('dot2'), 0x00, ...uleb(1)],
+    [...name('farrow'), 0x00, ...uleb(2)],
+    [...name('farrowDot2'), 0x00, ...uleb(3)],
   ]);
 
   // dot1: params h=0 x=1 n=2 out=3; locals i=4 (i32) end=5 (i32) a=6 b=7 (v128)

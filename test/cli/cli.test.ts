@@ -5,39 +5,12 @@ import { createHash } from 'node:crypto';
 import { mkdtempSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync, copyFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { io, main } from '../../main/cli/index.ts';
+import { runCli, repoRoot, demoPath, dataChunkBytes } from '../helpers/cli.ts';
 import { operations } from '../../dsp/ops/registry.ts';
 
-const root = path.resolve(new URL('../..', import.meta.url).pathname);
-const demo = path.join(root, 'assets/demo/thornbury-reel7.wav');
+const root = repoRoot;
+const demo = demoPath;
 let dir: string;
-
-/** Runs the CLI in-process, capturing stdout/stderr. */
-async function run(...argv: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '', err = '';
-  const saved = { ...io };
-  io.out = (s) => void (out += s.endsWith('\n') ? s : s + '\n');
-  io.err = (s) => void (err += s.endsWith('\n') ? s : s + '\n');
-  try {
-    const code = await main(argv);
-    return { code, out, err };
-  } finally {
-    Object.assign(io, saved);
-  }
-}
-
-/** Independent RIFF walk (not our parser): the data chunk's bytes. */
-function dataChunkBytes(file: string): Buffer {
-  const b = readFileSync(file);
-  let at = 12;
-  while (at + 8 <= b.length) {
-    const id = b.toString('latin1', at, at + 4);
-    const size = b.readUInt32LE(at + 4);
-    if (id === 'data') return b.subarray(at + 8, at + 8 + size);
-    at += 8 + size + (size & 1);
-  }
-  throw new Error('no data chunk');
-}
 
 beforeAll(() => {
   dir = mkdtempSync(path.join(os.tmpdir(), 'rw-cli-'));
@@ -46,7 +19,7 @@ afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 describe('reelwright info', () => {
   it('prints the contract `file` object with the audio MD5 (fixity)', async () => {
-    const r = await run('info', demo, '--json');
+    const r = await runCli('info', demo, '--json');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     for (const k of ['path', 'format', 'sampleRateHz', 'channels', 'bitsPerSample', 'sampleFormat', 'durationSeconds', 'frames', 'chunks', 'audioMd5']) {
@@ -59,7 +32,7 @@ describe('reelwright info', () => {
   });
 
   it('prints exactly one JSON object on stdout', async () => {
-    const r = await run('spectrum', demo, '--json', '--quiet');
+    const r = await runCli('spectrum', demo, '--json', '--quiet');
     expect(r.code).toBe(0);
     expect(() => JSON.parse(r.out)).not.toThrow();
     const j = JSON.parse(r.out);
@@ -71,18 +44,18 @@ describe('reelwright info', () => {
 
 describe('help', () => {
   it('lists every registered verb and gives --help for each', async () => {
-    const r = await run('--help');
+    const r = await runCli('--help');
     expect(r.code).toBe(0);
     for (const op of operations) {
       expect(r.out).toContain(op.name);
-      const h = await run(op.name, '--help');
+      const h = await runCli(op.name, '--help');
       expect(h.code).toBe(0);
       for (const p of op.params) expect(h.out).toContain(`--${p.flag}`);
     }
   });
   it('rejects an unknown verb or option with exit 2', async () => {
-    expect((await run('frobnicate')).code).toBe(2);
-    const r = await run('info', demo, '--frobnicate');
+    expect((await runCli('frobnicate')).code).toBe(2);
+    const r = await runCli('info', demo, '--frobnicate');
     expect(r.code).toBe(2);
     expect(r.err).toMatch(/unknown option --frobnicate/);
   });
@@ -99,7 +72,7 @@ describe('bad input: one line naming the file, exit 2', () => {
     it(name, async () => {
       const p = path.join(dir, `${name.replace(/\s/g, '-')}.wav`);
       make(p);
-      const r = await run('info', p);
+      const r = await runCli('info', p);
       expect(r.code).toBe(2);
       expect(r.err.trim().split('\n')).toHaveLength(1);
       expect(r.err).toContain(p);
@@ -130,13 +103,13 @@ describe('NaN / infinite float samples', () => {
   it('analyses report them in one line; corrections refuse the file', async () => {
     const p = path.join(dir, 'nan.wav');
     floatWavWithNaN(p);
-    const r = await run('info', p, '--json');
+    const r = await runCli('info', p, '--json');
     expect(r.code).toBe(0);
     expect(r.err).toMatch(/1 samples are NaN or infinite/);
     expect(r.err).toContain(p);
     for (const op of operations.filter((o) => o.kind === 'correction')) {
       const out = path.join(dir, `nan-${op.name}.wav`);
-      const c = await run(op.name, p, out);
+      const c = await runCli(op.name, p, out);
       expect(c.code).toBe(2);
       expect(c.err).toMatch(/NaN or infinite/);
       expect(() => statSync(out)).toThrow();
@@ -151,7 +124,7 @@ describe('corrections never touch the source', () => {
       const src = path.join(dir, `src-${op.name}.wav`);
       copyFileSync(demo, src);
       const before = createHash('md5').update(readFileSync(src)).digest('hex');
-      const same = await run(op.name, src, src);
+      const same = await runCli(op.name, src, src);
       expect(same.code).toBe(2);
       expect(same.err).toMatch(/refusing to write onto the source/);
       expect(createHash('md5').update(readFileSync(src)).digest('hex')).toBe(before);
@@ -159,7 +132,7 @@ describe('corrections never touch the source', () => {
       const bad = path.join(dir, `bad-${op.name}.wav`);
       writeFileSync(bad, readFileSync(demo).subarray(0, 100));
       const out = path.join(dir, `out-${op.name}.wav`);
-      const r = await run(op.name, bad, out);
+      const r = await runCli(op.name, bad, out);
       expect(r.code).toBe(2);
       expect(() => statSync(out)).toThrow();
       expect(readdirSync(dir).filter((f) => f.startsWith('.reelwright-tmp-'))).toEqual([]);

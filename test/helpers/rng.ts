@@ -1,14 +1,5 @@
-/** Seeded pseudo-random numbers for reproducible tests (mulberry32; common practice). */
-export function seededRng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** Seeded random numbers for reproducible tests (the generator lives in dsp/random.ts). */
+export { seededRng } from '../../dsp/random.ts';
 
 /** Standard normal deviates from a uniform source (Box–Muller; common practice). */
 export function gaussian(rng: () => number): () => number {

@@ -4,27 +4,15 @@ import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { io, main } from '../../main/cli/index.ts';
+import { runCli, repoRoot, demoPath } from '../helpers/cli.ts';
 import { openAudio, writeAudio } from '../../main/io/index.ts';
 import { MemorySource, readAll } from '../../dsp/source.ts';
 import { add, hum, programme } from './synth.ts';
 
-const root = path.resolve(new URL('../..', import.meta.url).pathname);
-const demo = path.join(root, 'assets/demo/thornbury-reel7.wav');
+const root = repoRoot;
+const demo = demoPath;
 const demoTruth = JSON.parse(readFileSync(path.join(root, 'assets/demo/thornbury-reel7.json'), 'utf8')) as { speedFactor: number; mainsHz: number; toneHz: number };
 let dir: string;
-
-async function run(...argv: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '', err = '';
-  const saved = { ...io };
-  io.out = (s) => void (out += s.endsWith('\n') ? s : s + '\n');
-  io.err = (s) => void (err += s.endsWith('\n') ? s : s + '\n');
-  try {
-    return { code: await main(argv), out, err };
-  } finally {
-    Object.assign(io, saved);
-  }
-}
 
 /** The real command, as a user runs it. */
 function spawnCli(...argv: string[]) {
@@ -48,7 +36,7 @@ afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
 describe('reelwright speed', () => {
   it('the demo recording: --json has the contract keys and the stored factor', async () => {
-    const r = await run('speed', demo, '--json', '--quiet');
+    const r = await runCli('speed', demo, '--json', '--quiet');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     for (const k of ['factor', 'cents', 'method', 'confidence', 'uncertaintyPercent', 'standardPair', 'candidates', 'curve']) expect(j.speed).toHaveProperty(k);
@@ -60,7 +48,7 @@ describe('reelwright speed', () => {
     for (const c of j.speed.candidates) expect(Object.keys(c)).toEqual(expect.arrayContaining(['method', 'factor', 'confidence']));
   });
   it('--mains 60 on a file without hum: exit 2 and a one-line message', async () => {
-    const r = await run('speed', path.join(dir, 'noise.wav'), '--mains', '60', '--json', '--quiet');
+    const r = await runCli('speed', path.join(dir, 'noise.wav'), '--mains', '60', '--json', '--quiet');
     expect(r.code).toBe(2);
     expect(r.out).toBe('');
     expect(r.err).toMatch(/no 60 Hz mains hum found/);
@@ -85,7 +73,7 @@ describe('reelwright varispeed', () => {
     const input = path.join(dir, 'noise.wav');
     const before = readFileSync(input);
     const out = path.join(dir, 'fast.wav');
-    const r = await run('varispeed', input, out, '--factor', '2', '--rate', '8000', '--quality', 'draft', '--quiet');
+    const r = await runCli('varispeed', input, out, '--factor', '2', '--rate', '8000', '--quality', 'draft', '--quiet');
     expect(r.code).toBe(0);
     expect(readFileSync(input).equals(before)).toBe(true);
     const f = await openAudio(out);
@@ -110,7 +98,7 @@ describe('reelwright varispeed', () => {
     ];
     for (const [i, extra] of cases.entries()) {
       const out = path.join(dir, `bad${i}.wav`);
-      const r = i === 0 ? spawnCli('varispeed', input, out, ...extra) : await run('varispeed', input, out, ...extra, '--quiet');
+      const r = i === 0 ? spawnCli('varispeed', input, out, ...extra) : await runCli('varispeed', input, out, ...extra, '--quiet');
       expect(r.code).toBe(2);
       expect(r.out).toBe('');
       expect(r.err.trim().split('\n')).toHaveLength(1);

@@ -8,41 +8,16 @@ import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { io, main } from '../../main/cli/index.ts';
+import { runCli, repoRoot, demoPath, dataChunkBytes } from '../helpers/cli.ts';
 import { openAudio, writeAudio } from '../../main/io/index.ts';
 import { MemorySource } from '../../dsp/source.ts';
 import { pluckPhrase } from '../helpers/plucks.ts';
 import { voiceLike } from '../helpers/voice-like.ts';
 
-const root = path.resolve(new URL('../..', import.meta.url).pathname);
-const demo = path.join(root, 'assets/demo/thornbury-reel7.wav');
+const root = repoRoot;
+const demo = demoPath;
 let dir: string;
 let material: string; // 6 s stereo, 16-bit: plucks on channel 1, voice-like on channel 2
-
-async function run(...argv: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '', err = '';
-  const saved = { ...io };
-  io.out = (s) => void (out += s.endsWith('\n') ? s : s + '\n');
-  io.err = (s) => void (err += s.endsWith('\n') ? s : s + '\n');
-  try {
-    return { code: await main(argv), out, err };
-  } finally {
-    Object.assign(io, saved);
-  }
-}
-
-/** Independent RIFF walk (not our parser): the data chunk's bytes. */
-function dataChunkBytes(file: string): Buffer {
-  const b = readFileSync(file);
-  let at = 12;
-  while (at + 8 <= b.length) {
-    const id = b.toString('latin1', at, at + 4);
-    const size = b.readUInt32LE(at + 4);
-    if (id === 'data') return b.subarray(at + 8, at + 8 + size);
-    at += 8 + size + (size & 1);
-  }
-  throw new Error('no data chunk');
-}
 
 beforeAll(async () => {
   dir = mkdtempSync(path.join(os.tmpdir(), 'rw-stretch-'));
@@ -69,7 +44,7 @@ describe('reelwright reverse', () => {
 
   it('reverses the whole file and reports what it did in JSON', async () => {
     const out = path.join(dir, 'whole.wav');
-    const r = await run('reverse', material, out, '--json', '--quiet');
+    const r = await runCli('reverse', material, out, '--json', '--quiet');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     expect(j.reverse.parameters).toMatchObject({ channels: [1, 2], fromSeconds: 0, toSeconds: 6 });
@@ -97,7 +72,7 @@ describe('bad input: exit 2, one-line message, nothing written', () => {
   for (const [name, [verb, ...flags], message] of cases) {
     it(name, async () => {
       const out = path.join(dir, `bad-${verb}.wav`);
-      const r = await run(verb!, material, out, ...flags);
+      const r = await runCli(verb!, material, out, ...flags);
       expect(r.code).toBe(2);
       expect(r.err).toMatch(message);
       expect(r.err.trim().split('\n')).toHaveLength(1);
@@ -111,7 +86,7 @@ describe('reelwright stretch and transpose', () => {
   it('stretch writes round(R·N) frames', async () => {
     // Source: definition (duration × R).
     const out = path.join(dir, 'stretched.wav');
-    const r = await run('stretch', material, out, '--ratio', '1.25', '--json', '--quiet');
+    const r = await runCli('stretch', material, out, '--ratio', '1.25', '--json', '--quiet');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     expect(j.stretch.parameters.ratio).toBe(1.25);
@@ -123,7 +98,7 @@ describe('reelwright stretch and transpose', () => {
   it('transpose keeps the length and records the amount', async () => {
     // Source: definition (duration kept); 2^(−3/12) for −3 semitones.
     const out = path.join(dir, 'transposed.wav');
-    const r = await run('transpose', material, out, '--semitones', '-3', '--keep-formants', '--json', '--quiet');
+    const r = await runCli('transpose', material, out, '--semitones', '-3', '--keep-formants', '--json', '--quiet');
     expect(r.code).toBe(0);
     const p = JSON.parse(r.out).transpose.parameters;
     expect(p.cents).toBe(-300);
@@ -140,7 +115,7 @@ describe('reelwright transpose by nothing', () => {
   it('copies the audio data exactly and says so', async () => {
     // Source: exact identity (a transposition of 0 cents is the identity).
     const out = path.join(dir, 'same.wav');
-    const r = await run('transpose', material, out, '--semitones', '0', '--quiet');
+    const r = await runCli('transpose', material, out, '--semitones', '0', '--quiet');
     expect(r.code).toBe(0);
     expect(r.err).toMatch(/changes nothing/);
     expect(dataChunkBytes(out).equals(dataChunkBytes(material))).toBe(true);
@@ -152,7 +127,7 @@ describe('reelwright reversed', () => {
     // Source: the demo's true parameters (assets/demo/thornbury-reel7.json: reversedChannels []).
     const truth = JSON.parse(readFileSync(path.join(root, 'assets/demo/thornbury-reel7.json'), 'utf8'));
     expect(truth.reversedChannels).toEqual([]);
-    const r = await run('reversed', demo, '--json');
+    const r = await runCli('reversed', demo, '--json');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     expect(Object.keys(j)).toEqual(['file', 'reversed']);
@@ -163,12 +138,12 @@ describe('reelwright reversed', () => {
   it('finds a channel reversed by `reverse --channels 2`, and not after reversing it back', async () => {
     // Source: construction (channel 2 played backwards by our own bit-exact reverse).
     const flipped = path.join(dir, 'flipped.wav'), restored = path.join(dir, 'restored.wav');
-    expect((await run('reverse', material, flipped, '--channels', '2', '--quiet')).code).toBe(0);
-    const r = await run('reversed', flipped, '--json');
+    expect((await runCli('reverse', material, flipped, '--channels', '2', '--quiet')).code).toBe(0);
+    const r = await runCli('reversed', flipped, '--json');
     const ch = JSON.parse(r.out).reversed.channels;
     expect(ch.map((c: { likely: boolean }) => c.likely)).toEqual([false, true]);
-    expect((await run('reverse', flipped, restored, '--channels', '2', '--quiet')).code).toBe(0);
-    const r2 = await run('reversed', restored, '--json');
+    expect((await runCli('reverse', flipped, restored, '--channels', '2', '--quiet')).code).toBe(0);
+    const r2 = await runCli('reversed', restored, '--json');
     expect(JSON.parse(r2.out).reversed.channels.map((c: { likely: boolean }) => c.likely)).toEqual([false, false]);
   });
 });
