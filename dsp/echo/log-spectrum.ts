@@ -1,0 +1,132 @@
+/**
+ * Averaged log power spectrum and its cepstrum, accumulated block by block.
+ *
+ * Why the average of logs: with y = h∗x, log|Y(ω)|² = log|X(ω)|² + log|H(ω)|² in every frame, so
+ * the echo's ripple log|1 + g·e^{−jωτ}|² adds the same curve to every frame whatever the source
+ * does, while the source's own log spectrum moves around and averages into a smooth curve. The
+ * real cepstrum c(q) = IDFT(mean log|Y|²) then holds the echo as a peak at quefrency τ of height g
+ * (log(1 + z) = z − z²/2 + …; Bogert, Healy & Tukey 1963; Childers, Skinner & Kemerait 1977;
+ * Oppenheim & Schafer, DTSP, ch. 13).
+ *
+ * Frames: periodic Hann, `fftSize` samples, `hopSize` apart, taken wholly inside the input.
+ * `frameStride` > 1 analyses only every stride-th frame (lean first passes over long files).
+ * Frames of digital silence are skipped (their log spectrum is undefined).
+ */
+import { FftPlan } from '../core/fft.ts';
+import { makeWindow } from '../core/window.ts';
+import { ParameterError } from '../errors.ts';
+
+export interface LogSpectrumOptions {
+  fftSize: number;
+  hopSize?: number;
+  frameStride?: number;
+  /** Skip frames until this many input samples have gone by (warm-up of a filter upstream). */
+  skipSamples?: number;
+}
+
+export class LogSpectrumAccumulator {
+  readonly fftSize: number;
+  readonly hopSize: number;
+  readonly frameStride: number;
+  readonly #plan: FftPlan;
+  readonly #window: Float64Array;
+  readonly #buf: Float64Array;
+  readonly #frame: Float64Array;
+  readonly #spec: Float64Array;
+  readonly #sum: Float64Array;
+  #filled = 0;
+  #frameIndex = 0;
+  #frames = 0;
+  #consumed = 0;
+  readonly #skip: number;
+
+  constructor(options: LogSpectrumOptions) {
+    const n = options.fftSize;
+    this.fftSize = n;
+    this.hopSize = options.hopSize ?? n / 2;
+    this.frameStride = Math.max(1, Math.floor(options.frameStride ?? 1));
+    if (!Number.isInteger(this.hopSize) || this.hopSize < 1 || this.hopSize > n) {
+      throw new ParameterError(`hopSize=${this.hopSize} must be a whole number from 1 to ${n}`);
+    }
+    this.#plan = new FftPlan(n);
+    this.#window = makeWindow('hann', n);
+    this.#buf = new Float64Array(n);
+    this.#frame = new Float64Array(n);
+    this.#spec = new Float64Array(n + 2);
+    this.#sum = new Float64Array(n / 2 + 1);
+    this.#skip = options.skipSamples ?? 0;
+  }
+
+  /** Frames accumulated so far. */
+  get frames(): number {
+    return this.#frames;
+  }
+
+  push(samples: Float64Array): void {
+    const n = this.fftSize, hop = this.hopSize, buf = this.#buf;
+    let i = 0;
+    if (this.#consumed < this.#skip) {
+      const drop = Math.min(samples.length, this.#skip - this.#consumed);
+      this.#consumed += drop;
+      i = drop;
+    }
+    while (i < samples.length) {
+      const take = Math.min(n - this.#filled, samples.length - i);
+      buf.set(samples.subarray(i, i + take), this.#filled);
+      this.#filled += take;
+      i += take;
+      this.#consumed += take;
+      if (this.#filled === n) {
+        if (this.#frameIndex % this.frameStride === 0) this.#analyse();
+        this.#frameIndex++;
+        buf.copyWithin(0, hop, n);
+        this.#filled = n - hop;
+      }
+    }
+  }
+
+  #analyse(): void {
+    const n = this.fftSize, w = this.#window, f = this.#frame, buf = this.#buf;
+    let energy = 0;
+    for (let i = 0; i < n; i++) {
+      const v = buf[i]! * w[i]!;
+      f[i] = v;
+      energy += v * v;
+    }
+    if (!(energy > 1e-24 * n)) return;
+    this.#plan.realForward(f, this.#spec);
+    const s = this.#spec, sum = this.#sum;
+    // Floor 200 dB under the frame's mean bin power keeps log() finite in exact-zero bins.
+    const floor = (energy / n) * 1e-20;
+    for (let k = 0; k <= n / 2; k++) {
+      const re = s[2 * k]!, im = s[2 * k + 1]!;
+      sum[k]! += Math.log(re * re + im * im + floor);
+    }
+    this.#frames++;
+  }
+
+  /** Mean natural-log power per bin, k = 0…N/2 (a copy). */
+  meanLogSpectrum(): Float64Array {
+    const out = new Float64Array(this.#sum.length);
+    const m = Math.max(1, this.#frames);
+    for (let k = 0; k < out.length; k++) out[k] = this.#sum[k]! / m;
+    return out;
+  }
+}
+
+/**
+ * Real cepstrum of a half spectrum of real log values (k = 0…N/2, mirrored to N bins):
+ * c(q) = (1/N) Σ_k L_k e^{j2πkq/N}, q = 0…N−1. The log is of |X|², so a single echo of gain g
+ * gives c(τ) ≈ g (twice the amplitude-cepstrum value g/2).
+ */
+export function cepstrumOf(logSpectrum: Float64Array, plan: FftPlan): Float64Array {
+  const n = plan.size;
+  const half = plan.createHalfSpectrum();
+  for (let k = 0; k <= n / 2; k++) {
+    half[2 * k] = logSpectrum[k]!;
+    half[2 * k + 1] = 0;
+  }
+  const c = new Float64Array(n);
+  plan.realInverse(half, c);
+  return c;
+}
