@@ -12,7 +12,7 @@
  * with a constant + slope background per window for B, by Gauss–Newton with analytic derivatives
  * and Levenberg damping (Nocedal & Wright, Numerical Optimization, ch. 10).
  */
-import { FftPlan } from '../core/fft.ts';
+import type { FftPlan } from '../core/fft.ts';
 import type { EchoKernel } from './kernel.ts';
 
 export interface SingleEcho {

@@ -8,7 +8,7 @@
  * fit share one code path.
  */
 import { ParameterError } from '../errors.ts';
-import { FftPlan, nextPowerOfTwo } from '../core/fft.ts';
+import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import { fractionalDelayKernel } from '../core/fractional-delay.ts';
 
 export interface EchoKernel {
@@ -68,7 +68,7 @@ export function kernelCentroid(k: EchoKernel): number {
  * Frequency response K(ω) = Σ taps[i]·e^{−jω(offset+i)} at bins ω_k = 2πk/n, k = 0…n/2, written
  * interleaved into `out` (n + 2 numbers). n must be a power of two above the kernel's last lag.
  */
-export function kernelResponse(k: EchoKernel, n: number, plan: FftPlan = new FftPlan(n), out = new Float64Array(n + 2)): Float64Array {
+export function kernelResponse(k: EchoKernel, n: number, plan: FftPlan = sharedPlan(n), out = new Float64Array(n + 2)): Float64Array {
   if (kernelMaxLag(k) >= n) throw new ParameterError(`kernel reaches lag ${kernelMaxLag(k)}, beyond the transform size ${n}`);
   const buf = new Float64Array(n);
   for (let i = 0; i < k.taps.length; i++) buf[k.offset + i] = k.taps[i]!;

@@ -12,7 +12,7 @@
  * `frameStride` > 1 analyses only every stride-th frame (lean first passes over long files).
  * Frames of digital silence are skipped (their log spectrum is undefined).
  */
-import { FftPlan } from '../core/fft.ts';
+import { type FftPlan, sharedPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/window.ts';
 import { ParameterError } from '../errors.ts';
 
@@ -22,6 +22,12 @@ export interface LogSpectrumOptions {
   frameStride?: number;
   /** Skip frames until this many input samples have gone by (warm-up of a filter upstream). */
   skipSamples?: number;
+  /**
+   * Also keep the averages of alternate frames (even / odd analysed frames). With 50 % overlap
+   * alternate frames do not overlap, so the two halves are independent looks at the material:
+   * an echo shows in both, a chance coincidence in the source usually in one.
+   */
+  keepHalves?: boolean;
 }
 
 export class LogSpectrumAccumulator {
@@ -34,6 +40,9 @@ export class LogSpectrumAccumulator {
   readonly #frame: Float64Array;
   readonly #spec: Float64Array;
   readonly #sum: Float64Array;
+  /** Sums over the even- and odd-numbered analysed frames (two independent halves). */
+  readonly #halves: [Float64Array, Float64Array] | null;
+  readonly #halfFrames: [number, number] = [0, 0];
   #filled = 0;
   #frameIndex = 0;
   #frames = 0;
@@ -48,12 +57,13 @@ export class LogSpectrumAccumulator {
     if (!Number.isInteger(this.hopSize) || this.hopSize < 1 || this.hopSize > n) {
       throw new ParameterError(`hopSize=${this.hopSize} must be a whole number from 1 to ${n}`);
     }
-    this.#plan = new FftPlan(n);
+    this.#plan = sharedPlan(n);
     this.#window = makeWindow('hann', n);
     this.#buf = new Float64Array(n);
     this.#frame = new Float64Array(n);
     this.#spec = new Float64Array(n + 2);
     this.#sum = new Float64Array(n / 2 + 1);
+    this.#halves = options.keepHalves ? [new Float64Array(n / 2 + 1), new Float64Array(n / 2 + 1)] : null;
     this.#skip = options.skipSamples ?? 0;
   }
 
@@ -96,13 +106,25 @@ export class LogSpectrumAccumulator {
     if (!(energy > 1e-24 * n)) return;
     this.#plan.realForward(f, this.#spec);
     const s = this.#spec, sum = this.#sum;
+    const half = this.#halves ? this.#halves[this.#frames & 1] : null;
     // Floor 200 dB under the frame's mean bin power keeps log() finite in exact-zero bins.
     const floor = (energy / n) * 1e-20;
     for (let k = 0; k <= n / 2; k++) {
       const re = s[2 * k]!, im = s[2 * k + 1]!;
-      sum[k]! += Math.log(re * re + im * im + floor);
+      const v = Math.log(re * re + im * im + floor);
+      sum[k]! += v;
+      if (half) half[k]! += v;
     }
+    this.#halfFrames[this.#frames & 1]++;
     this.#frames++;
+  }
+
+  /** Mean log power of the even (0) or odd (1) analysed frames, or null if not kept / empty. */
+  halfMeanLogSpectrum(which: 0 | 1): Float64Array | null {
+    const h = this.#halves?.[which];
+    const m = this.#halfFrames[which];
+    if (!h || m === 0) return null;
+    return h.map((v) => v / m);
   }
 
   /** Mean natural-log power per bin, k = 0…N/2 (a copy). */

@@ -19,7 +19,7 @@
  * Every pass streams the excerpt from the source block by block; only the whole-excerpt mode keeps
  * the (bounded) excerpt in memory.
  */
-import { FftPlan, nextPowerOfTwo } from '../core/fft.ts';
+import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } from './fit.ts';
@@ -80,7 +80,7 @@ export async function cancelledCepstrum(
   kernel: EchoKernel | null,
   framing: Framing,
   options: RefineOptions,
-  plan: FftPlan = new FftPlan(framing.fftSize),
+  plan: FftPlan = sharedPlan(framing.fftSize),
 ): Promise<Float64Array | null> {
   const { start, end, warmup } = options.excerpt;
   const from = Math.max(0, start - warmup);
@@ -131,7 +131,7 @@ export async function refineSingleEcho(
 ): Promise<{ fit: FitResult; framing: Framing; passes: number }> {
   const length = options.excerpt.end - options.excerpt.start;
   let framing = chooseFraming(initial.delaySamples, initial.gain, length);
-  let plan = new FftPlan(framing.fftSize);
+  let plan = sharedPlan(framing.fftSize);
   const maxPasses = options.maxPasses ?? 6;
   let tau = initial.delaySamples, g = initial.gain;
   let fit: FitResult | null = null;
@@ -141,7 +141,7 @@ export async function refineSingleEcho(
     const f = chooseFraming(tau, g, length);
     if (f.fftSize !== framing.fftSize || f.whole !== framing.whole) {
       framing = f;
-      plan = new FftPlan(f.fftSize);
+      plan = sharedPlan(f.fftSize);
       prev = null; // a different framing measures a slightly different G
     }
     const gc = clampCancel(g);

@@ -4,9 +4,13 @@
  */
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
+import { echo } from './echo.ts';
+import { unecho } from './unecho.ts';
 
 export const operations: readonly Operation[] = [
   info,
+  echo,
+  unecho,
 ];
 
 export function findOperation(name: string): Operation | undefined {

@@ -5,13 +5,13 @@
  * shift does not wrap signal into the output. The Nyquist bin keeps only its real part
  * (cos(πd)) so the result stays real.
  */
-import { FftPlan, nextPowerOfTwo } from '../../dsp/core/fft.ts';
+import { nextPowerOfTwo, sharedPlan } from '../../dsp/core/fft.ts';
 
 /** x delayed by `delaySamples` (any real value, negative = advanced), same length, zeros shifted in. */
 export function delayExact(x: Float64Array, delaySamples: number): Float64Array {
   const n = x.length;
   const size = nextPowerOfTwo(n + Math.ceil(Math.abs(delaySamples)) + 4096);
-  const plan = new FftPlan(size);
+  const plan = sharedPlan(size);
   const padded = new Float64Array(size);
   // Put the signal in the middle of the padding when advancing, so nothing wraps either way.
   const lead = delaySamples < 0 ? Math.ceil(-delaySamples) + 2048 : 0;

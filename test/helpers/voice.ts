@@ -57,6 +57,8 @@ interface Syllable {
   end: number;
   vowel: readonly [number, number, number, number];
   nextVowel: readonly [number, number, number, number];
+  /** Formant bandwidth scale for this syllable. */
+  bwScale: number;
   f0Start: number;
   f0End: number;
   amp: number;
@@ -71,6 +73,10 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
   const normal = gaussian(seededRng(options.seed ^ 0x5bd1e995));
   const uni = (a: number, b: number) => a + (b - a) * rng();
   const pick = <T>(xs: readonly T[]): T => xs[Math.min(xs.length - 1, Math.floor(rng() * xs.length))]!;
+  // Each syllable's formants vary around the vowel's (±15 %: speakers and context differ), so the
+  // long-term spectrum is smooth as it is for real speech.
+  const jitter = (v: readonly [number, number, number, number]) =>
+    v.map((f) => f * uni(0.85, 1.15)) as unknown as readonly [number, number, number, number];
 
   // --- Timeline: phrases of syllables, separated by pauses.
   const syllables: Syllable[] = [];
@@ -92,11 +98,12 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
         start: t,
         voicedStart: t + fricLen,
         end: t + fricLen + len,
-        vowel: pick(VOWELS),
-        nextVowel: pick(VOWELS),
+        vowel: jitter(pick(VOWELS)),
+        nextVowel: jitter(pick(VOWELS)),
         f0Start: f0Base * accent * (1 - (1 - declination) * progress0) * uni(0.95, 1.05),
         f0End: f0Base * (1 - (1 - declination) * progress1) * uni(0.9, 1.1),
         amp: phraseAmp * uni(0.6, 1),
+        bwScale: uni(0.7, 1.6),
         fricative,
       });
       t += fricLen + len + Math.round((rng() < 0.5 ? uni(0, 0.06) : uni(0.06, 0.14)) * fs);
@@ -126,7 +133,7 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
         const y = a * normal() + b * y1 + c * y2;
         y2 = y1;
         y1 = y;
-        fricNoise[syl.start + i] = 0.35 * syl.amp * env * y;
+        fricNoise[syl.start + i] = syl.amp * env * y;
       }
     }
     // Voiced part: pulses at a gliding f0 with slight jitter.
@@ -163,10 +170,10 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
   const coef = new Float64Array(12);
   let g = 0;
   let si = 0;
-  const setCoefficients = (formants: readonly number[]) => {
+  const setCoefficients = (formants: readonly number[], bwScale: number) => {
     for (let f = 0; f < 4; f++) {
       const fc = Math.min(formants[f]!, 0.45 * fs);
-      const bw = BANDWIDTHS[f]!;
+      const bw = BANDWIDTHS[f]! * bwScale;
       const c = -Math.exp((-2 * Math.PI * bw) / fs);
       const b = 2 * Math.exp((-Math.PI * bw) / fs) * Math.cos((2 * Math.PI * fc) / fs);
       coef[3 * f] = 1 - b - c;
@@ -175,7 +182,7 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
     }
   };
   const formants = [500, 1500, 2500, 3500];
-  setCoefficients(formants);
+  setCoefficients(formants, 1);
   for (let i = 0; i < n; i++) {
     if ((i & 31) === 0) {
       while (si < syllables.length - 1 && syllables[si]!.end <= i) si++;
@@ -184,7 +191,7 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
         const u = Math.min(1, Math.max(0, (i - syl.voicedStart) / Math.max(1, syl.end - syl.voicedStart)));
         const glide = u < 0.6 ? 0 : (u - 0.6) / 0.4; // hold, then glide towards the next vowel
         for (let f = 0; f < 4; f++) formants[f] = syl.vowel[f]! + (syl.nextVowel[f]! - syl.vowel[f]!) * 0.5 * glide;
-        setCoefficients(formants);
+        setCoefficients(formants, syl.bwScale);
       }
     }
     g = (1 - pole) * pulse[i]! + pole * g;
@@ -196,11 +203,26 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
       state[2 * f] = y;
       v = y;
     }
-    voice[i] = v + fricNoise[i]!;
+    // A little of the glottal source bypasses the formants, so the voice keeps some energy above F4.
+    voice[i] = v + 0.03 * g;
   }
   // Radiation at the lips: first difference (+6 dB/octave).
   for (let i = n - 1; i > 0; i--) voice[i] = voice[i]! - voice[i - 1]!;
   voice[0] = 0;
+  // Unvoiced consonants 12 dB below the voiced sound (RMS over the segments where each sounds).
+  let vs = 0, vn = 0, fsq = 0, fn = 0;
+  for (let i = 0; i < n; i++) {
+    if (voice[i] !== 0) {
+      vs += voice[i]! ** 2;
+      vn++;
+    }
+    if (fricNoise[i] !== 0) {
+      fsq += fricNoise[i]! ** 2;
+      fn++;
+    }
+  }
+  const fricScale = fsq > 0 && vs > 0 ? Math.sqrt(vs / vn / (fsq / fn)) * Math.pow(10, -12 / 20) : 0;
+  for (let i = 0; i < n; i++) voice[i] = voice[i]! + fricScale * fricNoise[i]!;
 
   // Levels.
   let peak = 0;
