@@ -13,6 +13,19 @@ export default defineConfig({
           hookTimeout: 120_000,
         },
       },
+      {
+        test: {
+          name: 'e2e',
+          environment: 'node',
+          include: ['test/e2e/**/*.test.ts'],
+          globalSetup: ['test/e2e/global-setup.ts'],
+          fileParallelism: false,
+          // After the unit projects, so the timing checks have the machine to themselves.
+          sequence: { groupOrder: 1 },
+          testTimeout: 180_000,
+          hookTimeout: 180_000,
+        },
+      },
     ],
   },
 });

@@ -82,6 +82,21 @@ export class WelchAccumulator {
     }
   }
 
+  /**
+   * Adds one whole frame (fftSize samples per channel) taken from anywhere in the signal, for
+   * estimates from evenly spaced frames of long files. Does not disturb a stream being pushed.
+   */
+  addFrame(frame: readonly Float64Array[]): void {
+    const saved = this.#bufs.map((b) => b.slice());
+    for (let c = 0; c < this.channelCount; c++) {
+      const b = this.#bufs[c]!;
+      b.fill(0);
+      b.set(frame[c]!.subarray(0, this.fftSize));
+    }
+    this.#accumulate();
+    saved.forEach((b, c) => this.#bufs[c]!.set(b));
+  }
+
   #accumulate(): void {
     const n = this.fftSize, w = this.#window, t = this.#tmp, s = this.#spec;
     for (let c = 0; c < this.channelCount; c++) {
@@ -131,16 +146,35 @@ export class WelchAccumulator {
   }
 }
 
-/** Welch spectrum of a whole source, streamed. */
+/**
+ * Welch spectrum of a source, streamed. With `maxFrames`, a source that would need more frames is
+ * estimated from that many frames spaced evenly over it (each read on its own), so an hour of audio
+ * costs a few thousand transforms — plenty for a long-term average.
+ */
 export async function welchSpectrum(
   source: AudioSource,
-  options: Omit<WelchOptions, 'sampleRateHz' | 'channelCount'> & { startFrame?: number; endFrame?: number } = {},
+  options: Omit<WelchOptions, 'sampleRateHz' | 'channelCount'> & { startFrame?: number; endFrame?: number; maxFrames?: number } = {},
   onProgress?: (fraction: number) => void,
 ): Promise<WelchResult> {
   const acc = new WelchAccumulator({ ...options, sampleRateHz: source.sampleRateHz, channelCount: source.channelCount });
+  const start = options.startFrame ?? 0;
+  const end = options.endFrame ?? source.frames;
+  const total = Math.max(1, end - start);
+  const streamFrames = total >= acc.fftSize ? Math.floor((total - acc.fftSize) / acc.hopSize) + 1 : 1;
+  const maxFrames = options.maxFrames ?? Infinity;
+  if (streamFrames > maxFrames) {
+    const span = total - acc.fftSize;
+    for (let i = 0; i < maxFrames; i++) {
+      const at = start + Math.round((i * span) / Math.max(1, maxFrames - 1));
+      for await (const block of source.blocks({ startFrame: at, endFrame: at + acc.fftSize, blockFrames: acc.fftSize })) {
+        acc.addFrame(block);
+      }
+      onProgress?.((i + 1) / maxFrames);
+    }
+    return acc.result();
+  }
   let done = 0;
-  const total = Math.max(1, (options.endFrame ?? source.frames) - (options.startFrame ?? 0));
-  for await (const block of source.blocks({ startFrame: options.startFrame, endFrame: options.endFrame })) {
+  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
     acc.push(block);
     done += block[0]!.length;
     onProgress?.(done / total);

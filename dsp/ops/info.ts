@@ -30,6 +30,8 @@ export const info: AnalysisOp<InfoResult> = {
   kind: 'analysis',
   name: 'info',
   key: 'info',
+  // Its clipping and DC figures are part of `levels`, which diagnose and check run instead.
+  inDiagnose: false,
   title: 'File facts',
   summary: 'Format, length, per-channel peak, RMS, DC offset, clipped samples and the audio checksum.',
   params: [],

@@ -4,12 +4,22 @@
  */
 import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
+import { spectrum } from './spectrum.ts';
+import { levels } from './levels.ts';
+import { flutter } from './flutter.ts';
+import { azimuth } from './azimuth.ts';
+import { align } from './align.ts';
 import { echo } from './echo.ts';
 import { unecho } from './unecho.ts';
 
 export const operations: readonly Operation[] = [
   info,
+  spectrum,
+  levels,
   echo,
+  flutter,
+  azimuth,
+  align,
   unecho,
 ];
 

@@ -99,6 +99,10 @@ export interface AnalysisOp<R = unknown> extends OperationBase {
   toJson?(result: R): Record<string, unknown>;
   /** Plain-language findings for diagnose / editor / report. */
   findings?(result: R, facts: SourceFacts): Finding[];
+  /** Renders the result (and optionally a second result to compare) as a file: `--out NAME.svg|.csv`. */
+  render?(result: R, format: 'svg' | 'csv', compareWith?: R): string;
+  /** Before/after comparison for `--compare OTHER` and the editor's compare view. */
+  compare?(before: R, after: R): Record<string, unknown>;
 }
 
 /** What a correction produces: the output's shape and its blocks. */

@@ -3,6 +3,8 @@
  * The byte-level parsing is pure (dsp/formats); these types describe the Node-side objects.
  */
 import type { AudioSource } from '../../dsp/source.ts';
+import type { AudioLayout } from '../../dsp/formats/types.ts';
+import type { BextInfo } from '../../dsp/formats/bext.ts';
 
 export type SampleFormat = 'int' | 'float';
 export type ContainerFormat = 'WAV' | 'BWF' | 'RF64' | 'BW64' | 'AIFF' | 'AIFC' | 'FLAC';
@@ -48,6 +50,18 @@ export interface OpenedAudio extends AudioSource {
   /** Streams the stored audio bytes through MD5 (for FLAC: the decoded PCM, as FLAC's own MD5 does). */
   audioMd5(onProgress?: (fraction: number) => void): Promise<string>;
   close(): Promise<void>;
+  /** Everything the header parser found (container details, chunk list, ds64, FLAC STREAMINFO). */
+  readonly layout: AudioLayout;
+  /** The parsed bext chunk, when the file has one. */
+  readonly bext?: BextInfo;
+  /**
+   * NaN/±Inf samples in a float file. They are read as 0 (so analyses stay finite); this is the
+   * count found by the last complete pass over the whole file (blocks(), audioMd5() or
+   * scanNonFinite()), undefined until one has run. Always 0 for integer files.
+   */
+  readonly nonFiniteSamples: number | undefined;
+  /** A validation pass over the stored samples: counts NaN/±Inf (fast, no decoding). */
+  scanNonFinite(onProgress?: (fraction: number) => void): Promise<number>;
 }
 
 export interface WriteOptions {

@@ -1,0 +1,146 @@
+/**
+ * `reelwright check` on one long 96 kHz 24-bit stereo file: wall time and peak memory of the whole
+ * command (one worker thread, pinned to one core when `taskset` exists) — wall and CPU time, since
+ * on a shared machine the wall time mostly measures the other work — plus the time of each analysis
+ * run on its own (each includes its own decoding pass; inside `check` they share one).
+ * Target (issue): 1 hour in ≤ 90 s with peak RSS ≤ 400 MB.
+ *
+ * The file is generated here in a temp folder and removed afterwards: 1 hour with REELWRIGHT_BIG=1,
+ * otherwise 5 minutes, with the hour extrapolated (time × 12; memory is not extrapolated — the
+ * analyses keep compact summaries, but their size does grow with length) and labelled as such.
+ * Content: a 30 s 3150 Hz test tone with slight flutter, then noise "programme" tilted by a
+ * one-pole low-pass, with a slow level swell and channel 2 two samples late.
+ */
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { spawnSync } from 'node:child_process';
+import { fileURLToPath } from 'node:url';
+import { writeAudio } from '../main/io/writer.ts';
+import { openAudio } from '../main/io/reader.ts';
+import { analyses } from '../dsp/ops/registry.ts';
+import { validateParams } from '../dsp/ops/params.ts';
+import { silentContext } from '../dsp/ops/types.ts';
+import { NotFoundError } from '../dsp/errors.ts';
+import { fmt, line, mb, timeAsync } from './util.ts';
+
+const FS = 96000;
+const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
+
+async function makeFile(file: string, seconds: number): Promise<void> {
+  const frames = Math.round(seconds * FS);
+  const block = 65536;
+  let seed = 12345;
+  // xorshift32 uniform noise; cheap enough to make an hour in seconds.
+  const rnd = () => {
+    seed ^= seed << 13;
+    seed ^= seed >>> 17;
+    seed ^= seed << 5;
+    return (seed >>> 0) / 4294967296 - 0.5;
+  };
+  let lp = 0, prev1 = 0, prev2 = 0;
+  async function* blocks() {
+    for (let at = 0; at < frames; at += block) {
+      const n = Math.min(block, frames - at);
+      const a = new Float64Array(n), b = new Float64Array(n);
+      for (let i = 0; i < n; i++) {
+        const t = (at + i) / FS;
+        let v: number;
+        if (t < 30) {
+          v = 0.25 * Math.sin(2 * Math.PI * 3150 * t + ((0.0008 * 3150) / 5) * Math.sin(2 * Math.PI * 5 * t));
+        } else {
+          lp = 0.9 * lp + 0.1 * (rnd() + rnd() + rnd());
+          v = lp * (0.6 + 0.4 * Math.sin((2 * Math.PI * t) / 97));
+        }
+        a[i] = v;
+        b[i] = prev2;
+        prev2 = prev1;
+        prev1 = v;
+      }
+      yield [a, b];
+    }
+  }
+  await writeAudio(file, { sampleRateHz: FS, channelCount: 2, blocks: blocks() }, { bitsPerSample: 24, sampleFormat: 'int', dither: false });
+}
+
+export default async function run(): Promise<void> {
+  const big = process.env.REELWRIGHT_BIG === '1';
+  const seconds = big ? 3600 : 300;
+  const scale = 3600 / seconds;
+  const tmp = fs.mkdtempSync(path.join(os.tmpdir(), 'reelwright-bench-check-'));
+  try {
+    const file = path.join(tmp, 'transfer.wav');
+    const made = await timeAsync(() => makeFile(file, seconds));
+    line('check', `made ${seconds / 60} min 96 kHz 24-bit stereo WAV`, `${fmt(made, 1)} s`, mb(fs.statSync(file).size));
+
+    // The whole command in a child process: wall time and peak RSS (threads included).
+    const script = path.join(tmp, 'run.mjs');
+    fs.writeFileSync(
+      script,
+      `import { register } from ${JSON.stringify(path.join(ROOT, 'node_modules/tsx/dist/esm/api/index.mjs'))};\n` +
+        `register();\nconst { runCheck } = await import(${JSON.stringify(path.join(ROOT, 'main/check/index.ts'))});\n` +
+        `const t0 = process.hrtime.bigint();\n` +
+        `const code = await runCheck([${JSON.stringify(file)}, '--jobs', '1', '--quiet', '--json', ${JSON.stringify(path.join(tmp, 'r.json'))}], { out() {} });\n` +
+        `const s = Number(process.hrtime.bigint() - t0) / 1e9;\n` +
+        `const u = process.resourceUsage();\n` +
+        `process.stdout.write(JSON.stringify({ code, seconds: s, cpuSeconds: (u.userCPUTime + u.systemCPUTime) / 1e6, maxRssKb: u.maxRSS }) + '\\n');\n`,
+    );
+    const pin = spawnSync('taskset', ['-c', '0', 'true']).status === 0;
+    const [exe, exeArgs]: [string, string[]] = pin ? ['taskset', ['-c', '0', process.execPath, script]] : [process.execPath, [script]];
+    const r = spawnSync(exe, exeArgs, { encoding: 'utf8', cwd: ROOT, maxBuffer: 1 << 20 });
+    if (r.status !== 0) {
+      line('check', 'check run failed', '—', r.stderr.split('\n').slice(-3).join(' '));
+      return;
+    }
+    const res = JSON.parse(r.stdout.trim().split('\n').pop()!) as { code: number; seconds: number; cpuSeconds: number; maxRssKb: number };
+    const label = pin ? 'one core (taskset -c 0), --jobs 1' : '--jobs 1 (taskset not available)';
+    line('check', `check ${seconds / 60} min file, ${label}`, `${fmt(res.seconds, 1)} s`, `CPU ${fmt(res.cpuSeconds, 1)} s, peak RSS ${fmt(res.maxRssKb / 1024, 0)} MB, exit ${res.code}`);
+    const load = os.loadavg()[0]!;
+    const verdict = (v: number, limit: number) => (v <= limit ? 'met' : 'NOT met');
+    if (big) {
+      line('check', '1 hour, target ≤ 90 s on one core: CPU time', `${fmt(res.cpuSeconds, 1)} s`, verdict(res.cpuSeconds, 90));
+      line('check', '1 hour, target ≤ 90 s on one core: wall time', `${fmt(res.seconds, 1)} s`, `${verdict(res.seconds, 90)} (load average ${fmt(load, 1)} on ${os.cpus().length} cores while measuring)`);
+      line('check', '1 hour, target peak RSS ≤ 400 MB', `${fmt(res.maxRssKb / 1024, 0)} MB`, verdict(res.maxRssKb / 1024, 400));
+    } else {
+      line('check', '1 hour EXTRAPOLATED (× 12 from 5 min; REELWRIGHT_BIG=1 measures it)', `${fmt(res.seconds * scale, 0)} s`, `CPU ${fmt(res.cpuSeconds * scale, 0)} s; target ≤ 90 s. Over-estimates: the test tone, and the capped sparse frames of azimuth, flutter and the levels spectrum, do not grow with length (load average ${fmt(load, 1)})`);
+    }
+
+    // Each analysis on its own (in this process), for the breakdown.
+    const audio = await openAudio(file);
+    try {
+      const cpu = () => {
+        const u = process.cpuUsage();
+        return (u.user + u.system) / 1e6;
+      };
+      let c0 = cpu();
+      const md5 = await timeAsync(async () => void (await audio.audioMd5()));
+      let c1 = cpu();
+      line('check', `  fixity MD5 of the audio`, `${fmt(md5, 2)} s`, `CPU ${fmt(c1 - c0, 2)} s` + (big ? '' : ` → ${fmt((c1 - c0) * scale, 1)} s per hour`));
+      c0 = cpu();
+      await timeAsync(async () => {
+        for await (const b of audio.blocks()) void b;
+      });
+      c1 = cpu();
+      line('check', `  one decoding pass`, '', `CPU ${fmt(c1 - c0, 2)} s` + (big ? '' : ` → ${fmt((c1 - c0) * scale, 1)} s per hour`));
+      for (const op of analyses().filter((o) => o.inDiagnose !== false)) {
+        let note = '';
+        c0 = cpu();
+        const s = await timeAsync(async () => {
+          try {
+            await op.run(audio, validateParams(op.params, {}), silentContext);
+          } catch (e) {
+            if (e instanceof NotFoundError) note = '(found nothing)';
+            else throw e;
+          }
+        });
+        c1 = cpu();
+        line('check', `  ${op.name} ${note}`, `${fmt(s, 2)} s`, `CPU ${fmt(c1 - c0, 2)} s` + (big ? '' : ` → ${fmt((c1 - c0) * scale, 1)} s per hour`));
+      }
+    } finally {
+      await audio.close();
+    }
+    line('check', 'note', '', 'shared 2-core machine: other work running at the same time makes these numbers noisy');
+  } finally {
+    fs.rmSync(tmp, { recursive: true, force: true });
+  }
+}

@@ -1,0 +1,95 @@
+/**
+ * `levels`: sample peak, true peak (4× oversampling, ITU-R BS.1770-4 Annex 2), RMS, DC offset,
+ * clipped samples and runs, integrated loudness (BS.1770-4 K-weighting and gating) with momentary
+ * and short-term maxima and the loudness range (EBU Tech 3342), dropouts, silence at head and
+ * tail, and the effective bandwidth (in the numbers only: the `spectrum` analysis words the
+ * bandwidth finding). Methods: dsp/levels/.
+ */
+import type { AnalysisOp, Finding } from './types.ts';
+import { num } from './params.ts';
+import { clipThreshold } from './info.ts';
+import { analyzeLevels, type LevelsResult } from '../levels/analyze.ts';
+
+export type { LevelsResult } from '../levels/analyze.ts';
+
+const f1 = (v: number) => (Number.isFinite(v) ? v.toFixed(1) : '−∞');
+
+export const levels: AnalysisOp<LevelsResult> = {
+  kind: 'analysis',
+  name: 'levels',
+  key: 'levels',
+  title: 'Levels',
+  summary: 'Peak and true peak, loudness (BS.1770), RMS, DC offset, clipping, dropouts, head/tail silence and bandwidth.',
+  params: [
+    {
+      name: 'silenceThresholdDbfs', flag: 'silence-db', type: 'number', label: 'Silence below', unit: 'dB',
+      help: 'Head and tail count as silent while every channel stays below this level (dBFS, 10 ms windows).',
+      min: -140, max: 0, default: -60,
+    },
+    {
+      name: 'dropoutDepthDb', flag: 'dropout-db', type: 'number', label: 'Dropout depth', unit: 'dB',
+      help: 'A dropout is a sudden drop at least this deep, lasting 5–500 ms, in otherwise steady programme.',
+      min: 6, max: 80, default: 20,
+    },
+    {
+      name: 'clipRunSamples', flag: 'clip-run', type: 'integer', label: 'Clipped run', unit: 'samples',
+      help: 'Consecutive samples at full scale that count as one clipped run.',
+      min: 1, max: 1000, default: 3,
+    },
+  ],
+  async run(source, params, ctx) {
+    const meta = source as { bitsPerSample?: number; sampleFormat?: 'int' | 'float' };
+    return analyzeLevels(
+      source,
+      {
+        clipLevel: clipThreshold(meta.bitsPerSample, meta.sampleFormat),
+        clipRunSamples: num(params, 'clipRunSamples'),
+        silenceThresholdDbfs: num(params, 'silenceThresholdDbfs'),
+        dropoutDepthDb: num(params, 'dropoutDepthDb'),
+      },
+      ctx,
+    );
+  },
+  findings(r) {
+    const out: Finding[] = [];
+    const op = 'levels';
+    out.push({
+      op,
+      title: `Loudness ${f1(r.loudnessLufs)} LUFS, true peak ${f1(r.truePeakDbtp)} dBTP`,
+      sentence: `The whole file measures ${f1(r.loudnessLufs)} LUFS integrated loudness (ITU-R BS.1770) with a highest true peak of ${f1(r.truePeakDbtp)} dBTP and a loudness range of ${r.loudnessRangeLu.toFixed(1)} LU.`,
+      value: Number.isFinite(r.loudnessLufs) ? Math.round(r.loudnessLufs * 10) / 10 : 'silent',
+      unit: 'LUFS',
+      severity: 'info',
+    });
+    for (const ch of r.channels) {
+      if (!(ch.peakDbfs > -60)) {
+        out.push({
+          op, title: `Channel ${ch.channel} is silent`, severity: 'warn', value: Number.isFinite(ch.peakDbfs) ? Math.round(ch.peakDbfs) : 'no signal', unit: 'dBFS',
+          sentence: `Channel ${ch.channel} never rises above ${f1(ch.peakDbfs)} dBFS: check the cable, the head and the track selection.`,
+        });
+      }
+      if (ch.clippedRunCount > 0) {
+        out.push({
+          op, title: `Channel ${ch.channel} clipped ${ch.clippedRunCount} times`, severity: 'warn', value: ch.clippedRunCount, unit: 'runs',
+          sentence: `Channel ${ch.channel} sits at full scale for runs of several samples ${ch.clippedRunCount} times (${ch.clippedSamples} samples in all): the transfer level was too high; redo it with less gain.`,
+        });
+      }
+    }
+    if (r.dropouts.length > 0) {
+      const d = r.dropouts[0]!;
+      out.push({
+        op, title: `${r.dropouts.length} dropout${r.dropouts.length > 1 ? 's' : ''}`, severity: 'warn', value: r.dropouts.length, unit: 'dropouts',
+        sentence: `The level falls suddenly by ${d.depthDb.toFixed(0)} dB for ${(d.durationSeconds * 1000).toFixed(0)} ms at ${d.startSeconds.toFixed(2)} s${r.dropouts.length > 1 ? ` and ${r.dropouts.length - 1} more time${r.dropouts.length > 2 ? 's' : ''}` : ''}: tape losing contact with the head, a damaged splice or shedding. Check the tape at those places and clean the heads.`,
+      });
+    }
+    if (r.silence.allSilent) {
+      out.push({ op, title: 'No signal', severity: 'fail', sentence: `The whole file stays below ${r.silence.thresholdDbfs} dBFS.` });
+    } else if (r.silence.headSeconds + r.silence.tailSeconds > 0) {
+      out.push({
+        op, title: `Silence: ${r.silence.headSeconds.toFixed(1)} s at the head, ${r.silence.tailSeconds.toFixed(1)} s at the tail`, severity: 'info', value: r.silence.headSeconds, unit: 's',
+        sentence: `The file starts with ${r.silence.headSeconds.toFixed(1)} s and ends with ${r.silence.tailSeconds.toFixed(1)} s below ${r.silence.thresholdDbfs} dBFS.`,
+      });
+    }
+    return out;
+  },
+};

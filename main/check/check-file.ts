@@ -1,0 +1,128 @@
+/**
+ * The work on one file of a batch check: open it, checksum the audio (fixity), run every analysis
+ * that applies (dsp/ops/diagnose.ts) and return one plain, cloneable entry. Runs inside a worker
+ * thread (worker.ts) or in-process. Failures to open or read become an entry with `error`, never
+ * an exception, so a batch goes on past a bad file.
+ */
+import { diagnose, type DiagnoseResult } from '../../dsp/ops/diagnose.ts';
+import { analyses } from '../../dsp/ops/registry.ts';
+import { SharedPass } from './shared-pass.ts';
+import type { Finding, ParamValues } from '../../dsp/ops/types.ts';
+import { CancelledError, InputError } from '../../dsp/errors.ts';
+import type { FileInfo, OpenedAudio } from '../io/types.ts';
+
+export interface CheckJob {
+  path: string;
+  /** Parameters per analysis verb (e.g. { flutter: { toneHz: 3000 } }). */
+  params: Record<string, ParamValues>;
+  /** Checksum from an earlier report: when the audio still has it, the analyses are skipped. */
+  previousMd5?: string;
+}
+
+/** One file's row in the report. Analysis sections sit beside `file` under their contract keys. */
+export interface FileEntry {
+  file: Partial<FileInfo> & { path: string };
+  findings: Finding[];
+  notes: { op: string; reason: string }[];
+  /** Why the file could not be checked (unreadable, truncated…). */
+  error?: string;
+  /** Wall time spent on this file, seconds. */
+  seconds: number;
+  /** Filled in by the coordinator from the thresholds. */
+  status?: 'pass' | 'warn' | 'fail';
+  reasons?: string[];
+  /** True when taken over from an earlier report (same checksum). */
+  resumed?: boolean;
+  [section: string]: unknown;
+}
+
+export type JobResult = { kind: 'entry'; entry: FileEntry } | { kind: 'unchanged'; file: FileInfo };
+
+export type Opener = (path: string) => Promise<OpenedAudio>;
+
+const MD5_SHARE = 0.1;
+
+export async function checkFile(job: CheckJob, open: Opener, onProgress: (fraction: number) => void, signal?: { aborted: boolean }): Promise<JobResult> {
+  const t0 = Date.now();
+  const seconds = () => (Date.now() - t0) / 1000;
+  let file: OpenedAudio;
+  try {
+    file = await open(job.path);
+  } catch (e) {
+    return { kind: 'entry', entry: { file: { path: job.path }, findings: [], notes: [], error: reason(e), seconds: seconds() } };
+  }
+  let info: FileInfo = { ...file.info };
+  try {
+    info.audioMd5 = await file.audioMd5((f) => onProgress(MD5_SHARE * f));
+    if (job.previousMd5 !== undefined && job.previousMd5 === info.audioMd5) return { kind: 'unchanged', file: info };
+    const warnings: string[] = [];
+    const result = await diagnoseTogether(file, job.params, (f) => onProgress(MD5_SHARE + (1 - MD5_SHARE) * f), (m) => warnings.push(m), signal);
+    info = { ...info, ...file.info, audioMd5: info.audioMd5 };
+    // Float files may hold NaN/Inf samples; the reader counts them (they are read as 0).
+    const nonFinite = file.nonFiniteSamples ?? 0;
+    return {
+      kind: 'entry',
+      entry: {
+        file: info,
+        ...(nonFinite > 0 ? { nonFiniteSamples: nonFinite } : {}),
+        ...result.sections,
+        findings: result.findings,
+        notes: [...result.notes, ...warnings.map((w) => ({ op: w.split(':')[0] ?? '', reason: w }))],
+        seconds: seconds(),
+      },
+    };
+  } catch (e) {
+    if (e instanceof CancelledError) throw e;
+    return { kind: 'entry', entry: { file: info, findings: [], notes: [], error: reason(e), seconds: seconds() } };
+  } finally {
+    await file.close().catch(() => {});
+  }
+}
+
+/**
+ * Every analysis of diagnose() (each one a diagnose call of its own), all started together over a
+ * SharedPass so their full passes share one decoding of the file. Sections, findings and notes are
+ * merged in registry order, as diagnose() itself would give them.
+ */
+export async function diagnoseTogether(
+  file: OpenedAudio,
+  params: Record<string, ParamValues>,
+  onProgress: (fraction: number) => void,
+  warn: (message: string) => void,
+  signal?: { aborted: boolean },
+): Promise<DiagnoseResult> {
+  const shared = new SharedPass(file);
+  const source = shared.source<OpenedAudio>();
+  const ops = analyses().filter((op) => op.inDiagnose !== false);
+  const fractions = new Float64Array(ops.length);
+  const parts = await Promise.all(
+    ops.map((op, i) =>
+      diagnose(
+        source,
+        {
+          progress: (f) => {
+            fractions[i] = f;
+            onProgress(fractions.reduce((a, b) => a + b, 0) / ops.length);
+          },
+          warn,
+          signal,
+        },
+        { only: [op.name], params },
+      ),
+    ),
+  );
+  const out: DiagnoseResult = { sections: {}, findings: [], notes: [] };
+  for (const p of parts) {
+    Object.assign(out.sections, p.sections);
+    out.findings.push(...p.findings);
+    out.notes.push(...p.notes);
+  }
+  return out;
+}
+
+/** One line saying what went wrong with a file. */
+export function reason(e: unknown): string {
+  if (e instanceof InputError) return e.message + (e.byteOffset !== undefined ? ` (at byte ${e.byteOffset})` : '');
+  if (e instanceof Error) return e.name === 'Error' ? e.message : `${e.name}: ${e.message}`;
+  return String(e);
+}

@@ -1,0 +1,355 @@
+/**
+ * `reelwright check PATH… [--report report.html] [--json report.json] [--csv report.csv]
+ *  [--jobs N] [--resume] [--thresholds FILE] [analysis options]`
+ *
+ * Checks every audio file in the given files and folders (recursively): fixity checksum, then
+ * every registered analysis that applies (dsp/ops/diagnose.ts), each file in a worker thread.
+ * Thresholds (default-thresholds.json, or --thresholds FILE) turn the numbers into pass/warn/fail.
+ * Exit status: 0 when no file fails, 1 when any file fails (unreadable files fail), 2 for bad usage
+ * or when no audio file is found.
+ */
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { Worker } from 'node:worker_threads';
+import { analyses } from '../../dsp/ops/registry.ts';
+import { ParameterError } from '../../dsp/errors.ts';
+import type { ParamSpec, ParamValues } from '../../dsp/ops/types.ts';
+import { parseArgs } from '../cli/args.ts';
+import { Progress, toJson } from '../cli/output.ts';
+import { paramsFromFlags, reportError, suggestionCommand } from '../cli/index.ts';
+import { checkFile, type CheckJob, type FileEntry, type JobResult, type Opener } from './check-file.ts';
+import type { FromWorker, ToWorker } from './worker.ts';
+import { defaultThresholds, judge, mergeThresholds, type Thresholds } from './thresholds.ts';
+import { reportCsv, type CheckReport } from './report.ts';
+import { reportHtml } from './report-html.ts';
+
+export const AUDIO_EXTENSIONS = new Set(['.wav', '.wave', '.bwf', '.rf64', '.bw64', '.aif', '.aiff', '.aifc', '.flac']);
+const VERSION = '0.1.0';
+
+export interface CheckOptions {
+  /** Replace stdout / stderr (tests). */
+  out?: (s: string) => void;
+  err?: (s: string) => void;
+  /** Run in this thread with this opener instead of worker threads (tests). */
+  opener?: Opener;
+}
+
+const USAGE = `reelwright check PATH… [options]
+
+Checks every audio file (WAV, BWF, RF64, AIFF, FLAC) in the given files and folders, recursively:
+fixity checksum, levels and loudness, spectrum and bandwidth, wow and flutter when a test tone is
+found, azimuth for stereo, and every other analysis that applies. Thresholds decide pass, warn or
+fail per finding; the exit status is 1 when any file fails, so it can gate a digitisation pipeline.
+
+Options:
+  --report FILE.html          Write the report as one self-contained HTML page.
+  --json FILE.json            Write the report as JSON (one entry per file, with status and reasons).
+  --csv FILE.csv              Write one row per file.
+  --jobs N                    Worker threads (default: the number of cores).
+  --resume                    Take over files from the existing --json report whose audio checksum is unchanged.
+  --thresholds FILE.json      Pass/warn/fail rules replacing the defaults one by one (see main/check/default-thresholds.json).
+  --quiet                     No progress line.
+Analysis options (passed to the analyses that take them):
+`;
+
+/** Flags of all registered analyses, with the verbs that take each. */
+function analysisFlags(): Map<string, { spec: ParamSpec; ops: string[] }> {
+  const m = new Map<string, { spec: ParamSpec; ops: string[] }>();
+  for (const op of analyses()) {
+    if (op.inDiagnose === false) continue;
+    for (const spec of op.params) {
+      const had = m.get(spec.flag);
+      if (had) had.ops.push(op.name);
+      else m.set(spec.flag, { spec, ops: [op.name] });
+    }
+  }
+  return m;
+}
+
+export async function runCheck(argv: string[], options: CheckOptions = {}): Promise<number> {
+  const out = options.out ?? ((s: string) => void process.stdout.write(s.endsWith('\n') ? s : s + '\n'));
+  const err = options.err ?? ((s: string) => void process.stderr.write(s.endsWith('\n') ? s : s + '\n'));
+  try {
+    return await check(argv, options, out, err);
+  } catch (e) {
+    if (e instanceof ParameterError) {
+      err(`reelwright check: ${e.message}`);
+      return 2;
+    }
+    return reportError('check', e);
+  }
+}
+
+async function check(argv: string[], options: CheckOptions, out: (s: string) => void, err: (s: string) => void): Promise<number> {
+  const opFlags = analysisFlags();
+  const args = parseArgs(argv, {
+    booleans: new Set(['help', 'resume', 'quiet', ...[...opFlags.values()].filter((f) => f.spec.type === 'boolean').map((f) => f.spec.flag)]),
+    values: new Set(['report', 'json', 'csv', 'jobs', 'thresholds', ...[...opFlags.values()].filter((f) => f.spec.type !== 'boolean').map((f) => f.spec.flag)]),
+  });
+  if (args.flags.get('help')) {
+    const lines = [...opFlags.values()].map(({ spec, ops }) => `  --${spec.flag}${spec.type === 'boolean' ? '' : ' N'}`.padEnd(30) + ` ${spec.help} (${ops.join(', ')})`);
+    out(USAGE + lines.join('\n'));
+    return 0;
+  }
+  if (args.positionals.length === 0) throw new ParameterError('expected at least one file or folder (usage: reelwright check PATH… [--report report.html] [--json report.json] [--csv report.csv])');
+  const str = (k: string) => {
+    const v = args.flags.get(k);
+    return typeof v === 'string' ? v : undefined;
+  };
+  const jsonPath = str('json'), htmlPath = str('report'), csvPath = str('csv');
+  const jobsText = str('jobs');
+  const jobs = jobsText === undefined ? Math.max(1, os.availableParallelism?.() ?? os.cpus().length) : Number(jobsText);
+  if (!Number.isInteger(jobs) || jobs < 1 || jobs > 256) throw new ParameterError(`--jobs ${jobsText}: expected a whole number from 1 to 256`);
+  const resume = args.flags.get('resume') === true;
+  if (resume && !jsonPath) throw new ParameterError('--resume needs --json FILE: the earlier report to take unchanged files from');
+
+  // Thresholds.
+  let thresholds = defaultThresholds();
+  const thrPath = str('thresholds');
+  if (thrPath) {
+    let raw: unknown;
+    try {
+      raw = JSON.parse(fs.readFileSync(thrPath, 'utf8'));
+    } catch (e) {
+      throw new ParameterError(`--thresholds ${thrPath}: ${(e as Error).message}`);
+    }
+    if (raw === null || typeof raw !== 'object' || Array.isArray(raw)) throw new ParameterError(`--thresholds ${thrPath}: expected a JSON object of rules`);
+    thresholds = mergeThresholds(thresholds, raw as Record<string, unknown>, thrPath);
+  }
+
+  // Analysis parameters, routed to every analysis that has the flag.
+  const params: Record<string, ParamValues> = {};
+  for (const op of analyses()) {
+    const mine = new Map([...args.flags].filter(([k]) => op.params.some((s) => s.flag === k)));
+    if (mine.size) params[op.name] = paramsFromFlags(op.params, mine);
+  }
+
+  const files = collectAudioFiles(args.positionals);
+  if (files.length === 0) {
+    err(`reelwright check: no audio files (${[...AUDIO_EXTENSIONS].join(' ')}) found in ${args.positionals.join(', ')}`);
+    return 2;
+  }
+
+  const previous = resume && jsonPath ? loadPrevious(jsonPath, err) : new Map<string, FileEntry>();
+  const t0 = Date.now();
+  const progress = new Progress('check', args.flags.get('quiet') === true);
+  const sizes = files.map((f) => fileSize(f));
+  const totalBytes = sizes.reduce((a, b) => a + b, 0) || 1;
+  const fractions = new Float64Array(files.length);
+  let done = 0, failed = 0;
+  const tick = () => {
+    let b = 0;
+    for (let i = 0; i < files.length; i++) b += fractions[i]! * sizes[i]!;
+    progress.update(b / totalBytes, `(${done}/${files.length} files${failed ? `, ${failed} failed` : ''})`);
+  };
+
+  const jobsList: CheckJob[] = files.map((p) => ({ path: p, params, previousMd5: previous.get(p)?.file.audioMd5 }));
+  const results = await runJobs(jobsList, Math.min(jobs, files.length), options.opener, (i, f) => {
+    fractions[i] = f;
+    tick();
+  }, (i, r) => {
+    fractions[i] = 1;
+    done++;
+    if (r.kind === 'entry' && (r.entry.error !== undefined)) failed++;
+    tick();
+  });
+  progress.done();
+
+  const entries: FileEntry[] = results.map((r, i) => {
+    let e: FileEntry;
+    if (r.kind === 'unchanged') e = { ...previous.get(files[i]!)!, file: r.file, resumed: true };
+    else e = r.entry;
+    const j = judge(e, thresholds);
+    return { ...e, status: j.status, reasons: j.reasons };
+  });
+  const count = (s: string) => entries.filter((e) => e.status === s).length;
+  const report: CheckReport = {
+    tool: 'reelwright check',
+    version: VERSION,
+    createdAt: new Date().toISOString(),
+    paths: args.positionals,
+    thresholds,
+    summary: {
+      files: entries.length,
+      pass: count('pass'),
+      warn: count('warn'),
+      fail: count('fail'),
+      resumed: entries.filter((e) => e.resumed).length,
+      seconds: (Date.now() - t0) / 1000,
+    },
+    files: entries,
+  };
+  if (jsonPath) writeAtomic(jsonPath, toJson(report) + '\n');
+  if (csvPath) writeAtomic(csvPath, reportCsv(report));
+  if (htmlPath) writeAtomic(htmlPath, reportHtml(report, suggestionCommand));
+
+  for (const e of entries) {
+    const why = e.status === 'pass' ? '' : `  ${(e.reasons ?? []).join('; ')}`;
+    out(`${e.status!.toUpperCase().padEnd(4)}  ${e.file.path}${why}`);
+  }
+  const s = report.summary;
+  out(`${s.files} file${s.files === 1 ? '' : 's'}: ${s.pass} pass, ${s.warn} warn, ${s.fail} fail${s.resumed ? ` (${s.resumed} unchanged since the last report)` : ''} in ${s.seconds.toFixed(1)} s`);
+  return s.fail > 0 ? 1 : 0;
+}
+
+/** Audio files under the given paths, recursively, sorted; hidden files and AppleDouble "._" files skipped. */
+export function collectAudioFiles(paths: readonly string[]): string[] {
+  const found = new Set<string>();
+  const seenDirs = new Set<string>();
+  const walk = (dir: string) => {
+    let real: string;
+    try {
+      real = fs.realpathSync(dir);
+    } catch {
+      return;
+    }
+    if (seenDirs.has(real)) return;
+    seenDirs.add(real);
+    let names: fs.Dirent[];
+    try {
+      names = fs.readdirSync(dir, { withFileTypes: true });
+    } catch {
+      return;
+    }
+    for (const d of names) {
+      if (d.name.startsWith('.')) continue;
+      const p = path.join(dir, d.name);
+      let st: fs.Stats;
+      try {
+        st = fs.statSync(p);
+      } catch {
+        // A dangling link or a file we may not stat: report it if it looks like audio.
+        if (AUDIO_EXTENSIONS.has(path.extname(d.name).toLowerCase())) found.add(p);
+        continue;
+      }
+      if (st.isDirectory()) walk(p);
+      else if (st.isFile() && AUDIO_EXTENSIONS.has(path.extname(d.name).toLowerCase())) found.add(p);
+    }
+  };
+  for (const p of paths) {
+    let st: fs.Stats;
+    try {
+      st = fs.statSync(p);
+    } catch {
+      throw new ParameterError(`${p}: no such file or folder`);
+    }
+    if (st.isDirectory()) walk(p);
+    else found.add(p); // named explicitly: checked whatever its extension
+  }
+  // The same file named twice (a folder and a file inside it, or two spellings of a path) is checked once.
+  const byReal = new Map<string, string>();
+  for (const f of [...found].sort()) {
+    let key = path.resolve(f);
+    try {
+      key = fs.realpathSync(f);
+    } catch {
+      /* keep the resolved path */
+    }
+    if (!byReal.has(key)) byReal.set(key, f);
+  }
+  return [...byReal.values()];
+}
+
+function fileSize(p: string): number {
+  try {
+    return fs.statSync(p).size;
+  } catch {
+    return 0;
+  }
+}
+
+function loadPrevious(jsonPath: string, err: (s: string) => void): Map<string, FileEntry> {
+  const m = new Map<string, FileEntry>();
+  if (!fs.existsSync(jsonPath)) return m;
+  try {
+    const r = JSON.parse(fs.readFileSync(jsonPath, 'utf8')) as Partial<CheckReport>;
+    for (const e of r.files ?? []) {
+      if (e?.file?.path && typeof e.file.audioMd5 === 'string' && e.error === undefined) m.set(e.file.path, e);
+    }
+  } catch (e) {
+    err(`warning: --resume: could not read ${jsonPath} (${(e as Error).message}); checking every file`);
+  }
+  return m;
+}
+
+function writeAtomic(target: string, text: string): void {
+  const tmp = path.join(path.dirname(target), `.${path.basename(target)}.${process.pid}.tmp`);
+  try {
+    fs.writeFileSync(tmp, text);
+    fs.renameSync(tmp, target);
+  } catch (e) {
+    try {
+      fs.rmSync(tmp, { force: true });
+    } catch {
+      /* nothing to clean */
+    }
+    throw new ParameterError(`cannot write ${target}: ${(e as Error).message}`);
+  }
+}
+
+/**
+ * Runs the jobs on `workers` worker threads (or in this thread with `opener`), results in job
+ * order. A worker that dies turns its job into a failed entry and is replaced.
+ */
+async function runJobs(
+  jobs: CheckJob[],
+  workers: number,
+  opener: Opener | undefined,
+  onProgress: (index: number, fraction: number) => void,
+  onDone: (index: number, result: JobResult) => void,
+): Promise<JobResult[]> {
+  const results: JobResult[] = new Array(jobs.length);
+  if (opener) {
+    for (let i = 0; i < jobs.length; i++) {
+      results[i] = await checkFile(jobs[i]!, opener, (f) => onProgress(i, f));
+      onDone(i, results[i]!);
+    }
+    return results;
+  }
+  let next = 0;
+  const entryUrl = new URL('./worker-entry.mjs', import.meta.url);
+  await new Promise<void>((resolve) => {
+    let running = 0;
+    const start = () => {
+      const w = new Worker(entryUrl);
+      let current = -1;
+      let finished = false;
+      const take = () => {
+        if (next >= jobs.length) {
+          finished = true;
+          void w.terminate();
+          if (--running === 0) resolve();
+          return;
+        }
+        current = next++;
+        w.postMessage({ type: 'job', id: current, job: jobs[current]! } satisfies ToWorker);
+      };
+      w.on('message', (m: FromWorker) => {
+        if (m.type === 'ready') take();
+        else if (m.type === 'progress') onProgress(m.id, m.fraction);
+        else if (m.type === 'result') {
+          results[m.id] = m.result;
+          onDone(m.id, m.result);
+          take();
+        }
+      });
+      const died = (why: string) => {
+        if (finished) return;
+        finished = true;
+        running--;
+        if (current >= 0 && results[current] === undefined) {
+          results[current] = { kind: 'entry', entry: { file: { path: jobs[current]!.path }, findings: [], notes: [], error: `internal error: ${why}`, seconds: 0 } };
+          onDone(current, results[current]!);
+        }
+        if (next < jobs.length) start();
+        else if (running === 0) resolve();
+      };
+      w.on('error', (e) => died(e.message));
+      w.on('exit', (code) => died(`worker stopped (exit code ${code})`));
+      running++;
+    };
+    for (let i = 0; i < workers; i++) start();
+  });
+  return results;
+}

@@ -1,0 +1,145 @@
+/**
+ * Decode once, analyse many times. Wraps a source so that analyses running at the same time can
+ * share one sequential pass over it: every full forward pass (`blocks()` with no range, no
+ * reversal, default block size) that starts before the shared pass has produced its first block
+ * joins it and receives the same blocks in lockstep; any other read (ranges, reversed passes,
+ * passes that start later) goes straight to the underlying source. Each consumer gets its own copy
+ * of a block except the last one to take it ("yielded arrays belong to the caller").
+ *
+ * At most MAX_AHEAD blocks wait in any consumer's queue: the pass pauses until the slowest
+ * consumer catches up, so memory stays at a few blocks whatever the file's length.
+ */
+import { DEFAULT_BLOCK_FRAMES, type AudioSource, type Block, type BlockOptions } from '../../dsp/source.ts';
+
+const MAX_AHEAD = 3;
+
+interface Consumer {
+  queue: Block[];
+  wake: (() => void) | null;
+}
+
+export class SharedPass {
+  readonly #inner: AudioSource;
+  readonly #consumers = new Set<Consumer>();
+  #iterator: AsyncIterator<Block> | null = null;
+  #produced = 0;
+  #finished = false;
+  #error: unknown = null;
+  #reading: Promise<void> | null = null;
+  #startGate: Promise<void> | null = null;
+  /** Statistics: consumers served by the shared pass, and passes that had to read on their own. */
+  joined = 0;
+  separatePasses = 0;
+
+  constructor(inner: AudioSource) {
+    this.#inner = inner;
+  }
+
+  /** A source with the same facts (and any extra properties) whose full passes share decoding. */
+  source<S extends AudioSource>(): S {
+    const inner = this.#inner as S;
+    const shared = this;
+    return new Proxy(inner, {
+      get(target, prop, receiver) {
+        if (prop === 'blocks') return (options?: BlockOptions) => shared.blocks(options);
+        const v = Reflect.get(target, prop, receiver) as unknown;
+        return typeof v === 'function' ? (v as (...a: unknown[]) => unknown).bind(target) : v;
+      },
+    });
+  }
+
+  blocks(options: BlockOptions = {}): AsyncIterable<Block> {
+    const full =
+      !options.reverse &&
+      (options.startFrame === undefined || options.startFrame <= 0) &&
+      (options.endFrame === undefined || options.endFrame >= this.#inner.frames) &&
+      (options.blockFrames === undefined || options.blockFrames === DEFAULT_BLOCK_FRAMES);
+    if (!full) return this.#inner.blocks(options);
+    return {
+      // Join when the iteration starts (not when blocks() is called), if the pass has not begun.
+      [Symbol.asyncIterator]: () => {
+        if (this.#produced > 0 || this.#finished) {
+          this.separatePasses++;
+          return this.#inner.blocks(options)[Symbol.asyncIterator]();
+        }
+        const c: Consumer = { queue: [], wake: null };
+        this.#consumers.add(c);
+        this.joined++;
+        return this.#iteratorFor(c);
+      },
+    };
+  }
+
+  #iteratorFor(c: Consumer): AsyncIterator<Block> {
+    const leave = () => {
+      c.queue.length = 0;
+      this.#consumers.delete(c);
+      this.#wakeAll();
+    };
+    return {
+      next: async (): Promise<IteratorResult<Block>> => {
+        for (;;) {
+          if (c.queue.length) {
+            const b = c.queue.shift()!;
+            this.#wakeAll(); // a producer may be waiting for room
+            return { value: b, done: false };
+          }
+          if (this.#error !== null) throw this.#error;
+          if (this.#finished) {
+            leave();
+            return { value: undefined, done: true };
+          }
+          await this.#produce();
+        }
+      },
+      return: async (): Promise<IteratorResult<Block>> => {
+        leave();
+        return { value: undefined, done: true };
+      },
+    };
+  }
+
+  #wakeAll(): void {
+    for (const c of this.#consumers) {
+      const w = c.wake;
+      c.wake = null;
+      w?.();
+    }
+  }
+
+  /** Reads one more block for everyone (one read at a time), waiting while a consumer is full. */
+  async #produce(): Promise<void> {
+    if (this.#reading) return this.#reading;
+    this.#reading = (async () => {
+      try {
+        if (!this.#startGate) {
+          // Let the other analyses started together reach their first read and join.
+          this.#startGate = new Promise((r) => setTimeout(r, 0));
+        }
+        await this.#startGate;
+        while ([...this.#consumers].some((c) => c.queue.length >= MAX_AHEAD)) {
+          await new Promise<void>((r) => {
+            const full = [...this.#consumers].find((c) => c.queue.length >= MAX_AHEAD);
+            if (!full) return r();
+            full.wake = r;
+          });
+        }
+        this.#iterator ??= this.#inner.blocks()[Symbol.asyncIterator]();
+        const r = await this.#iterator.next();
+        if (r.done) {
+          this.#finished = true;
+        } else {
+          this.#produced++;
+          const takers = [...this.#consumers];
+          takers.forEach((c, i) => c.queue.push(i === takers.length - 1 ? r.value : r.value.map((ch) => ch.slice())));
+        }
+      } catch (e) {
+        this.#error = e;
+      } finally {
+        this.#reading = null;
+        this.#wakeAll();
+      }
+    })();
+    return this.#reading;
+  }
+}

@@ -1,0 +1,137 @@
+/**
+ * The Electron main process: one window on the editor page, served from the app's own scheme
+ * (reelwright://editor/) with a strict Content-Security-Policy; sandboxed, context-isolated
+ * renderer without Node; navigation, new windows, permissions and remote content refused; every
+ * IPC call checked for its sender and its arguments (main/bridge/validate.ts) before it runs.
+ * Bundled by bin/start.mjs; Electron runs it through main.cjs.
+ */
+import { app, BrowserWindow, dialog, ipcMain, net, protocol, session, type IpcMainInvokeEvent } from 'electron';
+import fs from 'node:fs';
+import path from 'node:path';
+import { pathToFileURL } from 'node:url';
+import type { Bridge, BridgeCall } from '../bridge/contract.ts';
+import { AUDIO_EXTENSIONS, bridgeCalls, channelOf, isTrustedSenderUrl, validateCall } from '../bridge/validate.ts';
+import { FileTable } from './files.ts';
+
+const root = path.resolve(__dirname, '../../..');
+const pageDir = path.join(root, 'renderer/dist');
+const demoDir = path.join(root, 'assets/demo');
+const SCHEME = 'reelwright';
+const HOST = 'editor';
+const CSP = "default-src 'none'; script-src 'self'; worker-src 'self'; style-src 'self'; img-src 'self' data: blob:; connect-src 'self'; font-src 'self'; media-src 'self' blob:; base-uri 'none'; form-action 'none'; object-src 'none'; frame-ancestors 'none'";
+const trusted = [{ protocol: `${SCHEME}:`, host: HOST }];
+
+protocol.registerSchemesAsPrivileged([{ scheme: SCHEME, privileges: { standard: true, secure: true, supportFetchAPI: true } }]);
+
+const files = new FileTable();
+let win: BrowserWindow | null = null;
+
+/** The bridge's main-process side (the preload forwards each call here). */
+type Handlers = { [K in BridgeCall]: (...args: Parameters<Bridge[K]>) => ReturnType<Bridge[K]> | Promise<Uint8Array> };
+
+const handlers: Handlers = {
+  async openDemo() {
+    const name = fs.existsSync(demoDir) ? fs.readdirSync(demoDir).filter((n) => /\.wav$/i.test(n)).sort()[0] : undefined;
+    return name ? files.open(path.join(demoDir, name), true) : null;
+  },
+  async pickAudioFile() {
+    const r = await dialog.showOpenDialog(win!, { title: 'Open a recording', properties: ['openFile'], filters: [{ name: 'Audio', extensions: AUDIO_EXTENSIONS.map((e) => e.slice(1)) }] });
+    return r.canceled || !r.filePaths[0] ? null : files.open(r.filePaths[0]);
+  },
+  async reopenSource(p, name) {
+    if (p && files.isSessionSource(p) && fs.existsSync(p)) return files.open(p);
+    const r = await dialog.showOpenDialog(win!, { title: `Find ${name}`, properties: ['openFile'], filters: [{ name: 'Audio', extensions: AUDIO_EXTENSIONS.map((e) => e.slice(1)) }] });
+    return r.canceled || !r.filePaths[0] ? null : files.open(r.filePaths[0]);
+  },
+  readBytes: (handle, offset, length) => files.read(handle, offset, length),
+  closeFile: (handle) => files.close(handle),
+  async beginExport(suggestedName, sourceHandle) {
+    const source = files.sourcePath(sourceHandle);
+    const r = await dialog.showSaveDialog(win!, { title: 'Export the corrected recording', defaultPath: path.join(path.dirname(source), suggestedName), filters: [{ name: 'WAV / Broadcast WAV', extensions: ['wav'] }] });
+    if (r.canceled || !r.filePath) return null;
+    return files.beginExport(r.filePath);
+  },
+  writeExport: (handle, bytes, atOffset) => files.write(handle, new Uint8Array(bytes), atOffset),
+  finishExport: (handle) => files.finish(handle),
+  abortExport: (handle) => files.abort(handle),
+  async saveSession(text, suggestedName) {
+    const r = await dialog.showSaveDialog(win!, { title: 'Save the session', defaultPath: suggestedName, filters: [{ name: 'Reelwright session', extensions: ['json'] }] });
+    if (r.canceled || !r.filePath) return null;
+    files.refuseSources(r.filePath);
+    await fs.promises.writeFile(r.filePath, text, 'utf8');
+    return { name: path.basename(r.filePath), path: r.filePath };
+  },
+  async openSession() {
+    const r = await dialog.showOpenDialog(win!, { title: 'Open a session', properties: ['openFile'], filters: [{ name: 'Reelwright session', extensions: ['json'] }] });
+    if (r.canceled || !r.filePaths[0]) return null;
+    const p = r.filePaths[0];
+    if ((await fs.promises.stat(p)).size > 8 * 1024 * 1024) throw new Error('that file is too large to be a session');
+    const text = await fs.promises.readFile(p, 'utf8');
+    files.allowSessionSource(text);
+    return { name: path.basename(p), path: p, text };
+  },
+};
+
+function checkSender(e: IpcMainInvokeEvent): void {
+  const frame = e.senderFrame;
+  if (!win || e.sender !== win.webContents || !frame || frame !== e.sender.mainFrame || !isTrustedSenderUrl(frame.url, trusted)) {
+    throw new Error('refused: the request did not come from the editor page');
+  }
+}
+
+for (const call of bridgeCalls) {
+  ipcMain.handle(channelOf(call), async (e, ...raw: unknown[]) => {
+    checkSender(e);
+    const { args } = validateCall(call, raw);
+    return (handlers[call] as (...a: unknown[]) => Promise<unknown>)(...args);
+  });
+}
+
+app.on('web-contents-created', (_e, contents) => {
+  contents.on('will-navigate', (ev) => ev.preventDefault());
+  contents.on('will-redirect', (ev) => ev.preventDefault());
+  contents.on('will-attach-webview', (ev) => ev.preventDefault());
+  contents.setWindowOpenHandler(() => ({ action: 'deny' }));
+});
+
+app.whenReady().then(() => {
+  const ses = session.defaultSession;
+  ses.setPermissionRequestHandler((_wc, _perm, done) => done(false));
+  ses.setPermissionCheckHandler(() => false);
+  // Only the app's own pages: anything else (http, https, file) is cancelled.
+  ses.webRequest.onBeforeRequest((details, done) => {
+    const ok = details.url.startsWith(`${SCHEME}://${HOST}/`) || details.url.startsWith('devtools:') || details.url.startsWith('blob:') || details.url.startsWith('data:');
+    done({ cancel: !ok });
+  });
+  protocol.handle(SCHEME, async (req) => {
+    const u = new URL(req.url);
+    const rel = decodeURIComponent(u.pathname === '/' ? '/index.html' : u.pathname);
+    const file = path.resolve(pageDir, '.' + rel);
+    if (u.host !== HOST || !file.startsWith(pageDir + path.sep) || !fs.existsSync(file)) return new Response('not found', { status: 404 });
+    const res = await net.fetch(pathToFileURL(file).href);
+    const headers = new Headers(res.headers);
+    headers.set('Content-Security-Policy', CSP);
+    headers.set('X-Content-Type-Options', 'nosniff');
+    return new Response(res.body, { status: res.status, headers });
+  });
+  win = new BrowserWindow({
+    width: 1440,
+    height: 900,
+    backgroundColor: '#101315',
+    title: 'Reelwright',
+    webPreferences: {
+      preload: path.join(__dirname, 'preload.cjs'),
+      contextIsolation: true,
+      nodeIntegration: false,
+      sandbox: true,
+      webSecurity: true,
+      allowRunningInsecureContent: false,
+      webviewTag: false,
+      spellcheck: false,
+    },
+  });
+  void win.loadURL(`${SCHEME}://${HOST}/index.html`);
+  win.on('closed', () => (win = null));
+});
+
+app.on('window-all-closed', () => app.quit());

@@ -1,0 +1,208 @@
+/**
+ * writeAudio(): streams a rendering into a WAV/BWF file (RF64 past 4 GiB).
+ *
+ * Safety: the output is written to a temporary file in the destination folder (name starting
+ * `.reelwright-tmp-`), flushed to disk, and renamed into place only when complete; on any error —
+ * including an exception thrown by the rendering's iterator mid-way — the temporary file is
+ * deleted and nothing appears at the destination. Writing onto the source file is refused
+ * (compared by real path, and by device + inode when the output already exists).
+ *
+ * Provenance: chunks of a WAV-family source that the writer does not own (LIST/INFO, iXML, axml,
+ * cue, unknown ids…) are copied byte-exact in their original order, those that followed the
+ * source's audio after the output's audio; JUNK and similar fillers are dropped. The bext chunk is
+ * kept with all its fields and its CodingHistory gains one EBU R98 line for this run; a source
+ * without bext gets a new one, so the history always records the run.
+ */
+import { randomBytes } from 'node:crypto';
+import fs from 'node:fs';
+import path from 'node:path';
+import { ParameterError } from '../../dsp/errors.ts';
+import { codingHistoryLine, outputBext } from '../../dsp/formats/bext.ts';
+import { copiesChunk, WavStreamEncoder, type RawChunk, type WavLayoutSpec } from '../../dsp/formats/wav-writer.ts';
+import type { Block } from '../../dsp/source.ts';
+import { describeFsError } from './file-bytes.ts';
+import type { WriteOptions, WriteResult } from './types.ts';
+
+export interface RenderingLike {
+  sampleRateHz: number;
+  channelCount: number;
+  blocks: AsyncIterable<Block>;
+}
+
+export const TEMP_PREFIX = '.reelwright-tmp-';
+
+const WAV_FAMILY = new Set(['WAV', 'BWF', 'RF64', 'BW64']);
+
+/** Whether `outPath` names the same file as `sourcePath` (real paths; device + inode when both exist). */
+export function isSameFile(outPath: string, sourcePath: string): boolean {
+  let realSource: string;
+  let sourceStat: fs.Stats | undefined;
+  try {
+    realSource = fs.realpathSync(sourcePath);
+    sourceStat = fs.statSync(realSource);
+  } catch {
+    realSource = path.resolve(sourcePath);
+  }
+  let realOut: string;
+  try {
+    realOut = fs.realpathSync(outPath);
+    const outStat = fs.statSync(realOut);
+    if (sourceStat && outStat.dev === sourceStat.dev && outStat.ino === sourceStat.ino) return true;
+  } catch {
+    // The output does not exist yet: resolve its folder.
+    try {
+      realOut = path.join(fs.realpathSync(path.dirname(path.resolve(outPath))), path.basename(outPath));
+    } catch {
+      realOut = path.resolve(outPath);
+    }
+  }
+  return realOut === realSource;
+}
+
+function pad2(n: number): string {
+  return String(n).padStart(2, '0');
+}
+
+/** Fields of a new bext chunk for a file Reelwright writes from a source without one. */
+function freshBextFields(sourcePath: string | undefined, now: Date) {
+  const date = `${now.getFullYear()}-${pad2(now.getMonth() + 1)}-${pad2(now.getDate())}`;
+  const time = `${pad2(now.getHours())}:${pad2(now.getMinutes())}:${pad2(now.getSeconds())}`;
+  return {
+    description: sourcePath ? `Processed by Reelwright from ${path.basename(sourcePath)}` : 'Written by Reelwright',
+    originator: 'Reelwright',
+    originatorReference: `RW${date.replace(/-/g, '')}${time.replace(/:/g, '')}${randomBytes(3).toString('hex').toUpperCase()}`,
+    originationDate: date,
+    originationTime: time,
+  };
+}
+
+function writeFully(fd: number, bytes: Uint8Array, length: number, position: number, outPath: string): void {
+  let done = 0;
+  try {
+    while (done < length) done += fs.writeSync(fd, bytes, done, length - done, position + done);
+  } catch (e) {
+    throw new ParameterError(`${outPath}: ${describeFsError(e, 'writing failed')}`);
+  }
+}
+
+/**
+ * Writes `rendering` to `outPath` as WAV/BWF (RF64 when the file passes 4 GiB or when forced).
+ * @throws ParameterError for impossible options, for writing onto the source, for an empty
+ *   rendering or when the destination cannot be written
+ */
+export async function writeAudio(outPath: string, rendering: RenderingLike, options: WriteOptions): Promise<WriteResult> {
+  const { sampleFormat, bitsPerSample } = options;
+  const okBits = sampleFormat === 'int' ? [8, 16, 24, 32] : [32, 64];
+  if (!okBits.includes(bitsPerSample)) {
+    throw new ParameterError(`cannot write ${bitsPerSample}-bit ${sampleFormat} samples (int: 8, 16, 24, 32; float: 32, 64)`);
+  }
+  const channels = rendering.channelCount;
+  if (!Number.isInteger(channels) || channels < 1) throw new ParameterError(`cannot write ${channels} channels`);
+  if (!(rendering.sampleRateHz > 0) || Math.round(rendering.sampleRateHz) > 0xffffffff) {
+    throw new ParameterError(`cannot write a sample rate of ${rendering.sampleRateHz} Hz`);
+  }
+  const source = options.copyFrom;
+  for (const src of [options.sourcePath, source?.path]) {
+    if (src !== undefined && isSameFile(outPath, src)) throw new ParameterError(`refusing to write onto the source file ${src}`);
+  }
+
+  // Chunks copied from the source, and the bext with this run's history line.
+  const chunksBefore: RawChunk[] = [];
+  const chunksAfter: RawChunk[] = [];
+  if (source && WAV_FAMILY.has(source.info.format)) {
+    for (const c of source.chunks) {
+      if (!copiesChunk(c.id)) continue;
+      const data = await source.readChunk(c);
+      (c.position === 'after-data' ? chunksAfter : chunksBefore).push({ id: c.id, data });
+    }
+  }
+  const line = codingHistoryLine({
+    sampleRateHz: rendering.sampleRateHz,
+    bitsPerSample,
+    sampleFormat,
+    channels,
+    text: options.historyText ?? 'reelwright',
+  });
+  const bext = outputBext({
+    source: source?.bext,
+    fresh: freshBextFields(source?.path ?? options.sourcePath, new Date()),
+    line,
+    sourceRateHz: source?.sampleRateHz,
+    outputRateHz: Math.round(rendering.sampleRateHz),
+  });
+  const mask = source?.layout.channelMask;
+  const spec: WavLayoutSpec = {
+    format: {
+      sampleFormat,
+      bitsPerSample,
+      channels,
+      sampleRateHz: rendering.sampleRateHz,
+      channelMask: mask !== undefined && source?.channelCount === channels ? mask : undefined,
+    },
+    bext,
+    chunksBefore,
+    chunksAfter,
+    container: options.forceRf64 ? 'rf64' : 'auto',
+  };
+  const encoder = new WavStreamEncoder(spec, {
+    dither: options.dither && sampleFormat === 'int',
+    rng: options.rng ?? Math.random,
+  });
+
+  const dir = path.dirname(path.resolve(outPath));
+  // The final name is kept (shortened) in the temp name so a stray temp file can be recognised.
+  const tmp = path.join(dir, `${TEMP_PREFIX}${process.pid}-${randomBytes(4).toString('hex')}-${path.basename(outPath).slice(0, 100)}`);
+  let fd: number | undefined;
+  try {
+    try {
+      fd = fs.openSync(tmp, 'wx');
+    } catch (e) {
+      throw new ParameterError(`${outPath}: ${describeFsError(e, 'cannot write into its folder')}`);
+    }
+    const header = encoder.provisionalHeader;
+    writeFully(fd, header, header.length, 0, outPath);
+    let position = header.length;
+    let buf = new Uint8Array(0);
+    for await (const block of rendering.blocks) {
+      if (block.length !== channels) {
+        throw new ParameterError(`the rendering produced a block of ${block.length} channels; ${channels} expected`);
+      }
+      const n = block[0]!.length;
+      if (n === 0) continue;
+      const need = encoder.bytesFor(n);
+      if (buf.length < need) buf = new Uint8Array(need);
+      const bytes = encoder.encodeInto(block, buf, 0);
+      writeFully(fd, buf, bytes, position, outPath);
+      position += bytes;
+      options.onProgress?.(encoder.frames);
+    }
+    if (encoder.frames === 0) throw new ParameterError(`${outPath}: the rendering produced no audio; nothing was written`);
+    const done = encoder.finish();
+    writeFully(fd, done.trailer, done.trailer.length, position, outPath);
+    writeFully(fd, done.header, done.header.length, 0, outPath);
+    fs.fsyncSync(fd);
+    fs.closeSync(fd);
+    fd = undefined;
+    try {
+      fs.renameSync(tmp, outPath);
+    } catch (e) {
+      throw new ParameterError(`${outPath}: ${describeFsError(e, 'cannot move the finished file into place')}`);
+    }
+    return { path: outPath, frames: done.frames, bytes: done.totalBytes, container: done.container };
+  } catch (e) {
+    if (fd !== undefined) {
+      try {
+        fs.closeSync(fd);
+      } catch {
+        // already closed
+      }
+    }
+    try {
+      fs.unlinkSync(tmp);
+    } catch {
+      // never created
+    }
+    if (e instanceof RangeError) throw new ParameterError(e.message);
+    throw e;
+  }
+}

@@ -1,0 +1,99 @@
+/**
+ * Export: renders the enabled steps over the whole recording block by block, encodes PCM with
+ * dsp/formats' streaming WAV encoder and writes through the bridge. Keeps the source's bext fields
+ * and other chunks, appends one CodingHistory line per step (EBU R98), and becomes RF64 by itself
+ * when the file passes 4 GiB (the final header, written last, has the same length).
+ */
+import { CancelledError } from '../../../dsp/errors.ts';
+import {
+  appendCodingHistory, buildBext, codingHistoryLine, copiesChunk, newBextFixed, WavStreamEncoder,
+  type RawChunk,
+} from '../../../dsp/formats/index.ts';
+import { MemorySource, readAll } from '../../../dsp/source.ts';
+import type { ParamValues, Rendering } from '../../../dsp/ops/types.ts';
+import type { FileSource } from './file-source.ts';
+import { correctionOf, renderInMemory, streamingRendering, type Progress } from './pipeline.ts';
+import type { Job, JobResults } from './protocol.ts';
+
+type ExportJob = Extract<Job, { type: 'export' }>;
+type Write = (handle: string, bytes: Uint8Array, atOffset: number | null) => Promise<void>;
+type Read = (handle: string, offset: number, length: number) => Promise<Uint8Array>;
+
+/** Files up to this many samples (all channels) are rendered in memory. */
+const IN_MEMORY_SAMPLES = 1 << 25;
+/** Bytes per bridge write. */
+const WRITE_BYTES = 4 << 20;
+
+export async function exportFile(source: FileSource, sourceHandle: string, read: Read, write: Write, job: ExportJob, p: Progress): Promise<JobResults['export']> {
+  const layout = source.layout;
+  let rendering: Rendering;
+  let resolved: ParamValues[];
+  const renderProgress: Progress = { progress: (f, l) => p.progress(0.5 * f, l), warn: p.warn, signal: p.signal };
+  if (layout.frames * layout.channels <= IN_MEMORY_SAMPLES) {
+    const whole = new MemorySource(await readAll(source), source.sampleRateHz);
+    const r = await renderInMemory(whole, job.steps, renderProgress);
+    resolved = r.resolved;
+    rendering = { sampleRateHz: r.out.sampleRateHz, channelCount: r.out.channelCount, framesHint: r.out.frames, blocks: r.out.blocks(), resolved: {} };
+  } else {
+    const r = await streamingRendering(source, job.steps, renderProgress);
+    resolved = r.resolved;
+    rendering = r.rendering;
+  }
+  const fmt = job.format;
+  const out = { sampleRateHz: rendering.sampleRateHz, bitsPerSample: fmt.bitsPerSample, sampleFormat: fmt.sampleFormat, channels: rendering.channelCount };
+
+  // The record of what was done: one line per step, then the export itself.
+  let added = '';
+  job.steps.forEach((s, k) => {
+    added += codingHistoryLine({ ...out, text: correctionOf(s.op).history({ ...s.params, ...resolved[k] }) });
+  });
+  added += codingHistoryLine({ ...out, text: `reelwright export${fmt.dither && fmt.sampleFormat === 'int' ? ' with TPDF dither' : ''}` });
+  let history = layout.bext?.codingHistory ?? '';
+  if (!history) history = codingHistoryLine({ sampleRateHz: layout.sampleRateHz, bitsPerSample: layout.bitsPerSample, sampleFormat: layout.sampleFormat, channels: layout.channels, text: 'source as received' });
+  for (const line of added.split('\r\n').filter(Boolean)) history = appendCodingHistory(history, `${line}\r\n`);
+  const now = new Date();
+  const fixed = layout.bext?.fixed ?? newBextFixed({
+    description: job.description, originator: 'Reelwright', originatorReference: '',
+    originationDate: now.toISOString().slice(0, 10), originationTime: now.toISOString().slice(11, 19),
+  });
+  const bext = fmt.bwf || layout.bext ? buildBext(fixed, history) : undefined;
+
+  // Other chunks (LIST, iXML, axml, cue …) copied as they are, in their places.
+  const before: RawChunk[] = [], after: RawChunk[] = [];
+  for (const c of layout.chunks) {
+    if (!copiesChunk(c.id) || c.id === 'SSND' || c.id === 'COMM' || c.id === 'FORM' || c.size > 8 << 20) continue;
+    (c.position === 'after-data' ? after : before).push({ id: c.id, data: await read(sourceHandle, c.offset, c.size) });
+  }
+  const enc = new WavStreamEncoder(
+    { format: { sampleFormat: fmt.sampleFormat, bitsPerSample: fmt.bitsPerSample, channels: rendering.channelCount, sampleRateHz: rendering.sampleRateHz }, bext, chunksBefore: before, chunksAfter: after, container: fmt.container },
+    { dither: fmt.dither },
+  );
+  await write(job.target, enc.provisionalHeader, null);
+
+  const frames = rendering.framesHint ?? 0;
+  const perWrite = Math.max(1, Math.floor(WRITE_BYTES / enc.bytesPerFrame));
+  const bufBytes = perWrite * enc.bytesPerFrame;
+  let buf = new Uint8Array(bufBytes);
+  let used = 0;
+  for await (const block of rendering.blocks) {
+    if (p.signal.aborted) throw new CancelledError('cancelled');
+    const n = block[0]?.length ?? 0;
+    for (let at = 0; at < n;) {
+      const take = Math.min(n - at, (bufBytes - used) / enc.bytesPerFrame);
+      used += enc.encodeInto(block.map((c) => c.subarray(at, at + take)), buf, used);
+      at += take;
+      if (used === bufBytes) {
+        // The write hands the buffer over to the page (transferred), so each write gets a new one.
+        await write(job.target, buf, null);
+        buf = new Uint8Array(bufBytes);
+        used = 0;
+      }
+    }
+    if (frames > 0) p.progress(0.5 + 0.5 * Math.min(1, enc.frames / frames), 'Writing');
+  }
+  if (used > 0) await write(job.target, buf.subarray(0, used), null);
+  const done = enc.finish();
+  if (done.trailer.length > 0) await write(job.target, done.trailer, null);
+  await write(job.target, done.header, 0);
+  return { frames: done.frames, bytes: done.totalBytes, container: done.container, historyAdded: added };
+}

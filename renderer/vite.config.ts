@@ -1,0 +1,18 @@
+/** Vite build of the editor page (used by `npm start`, the Electron shell and the browser tests). */
+import { svelte } from '@sveltejs/vite-plugin-svelte';
+import { fileURLToPath } from 'node:url';
+import path from 'node:path';
+import { defineConfig } from 'vite';
+import { demoFiles } from './demo-files.ts';
+
+const here = path.dirname(fileURLToPath(import.meta.url));
+
+export default defineConfig({
+  root: here,
+  base: './',
+  plugins: [svelte(), demoFiles(path.resolve(here, '../assets/demo'))],
+  build: { outDir: 'dist', emptyOutDir: true, target: 'es2022', chunkSizeWarningLimit: 2000 },
+  worker: { format: 'es' },
+  server: { fs: { allow: [path.resolve(here, '..')] } },
+  logLevel: 'warn',
+});

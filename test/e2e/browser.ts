@@ -1,0 +1,22 @@
+/** Launching Debian's Chromium through playwright-core, with the flags this machine needs (TOOLCHAIN.md). */
+import fs from 'node:fs';
+import { chromium, type Browser, type Page } from 'playwright-core';
+
+export const CHROMIUM = ['/usr/lib/chromium/chromium', '/usr/bin/chromium'].find((p) => fs.existsSync(p));
+
+export async function launch(): Promise<Browser> {
+  if (!CHROMIUM) throw new Error('Chromium is not installed: apt-get install -y chromium');
+  return chromium.launch({
+    executablePath: CHROMIUM,
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking',
+      '--disable-component-update', '--disable-sync', '--autoplay-policy=no-user-gesture-required'],
+  });
+}
+
+/** Collects page errors and console errors (a CSP violation is a console error). */
+export function watchErrors(page: Page): string[] {
+  const errors: string[] = [];
+  page.on('pageerror', (e) => errors.push(`pageerror: ${e.stack ?? e.message}`));
+  page.on('console', (m) => { if (m.type() === 'error') errors.push(`console: ${m.text()}`); });
+  return errors;
+}

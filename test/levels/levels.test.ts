@@ -1,0 +1,160 @@
+/**
+ * The levels op end to end on in-memory sources: RMS / DC / clipping against closed forms,
+ * dropouts, head/tail silence and bandwidth against signals built with known answers.
+ */
+import { describe, expect, it } from 'vitest';
+import { MemorySource } from '../../dsp/source.ts';
+import { levels, type LevelsResult } from '../../dsp/ops/levels.ts';
+import { silentContext } from '../../dsp/ops/types.ts';
+import { validateParams } from '../../dsp/ops/params.ts';
+import { FftPlan } from '../../dsp/core/fft.ts';
+import { seededRng, gaussian } from '../helpers/rng.ts';
+
+const FS = 48000;
+
+async function run(channels: Float64Array[], fs = FS, params = {}, meta?: { bitsPerSample: number; sampleFormat: 'int' | 'float' }): Promise<LevelsResult> {
+  const src = new MemorySource(channels, fs);
+  if (meta) Object.assign(src, meta);
+  return levels.run(src, validateParams(levels.params, params), silentContext);
+}
+
+/** White Gaussian noise with RMS `rmsDbfs`. */
+function noise(n: number, rmsDbfs: number, seed: number): Float64Array {
+  const g = gaussian(seededRng(seed));
+  const a = Math.pow(10, rmsDbfs / 20);
+  return Float64Array.from({ length: n }, () => a * g());
+}
+
+describe('levels: sample statistics', () => {
+  it('reads RMS and DC offset of a sine plus DC exactly', async () => {
+    // Source: closed form — mean square of A·sin + d over whole cycles is A²/2 + d².
+    const A = 0.5, d = 0.01, n = FS * 2;
+    const x = Float64Array.from({ length: n }, (_, i) => A * Math.sin((2 * Math.PI * 1000 * i) / FS) + d);
+    const r = await run([x]);
+    expect(r.channels[0]!.rmsDbfs).toBeCloseTo(10 * Math.log10((A * A) / 2 + d * d), 6);
+    expect(r.channels[0]!.dcOffset).toBeCloseTo(d, 9);
+    expect(r.channels[0]!.peakDbfs).toBeCloseTo(20 * Math.log10(A + d), 4);
+    expect(r.channels[0]!.clippedSamples).toBe(0);
+  });
+
+  it('counts clipped runs of a hard-clipped sine', async () => {
+    // Source: closed form — 2·sin clipped at ±1 sits at full scale where |sin| ≥ 1/2, i.e. 2/3 of
+    // each half cycle: 100 Hz at 48 kHz → 2 runs of ~160 samples per cycle, 200 runs in 1 s.
+    const n = FS;
+    const x = Float64Array.from({ length: n }, (_, i) => Math.max(-1, Math.min(1, 2 * Math.sin((2 * Math.PI * 100 * (i + 0.5)) / FS))));
+    const r = await run([x]);
+    expect(r.channels[0]!.clippedRunCount).toBe(200);
+    expect(Math.abs(r.channels[0]!.clippedSamples - 200 * 160)).toBeLessThanOrEqual(200);
+    expect(r.clippedRuns.length).toBe(100); // the listing is capped
+    expect(r.clippedRuns[0]!.startSeconds).toBeCloseTo(1 / 1200, 4); // first crossing of sin = 1/2 at 30°
+  });
+
+  it('uses the top integer code as full scale for 16-bit sources', async () => {
+    // Source: two's complement — the largest positive 16-bit code is 32767/32768.
+    const top = 32767 / 32768;
+    const x = new Float64Array(FS).fill(0.1);
+    x.fill(top, 1000, 1010);
+    x.fill(-1, 2000, 2002); // two samples: shorter than a run
+    const r = await run([x], FS, {}, { bitsPerSample: 16, sampleFormat: 'int' });
+    expect(r.channels[0]!.clippedSamples).toBe(12);
+    expect(r.channels[0]!.clippedRunCount).toBe(1);
+  });
+});
+
+describe('levels: dropouts', () => {
+  // The inserted gaps are the ground truth (definition from the issue: sudden drops ≥ 20 dB lasting 5–500 ms).
+  it('finds sudden drops of 5–500 ms in steady noise, and nothing else', async () => {
+    const n = FS * 12;
+    const l = noise(n, -20, 1), r = noise(n, -20, 2);
+    const gap = (ch: Float64Array[], start: number, ms: number, db: number) => {
+      const a = Math.round(start * FS), b = a + Math.round((ms / 1000) * FS);
+      for (const c of ch) for (let i = a; i < b; i++) c[i]! *= Math.pow(10, -db / 20);
+    };
+    gap([l, r], 1.0, 8, 30); // both channels
+    gap([l], 3.0, 50, 25); // one channel
+    gap([l, r], 5.0, 300, 80);
+    gap([l, r], 7.0, 3, 40); // too short
+    gap([l, r], 8.0, 800, 40); // too long: a pause
+    // A slow fade to −30 dB over 200 ms and back: not sudden.
+    for (let i = 0; i < FS * 0.4; i++) {
+      const t = i / (FS * 0.4);
+      const g = Math.pow(10, (-30 * Math.sin(Math.PI * t)) / 20);
+      l[Math.round(10.5 * FS) + i]! *= g;
+      r[Math.round(10.5 * FS) + i]! *= g;
+    }
+    const res = await run([l, r]);
+    expect(res.dropouts.length).toBe(3);
+    const [a, b, c] = res.dropouts as [typeof res.dropouts[0], typeof res.dropouts[0], typeof res.dropouts[0]];
+    expect(Math.abs(a.startSeconds - 1.0)).toBeLessThan(0.002);
+    expect(Math.abs(a.durationSeconds - 0.008)).toBeLessThan(0.002);
+    expect(Math.abs(a.depthDb - 30)).toBeLessThan(1.5);
+    expect(a.channels).toEqual([1, 2]);
+    expect(Math.abs(b.startSeconds - 3.0)).toBeLessThan(0.002);
+    expect(Math.abs(b.durationSeconds - 0.05)).toBeLessThan(0.002);
+    expect(Math.abs(b.depthDb - 25)).toBeLessThan(1.5);
+    expect(b.channels).toEqual([1]);
+    expect(Math.abs(c.startSeconds - 5.0)).toBeLessThan(0.002);
+    expect(Math.abs(c.durationSeconds - 0.3)).toBeLessThan(0.002);
+    expect(c.depthDb).toBeGreaterThan(60);
+    const f = levels.findings!(res, { sampleRateHz: FS, channelCount: 2, frames: n });
+    expect(f.some((x) => x.title === '3 dropouts' && x.severity === 'warn')).toBe(true);
+  });
+
+  it('does not call the ordinary ups and downs of a 60 Hz-heavy programme dropouts', async () => {
+    // A strong low tone makes 1 ms frames dip near its zero crossings; that is not a dropout.
+    const n = FS * 4;
+    const x = noise(n, -40, 3);
+    for (let i = 0; i < n; i++) x[i]! += 0.3 * Math.sin((2 * Math.PI * 60 * i) / FS);
+    expect((await run([x])).dropouts).toEqual([]);
+  });
+});
+
+describe('levels: silence and bandwidth', () => {
+  it('measures silence at the head and tail', async () => {
+    // Built with known answers: 1.5 s digital silence, 3 s of noise at −20 dBFS, 2.25 s at −80 dBFS.
+    const n = Math.round(FS * 6.75);
+    const x = noise(n, -80, 4);
+    x.fill(0, 0, Math.round(1.5 * FS));
+    const prog = noise(3 * FS, -20, 5);
+    x.set(prog, Math.round(1.5 * FS));
+    const r = await run([x, x]);
+    expect(Math.abs(r.silence.headSeconds - 1.5)).toBeLessThanOrEqual(0.011);
+    expect(Math.abs(r.silence.tailSeconds - 2.25)).toBeLessThanOrEqual(0.011);
+    expect(r.silence.allSilent).toBe(false);
+    const all = await run([new Float64Array(FS)]);
+    expect(all.silence.allSilent).toBe(true);
+  });
+
+  /** White noise shaped in the frequency domain with `gain(f)` (one long FFT), plus a floor. */
+  function shaped(n: number, gain: (hz: number) => number, floorDbfs: number, seed: number): Float64Array {
+    const plan = new FftPlan(n);
+    const x = noise(n, -20, seed);
+    const spec = plan.createHalfSpectrum();
+    plan.realForward(x, spec);
+    for (let k = 0; k <= n / 2; k++) {
+      const gk = gain((k * FS) / n);
+      spec[2 * k]! *= gk;
+      spec[2 * k + 1]! *= gk;
+    }
+    const y = new Float64Array(n);
+    plan.realInverse(spec, y);
+    const fl = noise(n, floorDbfs, seed + 100);
+    for (let i = 0; i < n; i++) y[i]! += fl[i]!;
+    return y;
+  }
+
+  it('finds a 15 kHz band limit', async () => {
+    // Built with a known answer: brick-wall at 15 kHz (exact, frequency domain), floor at −110 dBFS.
+    const x = shaped(1 << 19, (hz) => (hz <= 15000 ? 1 : 0), -110, 6);
+    const r = await run([x]);
+    expect(Math.abs(r.bandwidthHz - 15000)).toBeLessThan(150);
+  });
+
+  it('reports the Nyquist frequency for full-band pink noise', async () => {
+    // Pink (−3 dB/octave) noise has content to the top of the band: no limit to report.
+    const x = shaped(1 << 19, (hz) => (hz > 0 ? 1 / Math.sqrt(Math.max(hz, 20) / 1000) : 0), -110, 7);
+    const r = await run([x]);
+    expect(r.bandwidthHz).toBe(FS / 2);
+    expect(r.longTermSpectrum.frequenciesHz.length).toBeGreaterThan(100);
+  });
+});
