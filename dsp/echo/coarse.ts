@@ -95,18 +95,20 @@ export class CoarseEchoSearch {
       if (scorer.hi <= scorer.lo) return;
       const halves = ([0, 1] as const).map((h) => {
         const m = s.accumulator.halfMeanLogSpectrum(h);
-        return m ? new CepstrumScorer(cepstrumOf(m, sharedPlan(s.fftSize)), s.lagLo, s.lagHi) : null;
+        return m ? cepstrumOf(m, sharedPlan(s.fftSize)) : null;
       });
       const found = scorer.candidates({ count: perScale + 3, exclude });
       for (const p of found) {
         const qi = Math.floor(p.quefrency);
         const frac = p.quefrency - qi;
         let zHalf = Infinity;
-        for (const h of halves) {
-          if (!h) {
+        for (const hc of halves) {
+          if (!hc) {
             zHalf = 0;
             continue;
           }
+          // A scorer around the candidate only (its noise reference is local anyway).
+          const h = new CepstrumScorer(hc, qi - 2 * CepstrumScorer.BLOCK, qi + 2 * CepstrumScorer.BLOCK);
           const a = h.amplitudeAt(qi, frac).amplitude;
           zHalf = Math.min(zHalf, (Math.sign(p.amplitude) * a) / h.noiseAt(qi));
         }

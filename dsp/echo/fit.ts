@@ -101,25 +101,36 @@ function realCepstrum(half: Float64Array, plan: FftPlan, spec: Float64Array, out
  *   S(x) = Σ_{k=1}^{N/2−1} cos(kx) = sin((N/2 − ½)x)/(2 sin(x/2)) − ½  (= N/2 − 1 when x ≡ 0).
  */
 export function echoCepstrumAt(q: number, delay: number, gain: number, n: number): number {
+  const out = new Float64Array(1);
+  echoCepstrumInto(Float64Array.of(q), delay, gain, n, out);
+  return out[0]!;
+}
+
+/** echoCepstrumAt for many quefrencies at once (the series terms are shared). */
+export function echoCepstrumInto(qs: ArrayLike<number>, delay: number, gain: number, n: number, out: Float64Array): void {
   const half = n / 2;
-  const beta = (2 * Math.PI * q) / n;
-  const sgnQ = q % 2 === 0 ? 1 : -1;
-  const dirichlet = (x: number): number => {
-    const s = Math.sin(x / 2);
-    if (Math.abs(s) < 1e-12) return half - 1;
-    return Math.sin((half - 0.5) * x) / (2 * s) - 0.5;
-  };
-  let sum = 0;
+  const count = qs.length;
+  out.fill(0, 0, count);
   let gm = 1;
   for (let m = 1; m < 5000; m++) {
     gm *= gain;
     const am = (2 * (m % 2 === 1 ? 1 : -1) * gm) / m;
-    if (Math.abs(am) < 1e-10) break;
+    if (Math.abs(am) < 1e-9) break;
     const t = m * delay;
     const alpha = (2 * Math.PI * t) / n;
-    sum += (am * (1 + sgnQ * Math.cos(Math.PI * t) + dirichlet(alpha - beta) + dirichlet(alpha + beta))) / n;
+    const cpt = Math.cos(Math.PI * t);
+    const scale = am / n;
+    for (let i = 0; i < count; i++) {
+      const q = qs[i]!;
+      const beta = (2 * Math.PI * q) / n;
+      const sgnQ = q % 2 === 0 ? 1 : -1;
+      const x1 = alpha - beta, x2 = alpha + beta;
+      const s1 = Math.sin(x1 / 2), s2 = Math.sin(x2 / 2);
+      const d1 = Math.abs(s1) < 1e-12 ? half - 1 : Math.sin((half - 0.5) * x1) / (2 * s1) - 0.5;
+      const d2 = Math.abs(s2) < 1e-12 ? half - 1 : Math.sin((half - 0.5) * x2) / (2 * s2) - 0.5;
+      out[i] = out[i]! + scale * (1 + sgnQ * cpt + d1 + d2);
+    }
   }
-  return sum;
 }
 
 /**
@@ -140,9 +151,8 @@ export function fitSingleEcho(
   const qs: number[] = [];
   for (const w of windows) for (let q = w.lo; q <= w.hi; q++) qs.push(q);
   const clampG = (g: number) => Math.max(-0.99, Math.min(0.99, g));
-  const model = (tau: number, g: number, into: Float64Array) => {
-    for (let i = 0; i < m; i++) into[i] = echoCepstrumAt(qs[i]!, tau, g, n);
-  };
+  const qArr = Float64Array.from(qs);
+  const model = (tau: number, g: number, into: Float64Array) => echoCepstrumInto(qArr, tau, g, n, into);
   const tmp = new Float64Array(m);
   const residual = (tau: number, g: number, into: Float64Array): number => {
     model(tau, g, tmp);

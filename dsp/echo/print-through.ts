@@ -172,28 +172,35 @@ export function searchPrintThrough(
   const seg = n - 2 * K;
   const plan = sharedPlan(n);
   const accC = new Float64Array(n + 2), accD = new Float64Array(n + 2), accV = new Float64Array(n + 2);
-  const a = new Float64Array(n), b = new Float64Array(n);
-  const A = new Float64Array(n + 2), B = new Float64Array(n + 2);
-  const correlateInto = (first: Float64Array, second: Float64Array, start: number, acc: Float64Array) => {
+  const a = new Float64Array(n);
+  const spectrumOf = (sig: Float64Array, start: number, lead: number, len: number, out: Float64Array) => {
     a.fill(0);
-    b.fill(0);
-    for (let i = 0; i < seg && start + i < total; i++) a[i] = first[start + i]!;
-    for (let j = 0; j < seg + 2 * K; j++) {
-      const t = start - K + j;
-      if (t >= 0 && t < total) b[j] = second[t]!;
+    for (let j = 0; j < len; j++) {
+      const t = start - lead + j;
+      if (t >= 0 && t < total) a[j] = sig[t]!;
     }
-    plan.realForward(a, A);
-    plan.realForward(b, B);
+    plan.realForward(a, out);
+  };
+  const accumulate = (first: Float64Array, second: Float64Array, acc: Float64Array) => {
     for (let k = 0; k <= n / 2; k++) {
-      const ar = A[2 * k]!, ai = -A[2 * k + 1]!, br = B[2 * k]!, bi = B[2 * k + 1]!;
+      const ar = first[2 * k]!, ai = -first[2 * k + 1]!, br = second[2 * k]!, bi = second[2 * k + 1]!;
       acc[2 * k]! += ar * br - ai * bi;
       acc[2 * k + 1]! += ar * bi + ai * br;
     }
   };
+  // Per segment: spectra of q, m_q, q² over [start, start + seg) and of l, l² over
+  // [start − K, start + seg + K); five transforms feed the three correlations.
+  const Q = new Float64Array(n + 2), MQ = new Float64Array(n + 2), Q2 = new Float64Array(n + 2);
+  const L = new Float64Array(n + 2), L2 = new Float64Array(n + 2);
   for (let start = 0; start < total; start += seg) {
-    correlateInto(q, l, start, accC);
-    correlateInto(mq, l2, start, accD);
-    correlateInto(q2, l2, start, accV);
+    spectrumOf(q, start, 0, seg, Q);
+    spectrumOf(mq, start, 0, seg, MQ);
+    spectrumOf(q2, start, 0, seg, Q2);
+    spectrumOf(l, start, K, seg + 2 * K, L);
+    spectrumOf(l2, start, K, seg + 2 * K, L2);
+    accumulate(Q, L, accC);
+    accumulate(MQ, L2, accD);
+    accumulate(Q2, L2, accV);
   }
   const c = new Float64Array(n), d = new Float64Array(n), v = new Float64Array(n);
   plan.realInverse(accC, c);
@@ -211,14 +218,15 @@ export function searchPrintThrough(
     const part = Float64Array.from(v.subarray(b * VB, Math.min(n, (b + 1) * VB))).sort();
     blockMed[b] = part[part.length >> 1]!;
   }
-  const zc = new Float64Array(n);
-  for (let j = 0; j < n; j++) {
-    const b = Math.floor(j / VB);
+  const smoothed = new Float64Array(nbk);
+  for (let b = 0; b < nbk; b++) {
     const near: number[] = [];
     for (let o = -2; o <= 2; o++) if (b + o >= 0 && b + o < nbk) near.push(blockMed[b + o]!);
     near.sort((p1, p2) => p1 - p2);
-    zc[j] = c[j]! / Math.sqrt(Math.max(near[near.length >> 1]!, floorV));
+    smoothed[b] = Math.max(near[near.length >> 1]!, floorV);
   }
+  const zc = new Float64Array(n);
+  for (let j = 0; j < n; j++) zc[j] = c[j]! / Math.sqrt(smoothed[Math.floor(j / VB)]!);
   // r(j) = Σ first(t)·second(t + j − K): lag k = j − K.
   const at = (arr: Float64Array, k: number) => arr[k + K]!;
   const lagOk = (k: number) => {

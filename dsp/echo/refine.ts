@@ -42,6 +42,8 @@ export interface RefineOptions {
   excerpt: Excerpt;
   /** Largest number of cancel-and-measure passes (default 6). */
   maxPasses?: number;
+  /** Scan the delay ±this many samples in the first pass (when the start is only roughly known). */
+  searchSamples?: number;
   signal?: { readonly aborted: boolean };
   onPass?(pass: number, fit: FitResult, fftSize: number): void;
 }
@@ -150,7 +152,7 @@ export async function refineSingleEcho(
     passes++;
     if (!data) break;
     const windows = fitWindows(tau, g, framing.fftSize);
-    fit = fitSingleEcho(data, framing.fftSize, { delaySamples: tau, gain: g }, { windows, searchSamples: pass === 0 ? 0.6 : 0 });
+    fit = fitSingleEcho(data, framing.fftSize, { delaySamples: tau, gain: g }, { windows, searchSamples: pass === 0 ? (options.searchSamples ?? 0) : 0 });
     options.onPass?.(pass, fit, framing.fftSize);
     // Fixed-point step on τ; secant step on g for G(g') = fit(g') − g' = 0.
     let nextG = fit.gain;

@@ -126,14 +126,17 @@ export class CepstrumScorer {
   static readonly NEAR_HI = 26;
   static readonly BLOCK = 64;
 
+  readonly #c: Float64Array;
+
   constructor(c: Float64Array, qLo: number, qHi: number) {
     const NEAR_HI = CepstrumScorer.NEAR_HI, BLOCK = CepstrumScorer.BLOCK;
+    this.#c = c;
     this.lo = Math.max(3, Math.floor(qLo));
     this.hi = Math.min(c.length / 2 - 4, Math.ceil(qHi));
     const lo = this.lo, hi = Math.max(this.lo, this.hi);
-    // Extended range: flanks for candidates near the ends, and 2·hi for the rahmonic check.
+    // Extended range: flanks for candidates near the ends.
     this.#eLo = Math.max(3, lo - NEAR_HI);
-    this.#eHi = Math.max(this.#eLo, Math.min(c.length / 2 - 4, 2 * hi + NEAR_HI));
+    this.#eHi = Math.max(this.#eLo, Math.min(c.length / 2 - 4, hi + NEAR_HI));
     const eLo = this.#eLo, eHi = this.#eHi;
     this.#r = detrendCepstrum(smoothCepstrum(c), eLo, eHi);
     // Matched-filter outputs: for each quefrency the best of the fractional offsets, and the
@@ -237,13 +240,15 @@ export class CepstrumScorer {
    */
   periodicAt(q: number, amplitude: number): boolean {
     const q2 = Math.round(2 * q);
-    if (q2 + 1 > this.#eHi) return false;
+    if (q2 + CepstrumScorer.BLOCK > this.#c.length / 2 - 4) return false;
+    // A small scorer around 2q (its own local noise reference).
+    const local = new CepstrumScorer(this.#c, q2 - CepstrumScorer.BLOCK, q2 + CepstrumScorer.BLOCK);
     let a2 = 0;
     for (const p of [q2 - 1, q2, q2 + 1]) {
-      const v = this.amplitudeAt(p).amplitude;
+      const v = local.amplitudeAt(p).amplitude;
       if (Math.abs(v) > Math.abs(a2)) a2 = v;
     }
-    const sigma2 = Math.max(this.#globalNoise, this.noiseAt(q2));
+    const sigma2 = Math.max(this.#globalNoise, local.noiseAt(q2));
     return a2 > 3 * sigma2 && a2 > 0.1 * Math.abs(amplitude);
   }
 

@@ -43,7 +43,7 @@ async function measureAt(source: AudioSource, delaySeconds: number, channel: num
   const d = delaySeconds * fs;
   const n = Math.min(source.frames, Math.round(30 * fs));
   // The first pass starts from no cancellation (gain 0) and fits the delay within ±0.6 sample.
-  const r = await refineSingleEcho(source, { delaySamples: d, gain: 0 }, { channel, excerpt: { start: 0, end: n, warmup: 0 }, signal: ctx.signal });
+  const r = await refineSingleEcho(source, { delaySamples: d, gain: 0 }, { channel, excerpt: { start: 0, end: n, warmup: 0 }, signal: ctx.signal, searchSamples: 0.6 });
   return r.fit.gain;
 }
 
