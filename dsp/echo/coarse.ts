@@ -30,7 +30,7 @@ export interface CoarseCandidate extends CepstralPeak {
 }
 
 /** Frame budgets per scale (frames actually analysed on a long file). */
-const BUDGET = [2000, 400, 64] as const;
+const BUDGET = [2000, 240, 48] as const;
 
 export class CoarseEchoSearch {
   readonly scales: CoarseScale[] = [];

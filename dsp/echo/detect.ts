@@ -3,7 +3,7 @@
  * (a faint copy 0.3–4 s before or after loud passages).
  *
  * Pass 1 (whole file, streaming): averaged log spectra at three frame lengths (coarse.ts) and a
- * decimated copy for the print-through search (print-through.ts).
+ * decimated copy (≈ 4 kHz) for the print-through search (print-through.ts).
  * Reflection: cepstral peak search → closed-form fit of the echo ripple on the coarse scale →
  * iterative cancel-and-measure refinement on an excerpt of at most `refineSeconds` (refine.ts).
  * Print-through: masked quiet/loud cross-correlation → full-rate phase-slope refinement (one more

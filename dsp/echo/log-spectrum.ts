@@ -47,6 +47,8 @@ export class LogSpectrumAccumulator {
   #frameIndex = 0;
   #frames = 0;
   #consumed = 0;
+  /** Samples still to drop before the next analysed frame (non-overlapping strided mode). */
+  #gap = 0;
   readonly #skip: number;
 
   constructor(options: LogSpectrumOptions) {
@@ -80,6 +82,32 @@ export class LogSpectrumAccumulator {
       this.#consumed += drop;
       i = drop;
     }
+    const step = this.frameStride * hop;
+    if (step >= n) {
+      // Analysed frames do not overlap: fill one frame, then jump to the next analysed start
+      // without copying what lies between.
+      while (i < samples.length) {
+        if (this.#gap > 0) {
+          const drop = Math.min(this.#gap, samples.length - i);
+          this.#gap -= drop;
+          i += drop;
+          this.#consumed += drop;
+          continue;
+        }
+        const take = Math.min(n - this.#filled, samples.length - i);
+        buf.set(samples.subarray(i, i + take), this.#filled);
+        this.#filled += take;
+        i += take;
+        this.#consumed += take;
+        if (this.#filled === n) {
+          this.#analyse();
+          this.#frameIndex += this.frameStride;
+          this.#filled = 0;
+          this.#gap = step - n;
+        }
+      }
+      return;
+    }
     while (i < samples.length) {
       const take = Math.min(n - this.#filled, samples.length - i);
       buf.set(samples.subarray(i, i + take), this.#filled);
@@ -94,6 +122,7 @@ export class LogSpectrumAccumulator {
       }
     }
   }
+
 
   #analyse(): void {
     const n = this.fftSize, w = this.#window, f = this.#frame, buf = this.#buf;

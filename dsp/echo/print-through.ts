@@ -16,7 +16,8 @@
  * peak's significance z.
  *
  * Coarse search on a copy of the signal decimated to about 4 kHz (kept in memory as Float32:
- * ≈ 16 kB per second of audio, 58 MB per hour), by FFT correlation in overlapping segments with
+ * ≈ 16 kB per second of audio, 58 MB per hour; 2 kHz folds too much of a voice onto itself), by
+ * FFT correlation in overlapping segments with
  * the cross-spectra summed before one inverse transform. The delay is then refined at the full
  * rate from the cross-spectrum of quiet/loud frame pairs (a delay is a linear phase: the phase
  * slope gives the fraction of a sample) and the gain from their regression.
@@ -153,80 +154,87 @@ export function searchPrintThrough(
   // A fixed whitening filter (order 16) sharpens the correlation peaks and takes away most of the
   // chance correlation between voiced sounds of similar spectrum at unrelated times.
   x = whiten(x, 16);
-  // Per-sample masked signals.
-  const q = new Float64Array(total), mq = new Float64Array(total), l = new Float64Array(total), l2 = new Float64Array(total);
-  const q2 = new Float64Array(total);
-  for (let i = 0; i < total; i++) {
-    const b = Math.min(masks.quiet.length - 1, Math.floor(i / bs));
-    if (masks.quiet[b]) {
-      q[i] = x[i]!;
-      q2[i] = x[i]! * x[i]!;
-      mq[i] = 1;
-    }
-    if (masks.loud[b]) {
-      l[i] = x[i]!;
-      l2[i] = x[i]! * x[i]!;
-    }
-  }
+  // Full-resolution cross-correlation C(k) = Σ q(t)·l(t + k), segment by segment (overlap-save,
+  // cross-spectra summed before one inverse transform); the masked signals are formed from x and
+  // the block masks as each segment is filled.
+  const quiet = masks.quiet, loud = masks.loud, nbm = quiet.length;
   const n = nextPowerOfTwo(Math.min(total, (1 << 18) - 2 * K) + 2 * K);
   const seg = n - 2 * K;
   const plan = sharedPlan(n);
-  const accC = new Float64Array(n + 2), accD = new Float64Array(n + 2), accV = new Float64Array(n + 2);
+  const accC = new Float64Array(n + 2);
   const a = new Float64Array(n);
-  const spectrumOf = (sig: Float64Array, start: number, lead: number, len: number, out: Float64Array) => {
+  const Q = new Float64Array(n + 2), L = new Float64Array(n + 2);
+  const fill = (mask: Uint8Array, start: number, lead: number, len: number, out: Float64Array) => {
     a.fill(0);
     for (let j = 0; j < len; j++) {
       const t = start - lead + j;
-      if (t >= 0 && t < total) a[j] = sig[t]!;
+      if (t >= 0 && t < total && mask[Math.min(nbm - 1, Math.floor(t / bs))]) a[j] = x[t]!;
     }
     plan.realForward(a, out);
   };
-  const accumulate = (first: Float64Array, second: Float64Array, acc: Float64Array) => {
-    for (let k = 0; k <= n / 2; k++) {
-      const ar = first[2 * k]!, ai = -first[2 * k + 1]!, br = second[2 * k]!, bi = second[2 * k + 1]!;
-      acc[2 * k]! += ar * br - ai * bi;
-      acc[2 * k + 1]! += ar * bi + ai * br;
-    }
-  };
-  // Per segment: spectra of q, m_q, q² over [start, start + seg) and of l, l² over
-  // [start − K, start + seg + K); five transforms feed the three correlations.
-  const Q = new Float64Array(n + 2), MQ = new Float64Array(n + 2), Q2 = new Float64Array(n + 2);
-  const L = new Float64Array(n + 2), L2 = new Float64Array(n + 2);
   for (let start = 0; start < total; start += seg) {
-    spectrumOf(q, start, 0, seg, Q);
-    spectrumOf(mq, start, 0, seg, MQ);
-    spectrumOf(q2, start, 0, seg, Q2);
-    spectrumOf(l, start, K, seg + 2 * K, L);
-    spectrumOf(l2, start, K, seg + 2 * K, L2);
-    accumulate(Q, L, accC);
-    accumulate(MQ, L2, accD);
-    accumulate(Q2, L2, accV);
+    fill(quiet, start, 0, seg, Q);
+    fill(loud, start, K, seg + 2 * K, L);
+    for (let k = 0; k <= n / 2; k++) {
+      const ar = Q[2 * k]!, ai = -Q[2 * k + 1]!, br = L[2 * k]!, bi = L[2 * k + 1]!;
+      accC[2 * k]! += ar * br - ai * bi;
+      accC[2 * k + 1]! += ar * bi + ai * br;
+    }
   }
-  const c = new Float64Array(n), d = new Float64Array(n), v = new Float64Array(n);
+  const c = new Float64Array(n);
   plan.realInverse(accC, c);
-  plan.realInverse(accD, d);
-  plan.realInverse(accV, v);
-  // Normalise each lag by its null standard deviation √(Σ q²·l²) (the variance of a sum of
-  // products of independent terms), so lags with more quiet/loud overlap do not stand out.
-  // The variance is smoothed over lags (median of 64-lag blocks, then the median of five
-  // neighbouring blocks): a real copy inflates Σ q²·l² at its own lag, which must not hide it.
-  const floorV = 1e-30;
-  const VB = 64;
-  const nbk = Math.ceil(n / VB);
-  const blockMed = new Float64Array(nbk);
-  for (let b = 0; b < nbk; b++) {
-    const part = Float64Array.from(v.subarray(b * VB, Math.min(n, (b + 1) * VB))).sort();
-    blockMed[b] = part[part.length >> 1]!;
+
+  // The denominator D(k) = Σ m_q(t)·l²(t + k) and the null variance V(k) = Σ q²(t)·l²(t + k) vary
+  // with the lag only as slowly as the masks and the envelope do, so they are computed on block
+  // energies (exact for D at lags that are whole blocks, interpolated between):
+  //   D(b·bs) = Σ_j [quiet j]·E_l(j + b),  V(b·bs) ≈ Σ_j E_q(j)·E_l(j + b)/bs.
+  const Kb = Math.ceil(K / bs) + 2;
+  const nb2 = nextPowerOfTwo(nbm + 2 * Kb);
+  const bplan = sharedPlan(nb2);
+  const eq = new Float64Array(nb2), mq = new Float64Array(nb2), el = new Float64Array(nb2);
+  for (let b = 0; b < nbm; b++) {
+    let e = 0;
+    for (let t = b * bs; t < (b + 1) * bs && t < total; t++) e += x[t]! * x[t]!;
+    if (quiet[b]) {
+      eq[b] = e;
+      mq[b] = 1;
+    }
+    if (loud[b]) el[(b + Kb) % nb2] = e; // shifted by Kb so that negative lags land at j < Kb
   }
-  const smoothed = new Float64Array(nbk);
-  for (let b = 0; b < nbk; b++) {
+  const blockCorrelation = (first: Float64Array): Float64Array => {
+    const F = new Float64Array(nb2 + 2), E = new Float64Array(nb2 + 2), P = new Float64Array(nb2 + 2);
+    bplan.realForward(first, F);
+    bplan.realForward(el, E);
+    for (let k = 0; k <= nb2 / 2; k++) {
+      const ar = F[2 * k]!, ai = -F[2 * k + 1]!, br = E[2 * k]!, bi = E[2 * k + 1]!;
+      P[2 * k] = ar * br - ai * bi;
+      P[2 * k + 1] = ar * bi + ai * br;
+    }
+    const out = new Float64Array(nb2);
+    bplan.realInverse(P, out);
+    return out; // out[j] = Σ_b first(b)·l_energy(b + j − Kb)
+  };
+  const dBlocks = blockCorrelation(mq), vBlocks = blockCorrelation(eq);
+  const atBlocks = (arr: Float64Array, k: number): number => {
+    const u = k / bs + Kb;
+    const j0 = Math.floor(u), f = u - j0;
+    return (1 - f) * (arr[j0] ?? 0) + f * (arr[j0 + 1] ?? 0);
+  };
+  // Normalise each lag by its null standard deviation √V (the variance of a sum of products of
+  // independent terms), so lags with more quiet/loud overlap do not stand out. V is smoothed over
+  // ±4 blocks (median): a real copy inflates V at its own lag, which must not hide it.
+  const floorV = 1e-30;
+  const vSmooth = new Float64Array(nb2);
+  for (let j = 0; j < nb2; j++) {
     const near: number[] = [];
-    for (let o = -2; o <= 2; o++) if (b + o >= 0 && b + o < nbk) near.push(blockMed[b + o]!);
+    for (let o = -4; o <= 4; o++) if (j + o >= 0 && j + o < nb2) near.push(vBlocks[j + o]! / bs);
     near.sort((p1, p2) => p1 - p2);
-    smoothed[b] = Math.max(near[near.length >> 1]!, floorV);
+    vSmooth[j] = Math.max(near[near.length >> 1]!, floorV);
   }
   const zc = new Float64Array(n);
-  for (let j = 0; j < n; j++) zc[j] = c[j]! / Math.sqrt(smoothed[Math.floor(j / VB)]!);
+  for (let j = 0; j < n; j++) zc[j] = c[j]! / Math.sqrt(Math.max(atBlocks(vSmooth, j - K), floorV));
+  const d = new Float64Array(n);
+  for (let j = 0; j < n; j++) d[j] = atBlocks(dBlocks, j - K);
   // r(j) = Σ first(t)·second(t + j − K): lag k = j − K.
   const at = (arr: Float64Array, k: number) => arr[k + K]!;
   const lagOk = (k: number) => {
@@ -394,11 +402,18 @@ export async function refinePrintThrough(
  * 63(4)). A fixed (time-invariant) filter, so a copy of the signal stays a copy after it.
  */
 export function whiten(x: Float32Array, order: number): Float32Array {
+  // The autocorrelation from at most about 2¹⁹ samples (every k-th stretch of 4096 on long
+  // streams): plenty for 16 coefficients.
   const r = new Float64Array(order + 1);
-  for (let k = 0; k <= order; k++) {
-    let s = 0;
-    for (let i = k; i < x.length; i++) s += x[i]! * x[i - k]!;
-    r[k] = s;
+  const stretch = 4096;
+  const every = Math.max(1, Math.ceil(x.length / (1 << 19)));
+  for (let s0 = 0; s0 < x.length; s0 += stretch * every) {
+    const e = Math.min(x.length, s0 + stretch);
+    for (let k = 0; k <= order; k++) {
+      let s = 0;
+      for (let i = s0 + k; i < e; i++) s += x[i]! * x[i - k]!;
+      r[k]! += s;
+    }
   }
   if (!(r[0]! > 0)) return x;
   r[0] = r[0]! * (1 + 1e-9);

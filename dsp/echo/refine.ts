@@ -167,7 +167,7 @@ export async function refineSingleEcho(
     const dTau = Math.abs(fit.delaySamples - tau), dG = Math.abs(nextG - g);
     tau = fit.delaySamples;
     g = Math.max(-0.99, Math.min(0.99, nextG));
-    if (pass >= 1 && dTau < 0.002 && dG < 3e-4) break;
+    if (pass >= 1 && dTau < 0.004 && dG < 5e-4) break;
   }
   if (!fit) {
     fit = { delaySamples: tau, gain: g, rss: 0, points: 0, delayStdSamples: Infinity, gainStd: Infinity, windows: [] };
