@@ -5,7 +5,8 @@
  * Pass 1 (whole file, streaming): averaged log spectra at three frame lengths (coarse.ts) and a
  * decimated copy (≈ 4 kHz) for the print-through search (print-through.ts).
  * Reflection: cepstral peak search → closed-form fit of the echo ripple on the coarse scale →
- * iterative cancel-and-measure refinement on an excerpt of at most `refineSeconds` (refine.ts).
+ * iterative cancel-and-measure refinement on an excerpt of at most `refineSeconds` (refine.ts) →
+ * a check for a frequency-dependent reflection (a short filter around τ, filter.ts).
  * Print-through: masked quiet/loud cross-correlation → full-rate phase-slope refinement (one more
  * streaming pass, only when something was found).
  *
@@ -23,6 +24,7 @@ import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { CoarseEchoSearch, type CoarseCandidate } from './coarse.ts';
+import { fitReflectionFilter } from './filter.ts';
 import { fitSingleEcho } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { mixBlock } from './mix.ts';
@@ -58,6 +60,11 @@ export interface ReflectionResult {
   /** Standard errors of the final fit (local curvature; they do not include the source's own structure). */
   delayStdSeconds: number | null;
   gainStd: number | null;
+  /**
+   * A frequency-dependent reflection: taps h_L at lags firstTapSamples + i, reported only when it
+   * fits clearly better than the single gain (dsp/echo/filter.ts); null otherwise.
+   */
+  filter: { firstTapSamples: number; firstTapDelaySeconds: number; taps: number[] } | null;
 }
 
 export interface PrintThroughResult {
@@ -119,7 +126,7 @@ export function resolveRange(
   return [lo, hi];
 }
 
-const notMeasured = (): ReflectionResult => ({ present: false, delaySeconds: null, gain: null, confidence: 0, z: 0, delayStdSeconds: null, gainStd: null });
+const notMeasured = (): ReflectionResult => ({ present: false, delaySeconds: null, gain: null, confidence: 0, z: 0, delayStdSeconds: null, gainStd: null, filter: null });
 const noPrintThrough = (): PrintThroughResult => ({ present: false, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
 
 /** Picks the coarse candidate to refine: among significant peaks the strongest, else the most significant. */
@@ -195,6 +202,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     const scale = coarse.scales[cand.scale]!;
     const first = fitSingleEcho(cepstra[cand.scale]!, scale.fftSize, { delaySamples: cand.quefrency, gain: cand.amplitude }, { searchSamples: 1.5 });
     let delay = first.delaySamples, gain = first.gain, delayStd = first.delayStdSamples, gainStd = first.gainStd;
+    let filter: ReflectionResult['filter'] = null;
     const confidence = confidenceFromZ(cand.z);
     if (confidence >= 0.5) {
       const cap = Math.max(1, Math.round((options.refineSeconds ?? 20) * fs));
@@ -206,6 +214,8 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       gain = refined.fit.gain;
       delayStd = refined.fit.delayStdSamples;
       gainStd = refined.fit.gainStd;
+      const f = await fitReflectionFilter(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal });
+      if (f) filter = { firstTapSamples: f.kernel.offset, firstTapDelaySeconds: f.kernel.offset / fs, taps: Array.from(f.kernel.taps) };
     }
     reflection = {
       present: confidence >= 0.5,
@@ -215,6 +225,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       z: cand.z,
       delayStdSeconds: Number.isFinite(delayStd) ? delayStd / fs : null,
       gainStd: Number.isFinite(gainStd) ? gainStd : null,
+      filter,
     };
   }
   options.progress?.(0.75);
@@ -233,8 +244,9 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     // the refinement mostly where the voice is (16 taps).
     let fullRateCancel: EchoKernel | null = null;
     if (reflection.present && reflection.delaySeconds !== null && reflection.gain !== null) {
-      fullRateCancel = reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 8);
-      const canceller = new EchoCanceller(reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 4));
+      const filterKernel = reflection.filter ? { offset: reflection.filter.firstTapSamples, taps: Float64Array.from(reflection.filter.taps) } : null;
+      fullRateCancel = filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 8);
+      const canceller = new EchoCanceller(filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 4));
       const again = new PrintThroughCollector(fs);
       for await (const block of source.blocks()) {
         if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');

@@ -75,7 +75,8 @@ export function chooseFraming(delaySamples: number, gain: number, excerptLength:
 
 /**
  * One pass: the cepstrum of the mean log spectrum of the excerpt after cancelling with `kernel`,
- * with the cancellation added back in the log domain (so it estimates the cepstrum of y).
+ * with the cancellation added back in the log domain (so it estimates the cepstrum of y), or,
+ * with `undo` false, of the cancelled signal itself (what is left of the echo).
  */
 export async function cancelledCepstrum(
   source: AudioSource,
@@ -83,6 +84,7 @@ export async function cancelledCepstrum(
   framing: Framing,
   options: RefineOptions,
   plan: FftPlan = sharedPlan(framing.fftSize),
+  undo = true,
 ): Promise<Float64Array | null> {
   const { start, end, warmup } = options.excerpt;
   const from = Math.max(0, start - warmup);
@@ -117,7 +119,7 @@ export async function cancelledCepstrum(
     if (acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
-  return undoCancellationCepstrum(meanLog, kernel, plan);
+  return undoCancellationCepstrum(meanLog, undo ? kernel : null, plan);
 }
 
 const clampCancel = (g: number) => Math.max(-MAX_CANCEL_GAIN, Math.min(MAX_CANCEL_GAIN, g));

@@ -53,6 +53,10 @@ export const echo: AnalysisOp<EchoAnalysis> = {
         delaySeconds: round(r.reflection.delaySeconds, 9),
         gain: round(r.reflection.gain, 5),
         confidence: round(r.reflection.confidence, 3),
+        // Only when a frequency-dependent reflection fits clearly better than the single gain.
+        ...(r.reflection.filter
+          ? { filter: { firstTapDelaySeconds: round(r.reflection.filter.firstTapDelaySeconds, 9), taps: r.reflection.filter.taps.map((t) => Number(t.toFixed(6))) } }
+          : {}),
       },
       printThrough: {
         present: r.printThrough.present,
@@ -74,7 +78,9 @@ export const echo: AnalysisOp<EchoAnalysis> = {
         sentence:
           `A reflection ${ms.toFixed(1)} ms after the direct sound at ${db.toFixed(1)} dB` +
           `${rf.gain < 0 ? ' with inverted polarity' : ''} (gain ${rf.gain.toFixed(3)}), typical of a hard wall or desk about ` +
-          `${((343 * rf.delaySeconds) / 2).toFixed(2)} m from the microphone; it can be cancelled.`,
+          `${((343 * rf.delaySeconds) / 2).toFixed(2)} m from the microphone` +
+          (rf.filter ? `; it colours the sound (a ${rf.filter.taps.length}-tap filter fits it better than one gain)` : '') +
+          '; it can be cancelled.',
         value: Number(ms.toFixed(3)),
         unit: 'ms',
         confidence: rf.confidence,

@@ -19,6 +19,8 @@ interface EchoToCancel {
   delaySeconds: number;
   gain: number;
   source: 'given' | 'measured';
+  /** A measured frequency-dependent reflection, used instead of the single gain. */
+  filter?: { firstTapSamples: number; taps: number[] };
 }
 
 function clampGain(g: number, ctx: OpContext): number {
@@ -124,7 +126,7 @@ export const unecho: CorrectionOp = {
         warn: (m) => ctx.warn(m),
       });
       if (a.reflection.present && a.reflection.delaySeconds !== null && a.reflection.gain !== null) {
-        echoes.push({ delaySeconds: a.reflection.delaySeconds, gain: a.reflection.gain, source: 'measured' });
+        echoes.push({ delaySeconds: a.reflection.delaySeconds, gain: a.reflection.gain, source: 'measured', filter: a.reflection.filter ?? undefined });
       }
       if (a.printThrough.present && a.printThrough.delaySeconds !== null && a.printThrough.gain !== null) {
         echoes.push({ delaySeconds: a.printThrough.delaySeconds, gain: a.printThrough.gain, source: 'measured' });
@@ -136,7 +138,7 @@ export const unecho: CorrectionOp = {
     for (const e of echoes) {
       const g = clampGain(e.gain, ctx);
       const d = Math.abs(e.delaySeconds) * fs;
-      const kernel = singleEchoKernel(d, g);
+      const kernel = e.filter ? { offset: e.filter.firstTapSamples, taps: Float64Array.from(e.filter.taps) } : singleEchoKernel(d, g);
       if (e.delaySeconds > 0) plan.post = kernel;
       else plan.pre = { kernel, gain: g, delaySamples: d };
       used.push({ ...e, gain: g });
@@ -151,6 +153,7 @@ export const unecho: CorrectionOp = {
       resolved.preEchoGain = pre.gain;
     }
     if (ch !== undefined) resolved.channel = ch;
+    if (post?.filter) resolved.filterTaps = post.filter.taps.length;
     return {
       sampleRateHz: fs,
       channelCount: source.channelCount,
@@ -165,6 +168,7 @@ export const unecho: CorrectionOp = {
       parts.push(`pre-echo delay=${Number(resolved.preEchoDelaySeconds).toFixed(7)}s gain=${Number(resolved.preEchoGain).toFixed(5)}`);
     }
     if (resolved.channel !== undefined) parts.push(`channel=${resolved.channel}`);
+    if (resolved.filterTaps !== undefined) parts.push(`filter=${resolved.filterTaps}taps`);
     return parts.join(' ');
   },
 };

@@ -100,3 +100,32 @@ describe('print-through', () => {
     }, 60_000);
   }
 });
+
+describe('frequency-dependent reflection', () => {
+  it('reports a short filter when one gain does not fit (a lowpass reflection) and cancels with it', async () => {
+    // Source: y = x + Σ h_L·x(t − L) with h = (0.15, 0.3, 0.15) at 23.4 ms ± 1 sample — a reflection
+    // whose response 0.3 + 0.3·cos ω falls to zero at Nyquist; made by the DFT shift theorem.
+    const { x } = voiceLike({ sampleRateHz: fs, seconds: 10, seed: 7 });
+    const c = 0.0234 * fs;
+    const y = addEchoes(x, [
+      { delaySamples: c - 1, gain: 0.15 },
+      { delaySamples: c, gain: 0.3 },
+      { delaySamples: c + 1, gain: 0.15 },
+    ]);
+    const source = new MemorySource([y], fs);
+    const r = await analyseEcho(source);
+    expect(r.reflection.present).toBe(true);
+    expect(r.reflection.filter).not.toBeNull();
+    const rendering = await unecho.prepare(source, {}, silentContext);
+    const [out] = await collectBlocks(rendering.blocks, 1);
+    const left = residualRatioDb(out!, y, x);
+    console.info(`lowpass reflection: ${r.reflection.filter!.taps.length}-tap filter, echo left after unecho ${left.toFixed(1)} dB`);
+    expect(left).toBeLessThanOrEqual(-30);
+  }, 60_000);
+
+  it('keeps the single gain for a plain reflection', async () => {
+    const { x } = voiceLike({ sampleRateHz: fs, seconds: 10, seed: 7 });
+    const r = await analyseEcho(new MemorySource([addEchoes(x, [{ delaySamples: 0.0234 * fs, gain: 0.6 }])], fs));
+    expect(r.reflection.filter).toBeNull();
+  });
+});
