@@ -47,11 +47,14 @@ export const echo: AnalysisOp<EchoAnalysis> = {
     });
   },
   toJson(r) {
+    // Delay and strength are printed only for what is present; the strongest candidate of a
+    // search that found nothing is not a measurement anyone should act on.
+    const rp = r.reflection.present, pp = r.printThrough.present;
     return {
       echo: {
-        present: r.reflection.present,
-        delaySeconds: round(r.reflection.delaySeconds, 9),
-        gain: round(r.reflection.gain, 5),
+        present: rp,
+        delaySeconds: rp ? round(r.reflection.delaySeconds, 9) : null,
+        gain: rp ? round(r.reflection.gain, 5) : null,
         confidence: round(r.reflection.confidence, 3),
         // Only when a frequency-dependent reflection fits clearly better than the single gain.
         ...(r.reflection.filter
@@ -59,9 +62,9 @@ export const echo: AnalysisOp<EchoAnalysis> = {
           : {}),
       },
       printThrough: {
-        present: r.printThrough.present,
-        delaySeconds: round(r.printThrough.delaySeconds, 7),
-        levelDb: round(r.printThrough.levelDb, 2),
+        present: pp,
+        delaySeconds: pp ? round(r.printThrough.delaySeconds, 7) : null,
+        levelDb: pp ? round(r.printThrough.levelDb, 2) : null,
         confidence: round(r.printThrough.confidence, 3),
       },
     };
@@ -77,8 +80,8 @@ export const echo: AnalysisOp<EchoAnalysis> = {
         title: `Reflection ${ms.toFixed(1)} ms after the direct sound`,
         sentence:
           `A reflection ${ms.toFixed(1)} ms after the direct sound at ${db.toFixed(1)} dB` +
-          `${rf.gain < 0 ? ' with inverted polarity' : ''} (gain ${rf.gain.toFixed(3)}), typical of a hard wall or desk about ` +
-          `${((343 * rf.delaySeconds) / 2).toFixed(2)} m from the microphone` +
+          `${rf.gain < 0 ? ' with inverted polarity' : ''} (gain ${rf.gain.toFixed(3)}): ${(343 * rf.delaySeconds).toFixed(2)} m of extra ` +
+          `path, as from a hard wall or desk about ${((343 * rf.delaySeconds) / 2).toFixed(2)} m away` +
           (rf.filter ? `; it colours the sound (a ${rf.filter.taps.length}-tap filter fits it better than one gain)` : '') +
           '; it can be cancelled.',
         value: Number(ms.toFixed(3)),

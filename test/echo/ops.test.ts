@@ -56,6 +56,14 @@ describe('echo: JSON and findings', () => {
     expect(refl.suggestion!.params.gain as number).toBeCloseTo(0.4, 2);
   });
 
+  it('prints null delay and strength for what is not present', async () => {
+    const r = await echo.run(new MemorySource([x], fs), validateParams(echo.params, {}), silentContext);
+    const j = echo.toJson!(r) as { echo: Record<string, unknown>; printThrough: Record<string, unknown> };
+    expect(j.echo).toMatchObject({ present: false, delaySeconds: null, gain: null });
+    expect(j.printThrough).toMatchObject({ present: false, delaySeconds: null, levelDb: null });
+    expect(echo.findings!(r, { sampleRateHz: fs, channelCount: 1, frames: x.length })[0]!.severity).toBe('ok');
+  });
+
   it('rejects a range longer than a quarter of the file, and a channel the file does not have', async () => {
     const src = new MemorySource([x], fs);
     await expect(echo.run(src, validateParams(echo.params, { rangeSeconds: [0.001, 2] }), silentContext)).rejects.toThrow(ParameterError);
