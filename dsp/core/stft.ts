@@ -21,9 +21,9 @@ export interface StftOptions {
   fftSize: number;
   /** Hop between frames in samples, 1 ≤ hopSize ≤ fftSize. */
   hopSize: number;
-  /** Analysis window (periodic). Default 'hann'. */
+  /** Analysis window (periodic). Default 'hann'. A given array is copied at construction. */
   window?: WindowName | Float64Array;
-  /** Synthesis window for OverlapAdder / StftProcessor. Default: the analysis window. */
+  /** Synthesis window for OverlapAdder / StftProcessor. Default: the analysis window. Copied at construction. */
   synthesisWindow?: Float64Array;
 }
 
@@ -48,11 +48,18 @@ function checkFraming(fftSize: number, hopSize: number): void {
 export class StftAnalyzer {
   readonly fftSize: number;
   readonly hopSize: number;
+  /** The analysis window. Frames use a copy taken at construction. */
   readonly window: Float64Array;
+  readonly #window: Float64Array;
   readonly #plan: FftPlan;
+  /**
+   * Input history. The current frame's samples are #buf[#start … #start + #filled); frames move
+   * forward by hopSize without copying, and the tail is moved back to the front only when the
+   * next hop would not fit.
+   */
   readonly #buf: Float64Array;
-  readonly #windowed: Float64Array;
   readonly #spec: Float64Array;
+  #start = 0;
   #filled: number;
   #frame = 0;
   #inputTotal = 0;
@@ -66,8 +73,8 @@ export class StftAnalyzer {
     checkFraming(this.fftSize, this.hopSize);
     this.#plan = new FftPlan(this.fftSize);
     this.window = resolveWindow(options.window, this.fftSize);
-    this.#buf = new Float64Array(this.fftSize);
-    this.#windowed = new Float64Array(this.fftSize);
+    this.#window = this.window.slice();
+    this.#buf = new Float64Array(bufferLength(this.fftSize, this.hopSize));
     this.#spec = this.#plan.createHalfSpectrum();
     // The leading fftSize − hopSize zeros are already in the buffer.
     this.#filled = this.fftSize - this.hopSize;
@@ -79,11 +86,13 @@ export class StftAnalyzer {
   }
 
   push(samples: Float64Array): void {
-    const n = this.fftSize;
+    const n = this.fftSize, b = this.#buf;
+    const len = samples.length;
     let i = 0;
-    while (i < samples.length) {
-      const take = Math.min(n - this.#filled, samples.length - i);
-      this.#buf.set(samples.subarray(i, i + take), this.#filled);
+    while (i < len) {
+      if (this.#start + n > b.length) this.#compact();
+      const take = Math.min(n - this.#filled, len - i);
+      b.set(take === len ? samples : samples.subarray(i, i + take), this.#start + this.#filled);
       this.#filled += take;
       this.#inputTotal += take;
       i += take;
@@ -101,20 +110,33 @@ export class StftAnalyzer {
     const lastPadded = this.#inputTotal - 1 + this.fftSize - this.hopSize;
     const framesNeeded = Math.floor(lastPadded / this.hopSize) + 1;
     while (this.#frame < framesNeeded) {
-      this.#buf.fill(0, this.#filled);
+      if (this.#start + this.fftSize > this.#buf.length) this.#compact();
+      this.#buf.fill(0, this.#start + this.#filled, this.#start + this.fftSize);
       this.#filled = this.fftSize;
       this.#emit();
     }
   }
 
-  #emit(): void {
-    const n = this.fftSize, h = this.hopSize, w = this.window, b = this.#buf, x = this.#windowed;
-    for (let i = 0; i < n; i++) x[i] = b[i]! * w[i]!;
-    this.#plan.realForward(x, this.#spec);
-    this.onFrame(this.#spec, this.#frame++);
-    b.copyWithin(0, h);
-    this.#filled = n - h;
+  #compact(): void {
+    this.#buf.copyWithin(0, this.#start, this.#start + this.#filled);
+    this.#start = 0;
   }
+
+  #emit(): void {
+    const n = this.fftSize, s = this.#start;
+    this.#plan.realForwardWindowed(this.#buf, s, this.#window, this.#spec);
+    this.onFrame(this.#spec, this.#frame++);
+    this.#start = s + this.hopSize;
+    this.#filled = n - this.hopSize;
+  }
+}
+
+/**
+ * Length of a history buffer that slides by hopSize without copying: room for the frame plus
+ * several hops, so the tail is moved back only every few frames.
+ */
+function bufferLength(fftSize: number, hopSize: number): number {
+  return fftSize + Math.max(fftSize, 4 * hopSize);
 }
 
 /** The periodic WOLA normaliser D[r] = Σ_m w_a(r + mH)·w_s(r + mH), r = 0…H−1. */
@@ -139,9 +161,14 @@ export class OverlapAdder {
   readonly #plan: FftPlan;
   readonly #synthesis: Float64Array;
   readonly #norm: Float64Array;
+  /**
+   * Overlap-add accumulator: the pending sum starts at #acc[#start]; it slides forward by hopSize
+   * per frame, and the fftSize − hopSize pending samples move back to the front (with the rest
+   * zeroed) only when the next frame would not fit.
+   */
   readonly #acc: Float64Array;
-  readonly #time: Float64Array;
   readonly #out: Float64Array;
+  #start = 0;
 
   constructor(options: StftOptions) {
     this.fftSize = options.fftSize;
@@ -149,21 +176,25 @@ export class OverlapAdder {
     checkFraming(this.fftSize, this.hopSize);
     this.#plan = new FftPlan(this.fftSize);
     const analysis = resolveWindow(options.window, this.fftSize);
-    this.#synthesis = options.synthesisWindow ? resolveWindow(options.synthesisWindow, this.fftSize) : analysis;
+    // Copies: the plan may keep its own copy of the window, so ours must not change.
+    this.#synthesis = (options.synthesisWindow ? resolveWindow(options.synthesisWindow, this.fftSize) : analysis).slice();
     this.#norm = wolaNormalizer(analysis, this.#synthesis, this.hopSize);
-    this.#acc = new Float64Array(this.fftSize);
-    this.#time = new Float64Array(this.fftSize);
+    this.#acc = new Float64Array(bufferLength(this.fftSize, this.hopSize));
     this.#out = new Float64Array(this.hopSize);
   }
 
   addFrame(spectrum: Float64Array): Float64Array {
-    const n = this.fftSize, h = this.hopSize, t = this.#time, a = this.#acc, w = this.#synthesis;
-    this.#plan.realInverse(spectrum, t);
-    for (let i = 0; i < n; i++) a[i]! += t[i]! * w[i]!;
+    const n = this.fftSize, h = this.hopSize, a = this.#acc, w = this.#synthesis;
+    let s = this.#start;
+    if (s + n > a.length) {
+      a.copyWithin(0, s, s + n - h);
+      a.fill(0, n - h);
+      s = 0;
+    }
+    this.#plan.realInverseAdd(spectrum, w, a, s);
     const out = this.#out, d = this.#norm;
-    for (let i = 0; i < h; i++) out[i] = a[i]! / d[i]!;
-    a.copyWithin(0, h);
-    a.fill(0, n - h);
+    for (let i = 0; i < h; i++) out[i] = a[s + i]! / d[i]!;
+    this.#start = s + h;
     return out;
   }
 }
@@ -180,12 +211,15 @@ export class StftProcessor {
   #skip: number;
   #inputCount = 0;
   #outputCount = 0;
-  #chunks: Float64Array[] = [];
+  /** Synthesised samples not yet returned: #pending[0 … #pendingLength). */
+  #pending: Float64Array;
+  #pendingLength = 0;
 
   constructor(options: StftOptions, modify: (spectrum: Float64Array, frameIndex: number) => void) {
     this.#adder = new OverlapAdder(options);
     this.#latency = options.fftSize - options.hopSize;
     this.#skip = this.#latency;
+    this.#pending = new Float64Array(Math.max(options.fftSize, 4 * options.hopSize));
     this.#analyzer = new StftAnalyzer(options, (spec, k) => {
       modify(spec, k);
       this.#take(this.#adder.addFrame(spec));
@@ -214,27 +248,25 @@ export class StftProcessor {
       from = Math.min(this.#skip, hopOut.length);
       this.#skip -= from;
     }
-    if (from < hopOut.length) this.#chunks.push(hopOut.slice(from));
+    const count = hopOut.length - from;
+    if (count <= 0) return;
+    let p = this.#pending;
+    const at = this.#pendingLength;
+    if (at + count > p.length) {
+      const grown = new Float64Array(Math.max(2 * p.length, at + count));
+      grown.set(p.subarray(0, at));
+      this.#pending = p = grown;
+    }
+    p.set(from === 0 ? hopOut : hopOut.subarray(from), at);
+    this.#pendingLength = at + count;
   }
 
   #drain(limit: number): Float64Array {
-    let total = 0;
-    for (const c of this.#chunks) total += c.length;
+    const total = this.#pendingLength;
     const n = Math.min(total, limit - this.#outputCount);
-    const out = new Float64Array(n);
-    let at = 0;
-    const rest: Float64Array[] = [];
-    for (const c of this.#chunks) {
-      if (at >= n) {
-        rest.push(c);
-        continue;
-      }
-      const take = Math.min(c.length, n - at);
-      out.set(c.subarray(0, take), at);
-      at += take;
-      if (take < c.length) rest.push(c.subarray(take));
-    }
-    this.#chunks = rest;
+    const out = this.#pending.slice(0, n);
+    if (n < total) this.#pending.copyWithin(0, n, total);
+    this.#pendingLength = total - n;
     this.#outputCount += n;
     return out;
   }

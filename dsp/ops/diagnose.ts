@@ -7,11 +7,17 @@ import type { AudioSource } from '../source.ts';
 import { NotFoundError, ParameterError } from '../errors.ts';
 import { analyses } from './registry.ts';
 import { validateParams } from './params.ts';
+import { SharedPass } from '../shared-pass.ts';
 import type { AnalysisOp, Finding, OpContext, ParamValues, SourceFacts } from './types.ts';
 
 export interface DiagnoseOptions {
   /** Only these analysis verbs (default: all with inDiagnose !== false). */
   only?: readonly string[];
+  /**
+   * Run the analyses one after another instead of all together over one shared decoding pass
+   * (the default: every full forward pass that starts together shares one read of the file).
+   */
+  sequential?: boolean;
   /** Parameters per verb (validated against each op's specs). */
   params?: Readonly<Record<string, ParamValues>>;
 }
@@ -40,31 +46,45 @@ export async function diagnose(source: AudioSource, ctx: OpContext, options: Dia
   const ops = analyses().filter((op) =>
     options.only ? options.only.includes(op.name) : op.inDiagnose !== false,
   );
-  const out: DiagnoseResult = { sections: {}, findings: [], notes: [] };
-  for (let i = 0; i < ops.length; i++) {
-    const op = ops[i]!;
+  const fractions = new Float64Array(ops.length);
+  const report = (i: number, f: number) => {
+    fractions[i] = Math.min(1, Math.max(0, f));
+    ctx.progress(fractions.reduce((a, b) => a + b, 0) / Math.max(1, ops.length));
+  };
+  const runOne = async (op: AnalysisOp, i: number, input: AudioSource): Promise<DiagnoseResult> => {
+    const part: DiagnoseResult = { sections: {}, findings: [], notes: [] };
     if (op.applies && !op.applies(facts)) {
-      out.notes.push({ op: op.name, reason: 'does not apply to this file' });
-      continue;
+      part.notes.push({ op: op.name, reason: 'does not apply to this file' });
+      report(i, 1);
+      return part;
     }
-    const sub: OpContext = {
-      progress: (f) => ctx.progress((i + Math.min(1, Math.max(0, f))) / ops.length),
-      warn: (m) => ctx.warn(`${op.name}: ${m}`),
-      signal: ctx.signal,
-    };
+    const sub: OpContext = { progress: (f) => report(i, f), warn: (m) => ctx.warn(`${op.name}: ${m}`), signal: ctx.signal };
     try {
       const params = validateParams(op.params, options.params?.[op.name] ?? {});
-      const result = await op.run(source, params, sub);
-      Object.assign(out.sections, analysisJson(op, result));
-      out.findings.push(...(op.findings?.(result, facts) ?? []));
+      const result = await op.run(input, params, sub);
+      Object.assign(part.sections, analysisJson(op, result));
+      part.findings.push(...(op.findings?.(result, facts) ?? []));
     } catch (e) {
-      if (e instanceof NotFoundError || e instanceof ParameterError) {
-        out.notes.push({ op: op.name, reason: e.message });
-      } else {
-        throw e;
-      }
+      if (e instanceof NotFoundError || e instanceof ParameterError) part.notes.push({ op: op.name, reason: e.message });
+      else throw e;
     }
-    ctx.progress((i + 1) / ops.length);
+    report(i, 1);
+    return part;
+  };
+  let parts: DiagnoseResult[];
+  if (options.sequential) {
+    parts = [];
+    for (let i = 0; i < ops.length; i++) parts.push(await runOne(ops[i]!, i, source));
+  } else {
+    const shared = new SharedPass(source).source<AudioSource>();
+    parts = await Promise.all(ops.map((op, i) => runOne(op, i, shared)));
+  }
+  // Merged in registry order, whatever order the analyses finished in.
+  const out: DiagnoseResult = { sections: {}, findings: [], notes: [] };
+  for (const p of parts) {
+    Object.assign(out.sections, p.sections);
+    out.findings.push(...p.findings);
+    out.notes.push(...p.notes);
   }
   return out;
 }

@@ -6,9 +6,15 @@ import type { AnalysisOp, CorrectionOp, Operation } from './types.ts';
 import { info } from './info.ts';
 import { spectrum } from './spectrum.ts';
 import { levels } from './levels.ts';
+import { speed } from './speed.ts';
 import { flutter } from './flutter.ts';
 import { azimuth } from './azimuth.ts';
+import { varispeed } from './varispeed.ts';
 import { align } from './align.ts';
+import { stretch } from './stretch.ts';
+import { transpose } from './transpose.ts';
+import { reverse } from './reverse.ts';
+import { reversed } from './reversed.ts';
 import { echo } from './echo.ts';
 import { unecho } from './unecho.ts';
 
@@ -16,10 +22,16 @@ export const operations: readonly Operation[] = [
   info,
   spectrum,
   levels,
+  speed,
   echo,
   flutter,
   azimuth,
+  varispeed,
   align,
+  stretch,
+  transpose,
+  reverse,
+  reversed,
   unecho,
 ];
 

@@ -4,9 +4,7 @@
  * thread (worker.ts) or in-process. Failures to open or read become an entry with `error`, never
  * an exception, so a batch goes on past a bad file.
  */
-import { diagnose, type DiagnoseResult } from '../../dsp/ops/diagnose.ts';
-import { analyses } from '../../dsp/ops/registry.ts';
-import { SharedPass } from './shared-pass.ts';
+import { diagnose } from '../../dsp/ops/diagnose.ts';
 import type { Finding, ParamValues } from '../../dsp/ops/types.ts';
 import { CancelledError, InputError } from '../../dsp/errors.ts';
 import type { FileInfo, OpenedAudio } from '../io/types.ts';
@@ -56,7 +54,11 @@ export async function checkFile(job: CheckJob, open: Opener, onProgress: (fracti
     info.audioMd5 = await file.audioMd5((f) => onProgress(MD5_SHARE * f));
     if (job.previousMd5 !== undefined && job.previousMd5 === info.audioMd5) return { kind: 'unchanged', file: info };
     const warnings: string[] = [];
-    const result = await diagnoseTogether(file, job.params, (f) => onProgress(MD5_SHARE + (1 - MD5_SHARE) * f), (m) => warnings.push(m), signal);
+    const result = await diagnose(
+      file,
+      { progress: (f) => onProgress(MD5_SHARE + (1 - MD5_SHARE) * f), warn: (m) => warnings.push(m), signal },
+      { params: job.params },
+    );
     info = { ...info, ...file.info, audioMd5: info.audioMd5 };
     // Float files may hold NaN/Inf samples; the reader counts them (they are read as 0).
     const nonFinite = file.nonFiniteSamples ?? 0;
@@ -77,47 +79,6 @@ export async function checkFile(job: CheckJob, open: Opener, onProgress: (fracti
   } finally {
     await file.close().catch(() => {});
   }
-}
-
-/**
- * Every analysis of diagnose() (each one a diagnose call of its own), all started together over a
- * SharedPass so their full passes share one decoding of the file. Sections, findings and notes are
- * merged in registry order, as diagnose() itself would give them.
- */
-export async function diagnoseTogether(
-  file: OpenedAudio,
-  params: Record<string, ParamValues>,
-  onProgress: (fraction: number) => void,
-  warn: (message: string) => void,
-  signal?: { aborted: boolean },
-): Promise<DiagnoseResult> {
-  const shared = new SharedPass(file);
-  const source = shared.source<OpenedAudio>();
-  const ops = analyses().filter((op) => op.inDiagnose !== false);
-  const fractions = new Float64Array(ops.length);
-  const parts = await Promise.all(
-    ops.map((op, i) =>
-      diagnose(
-        source,
-        {
-          progress: (f) => {
-            fractions[i] = f;
-            onProgress(fractions.reduce((a, b) => a + b, 0) / ops.length);
-          },
-          warn,
-          signal,
-        },
-        { only: [op.name], params },
-      ),
-    ),
-  );
-  const out: DiagnoseResult = { sections: {}, findings: [], notes: [] };
-  for (const p of parts) {
-    Object.assign(out.sections, p.sections);
-    out.findings.push(...p.findings);
-    out.notes.push(...p.notes);
-  }
-  return out;
 }
 
 /** One line saying what went wrong with a file. */

@@ -1,7 +1,7 @@
 /** SharedPass: concurrent full passes share one read of the source and see exactly its blocks. */
 import { describe, expect, it } from 'vitest';
 import { MemorySource, readAll, type AudioSource, type Block, type BlockOptions } from '../../dsp/source.ts';
-import { SharedPass } from '../../main/check/shared-pass.ts';
+import { SharedPass } from '../../dsp/shared-pass.ts';
 
 /** A MemorySource that counts full passes and can fail after some blocks. */
 class CountingSource extends MemorySource {

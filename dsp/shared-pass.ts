@@ -9,7 +9,15 @@
  * At most MAX_AHEAD blocks wait in any consumer's queue: the pass pauses until the slowest
  * consumer catches up, so memory stays at a few blocks whatever the file's length.
  */
-import { DEFAULT_BLOCK_FRAMES, type AudioSource, type Block, type BlockOptions } from '../../dsp/source.ts';
+import { DEFAULT_BLOCK_FRAMES, type AudioSource, type Block, type BlockOptions } from './source.ts';
+
+/** The host's timer (Node, browsers and workers all have one; ES2022's lib does not declare it). */
+const nextTurn = (): Promise<void> =>
+  new Promise((resolve) => {
+    const timer = (globalThis as { setTimeout?: (f: () => void, ms: number) => unknown }).setTimeout;
+    if (timer) timer(resolve, 0);
+    else resolve();
+  });
 
 const MAX_AHEAD = 3;
 
@@ -114,7 +122,7 @@ export class SharedPass {
       try {
         if (!this.#startGate) {
           // Let the other analyses started together reach their first read and join.
-          this.#startGate = new Promise((r) => setTimeout(r, 0));
+          this.#startGate = nextTurn();
         }
         await this.#startGate;
         while ([...this.#consumers].some((c) => c.queue.length >= MAX_AHEAD)) {

@@ -1,0 +1,757 @@
+/**
+ * Varispeed and sample-rate conversion by band-limited interpolation.
+ *
+ * Method: each output sample is the value of the band-limited input at a fractional input
+ * position p, computed with a Kaiser-windowed sinc kernel (Smith & Gossett, "A flexible
+ * sampling-rate conversion method", ICASSP 1984; Kaiser, "Nonrecursive digital filter design
+ * using the I0-sinh window function", 1974). The kernel is designed at the LOWER of the two rates
+ * (input rate, or the output rate expressed in input time), so it both removes images when the
+ * signal is slowed down / upsampled and removes aliases when it is sped up / downsampled.
+ *
+ * Design (in cycles per sample of the lower rate):
+ *   passband edge 0.45, stopband edge 0.50 (no component anywhere above the lower Nyquist
+ *   survives: alias and image rejection hold across the whole band, not only in the passband);
+ *   cutoff fc = 0.475; Kaiser β and half-width from the attenuation A by Kaiser's formulas.
+ *   - 'archive': A = 147 dB design (measured ≥ 140 dB; passband ripple ≈ 1e-6 dB);
+ *   - 'draft':   A = 95 dB design (measured ≥ 90 dB), about 60 % of the taps.
+ *
+ * Evaluation: the kernel g(t) = s·h(s·t) (t in input samples, s = min(1, ratio)) is tabulated as
+ * cubic polynomials in the fractional position (a Farrow structure), L segments per input
+ * sample, each fitted exactly through four points of the analytic kernel. Per output sample the
+ * fractional position selects the segment and one Horner evaluation per tap gives the
+ * coefficients. For a constant ratio that is an exact fraction a/b with a small enough b, a bank of
+ * b exact phases is precomputed instead (plain polyphase FIR, no per-sample coefficient work).
+ * The inner loops run as WebAssembly SIMD kernels (./simd-kernels.ts) when the engine has them,
+ * else as plain loops; both give the same samples to rounding.
+ *
+ * Time-varying ratio (a speed curve): the position advances by 1/ratio(p) per output sample. A
+ * curve whose ratio stays within 5 % of its lowest value is rendered with one kernel designed for
+ * that lowest ratio (no aliasing at any point; the passband edge is 0.45 × the slowest point's
+ * rate, e.g. 0.4455 for a ±0.5 % drift); wider curves rescale the kernel at every output sample.
+ *
+ * Alignment (latency handling): output frame n is the band-limited input at input position
+ * p_n (p_0 = 0, p_{n+1} = p_n + 1/ratio(p_n)), so output frame 0 lines up with input frame 0 and
+ * there is no delay to remove. Input before frame 0 and after the last frame is taken as silence.
+ * `process()` holds back outputs whose kernel reaches past the input received so far (about
+ * `lookaheadFrames` input frames); `flush()` releases them. The run produces exactly the output
+ * frames with p_n < N (N = total input frames): ⌈N·ratio⌉ for a constant ratio.
+ *
+ * Ratio convention: ratio = output frames per input frame = (outRate / inRate) / factor, where
+ * factor is the varispeed factor (played speed ÷ recorded speed; 2 plays twice as fast).
+ */
+import { BugError, ParameterError } from '../errors.ts';
+import { createSimdKernels, type SimdKernels } from './simd-kernels.ts';
+import type { AudioSource, Block } from '../source.ts';
+import { besselI0, kaiserBeta } from './window.ts';
+
+export type ResampleQuality = 'archive' | 'draft';
+
+/** A ratio (output frames per input frame) that changes with the input position. */
+export interface TimeVaryingRatio {
+  /** Ratio at input position `inputFrame` (fractional frames from the start of the input). */
+  ratioAt(inputFrame: number): number;
+  /** Smallest ratio the function returns over the run (sizes the anti-alias kernel and history). */
+  readonly minRatio: number;
+  /** Largest ratio over the run (for output-length hints; optional). */
+  readonly maxRatio?: number;
+}
+
+export interface ResamplerOptions {
+  channelCount: number;
+  /** Output frames per input frame: a constant, or a smooth function of the input position. */
+  ratio: number | TimeVaryingRatio;
+  quality?: ResampleQuality;
+}
+
+/** Published design figures of one quality (cycles per sample of the lower rate). */
+export interface KernelDesign {
+  readonly quality: ResampleQuality;
+  readonly passbandEdge: number;
+  readonly stopbandEdge: number;
+  readonly cutoff: number;
+  /** Kaiser design attenuation A in dB. */
+  readonly designAttenuationDb: number;
+  readonly beta: number;
+  /** Kernel half-width in samples of the lower rate. */
+  readonly halfWidth: number;
+  /** Farrow segments per input sample. */
+  readonly segmentsPerSample: number;
+}
+
+/** Smallest and largest ratio accepted (factor 0.25–4 combined with rate changes up to 16:1). */
+export const MIN_RATIO = 1 / 64;
+export const MAX_RATIO = 64;
+
+const PASS = 0.45;
+const STOP = 0.5;
+
+export function kernelDesign(quality: ResampleQuality): KernelDesign {
+  if (quality !== 'archive' && quality !== 'draft') {
+    throw new ParameterError(`quality "${String(quality)}" must be archive or draft`);
+  }
+  const a = quality === 'archive' ? 147 : 95;
+  const dw = 2 * Math.PI * (STOP - PASS);
+  // Kaiser: length M + 1 with M = (A − 7.95)/(2.285·Δω); half-width M/2.
+  const halfWidth = (a - 7.95) / (2.285 * dw) / 2;
+  return {
+    quality,
+    passbandEdge: PASS,
+    stopbandEdge: STOP,
+    cutoff: (PASS + STOP) / 2,
+    designAttenuationDb: a,
+    beta: kaiserBeta(a),
+    halfWidth,
+    segmentsPerSample: quality === 'archive' ? 128 : 64,
+  };
+}
+
+/**
+ * The continuous kernel h(u) (u in samples of the lower rate): 2fc·sinc(2fc·u)·w(u), with a Kaiser
+ * window w of half-width W. ∫h du = 1 (unity gain in the passband).
+ */
+export function kernelValue(d: KernelDesign, u: number): number {
+  const au = Math.abs(u);
+  if (au > d.halfWidth) return 0;
+  const r = au / d.halfWidth;
+  const w = besselI0(d.beta * Math.sqrt(Math.max(0, 1 - r * r))) / besselI0(d.beta);
+  const x = 2 * d.cutoff * au;
+  const sinc = x < 1e-9 ? 1 : Math.sin(Math.PI * x) / (Math.PI * x);
+  return 2 * d.cutoff * sinc * w;
+}
+
+/** Monomial coefficients of the cubic through (0,y0), (1/3,y1), (2/3,y2), (1,y3). */
+function cubicThrough(y0: number, y1: number, y2: number, y3: number, out: Float64Array, at: number): void {
+  // Newton divided differences on nodes 0, 1/3, 2/3, 1 (spacing h = 1/3).
+  const d1 = (y1 - y0) * 3;
+  const d2 = (y2 - y1) * 3;
+  const d3 = (y3 - y2) * 3;
+  const e1 = ((d2 - d1) * 3) / 2;
+  const e2 = ((d3 - d2) * 3) / 2;
+  const f1 = e2 - e1; // third divided difference (÷ (1 − 0) = 1)
+  // P(μ) = y0 + d1·μ + e1·μ(μ − 1/3) + f1·μ(μ − 1/3)(μ − 2/3)
+  out[at] = y0;
+  out[at + 1] = d1 - e1 / 3 + (f1 * 2) / 9;
+  out[at + 2] = e1 - f1;
+  out[at + 3] = f1;
+}
+
+/** Best rational approximation a/b of x with b ≤ maxDen, by continued fractions; null if not exact. */
+export function exactFraction(x: number, maxDen: number): [number, number] | null {
+  let h0 = 0, h1 = 1, k0 = 1, k1 = 0;
+  let v = x;
+  for (let i = 0; i < 40; i++) {
+    const a = Math.floor(v);
+    const h2 = a * h1 + h0, k2 = a * k1 + k0;
+    if (k2 > maxDen) return null;
+    h0 = h1; h1 = h2; k0 = k1; k1 = k2;
+    if (Math.abs(h1 / k1 - x) <= 1e-13 * Math.abs(x)) return [h1, k1];
+    const f = v - a;
+    if (f < 1e-15) return null;
+    v = 1 / f;
+  }
+  return null;
+}
+
+/**
+ * Upper bound on the bank size (coefficients = phases × taps) for the exact-phase polyphase path; a
+ * constant ratio num/den uses the bank when den × taps fits, else the Farrow path (same result).
+ */
+export const MAX_BANK_COEFFICIENTS = 1 << 17;
+const MAX_BANK = MAX_BANK_COEFFICIENTS;
+/** Input frames handled per emission step (bounds the history buffer). */
+const CHUNK = 8192;
+
+export type ResampleEngine = 'auto' | 'simd' | 'js';
+
+/** Index of coefficient c (0…3) of tap k in the pair-interleaved Farrow layout of one segment. */
+const farrowIndex = (k: number, c: number) => 8 * (k >> 1) + 2 * c + (k & 1);
+
+export class Resampler {
+  readonly channelCount: number;
+  readonly quality: ResampleQuality;
+  readonly design: KernelDesign;
+  /** Input frames the kernel reaches past the current output position (held back until flush). */
+  readonly lookaheadFrames: number;
+  /** 'simd' when the WebAssembly SIMD kernels run the inner loops, else 'js'. */
+  readonly engine: 'simd' | 'js';
+
+  readonly #constant: number | null;
+  readonly #varying: TimeVaryingRatio | null;
+  /** Time-varying ratio rendered with one kernel (see the constructor). */
+  readonly #fixedKernel: boolean = false;
+  /** Half-length in input samples of the largest kernel used. */
+  readonly #kMax: number;
+  readonly #segments: number;
+  // Uniform Farrow table (constant kernel, or s = 1): [segment j][tap pair][c0 c0' c1 c1' c2 c2' c3 c3'].
+  readonly #uniK: number;
+  readonly #uniTaps: number;
+  readonly #uni: Float64Array;
+  readonly #uniAt: number; // byte offset in kernel memory (SIMD)
+  // Exact-phase bank (constant rational step num/den): [phase j][tap k].
+  readonly #bank: Float64Array | null;
+  readonly #bankAt: number;
+  readonly #bankNum: number;
+  readonly #bankDen: number;
+  // Symmetric table of h(u), u ≥ 0, for time-varying ratios below 1: [segment][4].
+  readonly #symTable: Float64Array | null;
+  readonly #symSegments: number;
+  readonly #coef: Float64Array;
+  readonly #coefAt: number;
+  readonly #outSlot: Float64Array;
+  readonly #outAt: number;
+  readonly #simd: SimdKernels | null;
+
+  // Input history: #hist[c][i] is input frame #origin + i; #filled frames are valid.
+  readonly #hist: Float64Array[];
+  readonly #histAt: number[];
+  #origin: number;
+  #filled = 0;
+  // Position of the next output: #base + #frac (or #base + #phase/#bankDen in bank mode).
+  #base = 0;
+  #frac = 0;
+  #phase = 0;
+  #inputFrames = 0;
+  #finished = false;
+  readonly #stepInt: number;
+  readonly #stepFrac: number;
+
+  constructor(options: ResamplerOptions & { engine?: ResampleEngine }) {
+    const { channelCount } = options;
+    if (!Number.isInteger(channelCount) || channelCount < 1) {
+      throw new ParameterError(`channelCount=${channelCount} must be a whole number ≥ 1`);
+    }
+    this.channelCount = channelCount;
+    this.quality = options.quality ?? 'archive';
+    this.design = kernelDesign(this.quality);
+    const d = this.design;
+    const checkRatio = (r: number, what: string) => {
+      if (!(Number.isFinite(r) && r >= MIN_RATIO && r <= MAX_RATIO)) {
+        throw new ParameterError(`${what}=${r} is outside ${MIN_RATIO.toFixed(6)} … ${MAX_RATIO}`);
+      }
+    };
+    let sConst: number;
+    if (typeof options.ratio === 'number') {
+      checkRatio(options.ratio, 'ratio');
+      this.#constant = options.ratio;
+      this.#varying = null;
+      sConst = Math.min(1, options.ratio);
+    } else {
+      checkRatio(options.ratio.minRatio, 'minRatio');
+      this.#constant = null;
+      this.#varying = options.ratio;
+      const { minRatio, maxRatio } = options.ratio;
+      // A curve that stays within 5 % (drift, slow wow) uses one kernel designed for its lowest
+      // ratio: no aliasing anywhere, passband edge at 0.45 × the slowest point's rate, and the fast
+      // fixed-kernel loops. Wider curves rescale the kernel at every output sample (exact, slower).
+      this.#fixedKernel = maxRatio !== undefined && maxRatio / minRatio <= 1.05;
+      sConst = this.#fixedKernel ? Math.min(1, minRatio) : 1;
+    }
+    const sMin = this.#varying ? Math.min(1, this.#varying.minRatio) : sConst;
+    this.#kMax = Math.ceil(d.halfWidth / sMin) + 1;
+    this.lookaheadFrames = this.#kMax;
+    // Segments per input sample: the kernel stretched by 1/s is smoother by s, so the same accuracy
+    // per lower-rate sample needs only s·L of them (keeps the table small at large ratios).
+    const L = Math.max(4, Math.ceil(d.segmentsPerSample * sConst));
+    this.#segments = L;
+    const K = Math.ceil(d.halfWidth / sConst);
+    const T = 2 * K;
+    this.#uniK = K;
+    this.#uniTaps = T;
+
+    // Exact-phase bank for constant rational steps (decided first: it sizes the memory).
+    let stepInt = 0, stepFrac = 0, num = 0, den = 0;
+    if (this.#constant !== null) {
+      const step = 1 / this.#constant;
+      stepInt = Math.floor(step);
+      stepFrac = step - stepInt;
+      const frac = exactFraction(step, Math.floor(MAX_BANK / T));
+      if (frac) [num, den] = frac;
+    }
+    this.#stepInt = stepInt;
+    this.#stepFrac = stepFrac;
+    this.#bankNum = num;
+    this.#bankDen = den;
+
+    // One memory for everything the inner loops touch (WebAssembly memory when SIMD is used).
+    const coefLen = 2 * this.#kMax + 2;
+    const histCap = CHUNK + 2 * this.#kMax + 8;
+    const sizes = [L * T * 4, den * T, coefLen, 2 * channelCount, ...Array.from({ length: channelCount }, () => histCap)];
+    const offsets: number[] = [];
+    let total = 0;
+    for (const n of sizes) {
+      offsets.push(total);
+      total += n + (n & 1); // keep every region 16-byte aligned
+    }
+    const engine = options.engine ?? 'auto';
+    this.#simd = engine === 'js' ? null : createSimdKernels(8 * total);
+    if (engine === 'simd' && !this.#simd) throw new ParameterError('WebAssembly SIMD is not available here');
+    this.engine = this.#simd ? 'simd' : 'js';
+    const memory = this.#simd ? this.#simd.f64 : new Float64Array(total);
+    const view = (i: number) => memory.subarray(offsets[i]!, offsets[i]! + sizes[i]!);
+    this.#uni = view(0);
+    this.#uniAt = 8 * offsets[0]!;
+    this.#coef = view(2);
+    this.#coefAt = 8 * offsets[2]!;
+    this.#outSlot = view(3);
+    this.#outAt = 8 * offsets[3]!;
+    this.#hist = Array.from({ length: channelCount }, (_, c) => view(4 + c));
+    this.#histAt = Array.from({ length: channelCount }, (_, c) => 8 * offsets[4 + c]!);
+
+    // Uniform table: taps k = 0…T−1 sit at t = (k − K + 1) − frac for frac ∈ [0, 1); each segment a
+    // cubic through four exact kernel values (shared with the neighbouring segments).
+    const g = (t: number) => sConst * kernelValue(d, sConst * t);
+    const col = new Float64Array(3 * L + 1);
+    const cubic = new Float64Array(4);
+    for (let k = 0; k < T; k++) {
+      const t0 = k - K + 1;
+      for (let q = 0; q <= 3 * L; q++) col[q] = g(t0 - q / (3 * L));
+      for (let j = 0; j < L; j++) {
+        const q = 3 * j;
+        cubicThrough(col[q]!, col[q + 1]!, col[q + 2]!, col[q + 3]!, cubic, 0);
+        for (let c = 0; c < 4; c++) this.#uni[j * T * 4 + farrowIndex(k, c)] = cubic[c]!;
+      }
+    }
+    if (den > 0) {
+      const bank = view(1);
+      for (let j = 0; j < den; j++) this.#uniformCoefficientsJs(j / den, bank, j * T);
+      this.#bank = bank;
+      this.#bankAt = 8 * offsets[1]!;
+    } else {
+      this.#bank = null;
+      this.#bankAt = 0;
+    }
+
+    // Symmetric table for time-varying ratios below 1.
+    if (this.#varying && !this.#fixedKernel && this.#varying.minRatio < 1) {
+      const segs = Math.ceil(d.halfWidth * L) + 1;
+      const t = new Float64Array(segs * 4 + 8);
+      const vals = new Float64Array(3 * segs + 1);
+      for (let q = 0; q <= 3 * segs; q++) vals[q] = kernelValue(d, q / (3 * L));
+      for (let j = 0; j < segs; j++) cubicThrough(vals[3 * j]!, vals[3 * j + 1]!, vals[3 * j + 2]!, vals[3 * j + 3]!, t, j * 4);
+      this.#symTable = t;
+      this.#symSegments = segs;
+    } else {
+      this.#symTable = null;
+      this.#symSegments = 0;
+    }
+
+    // History starts with kMax frames of silence before input frame 0.
+    this.#origin = -this.#kMax;
+    this.#filled = this.#kMax;
+  }
+
+  /** Output frames a constant-ratio run over `inputFrames` produces: ⌈N·ratio⌉ (p_n < N). */
+  outputFramesFor(inputFrames: number): number {
+    if (this.#constant === null) {
+      throw new ParameterError('outputFramesFor needs a constant ratio');
+    }
+    if (this.#bank) return Math.ceil((inputFrames * this.#bankDen) / this.#bankNum - 1e-9);
+    return Math.ceil(inputFrames * this.#constant - 1e-9);
+  }
+
+  /** Coefficients of the uniform kernel at fractional position `frac` into out[at…at+T) (plain loop). */
+  #uniformCoefficientsJs(frac: number, out: Float64Array, at: number): void {
+    const T = this.#uniTaps;
+    const x = frac * this.#segments;
+    let j = Math.floor(x);
+    if (j >= this.#segments) j = this.#segments - 1;
+    const mu = x - j;
+    const tab = this.#uni;
+    let o = j * T * 4;
+    for (let k = 0; k < T; k += 2, o += 8) {
+      out[at + k] = tab[o]! + mu * (tab[o + 2]! + mu * (tab[o + 4]! + mu * tab[o + 6]!));
+      out[at + k + 1] = tab[o + 1]! + mu * (tab[o + 3]! + mu * (tab[o + 5]! + mu * tab[o + 7]!));
+    }
+  }
+
+  /** Uniform-kernel coefficients at `frac` into the coefficient scratch. */
+  #uniformCoefficients(frac: number): void {
+    if (!this.#simd) {
+      this.#uniformCoefficientsJs(frac, this.#coef, 0);
+      return;
+    }
+    const x = frac * this.#segments;
+    let j = Math.floor(x);
+    if (j >= this.#segments) j = this.#segments - 1;
+    this.#simd.farrow(this.#uniAt + 32 * j * this.#uniTaps, x - j, this.#uniTaps, this.#coefAt);
+  }
+
+  /**
+   * One output frame at `count` from T coefficients (in `h` at element `hOff`, byte `hAt` for SIMD)
+   * applied to history index `start` of every channel.
+   */
+  #apply(h: Float64Array, hOff: number, hAt: number, T: number, start: number, out: Float64Array[], count: number): void {
+    const C = this.channelCount;
+    const k = this.#simd;
+    if (k) {
+      if (C === 2) {
+        k.dot2(hAt, this.#histAt[0]! + 8 * start, this.#histAt[1]! + 8 * start, T, this.#outAt);
+        out[0]![count] = this.#outSlot[0]!;
+        out[1]![count] = this.#outSlot[1]!;
+      } else {
+        for (let c = 0; c < C; c++) {
+          k.dot1(hAt, this.#histAt[c]! + 8 * start, T, this.#outAt);
+          out[c]![count] = this.#outSlot[0]!;
+        }
+      }
+      return;
+    }
+    if (C === 2) dot2(h, hOff, T, this.#hist[0]!, this.#hist[1]!, start, out[0]!, out[1]!, count);
+    else for (let c = 0; c < C; c++) out[c]![count] = dot1(h, hOff, T, this.#hist[c]!, start);
+  }
+
+  /** Feeds one planar block; returns the output frames that are complete so far. */
+  process(block: Block): Float64Array[] {
+    if (this.#finished) throw new ParameterError('Resampler.process after flush; call reset() first');
+    if (block.length !== this.channelCount) {
+      throw new ParameterError(`block has ${block.length} channels, the resampler ${this.channelCount}`);
+    }
+    const n = block[0]!.length;
+    for (const ch of block) {
+      if (ch.length !== n) throw new ParameterError('all channels of a block must have the same length');
+    }
+    const acc = new Collector(this.channelCount, this.#estimate(n));
+    for (let i = 0; i < n; i += CHUNK) {
+      const m = Math.min(CHUNK, n - i);
+      this.#append(block, i, m);
+      this.#inputFrames += m;
+      this.#emit(Infinity, acc);
+    }
+    return acc.result();
+  }
+
+  /** Ends the input: pads with silence and returns the remaining output frames. */
+  flush(): Float64Array[] {
+    if (this.#finished) return emptyBlock(this.channelCount, 0);
+    const acc = new Collector(this.channelCount, this.#estimate(this.#kMax + 2));
+    let pad = this.#kMax + 2;
+    const zeros = Array.from({ length: this.channelCount }, () => new Float64Array(Math.min(pad, CHUNK)));
+    while (pad > 0) {
+      const m = Math.min(pad, CHUNK);
+      this.#append(zeros, 0, m);
+      pad -= m;
+      this.#emit(this.#inputFrames, acc);
+    }
+    this.#finished = true;
+    return acc.result();
+  }
+
+  /** Starts a new run (same ratio and quality). */
+  reset(): void {
+    this.#origin = -this.#kMax;
+    this.#filled = this.#kMax;
+    for (const h of this.#hist) h.fill(0, 0, this.#kMax);
+    this.#base = 0;
+    this.#frac = 0;
+    this.#phase = 0;
+    this.#inputFrames = 0;
+    this.#finished = false;
+  }
+
+  #estimate(inputFrames: number): number {
+    const r = this.#constant ?? Math.max(this.#varying!.maxRatio ?? 1, 1);
+    return Math.min(1 << 24, Math.ceil((inputFrames + this.#kMax + 2) * r) + 16);
+  }
+
+  #append(block: Block, from: number, n: number): void {
+    const cap = this.#hist[0]!.length;
+    if (this.#filled + n > cap) {
+      // Drop history no future output can reach.
+      const keepFrom = Math.max(this.#origin, this.#base - this.#kMax - 1);
+      const drop = keepFrom - this.#origin;
+      const keep = this.#filled - drop;
+      if (keep + n > cap) throw new BugError('resampler history overflow');
+      for (const h of this.#hist) h.copyWithin(0, drop, drop + keep);
+      this.#origin = keepFrom;
+      this.#filled = keep;
+    }
+    for (let c = 0; c < this.channelCount; c++) this.#hist[c]!.set(block[c]!.subarray(from, from + n), this.#filled);
+    this.#filled += n;
+  }
+
+  /** Emits outputs whose kernel is covered by the history; with `limit`, only positions < limit. */
+  #emit(limit: number, acc: Collector): void {
+    const lastIndex = this.#origin + this.#filled - 1; // newest input frame held
+    const K = this.#kMax;
+    const origin = this.#origin;
+    if (this.#bank) {
+      const bank = this.#bank, bankAt = this.#bankAt;
+      const T = this.#uniTaps, Ku = this.#uniK;
+      const num = this.#bankNum, den = this.#bankDen;
+      const advInt = Math.floor(num / den), advRem = num - advInt * den;
+      let base = this.#base, phase = this.#phase;
+      while (base + K <= lastIndex && base + phase / den < limit) {
+        const out = acc.slot();
+        this.#apply(bank, phase * T, bankAt + 8 * phase * T, T, base - Ku + 1 - origin, out, acc.count++);
+        base += advInt;
+        phase += advRem;
+        if (phase >= den) {
+          phase -= den;
+          base++;
+        }
+      }
+      this.#base = base;
+      this.#phase = phase;
+    } else if (this.#constant !== null || this.#fixedKernel) {
+      const T = this.#uniTaps, Ku = this.#uniK;
+      let base = this.#base, frac = this.#frac;
+      const si = this.#stepInt, sf = this.#stepFrac;
+      const v = this.#varying;
+      const fused = this.#simd && this.channelCount === 2 ? this.#simd : null;
+      const L = this.#segments;
+      while (base + K <= lastIndex && base + frac < limit) {
+        const out = acc.slot();
+        const start = base - Ku + 1 - origin;
+        if (fused) {
+          // Coefficients and both channels' sums in one pass over the table.
+          const x = frac * L;
+          let j = Math.floor(x);
+          if (j >= L) j = L - 1;
+          fused.farrowDot2(this.#uniAt + 32 * j * T, x - j, this.#histAt[0]! + 8 * start, this.#histAt[1]! + 8 * start, T, this.#outAt);
+          out[0]![acc.count] = this.#outSlot[0]!;
+          out[1]![acc.count++] = this.#outSlot[1]!;
+        } else {
+          this.#uniformCoefficients(frac);
+          this.#apply(this.#coef, 0, this.#coefAt, T, start, out, acc.count++);
+        }
+        if (v) {
+          const r = v.ratioAt(base + frac);
+          if (!(r >= v.minRatio * (1 - 1e-9) && r <= (v.maxRatio ?? MAX_RATIO) * (1 + 1e-9))) {
+            throw new ParameterError(`ratio ${r} at input frame ${base + frac} is outside the declared range`);
+          }
+          frac += 1 / r;
+          const carry = Math.floor(frac);
+          frac -= carry;
+          base += carry;
+        } else {
+          frac += sf;
+          const carry = Math.floor(frac);
+          frac -= carry;
+          base += si + carry;
+        }
+      }
+      this.#base = base;
+      this.#frac = frac;
+    } else {
+      const v = this.#varying!;
+      const d = this.design;
+      let base = this.#base, frac = this.#frac;
+      while (base + K <= lastIndex && base + frac < limit) {
+        const r = v.ratioAt(base + frac);
+        if (!(r >= MIN_RATIO && r <= MAX_RATIO) || r < v.minRatio * (1 - 1e-9)) {
+          throw new ParameterError(`ratio ${r} at input frame ${base + frac} is outside the declared range`);
+        }
+        let T: number, Kc: number;
+        if (r >= 1) {
+          Kc = this.#uniK;
+          T = this.#uniTaps;
+          this.#uniformCoefficients(frac);
+        } else {
+          Kc = Math.ceil(d.halfWidth / r);
+          T = 2 * Kc;
+          this.#scaledCoefficients(r, frac, Kc, T, this.#coef);
+        }
+        const out = acc.slot();
+        this.#apply(this.#coef, 0, this.#coefAt, T, base - Kc + 1 - origin, out, acc.count++);
+        frac += 1 / r;
+        const carry = Math.floor(frac);
+        frac -= carry;
+        base += carry;
+      }
+      this.#base = base;
+      this.#frac = frac;
+    }
+  }
+
+  /** Coefficients s·h(s·t) for taps t = (k − K + 1) − frac, from the symmetric table. */
+  #scaledCoefficients(s: number, frac: number, K: number, T: number, out: Float64Array): void {
+    const tab = this.#symTable!;
+    const L = this.#segments;
+    const segs = this.#symSegments;
+    const scale = s * L;
+    for (let k = 0; k < T; k++) {
+      const t = k - K + 1 - frac;
+      const x = Math.abs(t) * scale;
+      const j = Math.floor(x);
+      if (j >= segs) {
+        out[k] = 0;
+        continue;
+      }
+      const mu = x - j;
+      const o = j * 4;
+      out[k] = s * (tab[o]! + mu * (tab[o + 1]! + mu * (tab[o + 2]! + mu * tab[o + 3]!)));
+    }
+  }
+}
+
+/** Growable planar output for one process()/flush() call. */
+class Collector {
+  count = 0;
+  #out: Float64Array[];
+  constructor(readonly channelCount: number, capacity: number) {
+    this.#out = emptyBlock(channelCount, Math.max(16, capacity));
+  }
+  /** The arrays to write frame `count` into (grown when full). */
+  slot(): Float64Array[] {
+    if (this.count === this.#out[0]!.length) {
+      const cap = 2 * this.count;
+      this.#out = this.#out.map((o) => {
+        const g = new Float64Array(cap);
+        g.set(o);
+        return g;
+      });
+    }
+    return this.#out;
+  }
+  result(): Float64Array[] {
+    return this.#out.map((o) => o.slice(0, this.count));
+  }
+}
+
+function emptyBlock(channelCount: number, frames: number): Float64Array[] {
+  return Array.from({ length: channelCount }, () => new Float64Array(frames));
+}
+
+/** Σ h[off+k]·x[start+k], two independent partial sums. */
+function dot1(h: Float64Array, off: number, T: number, x: Float64Array, start: number): number {
+  let a = 0, b = 0, k = 0;
+  const T2 = T & ~1;
+  for (; k < T2; k += 2) {
+    a += h[off + k]! * x[start + k]!;
+    b += h[off + k + 1]! * x[start + k + 1]!;
+  }
+  if (k < T) a += h[off + k]! * x[start + k]!;
+  return a + b;
+}
+
+/** Two channels sharing coefficient loads. */
+function dot2(
+  h: Float64Array, off: number, T: number,
+  x0: Float64Array, x1: Float64Array, start: number,
+  y0: Float64Array, y1: Float64Array, at: number,
+): void {
+  let a0 = 0, a1 = 0, b0 = 0, b1 = 0, k = 0;
+  const T2 = T & ~1;
+  for (; k < T2; k += 2) {
+    const h0 = h[off + k]!, h1 = h[off + k + 1]!;
+    const i = start + k;
+    a0 += h0 * x0[i]!;
+    a1 += h0 * x1[i]!;
+    b0 += h1 * x0[i + 1]!;
+    b1 += h1 * x1[i + 1]!;
+  }
+  if (k < T) {
+    const h0 = h[off + k]!;
+    a0 += h0 * x0[start + k]!;
+    a1 += h0 * x1[start + k]!;
+  }
+  y0[at] = a0 + b0;
+  y1[at] = a1 + b1;
+}
+
+/** Output frames per input frame for varispeed `factor` (played ÷ recorded speed) and a rate change. */
+export function ratioForFactor(factor: number, inputRateHz: number, outputRateHz = inputRateHz): number {
+  if (!(factor > 0) || !Number.isFinite(factor)) throw new ParameterError(`factor=${factor} must be a positive number`);
+  return outputRateHz / inputRateHz / factor;
+}
+
+/** A speed curve: factor (played ÷ recorded) at times in seconds of the input. */
+export interface SpeedCurve {
+  readonly timesSeconds: readonly number[];
+  readonly factors: readonly number[];
+}
+
+/**
+ * A smooth interpolant through (t, y) points: monotone piecewise cubic (Fritsch & Carlson, "Monotone
+ * piecewise cubic interpolation", SIAM J. Numer. Anal. 17(2), 1980), so no overshoot between points;
+ * held constant outside the first and last point.
+ */
+export function smoothCurve(times: readonly number[], values: readonly number[]): (t: number) => number {
+  const n = times.length;
+  if (n === 0 || values.length !== n) throw new ParameterError('a curve needs matching, non-empty time and value lists');
+  for (let i = 1; i < n; i++) {
+    if (!(times[i]! > times[i - 1]!)) throw new ParameterError('curve times must increase');
+  }
+  if (n === 1) return () => values[0]!;
+  const h = new Float64Array(n - 1), delta = new Float64Array(n - 1), m = new Float64Array(n);
+  for (let i = 0; i < n - 1; i++) {
+    h[i] = times[i + 1]! - times[i]!;
+    delta[i] = (values[i + 1]! - values[i]!) / h[i]!;
+  }
+  m[0] = delta[0]!;
+  m[n - 1] = delta[n - 2]!;
+  for (let i = 1; i < n - 1; i++) {
+    const d0 = delta[i - 1]!, d1 = delta[i]!;
+    if (d0 * d1 <= 0) m[i] = 0;
+    else {
+      const w1 = 2 * h[i]! + h[i - 1]!, w2 = h[i]! + 2 * h[i - 1]!;
+      m[i] = (w1 + w2) / (w1 / d0 + w2 / d1);
+    }
+  }
+  let last = 0;
+  return (t: number) => {
+    if (t <= times[0]!) return values[0]!;
+    if (t >= times[n - 1]!) return values[n - 1]!;
+    let i = last;
+    if (!(times[i]! <= t && t < times[i + 1]!)) {
+      let lo = 0, hi = n - 1;
+      while (hi - lo > 1) {
+        const mid = (lo + hi) >> 1;
+        if (times[mid]! <= t) lo = mid;
+        else hi = mid;
+      }
+      i = lo;
+      last = i;
+    }
+    const hh = h[i]!, u = (t - times[i]!) / hh;
+    const u2 = u * u, u3 = u2 * u;
+    return (
+      (2 * u3 - 3 * u2 + 1) * values[i]! +
+      (u3 - 2 * u2 + u) * hh * m[i]! +
+      (-2 * u3 + 3 * u2) * values[i + 1]! +
+      (u3 - u2) * hh * m[i + 1]!
+    );
+  };
+}
+
+/**
+ * The time-varying ratio that plays a recording along a speed curve.
+ * - mode 'undo': the curve is a measured speed factor S(t) of the input; the output plays the input
+ *   at 1/S(t), which brings every moment back to its recorded speed (ratio = rateRatio·S).
+ * - mode 'play': the curve is the factor to apply (ratio = rateRatio / F).
+ */
+export function ratioFromSpeedCurve(
+  curve: SpeedCurve,
+  opts: { inputRateHz: number; outputRateHz?: number; mode: 'undo' | 'play' },
+): TimeVaryingRatio {
+  const { inputRateHz } = opts;
+  const rate = (opts.outputRateHz ?? inputRateHz) / inputRateHz;
+  for (const f of curve.factors) {
+    if (!(f > 0) || !Number.isFinite(f)) throw new ParameterError(`speed curve factor ${f} must be positive`);
+  }
+  const f = smoothCurve(curve.timesSeconds, curve.factors);
+  const undo = opts.mode === 'undo';
+  const minF = Math.min(...curve.factors), maxF = Math.max(...curve.factors);
+  return {
+    ratioAt: (frame: number) => {
+      const v = f(frame / inputRateHz);
+      return undo ? rate * v : rate / v;
+    },
+    minRatio: undo ? rate * minF : rate / maxF,
+    maxRatio: undo ? rate * maxF : rate / minF,
+  };
+}
+
+/** Streams a source through a resampler: yields output blocks, then the flushed tail. */
+export async function* resampleSource(
+  source: AudioSource,
+  opts: Omit<ResamplerOptions, 'channelCount'> & { blockFrames?: number },
+): AsyncIterable<Float64Array[]> {
+  const r = new Resampler({ ...opts, channelCount: source.channelCount });
+  for await (const block of source.blocks({ blockFrames: opts.blockFrames })) {
+    const out = r.process(block);
+    if (out[0]!.length > 0) yield out;
+  }
+  const tail = r.flush();
+  if (tail[0]!.length > 0) yield tail;
+}

@@ -1,0 +1,44 @@
+/**
+ * `stretch IN OUT --ratio R`: change the duration by R (0.25–4) without changing the pitch —
+ * phase vocoder with identity phase locking, onsets kept sharp, channels locked together
+ * (dsp/stretch/phase-vocoder.ts).
+ */
+import { ParameterError } from '../errors.ts';
+import { MAX_RATIO, MIN_RATIO, defaultStretchFftSize } from '../stretch/phase-vocoder.ts';
+import { stretchSource } from '../stretch/render.ts';
+import { num } from './params.ts';
+import type { CorrectionOp } from './types.ts';
+
+export const stretch: CorrectionOp = {
+  kind: 'correction',
+  name: 'stretch',
+  title: 'Time-stretch',
+  summary: 'Make a recording longer or shorter (duration × ratio) without changing its pitch.',
+  params: [
+    {
+      name: 'ratio',
+      flag: 'ratio',
+      type: 'number',
+      label: 'Duration ratio',
+      help: 'New duration ÷ old duration, 0.25 to 4 (1.25: a quarter longer; 0.8: a fifth shorter). Pitch is kept.',
+      unit: '×',
+      min: MIN_RATIO,
+      max: MAX_RATIO,
+    },
+  ],
+  async prepare(source, params) {
+    const ratio = num(params, 'ratio');
+    if (ratio === undefined) throw new ParameterError('say how much: --ratio R (new duration ÷ old, 0.25 to 4)');
+    if (!(ratio >= MIN_RATIO && ratio <= MAX_RATIO)) throw new ParameterError(`--ratio ${ratio}: outside ${MIN_RATIO} … ${MAX_RATIO}`);
+    return {
+      sampleRateHz: source.sampleRateHz,
+      channelCount: source.channelCount,
+      framesHint: Math.round(ratio * source.frames),
+      blocks: stretchSource(source, { ratio }),
+      resolved: { ratio, fftSize: defaultStretchFftSize(source.sampleRateHz) },
+    };
+  },
+  history(r) {
+    return `reelwright stretch ratio=${Number(r.ratio).toPrecision(8)} phase vocoder, identity phase locking, fft=${String(r.fftSize)}`;
+  },
+};

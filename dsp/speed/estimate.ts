@@ -1,0 +1,359 @@
+/**
+ * Speed estimation: runs the hum, tone and tuning estimators over a source (two streaming passes
+ * plus a short ranged read for a tone) and combines their candidates into one answer.
+ *
+ * Contract (ARCHITECTURE.md): factor = played speed ÷ recorded speed; cents = 1200·log2(factor);
+ * method "hum" | "tone" | "tuning" | null; confidence 0–1; uncertaintyPercent (standard
+ * uncertainty of the factor, in percent); standardPair; candidates[{method, factor, confidence}];
+ * curve {timesSeconds[], factors[]} (the speed through the file, from hum or tone).
+ *
+ * Choice: the candidate with the highest confidence; when none reaches 0.5 the result says so
+ * (method null, factor 1, no pair) instead of guessing.
+ */
+import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
+import type { AudioSource } from '../source.ts';
+import type { OpContext } from '../ops/types.ts';
+import { HumSearch, HumTracker, humHypotheses, type HumMeasurement } from './hum.ts';
+import { ToneRefiner, ToneScanner, toneHypotheses, type ToneMeasurement } from './tone.ts';
+import { TuningScanner, type TuningMeasurement } from './tuning.ts';
+import { standardPairText } from './standard.ts';
+
+export type SpeedMethod = 'hum' | 'tone' | 'tuning';
+
+export interface SpeedCandidate {
+  method: SpeedMethod;
+  factor: number;
+  confidence: number;
+  /** Hum: the mains frequency assumed. */
+  mainsHz?: number;
+  /** Tone: the nominal tone frequency assumed and where it was heard. */
+  toneHz?: number;
+  observedHz?: number;
+  uncertaintyPercent?: number;
+}
+
+export interface SpeedResult {
+  factor: number;
+  cents: number;
+  method: SpeedMethod | null;
+  confidence: number;
+  uncertaintyPercent: number | null;
+  standardPair: string | null;
+  candidates: SpeedCandidate[];
+  curve: { timesSeconds: number[]; factors: number[] };
+  /** Mains frequency behind a hum answer. */
+  mainsHz: number | null;
+  /** Observed hum fundamental in the file (Hz), when hum was found. */
+  humHz: number | null;
+  /** Nominal reference tone and where it sits in the file. */
+  toneHz: number | null;
+  toneInFileHz: number | null;
+  /** Deviation of the music from A4 = 440 Hz equal temperament (cents), when measured. */
+  tuningCents: number | null;
+  /** Ambiguities and caveats in plain words. */
+  notes: string[];
+}
+
+export interface SpeedOptions {
+  mainsHz?: 50 | 60;
+  toneHz?: number;
+  /** Methods to run (default all). */
+  methods?: readonly SpeedMethod[];
+}
+
+const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
+
+/**
+ * Evidence (0–1) that a measured series is mains hum: it must stand clearly above noise (coherent
+ * harmonic-sum statistic: from 1 dB above what noise alone reaches in the search, to 6 dB above it)
+ * and be there all the time (steadiness: music partials come and go).
+ */
+function humEvidence(m: HumMeasurement): number {
+  const detection = clamp01((m.detectionDb - m.noiseDetectionDb - 1) / 5);
+  const steady = clamp01((m.steadiness - 0.6) / 0.3);
+  return detection * steady;
+}
+
+/** Share of a's harmonic power (linear SNR) that falls on harmonics of b (within 0.05 %). */
+function sharedShare(a: HumMeasurement, b: HumMeasurement): number {
+  let total = 0, shared = 0;
+  a.harmonicsUsed.forEach((h, j) => {
+    const snr = Math.pow(10, (a.harmonicSnrDb[j] ?? -99) / 10);
+    total += snr;
+    const f = h * a.meanFundamentalHz;
+    const k = Math.round(f / b.meanFundamentalHz);
+    if (k >= 1 && Math.abs(f - k * b.meanFundamentalHz) <= 5e-4 * f) shared += snr;
+  });
+  return total > 0 ? shared / total : 0;
+}
+const fmtHz = (v: number) => (v >= 100 ? v.toFixed(2) : v.toFixed(3));
+
+/** Mono mix of a planar block (mean of the channels). */
+function monoMix(block: Float64Array[], out: Float64Array): Float64Array {
+  const n = block[0]!.length;
+  const y = out.length >= n ? out.subarray(0, n) : new Float64Array(n);
+  const C = block.length;
+  if (C === 1) {
+    y.set(block[0]!);
+    return y;
+  }
+  y.fill(0);
+  for (const ch of block) for (let i = 0; i < n; i++) y[i]! += ch[i]!;
+  const g = 1 / C;
+  for (let i = 0; i < n; i++) y[i]! *= g;
+  return y;
+}
+
+export async function estimateSpeed(source: AudioSource, options: SpeedOptions, ctx: OpContext): Promise<SpeedResult> {
+  const fs = source.sampleRateHz;
+  const N = source.frames;
+  const methods = new Set(options.methods ?? ['hum', 'tone', 'tuning']);
+  if (options.toneHz !== undefined && !(options.toneHz > 0 && options.toneHz < fs / 2)) {
+    throw new ParameterError(`--tone ${options.toneHz}: must be between 0 and ${fs / 2} Hz (half the sample rate)`);
+  }
+  if (N < fs) throw new NotFoundError(`too short to measure speed (${(N / fs).toFixed(2)} s; at least 1 s is needed)`);
+  const notes: string[] = [];
+  const aborted = () => {
+    if (ctx.signal?.aborted) throw new CancelledError('speed analysis cancelled');
+  };
+
+  // Pass 1: hum search spectrum, tone frames at head/tail, tuning frames.
+  const hum = methods.has('hum') ? new HumSearch(fs, N) : null;
+  const toneSearch: [number, number] | undefined = options.toneHz ? [options.toneHz * 0.25, options.toneHz * 4] : undefined;
+  const tone = methods.has('tone') ? new ToneScanner(fs, N, toneSearch) : null;
+  const tuning = methods.has('tuning') ? new TuningScanner(fs, N) : null;
+  let mono = new Float64Array(65536);
+  let done = 0;
+  for await (const block of source.blocks()) {
+    aborted();
+    if (mono.length < block[0]!.length) mono = new Float64Array(block[0]!.length);
+    const m = monoMix(block, mono);
+    hum?.push(m);
+    tone?.push(m, done);
+    tuning?.push(m, done);
+    done += m.length;
+    ctx.progress(0.5 * (done / N));
+  }
+
+  const candidates: SpeedCandidate[] = [];
+  // Holders (objects, so TypeScript keeps their types through the loops below).
+  const found: { hum?: { m: HumMeasurement; cand: SpeedCandidate }; tone?: { m: ToneMeasurement; cand: SpeedCandidate } } = {};
+  let tuningM: TuningMeasurement | null = null;
+
+  // Pass 2: hum tracks for the best candidates.
+  if (hum) {
+    const { candidates: hc, floorAt } = hum.candidates(options.mainsHz);
+    if (hc.length > 0) {
+      const tracker = new HumTracker(fs, hc.map((candidate) => ({ candidate, floorAt })));
+      let d2 = 0;
+      for await (const block of source.blocks()) {
+        aborted();
+        if (mono.length < block[0]!.length) mono = new Float64Array(block[0]!.length);
+        tracker.push(monoMix(block, mono));
+        d2 += block[0]!.length;
+        ctx.progress(0.5 + 0.4 * (d2 / N));
+      }
+      const measured = tracker.measure(fs);
+      const usable = measured
+        .map((m, i) => ({ m, i }))
+        .filter((x): x is { m: HumMeasurement; i: number } => x.m !== null)
+        // Hum shows its fundamental: a series measured without it is a harmonic of something else.
+        .filter((x) => x.m.harmonicsUsed.includes(1))
+        .map((x) => ({ ...x, evidence: humEvidence(x.m), total: x.m.detectionDb + 10 * Math.log10(x.m.harmonicsUsed.length) }))
+        .sort((a, b) => b.total - a.total);
+      // A candidate whose strength comes mostly from harmonics of a stronger series (a sub-multiple
+      // such as 100/3 Hz, or 60 Hz beside 100 Hz buzz) is that series seen again: drop it.
+      const kept: typeof usable = [];
+      for (const c of usable) {
+        if (!kept.some((b) => sharedShare(c.m, b.m) >= 0.5)) kept.push(c);
+      }
+      // Several steady lines can each look like hum (a pure test tone, an electronic whine): rank
+      // them by evidence × the plausibility of the speed they imply, and let the winner keep only
+      // its share when another credible line implies a different speed.
+      const ranked = kept
+        .map((c) => {
+          const hyps = humHypotheses(c.m.meanFundamentalHz, options.mainsHz);
+          return { ...c, hyps, weight: c.evidence * (hyps[0]?.prior ?? 0) };
+        })
+        .filter((c) => c.hyps.length > 0)
+        .sort((a, b) => b.weight - a.weight || b.total - a.total);
+      const credible = ranked.filter((c) => c.evidence >= 0.5);
+      const weightSum = credible.reduce((s, c) => s + c.weight, 0);
+      for (const [rank, { m, evidence, hyps, weight }] of ranked.entries()) {
+        const lineShare = weightSum > 0 ? Math.min(1, 0.3 + weight / weightSum) : 1;
+        const priorSum = hyps.reduce((s, h) => s + h.prior, 0);
+        for (const h of hyps) {
+          const share = priorSum > 0 ? h.prior / priorSum : 0;
+          const cand: SpeedCandidate = {
+            method: 'hum',
+            factor: m.meanFundamentalHz / h.mainsHz,
+            // Unforced mains: both 50 and 60 Hz explain the line; the less plausible speed keeps less.
+            confidence: evidence * lineShare * (options.mainsHz ? 1 : Math.min(1, 0.3 + share)),
+            mainsHz: h.mainsHz,
+            observedHz: m.meanFundamentalHz,
+            uncertaintyPercent: (100 * m.uncertaintyHz) / m.meanFundamentalHz,
+          };
+          candidates.push(cand);
+          if (!found.hum && h === hyps[0]) found.hum = { m, cand };
+        }
+        if (rank === 0 && hyps.length > 1 && evidence >= 0.5) {
+          notes.push(
+            `hum at ${fmtHz(m.meanFundamentalHz)} Hz fits ${hyps
+              .map((h) => `${h.mainsHz} Hz mains at factor ${(m.meanFundamentalHz / h.mainsHz).toFixed(4)}`)
+              .join(' or ')}; ${hyps[0]!.mainsHz} Hz was preferred as the more plausible speed (give --mains to decide)`,
+          );
+        }
+        if (rank === 1 && evidence >= 0.5) {
+          notes.push(`another steady line at ${fmtHz(m.meanFundamentalHz)} Hz could also be hum (factor ${(m.meanFundamentalHz / hyps[0]!.mainsHz).toFixed(4)} with ${hyps[0]!.mainsHz} Hz mains)`);
+        }
+      }
+    } else if (options.mainsHz) {
+      notes.push(`no hum found at ${options.mainsHz} Hz × 0.25–4`);
+    }
+  }
+
+  // Tone: measure the best run with a ranged read.
+  if (tone) {
+    const runs = tone.runs();
+    const run = runs[0];
+    if (run) {
+      const refiner = new ToneRefiner(fs, run);
+      for await (const block of source.blocks({ startFrame: run.startFrame, endFrame: run.endFrame })) {
+        aborted();
+        if (mono.length < block[0]!.length) mono = new Float64Array(block[0]!.length);
+        refiner.push(monoMix(block, mono));
+      }
+      const m = refiner.measure();
+      if (m) {
+        const hyps = toneHypotheses(m.frequencyHz, options.toneHz);
+        const priorSum = hyps.reduce((s, h) => s + h.prior, 0);
+        const seconds = m.endSeconds - m.startSeconds;
+        const detection = clamp01((m.tonality - 0.4) / 0.4) * clamp01(seconds / 2);
+        hyps.forEach((h, j) => {
+          const share = priorSum > 0 ? h.prior / priorSum : 0;
+          const cand: SpeedCandidate = {
+            method: 'tone',
+            factor: m.frequencyHz / h.toneHz,
+            // Without --tone the nominal frequency is a guess: cap the confidence by its share.
+            confidence: detection * (options.toneHz ? 1 : Math.min(0.95, share)),
+            toneHz: h.toneHz,
+            observedHz: m.frequencyHz,
+            uncertaintyPercent: (100 * m.uncertaintyHz) / m.frequencyHz,
+          };
+          if (j < 3) candidates.push(cand);
+          if (j === 0) found.tone = { m, cand };
+        });
+        if (!options.toneHz && hyps.length > 1 && hyps[1]!.prior > 0.25 * hyps[0]!.prior) {
+          notes.push(
+            `tone at ${fmtHz(m.frequencyHz)} Hz read as a ${hyps[0]!.toneHz} Hz line-up tone; as ${hyps[1]!.toneHz} Hz it would mean factor ${(m.frequencyHz / hyps[1]!.toneHz).toFixed(4)} (give --tone to decide)`,
+          );
+        }
+      }
+    } else if (options.toneHz) {
+      notes.push(`no steady tone near ${options.toneHz} Hz × 0.25–4 in the first or last minute`);
+    }
+  }
+
+  if (tuning) {
+    tuningM = tuning.result();
+    if (tuningM) {
+      const c = tuningM.cents;
+      const sharp = clamp01((tuningM.concentration - 0.25) / 0.35);
+      const edge = 1 - 0.5 * clamp01((Math.abs(c) - 35) / 15);
+      candidates.push({
+        method: 'tuning',
+        factor: Math.pow(2, c / 1200),
+        // The tuning only knows the speed modulo a semitone and assumes A = 440 Hz: capped at 0.6.
+        confidence: 0.6 * sharp * edge,
+        uncertaintyPercent: 100 * (Math.pow(2, tuningM.uncertaintyCents / 1200) - 1),
+      });
+      if (sharp > 0.3) {
+        notes.push(
+          `music sits ${c >= 0 ? '+' : ''}${c.toFixed(1)} cents from A = 440 Hz equal temperament; the tuning cannot tell a whole semitone (factor ×${Math.pow(2, 1 / 12).toFixed(4)} or ÷) nor a different reference pitch`,
+        );
+      }
+    }
+  }
+  ctx.progress(1);
+
+  // The tuning knows the speed only modulo a semitone, but when a hum or tone answer sits on the
+  // same fraction of a semitone it corroborates it (independent evidence): combine as
+  // 1 − (1 − c)(1 − c_tuning/2) when they agree within 5 cents.
+  const tuningCand = candidates.find((c) => c.method === 'tuning');
+  if (tuningCand && tuningCand.confidence > 0) {
+    for (const c of candidates) {
+      if (c.method === 'tuning') continue;
+      let d = 1200 * Math.log2(c.factor) - 1200 * Math.log2(tuningCand.factor);
+      d -= 100 * Math.round(d / 100);
+      if (Math.abs(d) <= 5) c.confidence = 1 - (1 - c.confidence) * (1 - tuningCand.confidence / 2);
+    }
+  }
+
+  // Hum and tone are independent evidence: when a hum reading and a tone reading agree (within
+  // three combined standard uncertainties, or 0.02 %), each corroborates the other.
+  const before = candidates.map((c) => c.confidence);
+  candidates.forEach((c) => {
+    if (c.method === 'tuning') return;
+    for (const [j, o] of candidates.entries()) {
+      if (o.method === 'tuning' || o.method === c.method) continue;
+      const u = Math.hypot(c.uncertaintyPercent ?? 0, o.uncertaintyPercent ?? 0);
+      if (Math.abs(c.factor / o.factor - 1) * 100 <= Math.max(3 * u, 0.02)) {
+        c.confidence = 1 - (1 - c.confidence) * (1 - before[j]! / 2);
+      }
+    }
+  });
+
+  // Choose: the most confident candidate; a method forced by --mains / --tone wins when credible.
+  const ranked = [...candidates].sort(
+    (a, b) => b.confidence - a.confidence || (a.uncertaintyPercent ?? 1) - (b.uncertaintyPercent ?? 1),
+  );
+  let best = ranked[0];
+  if (options.mainsHz && found.hum && found.hum.cand.confidence >= 0.5) best = found.hum.cand;
+  else if (options.toneHz && found.tone && found.tone.cand.confidence >= 0.5) best = found.tone.cand;
+  const hb = found.hum ?? null;
+  const tb = found.tone ?? null;
+
+  const base: Omit<SpeedResult, 'factor' | 'cents' | 'method' | 'confidence' | 'uncertaintyPercent' | 'standardPair' | 'curve'> = {
+    candidates: candidates.map((c) => ({ ...c, confidence: round(c.confidence, 3) })),
+    mainsHz: null,
+    humHz: hb ? hb.m.meanFundamentalHz : null,
+    toneHz: null,
+    toneInFileHz: tb ? tb.m.frequencyHz : null,
+    tuningCents: tuningM ? (tuningM as TuningMeasurement).cents : null,
+    notes,
+  };
+  if (!best || best.confidence < 0.5) {
+    notes.push('no method found evidence it can stand behind; the speed is not reported');
+    return {
+      ...base,
+      factor: 1,
+      cents: 0,
+      method: null,
+      confidence: round(best?.confidence ?? 0, 3),
+      uncertaintyPercent: null,
+      standardPair: null,
+      curve: { timesSeconds: [], factors: [] },
+    };
+  }
+  let curve: { timesSeconds: number[]; factors: number[] } = { timesSeconds: [], factors: [] };
+  if (best.method === 'hum' && hb) {
+    const m = hb.m;
+    curve = { timesSeconds: m.timesSeconds, factors: m.fundamentalsHz.map((f) => f / best!.mainsHz!) };
+  } else if (best.method === 'tone' && tb) {
+    curve = { timesSeconds: tb.m.timesSeconds, factors: tb.m.frequenciesHz.map((f) => f / best!.toneHz!) };
+  }
+  return {
+    ...base,
+    factor: best.factor,
+    cents: 1200 * Math.log2(best.factor),
+    method: best.method,
+    confidence: round(best.confidence, 3),
+    uncertaintyPercent: best.uncertaintyPercent ?? null,
+    standardPair: standardPairText(best.factor),
+    curve,
+    mainsHz: best.method === 'hum' ? best.mainsHz ?? null : null,
+    toneHz: best.method === 'tone' ? best.toneHz ?? null : null,
+  };
+}
+
+const round = (v: number, digits: number) => Math.round(v * 10 ** digits) / 10 ** digits;

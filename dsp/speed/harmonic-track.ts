@@ -1,0 +1,444 @@
+/**
+ * Frequency of a harmonic series measured from narrowband complex tracks (one per harmonic, each
+ * heterodyned at h·f₀c, see ./decimate.ts), as a curve through the file and as one mean value.
+ *
+ * The model: track h holds a_h·e^{j2π·h·δ(t)·t} + noise, δ = f₀ − f₀c the common offset of the
+ * series. For one window the maximum-likelihood δ maximises the harmonic-sum periodogram
+ *   S(δ) = Σ_h w_h |Σ_k c_k z_h[k] e^{−j2π·h·δ·τ_k}|²,  w_h = 1/σ_h² (noise of track h), c_k a taper,
+ * (Rife & Boorstyn 1974 for one tone; the harmonic sum is the ML detector/estimator for a
+ * periodic signal in white noise, Quinn & Hannan 2001).
+ *  - Curve: 4-s Hann windows every second; S on a grid (zero-padded FFT per harmonic, read at
+ *    h·δ); a Viterbi path through the windows limits the change to 0.4 %/s so noise cannot make
+ *    the curve jump; each window refined by golden-section search on the exact S.
+ *  - Mean: when the curve shows no significant drift (line fit), one coherent S over the whole
+ *    track is maximised near the curve's mean — its precision improves as T^{-3/2}; with drift the
+ *    mean of the curve is used (the average speed). Uncertainty: standard error of the mean of the
+ *    coherent estimates on 3–8 equal segments (coherent case), or window scatter ÷ √(independent
+ *    windows) (drifting case).
+ *  - Detection: D = S(δ̂)/E[S | noise only]; E per harmonic is Σ_k Σ_l c_k c_l ρ(k − l), ρ the
+ *    tracks' noise correlation (known from their decimation filter), σ_h² from the windows'
+ *    residuals after removing the fitted tone.
+ */
+import { FftPlan, nextPowerOfTwo } from '../core/fft.ts';
+import { boxcarPowerKernel } from './decimate.ts';
+
+export type TrackArray = Float32Array | Float64Array;
+
+export interface TrackSet {
+  readonly fundamentalHz: number;
+  readonly harmonics: readonly number[];
+  /** Initial relative weights (1/noise floor) for the grid search. */
+  readonly weights: readonly number[];
+  readonly tracks: readonly { re: TrackArray; im: TrackArray; length: number }[];
+}
+
+export interface TrackLayout {
+  trackRateHz: number;
+  /** Time in seconds (input time) at which track sample m is centred. */
+  timeOf: (m: number) => number;
+  /** First track sample not affected by the filters' start-up. */
+  firstValid: number;
+  /** Noise correlation of adjacent track samples, ρ[0] = 1. */
+  correlation: Float64Array;
+}
+
+export interface SeriesMeasurement {
+  meanFundamentalHz: number;
+  uncertaintyHz: number;
+  windowScatterHz: number;
+  timesSeconds: number[];
+  fundamentalsHz: number[];
+  /** Coherent detection statistic ÷ its noise-only expectation, in dB (0 dB = noise). */
+  detectionDb: number;
+  /**
+   * What noise alone typically reaches for detectionDb after searching this many cells and keeping
+   * this many harmonics: 10·log10(1 + ln(cells)/H) (the largest of `cells` exponential variables is
+   * about ln(cells) above its mean, shared among H harmonics).
+   */
+  noiseDetectionDb: number;
+  /** Coherent SNR of each harmonic over the whole track (dB; ≈0 dB or below = noise only). */
+  harmonicSnrDb: number[];
+  /** Median ÷ mean of the windows' harmonic-sum statistic: ≈1 for a steady line, ≪1 for bursts. */
+  steadiness: number;
+  /** Harmonics kept for the final estimate. */
+  harmonicsUsed: number[];
+  drifting: boolean;
+}
+
+const WINDOW_SECONDS = 4;
+const HOP_SECONDS = 1;
+const MAX_DRIFT_PER_SECOND = 0.004;
+
+/** Noise correlation between track samples ℓ apart for a boxcar(D)^R decimator. */
+export function trackNoiseCorrelation(factor: number, order: number): Float64Array {
+  const g = boxcarPowerKernel(factor, order);
+  const out = new Float64Array(order + 1);
+  for (let l = 0; l <= order; l++) {
+    let s = 0;
+    for (let n = 0; n + l * factor < g.length; n++) s += g[n]! * g[n + l * factor]!;
+    out[l] = s;
+  }
+  const r0 = out[0]!;
+  for (let l = 0; l <= order; l++) out[l]! /= r0;
+  return out;
+}
+
+function hann(n: number): Float64Array {
+  const w = new Float64Array(n);
+  for (let k = 0; k < n; k++) w[k] = n === 1 ? 1 : 0.5 - 0.5 * Math.cos((2 * Math.PI * (k + 0.5)) / n);
+  return w;
+}
+
+/** Σ_k Σ_l c_k c_l ρ(|k − l|): noise power of a tapered sum of correlated unit-variance samples. */
+function taperNoise(c: Float64Array, rho: Float64Array): number {
+  let s = 0;
+  for (let k = 0; k < c.length; k++) {
+    s += c[k]! * c[k]!;
+    for (let l = 1; l < rho.length && k + l < c.length; l++) s += 2 * rho[l]! * c[k]! * c[k + l]!;
+  }
+  return s;
+}
+
+/** Tapered DFT of one track segment at harmonic offset h·δ (Hz), centred phase reference; (re, im) into out. */
+function segmentDft(
+  re: TrackArray, im: TrackArray, start: number, c: Float64Array, fb: number, hz: number, out: Float64Array,
+): Float64Array {
+  const K = c.length;
+  const centre = (K - 1) / 2;
+  // Rotation by recursion, re-anchored every 256 samples.
+  let ar = 0, ai = 0;
+  const dph = (-2 * Math.PI * hz) / fb;
+  const dc = Math.cos(dph), ds = Math.sin(dph);
+  let cr = 0, ci = 0;
+  for (let k = 0; k < K; k++) {
+    if ((k & 255) === 0) {
+      const ph = dph * (k - centre);
+      cr = Math.cos(ph);
+      ci = Math.sin(ph);
+    }
+    const zr = c[k]! * re[start + k]!, zi = c[k]! * im[start + k]!;
+    ar += zr * cr - zi * ci;
+    ai += zr * ci + zi * cr;
+    const t = cr * dc - ci * ds;
+    ci = cr * ds + ci * dc;
+    cr = t;
+  }
+  out[0] = ar;
+  out[1] = ai;
+  return out;
+}
+
+export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: number): SeriesMeasurement | null {
+  const fb = layout.trackRateHz;
+  const H = set.harmonics.length;
+  const n = set.tracks[0]!.length;
+  const first = layout.firstValid, last = n - 1;
+  const usable = last - first + 1;
+  if (usable < Math.round(0.8 * fb)) return null;
+  const f0c = set.fundamentalHz;
+  const hMax = Math.max(...set.harmonics);
+  const T = usable / fb;
+  const dft = new Float64Array(2);
+  let winLen = Math.round(WINDOW_SECONDS * fb);
+  let hop = Math.round(HOP_SECONDS * fb);
+  if (usable < winLen + 2 * hop) {
+    winLen = usable;
+    hop = usable;
+  }
+  const starts: number[] = [];
+  for (let s = first; s + winLen - 1 <= last; s += hop) starts.push(s);
+  const W = starts.length;
+  const taper = hann(winLen);
+  const sumTaper = taper.reduce((a, b) => a + b, 0);
+  const qWin = taperNoise(taper, layout.correlation);
+  const all = hann(usable);
+  const qAll = taperNoise(all, layout.correlation);
+
+  // Noise variance per track sample: median over the windows of the tapered mean power (an
+  // overestimate when the line itself is strong, which only makes the statistics conservative).
+  const sigma2 = new Float64Array(H);
+  for (let j = 0; j < H; j++) {
+    const t = set.tracks[j]!;
+    const pw: number[] = [];
+    for (const st of starts) {
+      let s = 0;
+      for (let k = 0; k < winLen; k++) s += taper[k]! * (t.re[st + k]! ** 2 + t.im[st + k]! ** 2);
+      pw.push(s / sumTaper);
+    }
+    pw.sort((a, b) => a - b);
+    sigma2[j] = Math.max(pw[pw.length >> 1]!, 1e-300);
+  }
+  const wML = Array.from(sigma2, (s) => 1 / s);
+  /** Harmonic-sum statistic with ML weights: Σ_h |Z_h|²/σ_h² (for refinement near a known peak). */
+  const S = (start: number, c: Float64Array, delta: number) => {
+    let v = 0;
+    for (let j = 0; j < H; j++) {
+      const t = set.tracks[j]!;
+      const [ar, ai] = segmentDft(t.re, t.im, start, c, fb, set.harmonics[j]! * delta, dft);
+      v += wML[j]! * (ar * ar + ai * ai);
+    }
+    return v;
+  };
+  // Offsets δ (Hz of f₀) searched: ±min(1.5 % of f₀, what the tracks pass at the top harmonic).
+  const span = Math.min(0.015 * f0c, (0.3 * fb) / hMax);
+  // Independent cells the search looked at (sets how high noise alone can reach), counted on the
+  // first call, before harmonics were dropped.
+  const cells = searchCells ?? Math.max(1, 2 * span * T * hMax * H);
+  /**
+   * Robust harmonic-sum rows on a grid: Σ_h log(1 + SNR_h(δ)) with SNR_h = |Z_h(h·δ)|²/(σ_h²·Q),
+   * |Z_h|² read from a zero-padded FFT. The log keeps one strong passing partial (music near a
+   * hum harmonic) from outweighing a steady line present on several harmonics.
+   */
+  const gridRows = (segStarts: number[], len: number, c: Float64Array, q: number, step: number, nGrid: number) => {
+    const nfft = Math.max(64, nextPowerOfTwo(4 * len));
+    const plan = new FftPlan(nfft);
+    const buf = new Float64Array(2 * nfft), spec = new Float64Array(2 * nfft), pow = new Float64Array(nfft);
+    const rows: Float64Array[] = [];
+    for (const start of segStarts) {
+      const row = new Float64Array(nGrid);
+      for (let j = 0; j < H; j++) {
+        const t = set.tracks[j]!, h = set.harmonics[j]!;
+        buf.fill(0);
+        for (let k = 0; k < len; k++) {
+          buf[2 * k] = c[k]! * t.re[start + k]!;
+          buf[2 * k + 1] = c[k]! * t.im[start + k]!;
+        }
+        plan.forward(buf, spec);
+        for (let i = 0; i < nfft; i++) pow[i] = spec[2 * i]! ** 2 + spec[2 * i + 1]! ** 2;
+        const norm = 1 / (sigma2[j]! * q);
+        for (let i = 0; i < nGrid; i++) {
+          let x = ((h * (-span + i * step)) / fb) * nfft;
+          x = ((x % nfft) + nfft) % nfft;
+          const b = Math.floor(x), f = x - b;
+          row[i]! += Math.log1p(norm * (pow[b]! * (1 - f) + pow[(b + 1) % nfft]! * f));
+        }
+      }
+      rows.push(row);
+    }
+    return rows;
+  };
+
+  // 1. Coherent search over the whole track (a steady line gains as T^{3/2} in precision).
+  const gHalf = Math.max(1, Math.ceil(span / (1 / (4 * T * hMax))));
+  const gStep = span / gHalf;
+  const gRow = gridRows([first], usable, all, qAll, gStep, 2 * gHalf + 1)[0]!;
+  let gAt = 0;
+  for (let i = 1; i < gRow.length; i++) if (gRow[i]! > gRow[gAt]!) gAt = i;
+  let dCoherent = goldenMax((d) => S(first, all, d), -span + (gAt - 1) * gStep, -span + (gAt + 1) * gStep, 30);
+
+  // 2. Windowed curve: grid rows per window, Viterbi path, golden refinement.
+  const seconds = winLen / fb;
+  const half = Math.max(1, Math.ceil(span / (1 / (8 * seconds * hMax))));
+  const nGrid = 2 * half + 1;
+  const step = span / half;
+  const rows = gridRows(starts, winLen, taper, qWin, step, nGrid);
+  const J = Math.max(2, Math.ceil((MAX_DRIFT_PER_SECOND * f0c * (hop / fb)) / step));
+  const score = Float64Array.from(rows[0]!);
+  const next = new Float64Array(nGrid);
+  const back: Int32Array[] = [];
+  for (let w = 1; w < W; w++) {
+    const bp = new Int32Array(nGrid);
+    for (let i = 0; i < nGrid; i++) {
+      let best = -Infinity, arg = i;
+      const lo = Math.max(0, i - J), hi = Math.min(nGrid - 1, i + J);
+      for (let q = lo; q <= hi; q++) {
+        const v = score[q]! - 1e-3 * (q - i) * (q - i);
+        if (v > best) {
+          best = v;
+          arg = q;
+        }
+      }
+      next[i] = best + rows[w]![i]!;
+      bp[i] = arg;
+    }
+    score.set(next);
+    back.push(bp);
+  }
+  let at = 0;
+  for (let i = 1; i < nGrid; i++) if (score[i]! > score[at]!) at = i;
+  const path = new Int32Array(W);
+  path[W - 1] = at;
+  for (let w = W - 1; w > 0; w--) path[w - 1] = back[w - 1]![path[w]!]!;
+  const deltas = new Float64Array(W);
+  const reliable: boolean[] = [];
+  const snrSums: number[] = [];
+  for (let w = 0; w < W; w++) {
+    const d0 = -span + path[w]! * step;
+    deltas[w] = goldenMax((d) => S(starts[w]!, taper, d), d0 - step, d0 + step, 14);
+    // Window evidence: z-score of Σ_h SNR_h against its noise-only mean H (sd √H).
+    const snrSum = S(starts[w]!, taper, deltas[w]!) / qWin;
+    snrSums.push(snrSum);
+    reliable.push((snrSum - H) / Math.sqrt(H) >= 4);
+  }
+  const times = starts.map((s) => layout.timeOf(s + (winLen - 1) / 2));
+  const f0s = Array.from(deltas, (d) => f0c + d);
+  const curveMean = f0s.reduce((a, b) => a + b, 0) / W;
+  let scatter: number;
+  if (W >= 3) {
+    const d = f0s.slice(1).map((v, i) => Math.abs(v - f0s[i]!)).sort((a, b) => a - b);
+    scatter = Math.max((1.4826 * d[d.length >> 1]!) / Math.SQRT2, 1e-9 * f0c);
+  } else {
+    scatter = step;
+  }
+  const independent = Math.max(1, (W * hop) / winLen);
+  const reliableShare = reliable.filter(Boolean).length / W;
+  // Steadiness: a line that is there all the time has a median window statistic close to its mean;
+  // a note that comes and goes has a median far below its mean.
+  const sortedSums = [...snrSums].sort((a, b) => a - b);
+  const steadiness = Math.min(1, sortedSums[sortedSums.length >> 1]! / (snrSums.reduce((a, b) => a + b, 0) / W));
+  const curveReliable = reliableShare >= 0.6;
+
+  // 3. Drift: a straight line through a reliable curve, significant against its scatter.
+  let drifting = false;
+  if (curveReliable && W >= 4) {
+    const tm = times.reduce((a, b) => a + b, 0) / W;
+    let sxy = 0, sxx = 0;
+    for (let w = 0; w < W; w++) {
+      sxy += (times[w]! - tm) * (f0s[w]! - curveMean);
+      sxx += (times[w]! - tm) ** 2;
+    }
+    const slope = sxy / sxx;
+    // Overlapping windows are correlated: inflate the slope's standard error by √(winLen/hop).
+    const se = (scatter / Math.sqrt(sxx)) * Math.sqrt(winLen / hop);
+    const dur = times[W - 1]! - times[0]!;
+    // Significant against the scatter, and large enough to matter: more than 0.02 % of f₀ over
+    // the file (smaller drifts change the mean by less than the coherent estimate's own error).
+    drifting = Math.abs(slope) > 4 * se && Math.abs(slope * dur) > Math.max(0.25 / (T * hMax), 2e-4 * f0c);
+  }
+  if (drifting) dCoherent = curveMean - f0c;
+  const coherentAt = drifting ? curveMean - f0c : dCoherent;
+
+  // Per-harmonic coherent SNR at the estimate, and the overall detection statistic.
+  const harmonicSnrDb = set.harmonics.map((h, j) => {
+    const t = set.tracks[j]!;
+    const [ar, ai] = segmentDft(t.re, t.im, first, all, fb, h * coherentAt, dft);
+    return 10 * Math.log10(Math.max((ar * ar + ai * ai) / (sigma2[j]! * qAll), 1e-12));
+  });
+  const detection = S(first, all, coherentAt) / (qAll * H);
+  const detectionDb = 10 * Math.log10(Math.max(detection, 1e-12));
+
+  let mean: number, uncertainty: number;
+  if (drifting) {
+    mean = curveMean;
+    uncertainty = scatter / Math.sqrt(independent);
+  } else {
+    mean = f0c + dCoherent;
+    const nseg = Math.max(3, Math.min(8, Math.floor(T / 2)));
+    const segLen = Math.floor(usable / nseg);
+    if (segLen >= Math.round(fb)) {
+      const c = hann(segLen);
+      const segLobe = 1 / ((segLen / fb) * hMax);
+      const est: number[] = [];
+      for (let s = 0; s < nseg; s++) {
+        const st = first + s * segLen;
+        est.push(goldenMax((d) => S(st, c, d), dCoherent - segLobe / 2, dCoherent + segLobe / 2, 30));
+      }
+      const m = est.reduce((a, b) => a + b, 0) / nseg;
+      const sd = Math.sqrt(est.reduce((a, b) => a + (b - m) ** 2, 0) / (nseg - 1));
+      // Standard error of the mean of the segment estimates: conservative (for a steady line in
+      // white noise the whole-file estimate does better, as n^{-3/2}), but honest when music
+      // partials sweeping through the hum perturb it segment by segment.
+      uncertainty = sd / Math.sqrt(nseg);
+    } else {
+      uncertainty = scatter / Math.sqrt(independent);
+    }
+  }
+  // Each harmonic on its own must tell the same story: the weighted spread of the per-harmonic
+  // estimates (weights h²·SNR) bounds the uncertainty from below when interference hits some
+  // harmonics and not others.
+  if (!drifting && H >= 2) {
+    const est: number[] = [], wts: number[] = [];
+    for (let j = 0; j < H; j++) {
+      const h = set.harmonics[j]!, t = set.tracks[j]!;
+      const lobeH = 1 / (T * h);
+      const one = (d: number) => {
+        const [ar, ai] = segmentDft(t.re, t.im, first, all, fb, h * d, dft);
+        return ar * ar + ai * ai;
+      };
+      est.push(goldenMax(one, dCoherent - lobeH / 2, dCoherent + lobeH / 2, 30));
+      wts.push(h * h * Math.pow(10, harmonicSnrDb[j]! / 10));
+    }
+    const wsum = wts.reduce((a, b) => a + b, 0);
+    const m = est.reduce((a, v, j) => a + wts[j]! * v, 0) / wsum;
+    const spread = Math.sqrt(est.reduce((a, v, j) => a + wts[j]! * (v - m) ** 2, 0) / wsum / (H - 1));
+    uncertainty = Math.max(uncertainty, spread);
+  }
+  // Floor: below 0.1 ppm the statistics only say "identical segments" (exactly periodic test data).
+  uncertainty = Math.max(uncertainty, 1e-7 * f0c);
+  // Keep only the harmonics that are clearly there (coherent SNR ≥ 6 dB) and measure again.
+  const keep = harmonicSnrDb.map((v, j) => (v >= 6 ? j : -1)).filter((j) => j >= 0);
+  if (keep.length > 0 && keep.length < H) {
+    const again = measureSeries(
+      {
+        fundamentalHz: set.fundamentalHz,
+        harmonics: keep.map((j) => set.harmonics[j]!),
+        weights: keep.map((j) => set.weights[j]!),
+        tracks: keep.map((j) => set.tracks[j]!),
+      },
+      layout,
+      cells,
+    );
+    if (again) return again;
+  }
+  return {
+    harmonicsUsed: [...set.harmonics],
+    meanFundamentalHz: mean,
+    uncertaintyHz: uncertainty,
+    windowScatterHz: scatter,
+    timesSeconds: curveReliable ? times : [],
+    fundamentalsHz: curveReliable ? smoothLinear(times, f0s, 2) : [],
+    detectionDb,
+    noiseDetectionDb: 10 * Math.log10(1 + Math.log(cells) / H),
+    harmonicSnrDb,
+    steadiness,
+    drifting,
+  };
+}
+
+/**
+ * Local straight-line fit through the points within ±half neighbours (fewer at the ends):
+ * removes window-to-window noise (÷√5 for half = 2) and leaves a linear drift untouched.
+ */
+export function smoothLinear(t: readonly number[], y: readonly number[], half: number): number[] {
+  const n = y.length;
+  const out: number[] = [];
+  for (let i = 0; i < n; i++) {
+    const lo = Math.max(0, i - half), hi = Math.min(n - 1, i + half);
+    let st = 0, sy = 0;
+    for (let j = lo; j <= hi; j++) {
+      st += t[j]!;
+      sy += y[j]!;
+    }
+    const m = hi - lo + 1, tm = st / m, ym = sy / m;
+    let sxy = 0, sxx = 0;
+    for (let j = lo; j <= hi; j++) {
+      sxy += (t[j]! - tm) * (y[j]! - ym);
+      sxx += (t[j]! - tm) ** 2;
+    }
+    out.push(sxx > 0 ? ym + (sxy / sxx) * (t[i]! - tm) : ym);
+  }
+  return out;
+}
+
+/** Golden-section search for the maximum of f on [lo, hi]. */
+export function goldenMax(f: (x: number) => number, lo: number, hi: number, iterations: number): number {
+  const g = (Math.sqrt(5) - 1) / 2;
+  let x1 = hi - g * (hi - lo), x2 = lo + g * (hi - lo);
+  let f1 = f(x1), f2 = f(x2);
+  for (let i = 0; i < iterations; i++) {
+    if (f1 > f2) {
+      hi = x2;
+      x2 = x1;
+      f2 = f1;
+      x1 = hi - g * (hi - lo);
+      f1 = f(x1);
+    } else {
+      lo = x1;
+      x1 = x2;
+      f1 = f2;
+      x2 = lo + g * (hi - lo);
+      f2 = f(x2);
+    }
+  }
+  return (lo + hi) / 2;
+}

@@ -1,0 +1,253 @@
+/**
+ * Speed from mains hum.
+ *
+ * A recording made near mains wiring carries hum at the mains frequency M (50 or 60 Hz) and its
+ * harmonics. Played at speed factor a, the hum sits at a·M, a·2M, … so a = f̂₀ / M.
+ *
+ * Method (two passes over a mono mix, both streaming):
+ *  1. Search. The mix is decimated to ≈2 kHz (boxcar-power FIR, ./decimate.ts) and a long-window
+ *     Welch spectrum (Hann, ≈0.03–0.06 Hz bins) is accumulated. Peaks ≥ 10 dB above a running-median
+ *     floor are candidate fundamentals; each is scored by a harmonic comb (sum of the clipped SNRs in
+ *     dB found at h·f₀, h = 1…12), and a fundamental must itself be a peak (so 100 Hz buzz is not
+ *     mistaken for the 2nd harmonic of a missing 50 Hz line).
+ *  2. Measure. For the best candidates, each usable harmonic is heterodyned to 0 Hz and decimated to
+ *     a ≈25 Hz complex track (a narrowband receiver). In 2-s windows (1-s hop) the harmonic-sum
+ *     periodogram S(δ) = Σ_h w_h |Σ_k taper_k z_h[k] e^{−j2π·h·δ·t_k}|² (w_h = 1/noise floor at h·f₀,
+ *     i.e. the maximum-likelihood combination of harmonics for a common relative frequency offset;
+ *     Quinn & Hannan, "The Estimation and Tracking of Frequency", 2001, ch. 5 harmonic models) is
+ *     evaluated on a grid; a Viterbi path through the windows keeps the track continuous, and a
+ *     parabola through log S refines each window's offset. The windows' f₀ give the speed curve; the
+ *     mean of the curve is the speed (the average phase rate, which is what the recording's average
+ *     speed is). Harmonics weigh by h² in the precision, so a buzz with harmonics is measured far
+ *     more precisely than its fundamental alone.
+ *  Uncertainty: the window-to-window scatter (median absolute first difference, robust to drift)
+ *  divided by √(number of independent windows).
+ *  Mains ambiguity: the same hum f₀ is 50·(f₀/50) or 60·(f₀/60); with --mains unset both are kept
+ *  and the one whose factor is more plausible (closer to 1, or a ratio of standard speeds) is
+ *  chosen, with the other reported.
+ */
+import { WelchAccumulator } from '../core/welch.ts';
+import { Decimator, HeterodyneTrack } from './decimate.ts';
+import { speedPrior } from './standard.ts';
+import { measureSeries, trackNoiseCorrelation, type SeriesMeasurement } from './harmonic-track.ts';
+
+interface TrackGroup {
+  candidate: HumCandidate;
+  harmonics: number[];
+  weights: number[];
+  tracks: HeterodyneTrack[];
+}
+
+export const HUM_MIN_FACTOR = 0.25;
+export const HUM_MAX_FACTOR = 4;
+const DECIM_TARGET_HZ = 2000;
+const DECIM_ORDER = 5;
+const TRACK_RATE_HZ = 25;
+const TRACK_ORDER = 4;
+const MAX_HARMONIC_HZ = 700;
+const MAX_HARMONICS = 10;
+
+export interface HumPeak {
+  frequencyHz: number;
+  snrDb: number;
+}
+
+export interface HumCandidate {
+  /** Observed hum fundamental in the file (coarse, from the long spectrum). */
+  fundamentalHz: number;
+  /** Comb score: Σ over harmonics of the clipped SNR in dB. */
+  score: number;
+  /** SNR (dB) of each harmonic h = 1…H at h·f₀ (0 when absent). */
+  harmonicSnrDb: number[];
+}
+
+export interface HumHypothesis {
+  mainsHz: 50 | 60;
+  factor: number;
+  /** Prior plausibility weight of this factor (see standard.ts speedPrior). */
+  prior: number;
+}
+
+export interface HumMeasurement extends SeriesMeasurement {
+  /** Coarse fundamental from the long spectrum. */
+  fundamentalHz: number;
+  /** Harmonics used in the measurement. */
+  harmonics: number[];
+  /** Comb score from the search. */
+  score: number;
+}
+
+export function humDecimation(sampleRateHz: number): number {
+  return Math.max(1, Math.floor(sampleRateHz / DECIM_TARGET_HZ));
+}
+
+/** Pass 1: decimate a mono stream and accumulate the long-window spectrum. */
+export class HumSearch {
+  readonly decimatedRateHz: number;
+  readonly #dec: Decimator;
+  readonly #welch: WelchAccumulator;
+
+  constructor(sampleRateHz: number, totalFrames: number) {
+    const D = humDecimation(sampleRateHz);
+    this.decimatedRateHz = sampleRateHz / D;
+    this.#dec = new Decimator(D, DECIM_ORDER);
+    const len = Math.floor(totalFrames / D);
+    let fft = 4096;
+    while (fft * 2 <= Math.max(len, 4096) && fft < 65536) fft *= 2;
+    this.#welch = new WelchAccumulator({ sampleRateHz: this.decimatedRateHz, channelCount: 1, fftSize: fft, window: 'hann' });
+  }
+
+  push(mono: Float64Array): void {
+    const y = this.#dec.process(mono);
+    if (y.length) this.#welch.push([y]);
+  }
+
+  /** Candidates, best first. `mainsHz` restricts the fundamental range. */
+  candidates(mainsHz?: 50 | 60, maxCount = 3): { candidates: HumCandidate[]; floorAt: (hz: number) => number } {
+    const w = this.#welch.result();
+    const p = w.meanPower[0]!;
+    const bw = w.binWidthHz;
+    const fsd = this.decimatedRateHz;
+    const kLo = Math.max(2, Math.floor(8 / bw));
+    const kHi = Math.min(p.length - 3, Math.floor(Math.min(0.4 * fsd, MAX_HARMONIC_HZ * 1.1) / bw));
+    // Running-median floor, computed every `stride` bins over ±(1.5 Hz, ≥ 12 bins), interpolated.
+    const half = Math.max(12, Math.round(1.5 / bw));
+    const stride = Math.max(1, Math.floor(half / 4));
+    const floorKnots: number[] = [];
+    const knotBins: number[] = [];
+    const tmp: number[] = [];
+    for (let k = kLo; k <= kHi + stride; k += stride) {
+      tmp.length = 0;
+      for (let j = Math.max(1, k - half); j <= Math.min(p.length - 1, k + half); j++) tmp.push(p[j]!);
+      tmp.sort((a, b) => a - b);
+      floorKnots.push(Math.max(tmp[tmp.length >> 1]!, 1e-300));
+      knotBins.push(k);
+    }
+    const floorBin = (k: number): number => {
+      const x = (k - kLo) / stride;
+      const i = Math.max(0, Math.min(floorKnots.length - 2, Math.floor(x)));
+      const t = Math.max(0, Math.min(1, x - i));
+      return floorKnots[i]! * (1 - t) + floorKnots[i + 1]! * t;
+    };
+    const snrDb = (k: number) => 10 * Math.log10(p[k]! / floorBin(k));
+    const interp = (k: number): number => {
+      const a = Math.log(p[k - 1]! + 1e-300), b = Math.log(p[k]! + 1e-300), c = Math.log(p[k + 1]! + 1e-300);
+      const den = a - 2 * b + c;
+      const d = den < 0 ? (0.5 * (a - c)) / den : 0;
+      return (k + Math.max(-0.5, Math.min(0.5, d))) * bw;
+    };
+    const fMin = (mainsHz ?? 50) * HUM_MIN_FACTOR * 0.995;
+    const fMax = (mainsHz ?? 60) * HUM_MAX_FACTOR * 1.005;
+    /** Power over floor at frequency f (largest of the two bins around it). */
+    const ratioAt = (f: number): number => {
+      const x = f / bw, k = Math.floor(x);
+      if (k < kLo || k + 1 > kHi) return 0;
+      return Math.max(p[k]! / floorBin(k), p[k + 1]! / floorBin(k + 1));
+    };
+    // Harmonic-sum statistic over the first H harmonics (H ∈ {3, 6, 12}): under noise alone each
+    // term p/median is exponential with mean 1/ln 2, so the sum of H terms has mean H/ln 2 and
+    // standard deviation √H/ln 2; candidates rank by the best z-score.
+    const mu = 1 / Math.LN2;
+    const found: HumCandidate[] = [];
+    for (let k = Math.max(kLo + 2, Math.floor(fMin / bw)); k <= Math.min(kHi - 2, Math.ceil(fMax / bw)); k++) {
+      if (!(p[k]! > p[k - 1]! && p[k]! >= p[k + 1]! && p[k]! > p[k - 2]! && p[k]! >= p[k + 2]!)) continue;
+      const s1 = snrDb(k);
+      if (s1 < 3) continue;
+      const f0 = interp(k);
+      if (f0 < fMin || f0 > fMax) continue;
+      const hMax = Math.min(MAX_HARMONICS, Math.floor(Math.min(MAX_HARMONIC_HZ, kHi * bw) / f0));
+      const harmonicSnrDb: number[] = [];
+      let sum = 0, score = -Infinity;
+      for (let h = 1; h <= hMax; h++) {
+        const r = h === 1 ? p[k]! / floorBin(k) : ratioAt(h * f0);
+        harmonicSnrDb.push(10 * Math.log10(Math.max(r, 1e-12)));
+        sum += Math.min(r, 1000);
+        if (h === 3 || h === 6 || h === 12 || h === hMax) score = Math.max(score, (sum - h * mu) / (Math.sqrt(h) * mu));
+      }
+      found.push({ fundamentalHz: f0, score, harmonicSnrDb });
+    }
+    found.sort((a, b) => b.score - a.score);
+    // Keep distinct fundamentals; drop exact multiples of a better candidate (same series).
+    const kept: HumCandidate[] = [];
+    for (const c of found) {
+      const dup = kept.some((k) => {
+        const r = c.fundamentalHz / k.fundamentalHz;
+        return Math.abs(r - Math.round(r)) < 0.003 * Math.round(r) && Math.round(r) >= 1;
+      });
+      if (!dup) kept.push(c);
+      if (kept.length >= maxCount) break;
+    }
+    const floorAt = (hz: number) => floorBin(Math.max(kLo, Math.min(kHi, Math.round(hz / bw))));
+    return { candidates: kept, floorAt };
+  }
+}
+
+/** The mains hypotheses that explain a hum fundamental, most plausible first. */
+export function humHypotheses(fundamentalHz: number, mainsHz?: 50 | 60): HumHypothesis[] {
+  const out: HumHypothesis[] = [];
+  for (const m of mainsHz ? [mainsHz] : ([50, 60] as const)) {
+    const factor = fundamentalHz / m;
+    if (factor >= HUM_MIN_FACTOR * 0.995 && factor <= HUM_MAX_FACTOR * 1.005) out.push({ mainsHz: m, factor, prior: speedPrior(factor) });
+  }
+  return out.sort((a, b) => b.prior - a.prior);
+}
+
+/** Pass 2: narrowband tracks around the harmonics of one or more candidate fundamentals. */
+export class HumTracker {
+  readonly decimatedRateHz: number;
+  readonly trackRateHz: number;
+  readonly #dec: Decimator;
+  readonly #groups: TrackGroup[] = [];
+  readonly #trackDecim: number;
+
+  constructor(sampleRateHz: number, candidates: { candidate: HumCandidate; floorAt: (hz: number) => number }[]) {
+    const D = humDecimation(sampleRateHz);
+    this.#dec = new Decimator(D, DECIM_ORDER);
+    this.decimatedRateHz = sampleRateHz / D;
+    this.#trackDecim = Math.max(1, Math.round(this.decimatedRateHz / TRACK_RATE_HZ));
+    this.trackRateHz = this.decimatedRateHz / this.#trackDecim;
+    for (const { candidate, floorAt } of candidates) {
+      const f0 = candidate.fundamentalHz;
+      const harmonics: number[] = [];
+      const weights: number[] = [];
+      candidate.harmonicSnrDb.forEach((s, i) => {
+        if (i === 0 || s >= 3) {
+          harmonics.push(i + 1);
+          weights.push(1 / floorAt((i + 1) * f0));
+        }
+      });
+      // Relative weights only matter; normalise to the largest.
+      const wMax = Math.max(...weights);
+      const tracks = harmonics.map((h) => new HeterodyneTrack((h * f0) / this.decimatedRateHz, this.#trackDecim, TRACK_ORDER));
+      this.#groups.push({ candidate, harmonics, weights: weights.map((w) => w / wMax), tracks });
+    }
+  }
+
+  push(mono: Float64Array): void {
+    const y = this.#dec.process(mono);
+    if (!y.length) return;
+    for (const g of this.#groups) for (const t of g.tracks) t.push(y);
+  }
+
+  /** Measurement per candidate (null when the tracks are too short to measure). */
+  measure(sampleRateHz: number): (HumMeasurement | null)[] {
+    return this.#groups.map((g) => this.#measureGroup(g, sampleRateHz));
+  }
+
+
+  #measureGroup(g: TrackGroup, sampleRateHz: number): HumMeasurement | null {
+    const D2 = this.#trackDecim;
+    const delay2 = g.tracks[0]!.delaySamples;
+    const D1 = sampleRateHz / this.decimatedRateHz;
+    const m = measureSeries(
+      { fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, weights: g.weights, tracks: g.tracks },
+      {
+        trackRateHz: this.trackRateHz,
+        timeOf: (k) => ((k * D2 - delay2) * D1 - this.#dec.delaySamples) / sampleRateHz,
+        firstValid: Math.ceil((2 * delay2) / D2) + 1,
+        correlation: trackNoiseCorrelation(D2, TRACK_ORDER),
+      },
+    );
+    return m ? { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score } : null;
+  }
+}

@@ -1,0 +1,194 @@
+/**
+ * Reverse (dsp/reverse/reverse.ts, dsp/ops/reverse.ts) and reversed-channel detection
+ * (dsp/reverse/detect.ts, dsp/ops/reversed.ts), in memory.
+ */
+import { describe, expect, it } from 'vitest';
+import { MemorySource, collectBlocks, type AudioSource, type Block, type BlockOptions } from '../../dsp/source.ts';
+import { reverseBlocks } from '../../dsp/reverse/reverse.ts';
+import { asymmetryScore, detectReversedChannels } from '../../dsp/reverse/detect.ts';
+import { reverse } from '../../dsp/ops/reverse.ts';
+import { reversed } from '../../dsp/ops/reversed.ts';
+import { validateParams } from '../../dsp/ops/params.ts';
+import { silentContext } from '../../dsp/ops/types.ts';
+import { ParameterError } from '../../dsp/errors.ts';
+import { FftPlan } from '../../dsp/core/fft.ts';
+import { clickTrain, pluckPhrase } from '../helpers/plucks.ts';
+import { voiceLike } from '../helpers/voice-like.ts';
+import { gaussian, seededRng } from '../helpers/rng.ts';
+
+const FS = 48000;
+const flip = (x: Float64Array) => x.slice().reverse();
+
+/** A source whose passes yield irregular block sizes (forward and reverse differ), to test re-cutting. */
+class RaggedSource implements AudioSource {
+  readonly channelCount: number;
+  readonly frames: number;
+  readonly #inner: MemorySource;
+  constructor(channels: Float64Array[], readonly sampleRateHz: number) {
+    this.#inner = new MemorySource(channels, sampleRateHz);
+    this.channelCount = channels.length;
+    this.frames = channels[0]!.length;
+  }
+  async *blocks(options: BlockOptions = {}): AsyncIterable<Block> {
+    const sizes = options.reverse ? [1000, 3, 4097] : [777, 12000, 5];
+    let i = 0;
+    const all = await collectBlocks(this.#inner.blocks({ ...options, blockFrames: 1 << 30 }), this.channelCount);
+    const n = all[0]!.length;
+    for (let at = 0; at < n; ) {
+      const k = Math.min(n - at, sizes[i++ % sizes.length]!);
+      yield all.map((c) => c.slice(at, at + k));
+      at += k;
+    }
+  }
+}
+
+async function render(source: AudioSource, params: Record<string, unknown>): Promise<Float64Array[]> {
+  const r = await reverse.prepare(source, validateParams(reverse.params, params as never), silentContext);
+  return collectBlocks(r.blocks, source.channelCount);
+}
+
+const sameBits = (a: Float64Array, b: Float64Array) => a.length === b.length && a.every((v, i) => Object.is(v, b[i]));
+
+describe('reverse', () => {
+  const g = gaussian(seededRng(17));
+  const left = Float64Array.from({ length: 50_001 }, () => g());
+  const right = Float64Array.from({ length: 50_001 }, () => g());
+
+  it('reverses the whole file sample for sample, and twice is the identity bit for bit', async () => {
+    // Source: definition y[i] = x[N−1−i]; exact identity reverse∘reverse = id.
+    for (const src of [new MemorySource([left, right], FS), new RaggedSource([left, right], FS)]) {
+      const once = await render(src, {});
+      expect(sameBits(once[0]!, flip(left))).toBe(true);
+      expect(sameBits(once[1]!, flip(right))).toBe(true);
+      const twice = await render(new MemorySource(once, FS), {});
+      expect(sameBits(twice[0]!, left) && sameBits(twice[1]!, right)).toBe(true);
+    }
+  });
+
+  it('reverses only the chosen channel and range, copying the rest', async () => {
+    // Source: definition, with --from/--to in seconds rounded to frames.
+    for (const src of [new MemorySource([left, right], FS), new RaggedSource([left, right], FS)]) {
+      const out = await render(src, { channels: [2], fromSeconds: 0.1, toSeconds: 0.75 });
+      const a = Math.round(0.1 * FS), b = Math.round(0.75 * FS);
+      expect(sameBits(out[0]!, left)).toBe(true);
+      const expected = right.slice();
+      expected.set(flip(right.subarray(a, b)), a);
+      expect(sameBits(out[1]!, expected)).toBe(true);
+    }
+  });
+
+  it('keeps the magnitude spectrum (DFT of a reversed buffer = e^{−j2πk(N−1)/N}·X*[k])', async () => {
+    // Source: DFT reversal property (REFERENCES §10; Oppenheim & Schafer, DTSP, DFT properties).
+    const n = 4096;
+    const x = left.subarray(0, n);
+    const [y] = await render(new MemorySource([Float64Array.from(x)], FS), {});
+    const plan = new FftPlan(n);
+    const X = plan.createHalfSpectrum(), Y = plan.createHalfSpectrum();
+    plan.realForward(x, X);
+    plan.realForward(y!, Y);
+    for (let k = 0; k <= n / 2; k++) {
+      // Y[k] = e^{−j2πk(N−1)/N} · conj(X[k])
+      const a = (-2 * Math.PI * k * (n - 1)) / n;
+      const er = Math.cos(a) * X[2 * k]! + Math.sin(a) * X[2 * k + 1]!;
+      const ei = Math.sin(a) * X[2 * k]! - Math.cos(a) * X[2 * k + 1]!;
+      expect(Math.abs(Y[2 * k]! - er)).toBeLessThan(1e-9);
+      expect(Math.abs(Y[2 * k + 1]! - ei)).toBeLessThan(1e-9);
+    }
+  });
+
+  it('refuses channels that do not exist, empty ranges and ranges past the end', async () => {
+    // Source: the issue's bad-input rule (clear message; the CLI turns ParameterError into exit 2).
+    const src = new MemorySource([left, right], FS);
+    await expect(render(src, { channels: [3] })).rejects.toThrow(/channel 3 does not exist \(the input has 2\)/);
+    await expect(render(src, { channels: [1.5] })).rejects.toThrow(ParameterError);
+    await expect(render(src, { fromSeconds: 0.5, toSeconds: 0.5 })).rejects.toThrow(/the range is empty/);
+    await expect(render(src, { fromSeconds: 0.6, toSeconds: 0.2 })).rejects.toThrow(/the range is empty/);
+    await expect(render(src, { fromSeconds: 5 })).rejects.toThrow(/only 1\.042 s long/);
+    expect(() => validateParams(reverse.params, { channels: [0] })).toThrow(ParameterError);
+  });
+
+  it('streams: the reversed range is read with source.blocks({ reverse: true })', async () => {
+    // Source: the streaming contract — no pass reads the whole range at once.
+    const asked: BlockOptions[] = [];
+    const inner = new MemorySource([left, right], FS);
+    const spy: AudioSource = {
+      sampleRateHz: FS,
+      channelCount: 2,
+      frames: inner.frames,
+      blocks: (o?: BlockOptions) => {
+        asked.push(o ?? {});
+        return inner.blocks({ ...o, blockFrames: 4096 });
+      },
+    };
+    let maxBlock = 0;
+    for await (const b of reverseBlocks(spy, { startFrame: 100, endFrame: 40_000 })) maxBlock = Math.max(maxBlock, b[0]!.length);
+    expect(asked.some((o) => o.reverse === true && o.startFrame === 100 && o.endFrame === 40_000)).toBe(true);
+    expect(maxBlock).toBeLessThanOrEqual(4096);
+  });
+});
+
+describe('reversed-channel detection', () => {
+  const pl = pluckPhrase(FS, 8);
+  const vo = voiceLike(FS, 8, 5);
+
+  it('finds the reversed channel in plucked and in voice-like material', async () => {
+    // Source: construction — channel 2 is channel material played backwards (exact reversal).
+    const lines: string[] = [];
+    for (const [name, x, other] of [['plucks', pl, voiceLike(FS, 8, 6)], ['voice-like', vo, pluckPhrase(FS, 8, 0.25, 4)]] as const) {
+      const res = await detectReversedChannels(new MemorySource([other, flip(x)], FS));
+      lines.push(`${name}: ch1 ${res.channels[0]!.score.toFixed(3)}, ch2 (reversed) ${res.channels[1]!.score.toFixed(3)}`);
+      expect(res.channels[1]!.likely).toBe(true);
+      expect(res.channels[0]!.likely).toBe(false);
+      const res2 = await detectReversedChannels(new MemorySource([flip(x), other], FS));
+      expect(res2.channels.map((c) => c.likely)).toEqual([true, false]);
+    }
+    console.log('[reversed] scores:\n  ' + lines.join('\n  '));
+  });
+
+  it('does not flag forward test signals', async () => {
+    // Source: construction — forward material (struck/plucked decays, speech-like syllables) and
+    // time-symmetric material (tones, noise, clicks) must not read as reversed.
+    const g = gaussian(seededRng(4));
+    const signals: [string, Float64Array][] = [
+      ['plucks', pl],
+      ['voice-like', vo],
+      ['sine', Float64Array.from({ length: 4 * FS }, (_, i) => 0.3 * Math.sin(i * 0.05))],
+      ['noise', Float64Array.from({ length: 4 * FS }, () => 0.1 * g())],
+      ['click train', clickTrain(FS, 4, 0.1, 0.2).signal],
+      ['tone bursts', Float64Array.from({ length: 4 * FS }, (_, i) => (Math.floor(i / 12000) % 2 ? 0.3 * Math.sin(i * 0.05) : 0))],
+      // A line-up tone that ends abruptly into quieter programme: one abrupt stop, no reversal.
+      ['tone then noise', Float64Array.from({ length: 10 * FS }, (_, i) => (i < 7 * FS ? 0.25 * Math.sin((2 * Math.PI * 3150 * i) / FS) : 0.05 * g()))],
+    ];
+    const lines: string[] = [];
+    for (const [name, x] of signals) {
+      const res = await detectReversedChannels(new MemorySource([x], FS));
+      lines.push(`${name}: ${res.channels[0]!.score.toFixed(3)} (${res.channels[0]!.abruptStops} abrupt stops)`);
+      expect(res.channels[0]!.likely).toBe(false);
+    }
+    console.log('[reversed] forward signals:\n  ' + lines.join('\n  '));
+  });
+
+  it('is antisymmetric under time reversal', () => {
+    // Source: exact identity — reversal maps every level step d to −d, so the score changes sign.
+    const power = Float32Array.from({ length: 3000 }, (_, i) => 1e-3 + Math.exp(-((i % 37) / 6)) * (1 + (i % 5)));
+    const a = asymmetryScore(power).score;
+    const b = asymmetryScore(power.slice().reverse()).score;
+    expect(a).not.toBe(0);
+    expect(b).toBeCloseTo(-a, 12);
+  });
+
+  it('suggests reversing the channel it found, and applying the suggestion clears the finding', async () => {
+    // Source: the operation contract (finding → suggestion {op:'reverse', params:{channels:[n]}}).
+    const src = new MemorySource([pl, flip(vo)], FS);
+    const result = await reversed.run(src, {}, silentContext);
+    const facts = { sampleRateHz: FS, channelCount: 2, frames: src.frames };
+    const f = reversed.findings!(result, facts);
+    expect(f).toHaveLength(1);
+    expect(f[0]!.suggestion).toEqual({ op: 'reverse', params: { channels: [2] } });
+    expect(reversed.toJson!(result)).toEqual({ reversed: { channels: result.channels.map(({ channel, likely, score }) => ({ channel, likely, score })) } });
+    const fixed = await render(src, f[0]!.suggestion!.params as Record<string, unknown>);
+    const again = await reversed.run(new MemorySource(fixed, FS), {}, silentContext);
+    expect(again.channels.every((c) => !c.likely)).toBe(true);
+    expect(reversed.findings!(again, facts)[0]!.severity).toBe('ok');
+  });
+});
