@@ -158,7 +158,9 @@ export function searchPrintThrough(
   // cross-spectra summed before one inverse transform); the masked signals are formed from x and
   // the block masks as each segment is filled.
   const quiet = masks.quiet, loud = masks.loud, nbm = quiet.length;
-  const n = nextPowerOfTwo(Math.min(total, (1 << 18) - 2 * K) + 2 * K);
+  // Segments of a transform size the fast (WebAssembly) FFT kernels cover when the lag range allows.
+  const maxN = 2 * K <= (1 << 15) ? 1 << 16 : 1 << 18;
+  const n = nextPowerOfTwo(Math.min(total, maxN - 2 * K) + 2 * K);
   const seg = n - 2 * K;
   const plan = sharedPlan(n);
   const accC = new Float64Array(n + 2);
