@@ -29,7 +29,7 @@ import { fitSingleEcho } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { mixBlock } from './mix.ts';
 import { PrintThroughCollector, refinePrintThrough, searchPrintThrough, type LagCandidate } from './print-through.ts';
-import { type Excerpt, MAX_CANCEL_GAIN, refineSingleEcho } from './refine.ts';
+import { type Excerpt, MAX_CANCEL_GAIN, quietFramesGain, refineSingleEcho } from './refine.ts';
 
 export const DEFAULT_RANGE_SECONDS: readonly [number, number] = [0.0005, 0.5];
 export const PRINT_THROUGH_RANGE_SECONDS: readonly [number, number] = [0.3, 4];
@@ -209,7 +209,14 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       const { start, end } = chooseExcerpt(energies, fs, source.frames, cap);
       const decay = Math.log(1e-4) / Math.log(Math.max(0.05, Math.min(MAX_CANCEL_GAIN, Math.abs(gain))));
       const excerpt: Excerpt = { start, end, warmup: Math.min(start, Math.ceil(delay * Math.max(1, decay))) };
-      const refined = await refineSingleEcho(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal });
+      let refined = await refineSingleEcho(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal });
+      // Noise added after the reflection (hiss, hum) shows as an echo-free floor in the quiet
+      // frames; then the refinement is redone leaving cells near the floor out (refine.ts,
+      // levelGate), which the floor's inverse ripple would otherwise drag towards g = 0.
+      const quietGain = await quietFramesGain(source, refined.fit.delaySamples, refined.fit.gain, { channel, excerpt, signal: options.signal });
+      if (quietGain !== null && Math.abs(quietGain) < 0.3 * Math.abs(refined.fit.gain)) {
+        refined = await refineSingleEcho(source, { delaySamples: refined.fit.delaySamples, gain: refined.fit.gain }, { channel, excerpt, signal: options.signal, gateNoise: true });
+      }
       delay = refined.fit.delaySamples;
       gain = refined.fit.gain;
       delayStd = refined.fit.delayStdSamples;

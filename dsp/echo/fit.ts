@@ -266,18 +266,27 @@ export function fitSingleEcho(
  * Cepstrum of (mean log spectrum + log|1 + K(ω)|²): the data with a cancellation by kernel K
  * undone in the log domain, so a model of the whole echo can be fitted to it.
  */
+/** log|1 + K(ω_k)|² at k = 0…N/2 for an echo kernel K on the plan's grid. */
+export function echoFactorLogPower(kernel: EchoKernel, plan: FftPlan): Float64Array {
+  const n = plan.size;
+  const buf = new Float64Array(n);
+  for (let i = 0; i < kernel.taps.length; i++) buf[kernel.offset + i] = kernel.taps[i]!;
+  const spec = plan.createHalfSpectrum();
+  plan.realForward(buf, spec);
+  const out = new Float64Array(n / 2 + 1);
+  for (let k = 0; k <= n / 2; k++) {
+    const re = 1 + spec[2 * k]!, im = spec[2 * k + 1]!;
+    out[k] = Math.log(re * re + im * im);
+  }
+  return out;
+}
+
 export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKernel | null, plan: FftPlan): Float64Array {
   const n = plan.size;
   const half = Float64Array.from(meanLog);
   if (kernel) {
-    const buf = new Float64Array(n);
-    for (let i = 0; i < kernel.taps.length; i++) buf[kernel.offset + i] = kernel.taps[i]!;
-    const spec = plan.createHalfSpectrum();
-    plan.realForward(buf, spec);
-    for (let k = 0; k <= n / 2; k++) {
-      const re = 1 + spec[2 * k]!, im = spec[2 * k + 1]!;
-      half[k] = half[k]! + Math.log(re * re + im * im);
-    }
+    const lp = echoFactorLogPower(kernel, plan);
+    for (let k = 0; k <= n / 2; k++) half[k] = half[k]! + lp[k]!;
   }
   const spec = plan.createHalfSpectrum();
   const out = new Float64Array(n);

@@ -28,7 +28,23 @@ export interface LogSpectrumOptions {
    * an echo shows in both, a chance coincidence in the source usually in one.
    */
   keepHalves?: boolean;
+  /**
+   * Called with each frame's log spectrum (k = 0…N/2, natural-log power; the array is reused)
+   * before it is added; returning false leaves the frame out.
+   */
+  accept?(frameLog: Float64Array): boolean;
+  /**
+   * Per-bin gate (natural-log power, k = 0…N/2): cells below it are left out of the average, so
+   * bins are averaged over the frames where the signal stands above the noise there. Bins that
+   * never do are filled by interpolation across frequency (see meanLogSpectrum).
+   */
+  gate?: Float64Array;
+  /** Collect per-band cell levels for noiseGate() (bands of 1/512 of the spectrum). */
+  collectLevels?: boolean;
 }
+
+/** Bands and level grid of the cell-level histograms (1 dB steps). */
+const GATE_BANDS = 512, LEVEL_MIN_DB = -320, LEVEL_STEPS = 400;
 
 export class LogSpectrumAccumulator {
   readonly fftSize: number;
@@ -43,6 +59,11 @@ export class LogSpectrumAccumulator {
   /** Sums over the even- and odd-numbered analysed frames (two independent halves). */
   readonly #halves: [Float64Array, Float64Array] | null;
   readonly #halfFrames: [number, number] = [0, 0];
+  readonly #accept: ((frameLog: Float64Array) => boolean) | null;
+  readonly #gate: Float64Array | null;
+  readonly #counts: Float64Array | null;
+  readonly #levels: Int32Array | null;
+  readonly #frameLog: Float64Array;
   #filled = 0;
   #frameIndex = 0;
   #frames = 0;
@@ -66,6 +87,11 @@ export class LogSpectrumAccumulator {
     this.#spec = new Float64Array(n + 2);
     this.#sum = new Float64Array(n / 2 + 1);
     this.#halves = options.keepHalves ? [new Float64Array(n / 2 + 1), new Float64Array(n / 2 + 1)] : null;
+    this.#accept = options.accept ?? null;
+    this.#gate = options.gate ?? null;
+    this.#counts = this.#gate ? new Float64Array(n / 2 + 1) : null;
+    this.#levels = options.collectLevels ? new Int32Array(GATE_BANDS * LEVEL_STEPS) : null;
+    this.#frameLog = new Float64Array(options.accept || options.gate || options.collectLevels ? n / 2 + 1 : 0);
     this.#skip = options.skipSamples ?? 0;
   }
 
@@ -138,11 +164,34 @@ export class LogSpectrumAccumulator {
     const half = this.#halves ? this.#halves[this.#frames & 1] : null;
     // Floor 200 dB under the frame's mean bin power keeps log() finite in exact-zero bins.
     const floor = (energy / n) * 1e-20;
-    for (let k = 0; k <= n / 2; k++) {
-      const re = s[2 * k]!, im = s[2 * k + 1]!;
-      const v = Math.log(re * re + im * im + floor);
-      sum[k]! += v;
-      if (half) half[k]! += v;
+    if (this.#accept || this.#gate || this.#levels) {
+      const fl = this.#frameLog;
+      for (let k = 0; k <= n / 2; k++) fl[k] = Math.log(s[2 * k]! ** 2 + s[2 * k + 1]! ** 2 + floor);
+      const levels = this.#levels;
+      if (levels) {
+        for (let k = 0; k <= n / 2; k++) {
+          const band = Math.min(GATE_BANDS - 1, Math.floor((k * GATE_BANDS) / (n / 2 + 1)));
+          const step = Math.max(0, Math.min(LEVEL_STEPS - 1, Math.floor(fl[k]! * (10 / Math.LN10) - LEVEL_MIN_DB)));
+          levels[band * LEVEL_STEPS + step]!++;
+        }
+      }
+      if (this.#accept && !this.#accept(fl)) return;
+      const gate = this.#gate, counts = this.#counts;
+      for (let k = 0; k <= n / 2; k++) {
+        if (gate) {
+          if (fl[k]! < gate[k]!) continue;
+          counts![k]!++;
+        }
+        sum[k]! += fl[k]!;
+        if (half) half[k]! += fl[k]!;
+      }
+    } else {
+      for (let k = 0; k <= n / 2; k++) {
+        const re = s[2 * k]!, im = s[2 * k + 1]!;
+        const v = Math.log(re * re + im * im + floor);
+        sum[k]! += v;
+        if (half) half[k]! += v;
+      }
     }
     this.#halfFrames[this.#frames & 1]++;
     this.#frames++;
@@ -159,9 +208,56 @@ export class LogSpectrumAccumulator {
   /** Mean natural-log power per bin, k = 0…N/2 (a copy). */
   meanLogSpectrum(): Float64Array {
     const out = new Float64Array(this.#sum.length);
-    const m = Math.max(1, this.#frames);
-    for (let k = 0; k < out.length; k++) out[k] = this.#sum[k]! / m;
+    const counts = this.#counts;
+    if (!counts) {
+      const m = Math.max(1, this.#frames);
+      for (let k = 0; k < out.length; k++) out[k] = this.#sum[k]! / m;
+      return out;
+    }
+    // Gated: per-bin means over the cells that passed; bins with too few are filled by linear
+    // interpolation between the nearest bins that have them (constant beyond the ends).
+    const minCells = Math.max(1, Math.round(0.02 * this.#frames));
+    const have: number[] = [];
+    for (let k = 0; k < out.length; k++) {
+      if (counts[k]! >= minCells) {
+        out[k] = this.#sum[k]! / counts[k]!;
+        have.push(k);
+      }
+    }
+    if (have.length === 0) return out.fill(0);
+    for (let k = 0; k < have[0]!; k++) out[k] = out[have[0]!]!;
+    for (let i = 0; i + 1 < have.length; i++) {
+      const a = have[i]!, b = have[i + 1]!;
+      for (let k = a + 1; k < b; k++) out[k] = out[a]! + ((out[b]! - out[a]!) * (k - a)) / (b - a);
+    }
+    for (let k = have[have.length - 1]! + 1; k < out.length; k++) out[k] = out[have[have.length - 1]!]!;
     return out;
+  }
+
+  /**
+   * A per-bin gate from the collected cell levels: in each band, the 20th percentile of the cell
+   * levels plus `marginDb`. Where most cells are noise the 20th percentile sits about 6.5 dB under
+   * the noise's mean power; with a 20 dB margin the gate is 13.5 dB above it and lets practically
+   * no noise-only cell through. Null when levels were not collected or nothing was seen.
+   */
+  noiseGate(marginDb = 20): Float64Array | null {
+    const levels = this.#levels;
+    if (!levels || this.#frames === 0) return null;
+    const nb = this.fftSize / 2 + 1;
+    const gate = new Float64Array(nb);
+    const bandGate = new Float64Array(GATE_BANDS);
+    for (let b = 0; b < GATE_BANDS; b++) {
+      let total = 0;
+      for (let i = 0; i < LEVEL_STEPS; i++) total += levels[b * LEVEL_STEPS + i]!;
+      let acc = 0, step = 0;
+      for (; step < LEVEL_STEPS; step++) {
+        acc += levels[b * LEVEL_STEPS + step]!;
+        if (acc >= 0.2 * total) break;
+      }
+      bandGate[b] = ((step + LEVEL_MIN_DB + marginDb) * Math.LN10) / 10;
+    }
+    for (let k = 0; k < nb; k++) gate[k] = bandGate[Math.min(GATE_BANDS - 1, Math.floor((k * GATE_BANDS) / nb))]!;
+    return gate;
   }
 }
 

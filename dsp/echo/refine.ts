@@ -22,7 +22,7 @@
 import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
-import { type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } from './fit.ts';
+import { echoFactorLogPower, type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { mixBlock } from './mix.ts';
@@ -44,6 +44,8 @@ export interface RefineOptions {
   maxPasses?: number;
   /** Scan the delay ±this many samples in the first pass (when the start is only roughly known). */
   searchSamples?: number;
+  /** Leave out cells near the noise floor (default false; see levelGate). */
+  gateNoise?: boolean;
   signal?: { readonly aborted: boolean };
   onPass?(pass: number, fit: FitResult, fftSize: number): void;
 }
@@ -85,6 +87,8 @@ export async function cancelledCepstrum(
   options: RefineOptions,
   plan: FftPlan = sharedPlan(framing.fftSize),
   undo = true,
+  guardQuefrencies: readonly number[] | null = null,
+  yGate: Float64Array | null = null,
 ): Promise<Float64Array | null> {
   const { start, end, warmup } = options.excerpt;
   const from = Math.max(0, start - warmup);
@@ -109,20 +113,155 @@ export async function cancelledCepstrum(
     const floor = (energy / n) * 1e-20;
     for (let k = 0; k <= n / 2; k++) meanLog[k] = Math.log(spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + floor);
   } else {
-    const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from });
-    for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
-      if (options.signal?.aborted) return null;
-      const mono = mixBlock(block, options.channel);
-      if (canceller) canceller.process(mono, mono);
-      acc.push(mono);
+    // The noise gate measured on y, moved through the cancellation: noise that the reflection
+    // never touched passes through 1/(1 + K) like everything else, so its floor moves by
+    // −log|1 + K|².
+    let gate: Float64Array | undefined;
+    if (yGate) {
+      gate = Float64Array.from(yGate);
+      if (kernel) {
+        const lp = echoFactorLogPower(kernel, plan);
+        for (let k = 0; k < gate.length; k++) gate[k] = gate[k]! - lp[k]!;
+      }
     }
-    if (acc.frames === 0) return null;
+    const run = async (accept?: (l: Float64Array) => boolean): Promise<LogSpectrumAccumulator> => {
+      const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from, accept, gate });
+      const cancel = kernel ? new EchoCanceller(kernel) : null;
+      for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
+        if (options.signal?.aborted) break;
+        const mono = mixBlock(block, options.channel);
+        if (cancel) cancel.process(mono, mono);
+        acc.push(mono);
+      }
+      return acc;
+    };
+    let acc: LogSpectrumAccumulator;
+    if (guardQuefrencies && guardQuefrencies.length) {
+      acc = await run(pitchGuard(n, source.sampleRateHz, guardQuefrencies));
+      const all = Math.floor((end - start - n) / (n / 2)) + 1;
+      if (acc.frames < all / 3) acc = await run();
+    } else {
+      acc = await run();
+    }
+    if (options.signal?.aborted || acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
   return undoCancellationCepstrum(meanLog, undo ? kernel : null, plan);
 }
 
 const clampCancel = (g: number) => Math.max(-MAX_CANCEL_GAIN, Math.min(MAX_CANCEL_GAIN, g));
+
+/**
+ * Noise gate for the refinement frames, measured on y with the same framing: per band, the 20th
+ * percentile of the cell levels + 20 dB (LogSpectrumAccumulator.noiseGate). Cells under it are
+ * left out of the averages. Why: noise added after the reflection (tape hiss, mains hum) carries
+ * no echo, and once the signal is cancelled it carries the *inverse* ripple; left in, it pulls
+ * the fit towards a gain between 0 and the true one (the demo reel, whose voice alone has the
+ * reflection, read g ≈ 0.035 instead of 0.42). With the gate the averages come from cells where
+ * the signal stands well above the noise; at the solution those hold no ripple, so the fixed
+ * point is unchanged, while noise that is part of the source (echoed) is only lost information.
+ */
+export async function levelGate(source: AudioSource, framing: Framing, options: RefineOptions): Promise<Float64Array | null> {
+  if (framing.whole) return null;
+  const { start, end } = options.excerpt;
+  const n = framing.fftSize;
+  const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, collectLevels: true });
+  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
+    if (options.signal?.aborted) return null;
+    acc.push(mixBlock(block, options.channel));
+  }
+  return acc.noiseGate();
+}
+
+/**
+ * The echo's gain in the quietest fifth of the frames (the noise floor, in pauses), at a known
+ * delay, from y without cancellation. When the floor carries the echo (room noise that was
+ * reflected too) this is close to the gain found on everything; when the floor was added after
+ * the reflection (tape hiss, hum) it is close to 0 — then the gated refinement is the right one.
+ */
+export async function quietFramesGain(source: AudioSource, delaySamples: number, gain: number, options: RefineOptions): Promise<number | null> {
+  const length = options.excerpt.end - options.excerpt.start;
+  const framing = chooseFraming(delaySamples, gain, length);
+  if (framing.whole) return null;
+  const n = framing.fftSize, hop = n / 2;
+  const { start, end } = options.excerpt;
+  // Frame energies first (no transforms), for the 20th-percentile threshold.
+  const energies: number[] = [];
+  let acc = 0, filled = 0;
+  const ring = new Float64Array(n);
+  let pos = 0;
+  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
+    const mono = mixBlock(block, options.channel);
+    for (let i = 0; i < mono.length; i++) {
+      ring[pos] = mono[i]! * mono[i]!;
+      pos = (pos + 1) % n;
+      filled++;
+      if (filled >= n && (filled - n) % hop === 0) {
+        acc = 0;
+        for (let j = 0; j < n; j++) acc += ring[j]!;
+        energies.push(acc);
+      }
+    }
+  }
+  if (energies.length < 10) return null;
+  const sorted = [...energies].sort((a, b) => a - b);
+  const threshold = sorted[Math.floor(0.2 * sorted.length)]!;
+  if (!(threshold > 0)) return null;
+  const plan = sharedPlan(n);
+  const quiet = new LogSpectrumAccumulator({
+    fftSize: n,
+    hopSize: hop,
+    accept: (l) => {
+      let e = 0;
+      for (let k = 0; k < l.length; k++) e += Math.exp(l[k]!);
+      // Σ over the half spectrum ≈ (N/2)·Σ(w·x)² ≈ (N/2)·(3/8)·Σx² for a Hann frame (Parseval);
+      // 20 % slack for the window's weighting of an uneven frame.
+      return e <= threshold * (n / 2) * 0.375 * 1.2;
+    },
+  });
+  for await (const block of source.blocks({ startFrame: start, endFrame: end })) quiet.push(mixBlock(block, options.channel));
+  if (quiet.frames < 3) return null;
+  const data = undoCancellationCepstrum(quiet.meanLogSpectrum(), null, plan);
+  return fitSingleEcho(data, n, { delaySamples, gain: gain * 0.5 }, { windows: fitWindows(delaySamples, gain, n) }).gain;
+}
+
+/**
+ * Pitch guard for the refinement frames. A voiced frame's cepstrum has peaks at its pitch period
+ * P and its multiples k·P (rahmonics); when one of them falls on the quefrencies the fit looks at
+ * (τ, 2τ, 3τ), it lands on the echo's peak and biases the gain. Frames of a steady voice whose
+ * pitch dwells there (a pitch glide that turns round near 1/τ, 2/τ …) can dominate. Each frame's
+ * pitch is found as the largest cepstral peak between 2.5 and 14 ms (f0 70–400 Hz, counted only
+ * when it stands 6 robust deviations above the rest of that range), and the frame is left out when
+ * k·P (k = 1…6) comes within 10 samples + 3 % of k·P of an echo quefrency. The echo is in every
+ * frame, so leaving frames out does not bias it. If the guard would leave fewer than a third of
+ * the frames, it is not used.
+ */
+export function pitchGuard(n: number, sampleRateHz: number, echoQuefrencies: readonly number[]): (frameLog: Float64Array) => boolean {
+  const plan = sharedPlan(n);
+  const spec = plan.createHalfSpectrum();
+  const cep = new Float64Array(n);
+  const lo = Math.max(8, Math.floor(0.0025 * sampleRateHz)), hi = Math.min(n / 2 - 2, Math.ceil(0.014 * sampleRateHz));
+  const devs = new Float64Array(hi - lo + 1);
+  return (frameLog) => {
+    for (let k = 0; k <= n / 2; k++) {
+      spec[2 * k] = frameLog[k]!;
+      spec[2 * k + 1] = 0;
+    }
+    plan.realInverse(spec, cep);
+    let best = lo;
+    for (let q = lo; q <= hi; q++) if (cep[q]! > cep[best]!) best = q;
+    for (let q = lo; q <= hi; q++) devs[q - lo] = Math.abs(cep[q]!);
+    devs.sort();
+    const mad = 1.4826 * devs[devs.length >> 1]!;
+    if (!(cep[best]! > 6 * mad)) return true; // unvoiced or unclear: keep
+    for (let k = 1; k <= 6; k++) {
+      const r = k * best;
+      const margin = 10 + 0.03 * r;
+      for (const e of echoQuefrencies) if (Math.abs(r - e) <= margin) return false;
+    }
+    return true;
+  };
+}
 
 /**
  * Refines (delay, gain) from a starting estimate. Returns the last fit (made on the signal
@@ -136,6 +275,8 @@ export async function refineSingleEcho(
   const length = options.excerpt.end - options.excerpt.start;
   let framing = chooseFraming(initial.delaySamples, initial.gain, length);
   let plan = sharedPlan(framing.fftSize);
+  const gateOn = options.gateNoise ?? false;
+  let gate = gateOn ? await levelGate(source, framing, options) : null;
   const maxPasses = options.maxPasses ?? 6;
   let tau = initial.delaySamples, g = initial.gain;
   let fit: FitResult | null = null;
@@ -147,10 +288,12 @@ export async function refineSingleEcho(
       framing = f;
       plan = sharedPlan(f.fftSize);
       prev = null; // a different framing measures a slightly different G
+      gate = gateOn ? await levelGate(source, framing, options) : null;
     }
     const gc = clampCancel(g);
     const kernel = singleEchoKernel(tau, gc);
-    const data = await cancelledCepstrum(source, kernel, framing, options, plan);
+    const guard = [1, 2, 3].map((k) => k * tau).filter((q, i) => i === 0 || Math.abs(g) ** (i + 1) / (i + 1) >= 0.01);
+    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, guard, gate);
     passes++;
     if (!data) break;
     const windows = fitWindows(tau, g, framing.fftSize);
