@@ -22,7 +22,7 @@
 import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
-import { echoFactorLogPower, type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } from './fit.ts';
+import { type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { mixBlock } from './mix.ts';
@@ -87,7 +87,6 @@ export async function cancelledCepstrum(
   options: RefineOptions,
   plan: FftPlan = sharedPlan(framing.fftSize),
   undo = true,
-  guardQuefrencies: readonly number[] | null = null,
   yGate: Float64Array | null = null,
 ): Promise<Float64Array | null> {
   const { start, end, warmup } = options.excerpt;
@@ -113,19 +112,13 @@ export async function cancelledCepstrum(
     const floor = (energy / n) * 1e-20;
     for (let k = 0; k <= n / 2; k++) meanLog[k] = Math.log(spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + floor);
   } else {
-    // The noise gate measured on y, moved through the cancellation: noise that the reflection
-    // never touched passes through 1/(1 + K) like everything else, so its floor moves by
-    // −log|1 + K|².
-    let gate: Float64Array | undefined;
-    if (yGate) {
-      gate = Float64Array.from(yGate);
-      if (kernel) {
-        const lp = echoFactorLogPower(kernel, plan);
-        for (let k = 0; k < gate.length; k++) gate[k] = gate[k]! - lp[k]!;
-      }
-    }
-    const run = async (accept?: (l: Float64Array) => boolean): Promise<LogSpectrumAccumulator> => {
-      const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from, accept, gate });
+    // The noise gate measured on y is used as it is, not moved through the cancellation: a
+    // threshold that rippled with log|1 + K|² would select cells by the very ripple being
+    // measured (the mean of the cells above a threshold rises with the threshold) and bias the
+    // fit; on the demo reel the fixed threshold reads g = 0.38 for 0.42, the moved one 0.29.
+    const gate = yGate ?? undefined;
+    const run = async (): Promise<LogSpectrumAccumulator> => {
+      const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from, gate });
       const cancel = kernel ? new EchoCanceller(kernel) : null;
       for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
         if (options.signal?.aborted) break;
@@ -135,14 +128,7 @@ export async function cancelledCepstrum(
       }
       return acc;
     };
-    let acc: LogSpectrumAccumulator;
-    if (guardQuefrencies && guardQuefrencies.length) {
-      acc = await run(pitchGuard(n, source.sampleRateHz, guardQuefrencies));
-      const all = Math.floor((end - start - n) / (n / 2)) + 1;
-      if (acc.frames < all / 3) acc = await run();
-    } else {
-      acc = await run();
-    }
+    const acc = await run();
     if (options.signal?.aborted || acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
@@ -158,8 +144,9 @@ const clampCancel = (g: number) => Math.max(-MAX_CANCEL_GAIN, Math.min(MAX_CANCE
  * no echo, and once the signal is cancelled it carries the *inverse* ripple; left in, it pulls
  * the fit towards a gain between 0 and the true one (the demo reel, whose voice alone has the
  * reflection, read g ≈ 0.035 instead of 0.42). With the gate the averages come from cells where
- * the signal stands well above the noise; at the solution those hold no ripple, so the fixed
- * point is unchanged, while noise that is part of the source (echoed) is only lost information.
+ * the signal stands well above the noise. It is only used when the quiet frames show the floor
+ * to be echo-free (quietFramesGain): a level gate also selects cells by their own level, which
+ * costs accuracy on material whose noise does carry the echo.
  */
 export async function levelGate(source: AudioSource, framing: Framing, options: RefineOptions): Promise<Float64Array | null> {
   if (framing.whole) return null;
@@ -226,44 +213,6 @@ export async function quietFramesGain(source: AudioSource, delaySamples: number,
 }
 
 /**
- * Pitch guard for the refinement frames. A voiced frame's cepstrum has peaks at its pitch period
- * P and its multiples k·P (rahmonics); when one of them falls on the quefrencies the fit looks at
- * (τ, 2τ, 3τ), it lands on the echo's peak and biases the gain. Frames of a steady voice whose
- * pitch dwells there (a pitch glide that turns round near 1/τ, 2/τ …) can dominate. Each frame's
- * pitch is found as the largest cepstral peak between 2.5 and 14 ms (f0 70–400 Hz, counted only
- * when it stands 6 robust deviations above the rest of that range), and the frame is left out when
- * k·P (k = 1…6) comes within 10 samples + 3 % of k·P of an echo quefrency. The echo is in every
- * frame, so leaving frames out does not bias it. If the guard would leave fewer than a third of
- * the frames, it is not used.
- */
-export function pitchGuard(n: number, sampleRateHz: number, echoQuefrencies: readonly number[]): (frameLog: Float64Array) => boolean {
-  const plan = sharedPlan(n);
-  const spec = plan.createHalfSpectrum();
-  const cep = new Float64Array(n);
-  const lo = Math.max(8, Math.floor(0.0025 * sampleRateHz)), hi = Math.min(n / 2 - 2, Math.ceil(0.014 * sampleRateHz));
-  const devs = new Float64Array(hi - lo + 1);
-  return (frameLog) => {
-    for (let k = 0; k <= n / 2; k++) {
-      spec[2 * k] = frameLog[k]!;
-      spec[2 * k + 1] = 0;
-    }
-    plan.realInverse(spec, cep);
-    let best = lo;
-    for (let q = lo; q <= hi; q++) if (cep[q]! > cep[best]!) best = q;
-    for (let q = lo; q <= hi; q++) devs[q - lo] = Math.abs(cep[q]!);
-    devs.sort();
-    const mad = 1.4826 * devs[devs.length >> 1]!;
-    if (!(cep[best]! > 6 * mad)) return true; // unvoiced or unclear: keep
-    for (let k = 1; k <= 6; k++) {
-      const r = k * best;
-      const margin = 10 + 0.03 * r;
-      for (const e of echoQuefrencies) if (Math.abs(r - e) <= margin) return false;
-    }
-    return true;
-  };
-}
-
-/**
  * Refines (delay, gain) from a starting estimate. Returns the last fit (made on the signal
  * cancelled with the previous estimate), the framing used and the number of passes.
  */
@@ -292,8 +241,7 @@ export async function refineSingleEcho(
     }
     const gc = clampCancel(g);
     const kernel = singleEchoKernel(tau, gc);
-    const guard = [1, 2, 3].map((k) => k * tau).filter((q, i) => i === 0 || Math.abs(g) ** (i + 1) / (i + 1) >= 0.01);
-    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, guard, gate);
+    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, gate);
     passes++;
     if (!data) break;
     const windows = fitWindows(tau, g, framing.fftSize);
