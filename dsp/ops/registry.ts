@@ -15,12 +15,15 @@ import { stretch } from './stretch.ts';
 import { transpose } from './transpose.ts';
 import { reverse } from './reverse.ts';
 import { reversed } from './reversed.ts';
+import { echo } from './echo.ts';
+import { unecho } from './unecho.ts';
 
 export const operations: readonly Operation[] = [
   info,
   spectrum,
   levels,
   speed,
+  echo,
   flutter,
   azimuth,
   varispeed,
@@ -29,6 +32,7 @@ export const operations: readonly Operation[] = [
   transpose,
   reverse,
   reversed,
+  unecho,
 ];
 
 export function findOperation(name: string): Operation | undefined {

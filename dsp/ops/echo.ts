@@ -1,0 +1,120 @@
+/**
+ * `echo`: finds one reflection (0.5–500 ms after the direct sound; a voice near a hard wall or a
+ * desk) and print-through (a faint copy of loud passages 0.3–4 s before or after them), with
+ * delay, strength and confidence. Method: dsp/echo/detect.ts.
+ */
+import { analyseEcho, type EchoAnalysis } from '../echo/detect.ts';
+import { num, range } from './params.ts';
+import type { AnalysisOp, Finding } from './types.ts';
+
+const round = (v: number | null, digits: number): number | null => (v === null ? null : Number(v.toFixed(digits)));
+
+export const echo: AnalysisOp<EchoAnalysis> = {
+  kind: 'analysis',
+  name: 'echo',
+  key: 'echo',
+  title: 'Echo',
+  summary: 'Find one strong reflection (delay to a fraction of a sample, gain) and print-through before or after loud passages.',
+  params: [
+    {
+      name: 'rangeSeconds',
+      flag: 'range',
+      type: 'range',
+      label: 'Delay range',
+      help: 'Delays to search for a reflection, MIN:MAX in seconds (default 0.0005:0.5).',
+      unit: 's',
+      min: 0,
+      max: 10,
+    },
+    {
+      name: 'channel',
+      flag: 'channel',
+      type: 'integer',
+      label: 'Channel',
+      help: 'Analyse only this channel (1 = first); by default the channels are averaged.',
+      min: 1,
+      max: 64,
+    },
+  ],
+  async run(source, params, ctx) {
+    const ch = num(params, 'channel');
+    return analyseEcho(source, {
+      rangeSeconds: range(params, 'rangeSeconds'),
+      channel: ch === undefined ? -1 : ch - 1,
+      signal: ctx.signal,
+      progress: (f) => ctx.progress(f),
+      warn: (m) => ctx.warn(m),
+    });
+  },
+  toJson(r) {
+    // Delay and strength are printed only for what is present; the strongest candidate of a
+    // search that found nothing is not a measurement anyone should act on.
+    const rp = r.reflection.present, pp = r.printThrough.present;
+    return {
+      echo: {
+        present: rp,
+        delaySeconds: rp ? round(r.reflection.delaySeconds, 9) : null,
+        gain: rp ? round(r.reflection.gain, 5) : null,
+        confidence: round(r.reflection.confidence, 3),
+        // Only when a frequency-dependent reflection fits clearly better than the single gain.
+        ...(r.reflection.filter
+          ? { filter: { firstTapDelaySeconds: round(r.reflection.filter.firstTapDelaySeconds, 9), taps: r.reflection.filter.taps.map((t) => Number(t.toFixed(6))) } }
+          : {}),
+      },
+      printThrough: {
+        present: pp,
+        delaySeconds: pp ? round(r.printThrough.delaySeconds, 7) : null,
+        levelDb: pp ? round(r.printThrough.levelDb, 2) : null,
+        confidence: round(r.printThrough.confidence, 3),
+      },
+    };
+  },
+  findings(r) {
+    const out: Finding[] = [];
+    const rf = r.reflection;
+    if (rf.present && rf.delaySeconds !== null && rf.gain !== null) {
+      const ms = rf.delaySeconds * 1000;
+      const db = 20 * Math.log10(Math.abs(rf.gain));
+      out.push({
+        op: 'echo',
+        title: `Reflection ${ms.toFixed(1)} ms after the direct sound`,
+        sentence:
+          `A reflection ${ms.toFixed(1)} ms after the direct sound at ${db.toFixed(1)} dB` +
+          `${rf.gain < 0 ? ' with inverted polarity' : ''} (gain ${rf.gain.toFixed(3)}): ${(343 * rf.delaySeconds).toFixed(2)} m of extra ` +
+          `path, as from a hard wall or desk about ${((343 * rf.delaySeconds) / 2).toFixed(2)} m away` +
+          (rf.filter ? `; it colours the sound (a ${rf.filter.taps.length}-tap filter fits it better than one gain)` : '') +
+          '; it can be cancelled.',
+        value: Number(ms.toFixed(3)),
+        unit: 'ms',
+        confidence: rf.confidence,
+        severity: Math.abs(rf.gain) >= 0.1 ? 'warn' : 'info',
+        suggestion: { op: 'unecho', params: { delaySeconds: rf.delaySeconds, gain: rf.gain } },
+      });
+    } else {
+      out.push({
+        op: 'echo',
+        title: 'No single strong reflection',
+        sentence: `No single strong reflection was found between ${(r.rangeSeconds[0] * 1000).toFixed(1)} ms and ${(r.rangeSeconds[1] * 1000).toFixed(0)} ms.`,
+        confidence: 1 - rf.confidence,
+        severity: 'ok',
+      });
+    }
+    const pt = r.printThrough;
+    if (pt.present && pt.delaySeconds !== null && pt.levelDb !== null && pt.gain !== null) {
+      const when = pt.delaySeconds < 0 ? 'before' : 'after';
+      out.push({
+        op: 'echo',
+        title: `Print-through ${Math.abs(pt.delaySeconds).toFixed(2)} s ${when} loud passages`,
+        sentence:
+          `A faint copy of the loud passages ${Math.abs(pt.delaySeconds).toFixed(2)} s ${when} them at ${pt.levelDb.toFixed(1)} dB: ` +
+          `print-through between layers of the tape (${pt.delaySeconds < 0 ? 'a pre-echo' : 'a post-echo'}); it can be cancelled.`,
+        value: Number(pt.delaySeconds.toFixed(4)),
+        unit: 's',
+        confidence: pt.confidence,
+        severity: 'info',
+        suggestion: { op: 'unecho', params: { delaySeconds: pt.delaySeconds, gain: pt.gain } },
+      });
+    }
+    return out;
+  },
+};

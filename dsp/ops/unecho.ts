@@ -1,0 +1,174 @@
+/**
+ * `unecho`: removes one reflection and/or print-through with the exact inverse of the echo model
+ * y = x + g·x(t − τ): x̂[n] = y[n] − g·x̂[n − τ] with a windowed-sinc fractional delay on the
+ * feedback path; a pre-echo (τ < 0) runs the same recursion on the time-reversed signal.
+ * With --delay and --gain the echo is given by hand; with --delay alone the gain is measured at
+ * that delay; with neither, `echo` measures and everything it reports as present is cancelled.
+ * Method and memory use: dsp/echo/render.ts.
+ */
+import { analyseEcho } from '../echo/detect.ts';
+import { singleEchoKernel } from '../echo/kernel.ts';
+import { MAX_CANCEL_GAIN, refineSingleEcho } from '../echo/refine.ts';
+import { type CancelPlan, renderCancellation } from '../echo/render.ts';
+import { NotFoundError, ParameterError } from '../errors.ts';
+import type { AudioSource } from '../source.ts';
+import { num, range } from './params.ts';
+import type { CorrectionOp, OpContext, ParamValues } from './types.ts';
+
+interface EchoToCancel {
+  delaySeconds: number;
+  gain: number;
+  source: 'given' | 'measured';
+  /** A measured frequency-dependent reflection, used instead of the single gain. */
+  filter?: { firstTapSamples: number; taps: number[] };
+}
+
+function clampGain(g: number, ctx: OpContext): number {
+  if (Math.abs(g) > MAX_CANCEL_GAIN) {
+    ctx.warn(`gain ${g.toFixed(4)} is too close to 1 for a stable inverse: cancelling with ${Math.sign(g) * MAX_CANCEL_GAIN} instead`);
+    return Math.sign(g) * MAX_CANCEL_GAIN;
+  }
+  return g;
+}
+
+/** Measures the gain of an echo at a given delay (refined around it). */
+async function measureAt(source: AudioSource, delaySeconds: number, channel: number, ctx: OpContext): Promise<number> {
+  const fs = source.sampleRateHz;
+  if (delaySeconds < 0) {
+    const a = await analyseEcho(source, { channel, warn: (m) => ctx.warn(m), signal: ctx.signal });
+    const pt = a.printThrough;
+    if (pt.delaySeconds === null || pt.gain === null || Math.abs(pt.delaySeconds - delaySeconds) > 0.002) {
+      throw new NotFoundError(`no pre-echo found near ${delaySeconds} s; give --gain as well to cancel it by hand`);
+    }
+    return pt.gain;
+  }
+  const d = delaySeconds * fs;
+  const n = Math.min(source.frames, Math.round(30 * fs));
+  // The first pass starts from no cancellation (gain 0) and fits the delay within ±0.6 sample.
+  const r = await refineSingleEcho(source, { delaySamples: d, gain: 0 }, { channel, excerpt: { start: 0, end: n, warmup: 0 }, signal: ctx.signal, searchSamples: 0.6 });
+  return r.fit.gain;
+}
+
+export const unecho: CorrectionOp = {
+  kind: 'correction',
+  name: 'unecho',
+  title: 'Remove echo',
+  summary: 'Cancel one reflection or print-through (given with --delay/--gain, or measured) with the inverse of the echo.',
+  measures: 'echo',
+  params: [
+    {
+      name: 'delaySeconds',
+      flag: 'delay',
+      type: 'number',
+      label: 'Delay',
+      help: 'Delay of the echo in seconds: positive after the direct sound, negative for a pre-echo before it.',
+      unit: 's',
+      min: -60,
+      max: 60,
+    },
+    {
+      name: 'gain',
+      flag: 'gain',
+      type: 'number',
+      label: 'Gain',
+      help: 'Linear gain of the echo, −1 < G < 1 (negative: inverted polarity). Needs --delay.',
+      min: -1,
+      max: 1,
+    },
+    {
+      name: 'rangeSeconds',
+      flag: 'range',
+      type: 'range',
+      label: 'Delay range',
+      help: 'When measuring: delays to search for a reflection, MIN:MAX in seconds.',
+      unit: 's',
+      min: 0,
+      max: 10,
+    },
+    {
+      name: 'channel',
+      flag: 'channel',
+      type: 'integer',
+      label: 'Channel',
+      help: 'Process only this channel (1 = first); the others pass through unchanged.',
+      min: 1,
+      max: 64,
+    },
+  ],
+  async prepare(source, params: ParamValues, ctx) {
+    const fs = source.sampleRateHz;
+    const delay = num(params, 'delaySeconds');
+    const gain = num(params, 'gain');
+    const ch = num(params, 'channel');
+    if (ch !== undefined && ch > source.channelCount) {
+      throw new ParameterError(`--channel ${ch}: the file has ${source.channelCount} channel${source.channelCount === 1 ? '' : 's'}`);
+    }
+    const channel = ch === undefined ? -1 : ch - 1;
+    if (gain !== undefined && !(Math.abs(gain) < 1)) {
+      throw new ParameterError(`--gain ${gain}: an echo's gain must satisfy −1 < G < 1 (at |G| ≥ 1 the inverse is unstable)`);
+    }
+    if (gain !== undefined && delay === undefined) throw new ParameterError('--gain needs --delay');
+    const duration = source.frames / fs;
+    if (delay !== undefined) {
+      if (Math.abs(delay) * fs < 1) throw new ParameterError(`--delay ${delay}: shorter than one sample (${(1000 / fs).toFixed(4)} ms)`);
+      if (Math.abs(delay) >= duration) throw new ParameterError(`--delay ${delay}: outside the file, which is ${duration.toFixed(3)} s long`);
+    }
+    const echoes: EchoToCancel[] = [];
+    if (delay !== undefined) {
+      const g = gain ?? (await measureAt(source, delay, channel, ctx));
+      echoes.push({ delaySeconds: delay, gain: g, source: gain === undefined ? 'measured' : 'given' });
+    } else {
+      const a = await analyseEcho(source, {
+        rangeSeconds: range(params, 'rangeSeconds'),
+        channel,
+        signal: ctx.signal,
+        progress: (f) => ctx.progress(0.5 * f),
+        warn: (m) => ctx.warn(m),
+      });
+      if (a.reflection.present && a.reflection.delaySeconds !== null && a.reflection.gain !== null) {
+        echoes.push({ delaySeconds: a.reflection.delaySeconds, gain: a.reflection.gain, source: 'measured', filter: a.reflection.filter ?? undefined });
+      }
+      if (a.printThrough.present && a.printThrough.delaySeconds !== null && a.printThrough.gain !== null) {
+        echoes.push({ delaySeconds: a.printThrough.delaySeconds, gain: a.printThrough.gain, source: 'measured' });
+      }
+      if (!echoes.length) throw new NotFoundError('no reflection or print-through found to cancel; give --delay and --gain to cancel one by hand');
+    }
+    const plan: CancelPlan = { post: null, pre: null, channels: channel < 0 ? null : [channel] };
+    const used: EchoToCancel[] = [];
+    for (const e of echoes) {
+      const g = clampGain(e.gain, ctx);
+      const d = Math.abs(e.delaySeconds) * fs;
+      const kernel = e.filter ? { offset: e.filter.firstTapSamples, taps: Float64Array.from(e.filter.taps) } : singleEchoKernel(d, g);
+      if (e.delaySeconds > 0) plan.post = kernel;
+      else plan.pre = { kernel, gain: g, delaySamples: d };
+      used.push({ ...e, gain: g });
+    }
+    const resolved: ParamValues = {};
+    const post = used.find((e) => e.delaySeconds > 0), pre = used.find((e) => e.delaySeconds < 0);
+    const main = post ?? pre!;
+    resolved.delaySeconds = main.delaySeconds;
+    resolved.gain = main.gain;
+    if (post && pre) {
+      resolved.preEchoDelaySeconds = pre.delaySeconds;
+      resolved.preEchoGain = pre.gain;
+    }
+    if (ch !== undefined) resolved.channel = ch;
+    if (post?.filter) resolved.filterTaps = post.filter.taps.length;
+    return {
+      sampleRateHz: fs,
+      channelCount: source.channelCount,
+      framesHint: source.frames,
+      blocks: renderCancellation(source, plan),
+      resolved,
+    };
+  },
+  history(resolved) {
+    const parts = [`reelwright unecho delay=${Number(resolved.delaySeconds).toFixed(7)}s gain=${Number(resolved.gain).toFixed(4)}`];
+    if (resolved.preEchoDelaySeconds !== undefined) {
+      parts.push(`pre-echo delay=${Number(resolved.preEchoDelaySeconds).toFixed(7)}s gain=${Number(resolved.preEchoGain).toFixed(5)}`);
+    }
+    if (resolved.channel !== undefined) parts.push(`channel=${resolved.channel}`);
+    if (resolved.filterTaps !== undefined) parts.push(`filter=${resolved.filterTaps}taps`);
+    return parts.join(' ');
+  },
+};
