@@ -19,6 +19,7 @@ import { echo } from './echo.ts';
 import { unecho } from './unecho.ts';
 
 export const operations: readonly Operation[] = [
+  // Analyses (read only), in the order diagnose and the reports show them.
   info,
   spectrum,
   levels,
@@ -26,13 +27,14 @@ export const operations: readonly Operation[] = [
   echo,
   flutter,
   azimuth,
+  reversed,
+  // Corrections (write a new file).
   varispeed,
+  unecho,
   align,
   stretch,
   transpose,
   reverse,
-  reversed,
-  unecho,
 ];
 
 export function findOperation(name: string): Operation | undefined {

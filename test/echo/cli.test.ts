@@ -6,7 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mkdtempSync, readdirSync, rmSync, statSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { io, main } from '../../main/cli/index.ts';
+import { runCli } from '../helpers/cli.ts';
 import { writeAudio } from '../../main/io/index.ts';
 import { MemorySource } from '../../dsp/source.ts';
 import { addEchoes } from '../helpers/delay.ts';
@@ -15,18 +15,6 @@ import { voiceLike } from '../helpers/voice.ts';
 const fs = 48000;
 let dir: string;
 let mono: string;
-
-async function run(...argv: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '', err = '';
-  const saved = { ...io };
-  io.out = (s) => void (out += s.endsWith('\n') ? s : s + '\n');
-  io.err = (s) => void (err += s.endsWith('\n') ? s : s + '\n');
-  try {
-    return { code: await main(argv), out, err };
-  } finally {
-    Object.assign(io, saved);
-  }
-}
 
 beforeAll(async () => {
   dir = mkdtempSync(path.join(os.tmpdir(), 'rw-echo-'));
@@ -41,7 +29,7 @@ afterAll(() => rmSync(dir, { recursive: true, force: true }));
 describe('reelwright echo', () => {
   it('prints { file, echo, printThrough } with the contract fields', async () => {
     // Source: ARCHITECTURE.md command-line contract (echo row).
-    const r = await run('echo', mono, '--json', '--quiet');
+    const r = await runCli('echo', mono, '--json', '--quiet');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     expect(Object.keys(j)).toEqual(['file', 'echo', 'printThrough']);
@@ -53,7 +41,7 @@ describe('reelwright echo', () => {
 
   it('refuses a range beyond the file and a channel it does not have: exit 2, one line', async () => {
     for (const args of [['--range', '0.001:3'], ['--channel', '2']]) {
-      const r = await run('echo', mono, '--json', '--quiet', ...args);
+      const r = await runCli('echo', mono, '--json', '--quiet', ...args);
       expect(r.code).toBe(2);
       expect(r.out).toBe('');
       expect(r.err.trim().split('\n')).toHaveLength(1);
@@ -64,7 +52,7 @@ describe('reelwright echo', () => {
 describe('reelwright unecho', () => {
   it('measures, cancels, and prints the echo before and after', async () => {
     const out = path.join(dir, 'clean.wav');
-    const r = await run('unecho', mono, out, '--json', '--quiet');
+    const r = await runCli('unecho', mono, out, '--json', '--quiet');
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     expect(j.unecho.parameters.delaySeconds).toBeCloseTo(0.0234, 5);
@@ -83,7 +71,7 @@ describe('reelwright unecho', () => {
   for (const [name, args, pattern] of bad) {
     it(`${name}: exit 2, one line, nothing written`, async () => {
       const out = path.join(dir, `bad-${name.replace(/[^a-z0-9]+/gi, '-')}.wav`);
-      const r = await run('unecho', mono, out, '--quiet', ...args);
+      const r = await runCli('unecho', mono, out, '--quiet', ...args);
       expect(r.code).toBe(2);
       expect(r.out).toBe('');
       expect(r.err.trim().split('\n')).toHaveLength(1);
