@@ -18,7 +18,7 @@ import type { AudioSource } from '../source.ts';
 import type { OpContext } from '../ops/types.ts';
 import { CancelledError, NotFoundError } from '../errors.ts';
 import { FftPlan } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 
 export interface CrossSpectrum {
   fftSize: number;

@@ -524,17 +524,17 @@ export class WasmFft {
    * passed, so callers must not change a window's values between calls (pass a new array
    * instead). Holding the array keeps it alive, so an identical reference is the same array.
    */
-  window(window: Float64Array, n: number, inverse: boolean): number {
+  window(taper: Float64Array, n: number, inverse: boolean): number {
     const at = inverse ? this.wi : this.wf;
-    if (inverse ? this.#inverseWindow === window && this.#inverseWindowLength === n : this.#forwardWindow === window && this.#forwardWindowLength === n) {
+    if (inverse ? this.#inverseWindow === taper && this.#inverseWindowLength === n : this.#forwardWindow === taper && this.#forwardWindowLength === n) {
       return at;
     }
-    this.heap.set(window.length === n ? window : window.subarray(0, n), at / 8);
+    this.heap.set(taper.length === n ? taper : taper.subarray(0, n), at / 8);
     if (inverse) {
-      this.#inverseWindow = window;
+      this.#inverseWindow = taper;
       this.#inverseWindowLength = n;
     } else {
-      this.#forwardWindow = window;
+      this.#forwardWindow = taper;
       this.#forwardWindowLength = n;
     }
     return at;

@@ -6,7 +6,7 @@
  */
 import { ParameterError } from '../errors.ts';
 import { FirFilter } from './fir.ts';
-import { besselI0, kaiserBeta } from './window.ts';
+import { besselI0, kaiserBeta } from './windows.ts';
 
 export interface FractionalDelayOptions {
   /** Delay in samples, any real value (negative advances the signal). */

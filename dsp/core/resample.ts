@@ -42,7 +42,7 @@
 import { BugError, ParameterError } from '../errors.ts';
 import { createSimdKernels, type SimdKernels } from './simd-kernels.ts';
 import type { AudioSource, Block } from '../source.ts';
-import { besselI0, kaiserBeta } from './window.ts';
+import { besselI0, kaiserBeta } from './windows.ts';
 
 export type ResampleQuality = 'archive' | 'draft';
 

@@ -14,7 +14,7 @@
  */
 import { ParameterError } from '../errors.ts';
 import { FftPlan } from './fft.ts';
-import { makeWindow, type WindowName } from './window.ts';
+import { makeWindow, type WindowName } from './windows.ts';
 
 export interface StftOptions {
   /** Transform size in samples (power of two). */
@@ -23,7 +23,7 @@ export interface StftOptions {
   hopSize: number;
   /** Analysis window (periodic). Default 'hann'. A given array is copied at construction. */
   window?: WindowName | Float64Array;
-  /** Synthesis window for OverlapAdder / StftProcessor. Default: the analysis window. Copied at construction. */
+  /** Synthesis window for OverlapAdder / StftProcessor. Default: the analysis window (copied at construction). */
   synthesisWindow?: Float64Array;
 }
 
@@ -48,7 +48,7 @@ function checkFraming(fftSize: number, hopSize: number): void {
 export class StftAnalyzer {
   readonly fftSize: number;
   readonly hopSize: number;
-  /** The analysis window. Frames use a copy taken at construction. */
+  /** The analysis window (frames use a copy taken at construction). */
   readonly window: Float64Array;
   readonly #window: Float64Array;
   readonly #plan: FftPlan;
@@ -73,7 +73,7 @@ export class StftAnalyzer {
     checkFraming(this.fftSize, this.hopSize);
     this.#plan = new FftPlan(this.fftSize);
     this.window = resolveWindow(options.window, this.fftSize);
-    this.#window = this.window.slice();
+    this.#window = Float64Array.from(this.window);
     this.#buf = new Float64Array(bufferLength(this.fftSize, this.hopSize));
     this.#spec = this.#plan.createHalfSpectrum();
     // The leading fftSize − hopSize zeros are already in the buffer.

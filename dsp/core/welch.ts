@@ -12,7 +12,7 @@
 import { ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { FftPlan } from './fft.ts';
-import { makeWindow, type WindowName } from './window.ts';
+import { makeWindow, type WindowName } from './windows.ts';
 
 export interface WelchOptions {
   sampleRateHz: number;

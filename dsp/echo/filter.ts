@@ -11,7 +11,7 @@
  * clearly better: χ² > 60 (p ≈ 10⁻⁶ for pure noise), a misfit of at least 30 % of the single
  * echo's energy, and a reflection strong enough (RMS tap gain ≥ 0.2) that its shape, rather than
  * the source's own cepstral structure near τ (a voice's pitch peak can sit a few samples away),
- * dominates the window. It is then refined like the single echo: cancel with the current filter,
+ * dominates the window; it is then refined like the single echo: cancel with the current filter,
  * read the residual taps, add them, twice more.
  */
 import type { AudioSource } from '../source.ts';

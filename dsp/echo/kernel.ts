@@ -20,7 +20,7 @@ export interface EchoKernel {
 /** Default half-length of the fractional-delay kernel (32 taps). */
 export const DEFAULT_HALF_TAPS = 16;
 /**
- * Kaiser attenuation setting for the kernel's window. With 32 taps, 70 dB keeps the interpolation
+ * Kaiser attenuation setting for the kernel's window; with 32 taps, 70 dB keeps the interpolation
  * error below −68 dB up to 0.8 of Nyquist (−28 dB at 0.9); see test/echo/kernel.test.ts.
  */
 export const KERNEL_ATTENUATION_DB = 70;

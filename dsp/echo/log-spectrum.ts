@@ -13,7 +13,7 @@
  * Frames of digital silence are skipped (their log spectrum is undefined).
  */
 import { type FftPlan, sharedPlan } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 import { ParameterError } from '../errors.ts';
 
 export interface LogSpectrumOptions {

@@ -23,7 +23,7 @@
  * slope gives the fraction of a sample) and the gain from their regression.
  */
 import { nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { Decimator } from './decimate.ts';

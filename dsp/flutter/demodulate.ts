@@ -15,7 +15,7 @@
 import type { AudioSource } from '../source.ts';
 import type { OpContext } from '../ops/types.ts';
 import { CancelledError } from '../errors.ts';
-import { besselI0, kaiserBeta, kaiserLength } from '../core/window.ts';
+import { besselI0, kaiserBeta, kaiserLength } from '../core/windows.ts';
 
 export const TARGET_TRACK_RATE_HZ = 4000;
 const PASS_HZ = 600;

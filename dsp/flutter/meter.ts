@@ -17,7 +17,7 @@
  * used without start-up transients.
  */
 import { FftPlan, nextPowerOfTwo } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 import type { FrequencyTrack } from './demodulate.ts';
 import { unweightedFilter, weightingFilter } from './weighting.ts';
 

@@ -5,7 +5,7 @@
  * for a long-term average that is plenty. Scaling: a full-scale sine reads 0 dB at its bin.
  */
 import { FftPlan } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 
 export class SparseSpectrum {
   readonly #plan: FftPlan;

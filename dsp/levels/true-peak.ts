@@ -15,7 +15,7 @@
  * is computed only where none of these bounds stays below the current peak, so the result is
  * identical to interpolating everything.
  */
-import { besselI0 } from '../core/window.ts';
+import { besselI0 } from '../core/windows.ts';
 
 export const OVERSAMPLING = 4;
 /** Half-span of the interpolator in input samples (taps per phase = 2·HALF_SPAN). */

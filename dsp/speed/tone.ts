@@ -17,7 +17,7 @@
  *  plausible factor, with the alternatives reported.
  */
 import { FftPlan } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 import { HeterodyneTrack } from './decimate.ts';
 import { speedPrior } from './standard.ts';
 

@@ -18,7 +18,7 @@
  * peak-picking (not a mean) largely ignores.
  */
 import { FftPlan } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 
 const MAX_PAIRS = 1200;
 const LO_HZ = 60;

@@ -18,7 +18,7 @@
  * the test material and none in steady chords, vibrato or noise).
  */
 import { FftPlan } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 import { ParameterError } from '../errors.ts';
 
 export interface OnsetDetectorOptions {

@@ -35,7 +35,7 @@
  * Output length is round(ratio × input frames).
  */
 import { FftPlan } from '../core/fft.ts';
-import { makeWindow } from '../core/window.ts';
+import { makeWindow } from '../core/windows.ts';
 import { BugError, ParameterError } from '../errors.ts';
 import { ONSET_LOOKAHEAD_FRAMES, SpectralFluxOnsets } from './onsets.ts';
 import { TimeMap } from './time-map.ts';
@@ -175,8 +175,9 @@ export class TimeStretcher {
     this.synthesisHop = this.#hs = n / 4;
     const bins = (this.#bins = n / 2 + 1);
     this.#pairs = Math.ceil(channelCount / 2);
-    this.#window = makeWindow('hann', n);
-    this.#olaWindow = this.#window.map((w) => w / (1.5 * n));
+    const hann = makeWindow('hann', n);
+    this.#window = hann;
+    this.#olaWindow = hann.map((w) => w / (1.5 * n));
 
     const hs = this.#hs;
     const zoneHalf = n / 2 + n / 16; // frames containing the onset, plus 1/16 N for its uncertainty

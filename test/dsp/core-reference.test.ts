@@ -3,7 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { WelchAccumulator } from '../../dsp/core/welch.ts';
 import { analyticSignal } from '../../dsp/core/analytic.ts';
-import { enbwBins, coherentGain, kaiserBeta, kaiserLength, makeWindow } from '../../dsp/core/window.ts';
+import { enbwBins, coherentGain, kaiserBeta, kaiserLength, makeWindow } from '../../dsp/core/windows.ts';
 import { SosFilter } from '../../dsp/core/biquad.ts';
 
 const ref = JSON.parse(readFileSync(new URL('../fixtures/core/core-reference.json', import.meta.url), 'utf8'));

@@ -4,7 +4,7 @@ import { FftPlan } from '../../dsp/core/fft.ts';
 import { StftProcessor, StftAnalyzer } from '../../dsp/core/stft.ts';
 import { FractionalDelay } from '../../dsp/core/fractional-delay.ts';
 import { biquadResponse, designBiquad } from '../../dsp/core/biquad.ts';
-import { makeWindow } from '../../dsp/core/window.ts';
+import { makeWindow } from '../../dsp/core/windows.ts';
 import { seededRng } from '../helpers/rng.ts';
 
 const N = 1024;

@@ -8,7 +8,7 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { FftPlan, setFftKernels } from '../../dsp/core/fft.ts';
 import { OverlapAdder, StftAnalyzer, StftProcessor, wolaNormalizer } from '../../dsp/core/stft.ts';
-import { makeWindow } from '../../dsp/core/window.ts';
+import { makeWindow } from '../../dsp/core/windows.ts';
 import { seededRng } from '../helpers/rng.ts';
 
 const noise = (n: number, seed: number) => {

@@ -1,6 +1,6 @@
 /** Small measurement helpers for the echo tests. */
 import { sharedPlan } from '../../dsp/core/fft.ts';
-import { makeWindow } from '../../dsp/core/window.ts';
+import { makeWindow } from '../../dsp/core/windows.ts';
 
 /**
  * Levels (dB) of the voice band in third-octave bands from 100 Hz to 8 kHz (centres 10^(k/10)·1 kHz,

@@ -12,7 +12,7 @@
  *    (Rabiner & Juang, Fundamentals of Speech Recognition (1993), §4.5.1; common practice).
  */
 import { FftPlan } from '../../dsp/core/fft.ts';
-import { makeWindow } from '../../dsp/core/window.ts';
+import { makeWindow } from '../../dsp/core/windows.ts';
 
 /** |STFT| at one centre (Hann, N samples, frame [centre − N/2, centre + N/2)), zero outside x. */
 export function magnitudeAt(x: Float64Array, center: number, plan: FftPlan, window: Float64Array, out: Float64Array): void {

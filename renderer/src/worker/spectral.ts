@@ -4,7 +4,7 @@
  * view. Levels: a full-scale sine reads 0 dB at its bin (power scaled by (2/Σw)²).
  */
 import { FftPlan } from '../../../dsp/core/fft.ts';
-import { makeWindow } from '../../../dsp/core/window.ts';
+import { makeWindow } from '../../../dsp/core/windows.ts';
 import { CancelledError } from '../../../dsp/errors.ts';
 import type { AudioSource } from '../../../dsp/source.ts';
 import { FLOOR_DB, SPECTRO_FFT, SPECTRO_LOW_HZ, SPECTRO_ROWS, TILE_COLUMNS, TOP_DB } from './protocol.ts';
