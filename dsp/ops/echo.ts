@@ -88,7 +88,15 @@ export const echo: AnalysisOp<EchoAnalysis> = {
         unit: 'ms',
         confidence: rf.confidence,
         severity: Math.abs(rf.gain) >= 0.1 ? 'warn' : 'info',
-        suggestion: { op: 'unecho', params: { delaySeconds: rf.delaySeconds, gain: rf.gain } },
+        // A reflection that a short filter fits better is cancelled with that filter, which unecho
+        // measures itself: the suggestion narrows its search to this reflection instead of fixing
+        // one gain.
+        suggestion: {
+          op: 'unecho',
+          params: rf.filter
+            ? { rangeSeconds: [Number((rf.delaySeconds * 0.8).toPrecision(6)), Number((rf.delaySeconds * 1.25).toPrecision(6))] }
+            : { delaySeconds: rf.delaySeconds, gain: rf.gain },
+        },
       });
     } else {
       out.push({
