@@ -88,10 +88,15 @@ export function lineChartSvg(o: ChartOptions): string {
     parts.push(`<line x1="${x}" x2="${x}" y1="${top}" y2="${top + ph}" stroke="#3a3d45"/>`);
     parts.push(`<text x="${x}" y="${top + ph + 14}" fill="#b9b09c" text-anchor="middle">${fmt(t)}</text>`);
   }
-  for (const t of niceTicks(yMin, yMax, 5)) {
+  const yt = niceTicks(yMin, yMax, 5);
+  // Enough decimals to tell neighbouring ticks apart (a narrow range such as 2.9295…2.9310).
+  const yStep = yt.length > 1 ? yt[1]! - yt[0]! : 1;
+  const yDecimals = Math.min(8, Math.max(0, -Math.floor(Math.log10(yStep))));
+  const yLabel = (v: number) => (Math.abs(v) >= 1000 ? fmt(v) : v.toFixed(yDecimals));
+  for (const t of yt) {
     const y = ys(t).toFixed(1);
     parts.push(`<line x1="${left}" x2="${left + pw}" y1="${y}" y2="${y}" stroke="#3a3d45"/>`);
-    parts.push(`<text x="${left - 6}" y="${(+y + 4).toFixed(1)}" fill="#b9b09c" text-anchor="end">${fmt(t)}</text>`);
+    parts.push(`<text x="${left - 6}" y="${(+y + 4).toFixed(1)}" fill="#b9b09c" text-anchor="end">${yLabel(t)}</text>`);
   }
   parts.push(`<text x="${left + pw / 2}" y="${H - 6}" fill="#b9b09c" text-anchor="middle">${esc(o.xLabel)}</text>`);
   parts.push(
