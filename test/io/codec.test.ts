@@ -9,7 +9,7 @@ import {
 } from '../../dsp/formats/codec.ts';
 import { readExtended80, writeExtended80 } from '../../dsp/formats/bytes.ts';
 import { seededRng } from '../helpers/rng.ts';
-import { firstDifference } from './helpers.ts';
+import { firstDifference, randomStored } from './helpers.ts';
 
 const ENCODINGS: SampleEncoding[] = [];
 for (const bigEndian of [false, true]) {
@@ -21,22 +21,6 @@ for (const bigEndian of [false, true]) {
 const label = (e: SampleEncoding) =>
   `${e.sampleFormat}${e.bytesPerSample * 8}${e.bytesPerSample > 1 ? (e.bigEndian ? 'be' : 'le') : e.unsigned8 ? 'u' : 's'}`;
 
-/** Random stored bytes: any bit pattern for integers, finite random values for floats. */
-function randomStoredWide(enc: SampleEncoding, samples: number, rng: () => number): Uint8Array {
-  const b = new Uint8Array(samples * enc.bytesPerSample);
-  if (enc.sampleFormat === 'int') {
-    for (let i = 0; i < b.length; i++) b[i] = Math.floor(rng() * 256);
-    return b;
-  }
-  const dv = new DataView(b.buffer);
-  for (let i = 0; i < samples; i++) {
-    const v = (rng() * 2 - 1) * Math.pow(2, Math.floor(rng() * 20) - 10);
-    if (enc.bytesPerSample === 4) dv.setFloat32(i * 4, v, !enc.bigEndian);
-    else dv.setFloat64(i * 8, v, !enc.bigEndian);
-  }
-  return b;
-}
-
 describe('sample codecs: bit-exact round trips', () => {
   // Source: exact identity — decoding maps each stored code to code/2^(b−1) (or the float itself)
   // and encoding must invert it exactly, for every byte pattern.
@@ -45,7 +29,7 @@ describe('sample codecs: bit-exact round trips', () => {
       it(`${label(enc)} × ${channels} ch: decode → encode returns the identical bytes (aligned and unaligned)`, () => {
         const frames = 1001;
         const rng = seededRng(77 + enc.bytesPerSample * 10 + channels);
-        const stored = randomStoredWide(enc, frames * channels, rng);
+        const stored = randomStored(enc, frames * channels, rng, [-10, 10]);
         for (const shift of [0, 1, 3]) {
           const src = new Uint8Array(stored.length + shift);
           src.set(stored, shift);
@@ -99,7 +83,7 @@ describe('sample codecs: values', () => {
 
   it('decodes into Float32Array on request (same values, float32-exact for 16/24-bit)', () => {
     const enc: SampleEncoding = { sampleFormat: 'int', bytesPerSample: 3, bigEndian: false, unsigned8: false };
-    const stored = randomStoredWide(enc, 2000, seededRng(5));
+    const stored = randomStored(enc, 2000, seededRng(5), [-10, 10]);
     const f64 = [new Float64Array(1000), new Float64Array(1000)];
     const f32 = [new Float32Array(1000), new Float32Array(1000)];
     decodeSamples(stored, 0, enc, 2, 1000, f64);

@@ -13,8 +13,11 @@ export function tempDir(tag: string): string {
   return fs.mkdtempSync(path.join(os.tmpdir(), `reelwright-test-${tag}-`));
 }
 
-/** Random stored bytes: any bit pattern for integers, finite values for floats. */
-export function randomStored(enc: SampleEncoding, samples: number, rng: () => number): Uint8Array {
+/**
+ * Random stored bytes: any bit pattern for integers, finite values for floats with magnitudes
+ * 2^lo … 2^hi (default 2^−6 … 2^2).
+ */
+export function randomStored(enc: SampleEncoding, samples: number, rng: () => number, [lo, hi]: [number, number] = [-6, 2]): Uint8Array {
   const b = new Uint8Array(samples * enc.bytesPerSample);
   if (enc.sampleFormat === 'int') {
     for (let i = 0; i < b.length; i++) b[i] = Math.floor(rng() * 256);
@@ -22,7 +25,7 @@ export function randomStored(enc: SampleEncoding, samples: number, rng: () => nu
   }
   const dv = new DataView(b.buffer);
   for (let i = 0; i < samples; i++) {
-    const v = (rng() * 2 - 1) * Math.pow(2, Math.floor(rng() * 8) - 6);
+    const v = (rng() * 2 - 1) * Math.pow(2, Math.floor(rng() * (hi - lo)) + lo);
     if (enc.bytesPerSample === 4) dv.setFloat32(i * 4, v, !enc.bigEndian);
     else dv.setFloat64(i * 8, v, !enc.bigEndian);
   }
