@@ -125,3 +125,38 @@ describe('Cramér–Rao bound', () => {
     expect(ours / kcSeconds).toBeCloseTo(1, 2);
   });
 });
+
+describe('efficiency: the weak reflection is measured about as well as the Cramér–Rao bound allows', () => {
+  // Why this matters: for g = 0.1 the 35 dB cancellation asks for |ĝ − g| ≤ 0.1·10^(−35/20) =
+  // 0.0018, while the bound for 10 s is σ_g ≈ 0.0014, so no unbiased estimator meets it reliably
+  // (it needs ≈ 24 s for a 2σ margin). What can be asked of ours is to sit near that bound: over
+  // eight independent clips the RMS errors stay within 2× the bound's σ (measured 0.7–1.8× for
+  // the gain, 1.1–1.2× for the delay; the voice's own pitch and formant structure, which the
+  // Gaussian bound does not know about, is what keeps it above 1×).
+  it('RMS delay and gain errors over 8 clips at τ = 7.77 ms and 23.4 ms, g = 0.1, ≤ 2 σ_CRB', async () => {
+    // Source: Cramér–Rao bound (Kay 1993 §3.11, Whittle asymptotic information; dsp/echo/crb.ts,
+    // checked above against Knapp & Carter's flat-spectrum formula); truth by construction.
+    const lines: string[] = [];
+    for (const tauMs of [7.77, 23.4]) {
+      const d = (tauMs * fs) / 1000, g = 0.1;
+      let sd = 0, sg = 0;
+      const seeds = [101, 102, 103, 104, 105, 106, 107, 108];
+      for (const seed of seeds) {
+        const { x } = voiceLike({ sampleRateHz: fs, seconds: 10, seed });
+        const y = addEchoes(x, [{ delaySamples: d, gain: g }]);
+        const r = (await analyseEcho(new MemorySource([y], fs), { printThrough: false })).reflection;
+        sd += (r.delaySeconds! * fs - d) ** 2;
+        sg += (r.gain! - g) ** 2;
+      }
+      const crb = echoCramerRao(10 * fs, d, g);
+      const rmsDelay = Math.sqrt(sd / seeds.length), rmsGain = Math.sqrt(sg / seeds.length);
+      lines.push(
+        `τ ${tauMs} ms g 0.1: RMS delay error ${rmsDelay.toFixed(4)} smp (CRB σ ${crb.delayStdSamples.toFixed(4)}, ${(rmsDelay / crb.delayStdSamples).toFixed(2)}×),` +
+          ` RMS gain error ${rmsGain.toFixed(4)} (CRB σ ${crb.gainStd.toFixed(4)}, ${(rmsGain / crb.gainStd).toFixed(2)}×)`,
+      );
+      expect(rmsDelay).toBeLessThanOrEqual(2 * crb.delayStdSamples);
+      expect(rmsGain).toBeLessThanOrEqual(2 * crb.gainStd);
+    }
+    console.info('Estimator efficiency over 8 clips of 10 s\n' + lines.join('\n'));
+  }, 120_000);
+});
