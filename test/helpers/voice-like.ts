@@ -30,7 +30,7 @@ export const VOWELS: readonly Vowel[] = [
 /** Bandwidths used with the formants above (Hz). */
 export const FORMANT_BANDWIDTHS_HZ: readonly [number, number, number] = [60, 90, 120];
 
-interface Resonator {
+export interface Resonator {
   a: number;
   b: number;
   c: number;
@@ -99,7 +99,7 @@ export function steadyVowel(vowel: Vowel, f0Hz: number, sampleRateHz: number, du
  * a rise on each syllable and slight jitter), a quick attack (8–20 ms, some with a plosive noise
  * burst) and a slower release (60–140 ms), separated by short pauses.
  */
-export function voiceLike(sampleRateHz: number, durationSeconds: number, seed = 3, amplitude = 0.4): Float64Array {
+export function rosenbergVoice(sampleRateHz: number, durationSeconds: number, seed = 3, amplitude = 0.4): Float64Array {
   const fs = sampleRateHz;
   const n = Math.round(durationSeconds * fs);
   const rng = seededRng(seed);

@@ -8,13 +8,14 @@
  * D. H. Klatt, "Software for a cascade/parallel formant synthesizer", JASA 67(3), 1980): a
  * band-limited impulse train at f0, a one-pole glottal roll-off, and two-pole resonators
  * y[n] = A·x[n] + B·y[n−1] + C·y[n−2] with C = −e^{−2πBW/fs}, B = 2e^{−πBW/fs}cos(2πF/fs),
- * A = 1 − B − C (unity gain at DC). Formant values are typical adult vowel ranges (from memory).
+ * A = 1 − B − C (unity gain at DC; `resonator` in voice-like.ts). Formant values are typical adult vowel ranges (from memory).
  *
  * This is test material, not a speech model: it has the properties the analyses care about
  * (harmonic spectrum with a moving pitch, moving spectral envelope, silences, loud and quiet
  * passages, a broadband noise floor) and nothing else.
  */
 import { gaussian, seededRng } from './rng.ts';
+import { resonator } from './voice-like.ts';
 
 export interface VoiceOptions {
   sampleRateHz: number;
@@ -123,9 +124,7 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
     if (syl.fricative) {
       const fc = uni(3000, Math.min(6500, 0.4 * fs));
       const bw = uni(800, 1600);
-      const c = -Math.exp((-2 * Math.PI * bw) / fs);
-      const b = 2 * Math.exp((-Math.PI * bw) / fs) * Math.cos((2 * Math.PI * fc) / fs);
-      const a = 1 - b - c;
+      const { a, b, c } = resonator(fc, bw, fs);
       let y1 = 0, y2 = 0;
       const len = syl.voicedStart - syl.start;
       for (let i = 0; i < len && syl.start + i < n; i++) {
@@ -173,12 +172,10 @@ export function voiceLike(options: VoiceOptions): VoiceSignal {
   const setCoefficients = (formants: readonly number[], bwScale: number) => {
     for (let f = 0; f < 4; f++) {
       const fc = Math.min(formants[f]!, 0.45 * fs);
-      const bw = BANDWIDTHS[f]! * bwScale;
-      const c = -Math.exp((-2 * Math.PI * bw) / fs);
-      const b = 2 * Math.exp((-Math.PI * bw) / fs) * Math.cos((2 * Math.PI * fc) / fs);
-      coef[3 * f] = 1 - b - c;
-      coef[3 * f + 1] = b;
-      coef[3 * f + 2] = c;
+      const r = resonator(fc, BANDWIDTHS[f]! * bwScale, fs);
+      coef[3 * f] = r.a;
+      coef[3 * f + 1] = r.b;
+      coef[3 * f + 2] = r.c;
     }
   };
   const formants = [500, 1500, 2500, 3500];

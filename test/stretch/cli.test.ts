@@ -12,7 +12,7 @@ import { runCli, repoRoot, demoPath, dataChunkBytes } from '../helpers/cli.ts';
 import { openAudio, writeAudio } from '../../main/io/index.ts';
 import { MemorySource } from '../../dsp/source.ts';
 import { pluckPhrase } from '../helpers/plucks.ts';
-import { voiceLike } from '../helpers/voice-like.ts';
+import { rosenbergVoice } from '../helpers/voice-like.ts';
 
 const root = repoRoot;
 const demo = demoPath;
@@ -22,7 +22,7 @@ let material: string; // 6 s stereo, 16-bit: plucks on channel 1, voice-like on 
 beforeAll(async () => {
   dir = mkdtempSync(path.join(os.tmpdir(), 'rw-stretch-'));
   material = path.join(dir, 'material.wav');
-  const src = new MemorySource([pluckPhrase(48000, 6), voiceLike(48000, 6, 8)], 48000);
+  const src = new MemorySource([pluckPhrase(48000, 6), rosenbergVoice(48000, 6, 8)], 48000);
   await writeAudio(material, { sampleRateHz: 48000, channelCount: 2, blocks: src.blocks() }, { bitsPerSample: 16, sampleFormat: 'int', dither: false });
 });
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

@@ -13,7 +13,7 @@ import { silentContext } from '../../dsp/ops/types.ts';
 import { ParameterError } from '../../dsp/errors.ts';
 import { FftPlan } from '../../dsp/core/fft.ts';
 import { clickTrain, pluckPhrase } from '../helpers/plucks.ts';
-import { voiceLike } from '../helpers/voice-like.ts';
+import { rosenbergVoice } from '../helpers/voice-like.ts';
 import { gaussian, seededRng } from '../helpers/rng.ts';
 
 const FS = 48000;
@@ -129,12 +129,12 @@ describe('reverse', () => {
 
 describe('reversed-channel detection', () => {
   const pl = pluckPhrase(FS, 8);
-  const vo = voiceLike(FS, 8, 5);
+  const vo = rosenbergVoice(FS, 8, 5);
 
   it('finds the reversed channel in plucked and in voice-like material', async () => {
     // Source: construction — channel 2 is channel material played backwards (exact reversal).
     const lines: string[] = [];
-    for (const [name, x, other] of [['plucks', pl, voiceLike(FS, 8, 6)], ['voice-like', vo, pluckPhrase(FS, 8, 0.25, 4)]] as const) {
+    for (const [name, x, other] of [['plucks', pl, rosenbergVoice(FS, 8, 6)], ['voice-like', vo, pluckPhrase(FS, 8, 0.25, 4)]] as const) {
       const res = await detectReversedChannels(new MemorySource([other, flip(x)], FS));
       lines.push(`${name}: ch1 ${res.channels[0]!.score.toFixed(3)}, ch2 (reversed) ${res.channels[1]!.score.toFixed(3)}`);
       expect(res.channels[1]!.likely).toBe(true);

@@ -9,7 +9,7 @@ import { stretchArrays, TimeStretcher, type StretchFrame } from '../../dsp/stret
 import { ParameterError } from '../../dsp/errors.ts';
 import { fitSine } from '../helpers/sine-fit.ts';
 import { clickTrain, pluckPhrase } from '../helpers/plucks.ts';
-import { voiceLike } from '../helpers/voice-like.ts';
+import { rosenbergVoice } from '../helpers/voice-like.ts';
 import { gaussian, seededRng } from '../helpers/rng.ts';
 import { logSpectralDistanceDb, spectralConvergenceDb, type CapturedFrame } from '../helpers/stft-measures.ts';
 
@@ -46,7 +46,7 @@ describe('time-stretch: identity', () => {
   it('ratio 1 returns the input to rounding error', () => {
     // Source: exact reconstruction of unmodified weighted overlap-add with Hann² at hop N/4
     // (Σw² = 1.5; J. O. Smith, Spectral Audio Signal Processing; REFERENCES §7 "Identity").
-    const x = Float64Array.from(voiceLike(FS, 1.5), (v, i) => v + 0.1 * Math.sin(i * 0.01));
+    const x = Float64Array.from(rosenbergVoice(FS, 1.5), (v, i) => v + 0.1 * Math.sin(i * 0.01));
     const [y] = stretchArrays([x], { sampleRateHz: FS, ratio: 1 });
     expect(y!.length).toBe(x.length);
     expect(maxAbsDiff(y!, x)).toBeLessThan(1e-12);
@@ -196,7 +196,7 @@ describe('time-stretch: STFT consistency and round trip', () => {
     ['C major triad', () => Float64Array.from({ length: 2 * FS }, (_, i) => 0.2 * (Math.sin((2 * Math.PI * 261.63 * i) / FS) + Math.sin((2 * Math.PI * 329.63 * i) / FS) + Math.sin((2 * Math.PI * 392 * i) / FS))), -30],
     ['click train', () => clickTrain(FS, 2, 0.15, 0.25).signal, -60],
     ['plucks', () => pluckPhrase(FS, 2.5), -12],
-    ['voice-like', () => voiceLike(FS, 2.5), -8],
+    ['voice-like', () => rosenbergVoice(FS, 2.5), -8],
     ['white noise', () => Float64Array.from({ length: 2 * FS }, () => 0.1 * g()), -6],
   ];
   it('spectral convergence of the output is below the bound for every test signal', () => {
@@ -221,7 +221,7 @@ describe('time-stretch: STFT consistency and round trip', () => {
     // Source: log-spectral distance (Rabiner & Juang 1993); bound 1.5 dB for 0.8…2 and 3 dB for
     // 0.5 (this implementation measures 0.3–0.7 dB and 2.1 dB). A 1-sample shift of the input
     // scores ≈ 0, a 20 ms shift ≈ 8 dB: the measure is sensitive to misplacement.
-    const x = voiceLike(FS, 3);
+    const x = rosenbergVoice(FS, 3);
     const lines: string[] = [];
     for (const [ratio, bound] of [[0.8, 1.5], [1.25, 1.5], [2, 1.5], [0.5, 3]] as const) {
       const [y] = stretchArrays([x], { sampleRateHz: FS, ratio });
@@ -243,7 +243,7 @@ describe('time-stretch: channels', () => {
   it('keeps the stereo image: a delayed, inverted, halved copy stays exactly that', () => {
     // Source: exact identity — one rotation per bin for all channels, so Y₂ = g·e^{−jωd}·Y₁ up to
     // the window's tolerance of the 0.5 ms delay; cross-correlation lag and level ratio measured.
-    const v = voiceLike(FS, 2);
+    const v = rosenbergVoice(FS, 2);
     const d = 24;
     const right = Float64Array.from(v, (_, i) => (i >= d ? -0.5 * v[i - d]! : 0));
     for (const ratio of [0.8, 1.25, 2]) {
