@@ -52,7 +52,8 @@ export class Progress {
 /** A readable multi-line rendering of a result object for people (the default without --json). */
 export function humanize(value: unknown, indent = ''): string {
   const lines: string[] = [];
-  const fmtNum = (n: number) => (Number.isInteger(n) ? String(n) : Math.abs(n) >= 1000 || Math.abs(n) < 0.001 ? n.toPrecision(6) : n.toFixed(4));
+  // Six significant digits: a delay of 0.0120356 s keeps its sub-sample part, a gain of 0.3464 no trailing zeros.
+  const fmtNum = (n: number) => (Number.isInteger(n) ? String(n) : String(Number(n.toPrecision(6))));
   const walk = (v: unknown, key: string, pad: string) => {
     if (v === null || v === undefined) {
       lines.push(`${pad}${key}: —`);
