@@ -11,7 +11,8 @@
  *    duration ÷factor;
  *  - 60 Hz mains hum (and harmonics) recorded with the programme, so it appears at 60 × factor;
  *  - the 1 kHz line-up tone at the head, appearing at 1000 × factor;
- *  - one reflection from the desk: y = x + g·x(t − τ) on the voice, τ measured in the file;
+ *  - one reflection from the desk: y = x + g·x(t − τ) on the voice (harmonics and breath noise),
+ *    τ measured in the file;
  *  - a small inter-channel delay (head azimuth), channel 2 lagging;
  *  - tape hiss, added at playback (so not speed-scaled).
  *
@@ -120,6 +121,70 @@ function formantGain(f: number): number {
 const HARMONICS = 24;
 const SQRT_K = Float64Array.from({ length: HARMONICS + 1 }, (_, k) => Math.sqrt(k));
 
+/**
+ * Breath noise: a real voice is not only harmonics; air through the glottis adds a noise that
+ * fills the spectrum between them. It is a discrete coloured noise in recorded time (a table at
+ * BREATH_RATE_HZ: white Gaussian through a 2-pole high-pass at 300 Hz and a 1-pole low-pass at
+ * 2.5 kHz), read at any instant by windowed-sinc interpolation, so it is a band-limited function
+ * of continuous time like the rest of the voice and the reflection copies it exactly.
+ */
+const BREATH_RATE_HZ = 24000, BREATH_HALF = 8, BREATH_PHASES = 512;
+let breathTable: Float64Array | null = null;
+let sincTable: Float64Array | null = null;
+
+function buildBreath(seconds: number): void {
+  const n = Math.ceil(seconds * BREATH_RATE_HZ) + 2 * BREATH_HALF + 2;
+  const rng = seededRng(7161);
+  const table = new Float64Array(n);
+  const hp = Math.exp((-2 * Math.PI * 300) / BREATH_RATE_HZ), lp = Math.exp((-2 * Math.PI * 2500) / BREATH_RATE_HZ);
+  let h1 = 0, h2 = 0, xPrev = 0, x2Prev = 0, l = 0, sumSq = 0;
+  for (let i = 0; i < n; i++) {
+    // Box–Muller from the seeded uniform generator.
+    const g = Math.sqrt(-2 * Math.log(1 - rng())) * Math.cos(2 * Math.PI * rng());
+    // Two one-pole high-passes in cascade, then a one-pole low-pass.
+    h1 = hp * (h1 + g - xPrev);
+    xPrev = g;
+    h2 = hp * (h2 + h1 - x2Prev);
+    x2Prev = h1;
+    l = (1 - lp) * h2 + lp * l;
+    table[i] = l;
+    sumSq += l * l;
+  }
+  const rms = Math.sqrt(sumSq / n);
+  for (let i = 0; i < n; i++) table[i] = table[i]! / rms;
+  breathTable = table;
+  // Hann-windowed sinc at BREATH_PHASES + 1 fractional offsets, 2·BREATH_HALF taps each.
+  const taps = 2 * BREATH_HALF;
+  sincTable = new Float64Array((BREATH_PHASES + 1) * taps);
+  for (let p = 0; p <= BREATH_PHASES; p++) {
+    const frac = p / BREATH_PHASES;
+    for (let k = 0; k < taps; k++) {
+      const d = k - (BREATH_HALF - 1) - frac; // tap offset from the reading instant
+      const w = 0.5 + 0.5 * Math.cos((Math.PI * d) / BREATH_HALF);
+      sincTable[p * taps + k] = d === 0 ? 1 : (w * Math.sin(Math.PI * d)) / (Math.PI * d);
+    }
+  }
+}
+
+/** Unit-RMS breath noise at recorded time t ≥ 0. */
+function breathAt(t: number): number {
+  const table = breathTable!, sinc = sincTable!;
+  const pos = t * BREATH_RATE_HZ + BREATH_HALF;
+  const i0 = Math.floor(pos);
+  if (i0 < BREATH_HALF - 1 || i0 + BREATH_HALF + 1 >= table.length) return 0;
+  const phase = (pos - i0) * BREATH_PHASES;
+  const p = Math.floor(phase), mu = phase - p;
+  const taps = 2 * BREATH_HALF;
+  const a = p * taps, b = Math.min(BREATH_PHASES, p + 1) * taps;
+  const first = i0 - (BREATH_HALF - 1);
+  let acc = 0;
+  for (let k = 0; k < taps; k++) acc += table[first + k]! * (sinc[a + k]! + mu * (sinc[b + k]! - sinc[a + k]!));
+  return acc;
+}
+
+/** Breath level: about 20 dB under the harmonic part (measured on the synthesised voice). */
+const BREATH_LEVEL = 0.012;
+
 /** The dry voice at recorded time t (additive, closed form; sin(kφ) by the Chebyshev recurrence). */
 function voiceAt(t: number): number {
   const env = voiceEnvelope(t);
@@ -139,7 +204,9 @@ function voiceAt(t: number): number {
     sPrev = sCur;
     sCur = next;
   }
-  return 0.16 * env * s;
+  // Breath, stronger in the open phase of each glottal cycle.
+  const open = 0.6 + 0.4 * Math.cos(phase);
+  return 0.16 * env * s + BREATH_LEVEL * env * open * breathAt(t);
 }
 
 export interface DemoOptions {
@@ -160,6 +227,7 @@ export function synthesizeDemo(options: DemoOptions = {}): { parameters: DemoPar
   const hum = Math.pow(10, p.humLevelDbfs / 20);
   const tone = Math.pow(10, p.toneLevelDbfs / 20);
   const hissRms = Math.pow(10, p.hissLevelDbfs / 20);
+  if (!breathTable) buildBreath(p.durationSeconds * F + 0.1);
   const channels: Float64Array[] = [];
   for (let c = 0; c < p.channels; c++) {
     const lag = c === 0 ? 0 : p.interChannelDelaySeconds;

@@ -19,6 +19,8 @@
  * z ≥ 10.3 on 6 clips × 3 delays (1.3, 7.77, 23.4 ms). The confidence is the logistic
  * 1/(1 + e^{−(z − 8.5)/0.5}): z = 7 → 0.05, z = 8 → 0.27, z = 8.5 → 0.5, z = 9.2 → 0.8,
  * z = 10.3 → 0.97. `present` means confidence ≥ 0.5. Calibration: test/echo/detect.test.ts.
+ * When the noise floor was left out of the refinement (see analyseEcho), z is scaled by the
+ * programme's share of the peak: |g without the floor| / |g with it|, at most 1.
  */
 import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
@@ -29,7 +31,7 @@ import { fitSingleEcho } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { mixBlock } from './mix.ts';
 import { PrintThroughCollector, refinePrintThrough, searchPrintThrough, type LagCandidate } from './print-through.ts';
-import { type Excerpt, MAX_CANCEL_GAIN, quietFramesGain, refineSingleEcho } from './refine.ts';
+import { type Excerpt, MAX_CANCEL_GAIN, quietAndLoudGains, refineSingleEcho } from './refine.ts';
 
 export const DEFAULT_RANGE_SECONDS: readonly [number, number] = [0.0005, 0.5];
 export const PRINT_THROUGH_RANGE_SECONDS: readonly [number, number] = [0.3, 4];
@@ -65,6 +67,12 @@ export interface ReflectionResult {
    * fits clearly better than the single gain (dsp/echo/filter.ts); null otherwise.
    */
   filter: { firstTapSamples: number; firstTapDelaySeconds: number; taps: number[] } | null;
+  /**
+   * The gain at the same delay in the quietest frames (the noise floor), when it disagreed with
+   * the programme's and the floor was left out of the measurement (hiss added after the
+   * reflection; or, after a cancellation, the inverse echo that hiss then carries); else null.
+   */
+  floorGain: number | null;
 }
 
 export interface PrintThroughResult {
@@ -126,7 +134,14 @@ export function resolveRange(
   return [lo, hi];
 }
 
-const notMeasured = (): ReflectionResult => ({ present: false, delaySeconds: null, gain: null, confidence: 0, z: 0, delayStdSeconds: null, gainStd: null, filter: null });
+const notMeasured = (): ReflectionResult => ({ present: false, delaySeconds: null, gain: null, confidence: 0, z: 0, delayStdSeconds: null, gainStd: null, filter: null, floorGain: null });
+
+/**
+ * Whether the floor's gain q disagrees with the programme's g (quietest and loudest fifth of the
+ * frames): by more than 30 % of the larger of the two and by more than 0.05 (the spread of
+ * either, from a fifth of the frames, on material whose floor does carry the echo).
+ */
+export const floorDisagrees = (q: number, g: number): boolean => Math.abs(q - g) > Math.max(0.3 * Math.max(Math.abs(q), Math.abs(g)), 0.05);
 const noPrintThrough = (): PrintThroughResult => ({ present: false, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
 
 /** Picks the coarse candidate to refine: among significant peaks the strongest, else the most significant. */
@@ -203,36 +218,48 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     const first = fitSingleEcho(cepstra[cand.scale]!, scale.fftSize, { delaySamples: cand.quefrency, gain: cand.amplitude }, { searchSamples: 1.5 });
     let delay = first.delaySamples, gain = first.gain, delayStd = first.delayStdSamples, gainStd = first.gainStd;
     let filter: ReflectionResult['filter'] = null;
-    const confidence = confidenceFromZ(cand.z);
-    if (confidence >= 0.5) {
+    let z = cand.z;
+    let floorGain: number | null = null;
+    if (confidenceFromZ(cand.z) >= 0.5) {
       const cap = Math.max(1, Math.round((options.refineSeconds ?? 20) * fs));
       const { start, end } = chooseExcerpt(energies, fs, source.frames, cap);
       const decay = Math.log(1e-4) / Math.log(Math.max(0.05, Math.min(MAX_CANCEL_GAIN, Math.abs(gain))));
       const excerpt: Excerpt = { start, end, warmup: Math.min(start, Math.ceil(delay * Math.max(1, decay))) };
       let refined = await refineSingleEcho(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal });
-      // Noise added after the reflection (hiss, hum) shows as an echo-free floor in the quiet
-      // frames; then the refinement is redone leaving cells near the floor out (refine.ts,
-      // levelGate), which the floor's inverse ripple would otherwise drag towards g = 0.
-      const quietGain = await quietFramesGain(source, refined.fit.delaySamples, refined.fit.gain, { channel, excerpt, signal: options.signal });
-      if (quietGain !== null && Math.abs(quietGain) < 0.3 * Math.abs(refined.fit.gain)) {
-        refined = await refineSingleEcho(source, { delaySamples: refined.fit.delaySamples, gain: refined.fit.gain }, { channel, excerpt, signal: options.signal, gateNoise: true });
+      // Noise added after the reflection (hiss, hum) does not share the programme's echo: it is
+      // echo-free in the original, and after a cancellation it carries the inverse echo instead.
+      // That shows in the quiet frames (the floor); when their gain disagrees with the loud
+      // frames' (the programme), the refinement is redone leaving cells near the floor out (refine.ts,
+      // levelGate), so the programme's reflection is what is measured, and the detection score is
+      // scaled by the programme's share of the peak it came from.
+      const ungatedGain = refined.fit.gain;
+      const split = await quietAndLoudGains(source, refined.fit.delaySamples, ungatedGain, { channel, excerpt, signal: options.signal });
+      const gateNoise = split !== null && floorDisagrees(split.quiet, split.loud);
+      if (gateNoise) {
+        refined = await refineSingleEcho(source, { delaySamples: refined.fit.delaySamples, gain: ungatedGain }, { channel, excerpt, signal: options.signal, gateNoise });
+        z = cand.z * Math.min(1, Math.abs(refined.fit.gain) / Math.max(1e-9, Math.abs(ungatedGain)));
+        floorGain = split.quiet;
       }
       delay = refined.fit.delaySamples;
       gain = refined.fit.gain;
       delayStd = refined.fit.delayStdSamples;
       gainStd = refined.fit.gainStd;
-      const f = await fitReflectionFilter(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal });
-      if (f) filter = { firstTapSamples: f.kernel.offset, firstTapDelaySeconds: f.kernel.offset / fs, taps: Array.from(f.kernel.taps) };
+      if (confidenceFromZ(z) >= 0.5) {
+        const f = await fitReflectionFilter(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal, gateNoise });
+        if (f) filter = { firstTapSamples: f.kernel.offset, firstTapDelaySeconds: f.kernel.offset / fs, taps: Array.from(f.kernel.taps) };
+      }
     }
+    const confidence = confidenceFromZ(z);
     reflection = {
       present: confidence >= 0.5,
       delaySeconds: delay / fs,
       gain,
       confidence,
-      z: cand.z,
+      z,
       delayStdSeconds: Number.isFinite(delayStd) ? delayStd / fs : null,
       gainStd: Number.isFinite(gainStd) ? gainStd : null,
       filter,
+      floorGain,
     };
   }
   options.progress?.(0.75);

@@ -16,7 +16,7 @@
  */
 import type { AudioSource } from '../source.ts';
 import { type EchoKernel, kernelMaxLag, kernelPeakGain, scaleKernel, singleEchoKernel } from './kernel.ts';
-import { cancelledCepstrum, chooseFraming, MAX_CANCEL_GAIN, type RefineOptions } from './refine.ts';
+import { cancelledCepstrum, chooseFraming, levelGate, MAX_CANCEL_GAIN, type RefineOptions } from './refine.ts';
 
 export interface FilterFit {
   kernel: EchoKernel;
@@ -86,8 +86,12 @@ export async function fitReflectionFilter(
   let kernel = singleEchoKernel(single.delaySamples, g);
   const reflectionEnergy = kernel.taps.reduce((a, t) => a + t * t, 0);
   let first: { chi2: number; misfitRatio: number } | null = null;
+  // With noise added after the reflection (gateNoise, as in the refinement), the cells near the
+  // floor are left out here too: cancelled, that floor carries the inverse ripple, which would
+  // read as a misfit of the single gain and pass for a coloured reflection.
+  const gate = options.gateNoise ? await levelGate(source, framing, options) : null;
   for (let pass = 0; pass < 3; pass++) {
-    const cep = await cancelledCepstrum(source, kernel, framing, options, undefined, false);
+    const cep = await cancelledCepstrum(source, kernel, framing, options, undefined, false, gate);
     if (!cep) return null;
     const { taps, sigma } = residualTaps(cep, c);
     const energy = taps.reduce((a, t) => a + t * t, 0);

@@ -39,6 +39,13 @@ export interface LogSpectrumOptions {
    * never do are filled by interpolation across frequency (see meanLogSpectrum).
    */
   gate?: Float64Array;
+  /**
+   * Compare with the gate not each cell's own level but the mean power of the `gateSmoothBins`
+   * cells around it (default 1: the cell itself). Over one period of an echo's ripple the ripple
+   * averages out, so cells are then chosen independently of the ripple being measured; chosen by
+   * their own level, the cells where the ripple happens to be up pass more often and bias the fit.
+   */
+  gateSmoothBins?: number;
   /** Collect per-band cell levels for noiseGate() (bands of 1/512 of the spectrum). */
   collectLevels?: boolean;
 }
@@ -64,6 +71,9 @@ export class LogSpectrumAccumulator {
   readonly #counts: Float64Array | null;
   readonly #levels: Int32Array | null;
   readonly #frameLog: Float64Array;
+  readonly #gateSmooth: number;
+  /** Prefix sums of the frame's cell powers (for the smoothed gate level). */
+  readonly #powerSums: Float64Array | null;
   #filled = 0;
   #frameIndex = 0;
   #frames = 0;
@@ -93,6 +103,8 @@ export class LogSpectrumAccumulator {
     this.#levels = options.collectLevels ? new Int32Array(GATE_BANDS * LEVEL_STEPS) : null;
     this.#frameLog = new Float64Array(options.accept || options.gate || options.collectLevels ? n / 2 + 1 : 0);
     this.#skip = options.skipSamples ?? 0;
+    this.#gateSmooth = Math.max(1, Math.round(options.gateSmoothBins ?? 1));
+    this.#powerSums = this.#gate && this.#gateSmooth > 1 ? new Float64Array(n / 2 + 2) : null;
   }
 
   /** Frames accumulated so far. */
@@ -176,10 +188,17 @@ export class LogSpectrumAccumulator {
         }
       }
       if (this.#accept && !this.#accept(fl)) return;
-      const gate = this.#gate, counts = this.#counts;
+      const gate = this.#gate, counts = this.#counts, sums = this.#powerSums;
+      const halfW = this.#gateSmooth >> 1, top = n / 2;
+      if (sums) for (let k = 0; k <= top; k++) sums[k + 1] = sums[k]! + s[2 * k]! ** 2 + s[2 * k + 1]! ** 2 + floor;
       for (let k = 0; k <= n / 2; k++) {
         if (gate) {
-          if (fl[k]! < gate[k]!) continue;
+          let level = fl[k]!;
+          if (sums) {
+            const a = Math.max(0, k - halfW), b = Math.min(top, k + halfW);
+            level = Math.log((sums[b + 1]! - sums[a]!) / (b - a + 1));
+          }
+          if (level < gate[k]!) continue;
           counts![k]!++;
         }
         sum[k]! += fl[k]!;

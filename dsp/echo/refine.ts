@@ -23,7 +23,7 @@ import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } from './fit.ts';
-import { type EchoKernel, singleEchoKernel } from './kernel.ts';
+import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { mixBlock } from './mix.ts';
 
@@ -112,13 +112,19 @@ export async function cancelledCepstrum(
     const floor = (energy / n) * 1e-20;
     for (let k = 0; k <= n / 2; k++) meanLog[k] = Math.log(spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + floor);
   } else {
-    // The noise gate measured on y is used as it is, not moved through the cancellation: a
-    // threshold that rippled with log|1 + K|² would select cells by the very ripple being
-    // measured (the mean of the cells above a threshold rises with the threshold) and bias the
-    // fit; on the demo reel the fixed threshold reads g = 0.38 for 0.42, the moved one 0.29.
+    // The noise gate measured on y is used as it is, not moved through the cancellation, and
+    // each cell is compared with it by its level averaged over one period of the echo's ripple
+    // (N/τ bins; LogSpectrumAccumulator's gateSmoothBins). Either way of letting the ripple into
+    // the choice (a threshold that ripples with log|1 + K|², or each cell's own rippled level)
+    // selects cells by the very ripple being measured — the mean of the cells above a threshold
+    // rises with the threshold — and biases the fit towards whatever ripple the floor carries:
+    // on the demo reel (g = 0.42) cells chosen by their own level read 0.404, and after
+    // cancelling, the hiss's inverse echo read as a reflection of −0.05; chosen by the smoothed
+    // level, 0.406 and −0.008.
     const gate = yGate ?? undefined;
+    const gateSmoothBins = gate && kernel ? Math.round(n / Math.max(1, kernelCentroid(kernel))) : 1;
     const run = async (): Promise<LogSpectrumAccumulator> => {
-      const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from, gate });
+      const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from, gate, gateSmoothBins });
       const cancel = kernel ? new EchoCanceller(kernel) : null;
       for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
         if (options.signal?.aborted) break;
@@ -144,8 +150,8 @@ const clampCancel = (g: number) => Math.max(-MAX_CANCEL_GAIN, Math.min(MAX_CANCE
  * no echo, and once the signal is cancelled it carries the *inverse* ripple; left in, it pulls
  * the fit towards a gain between 0 and the true one (the demo reel, whose voice alone has the
  * reflection, read g ≈ 0.035 instead of 0.42). With the gate the averages come from cells where
- * the signal stands well above the noise. It is only used when the quiet frames show the floor
- * to be echo-free (quietFramesGain): a level gate also selects cells by their own level, which
+ * the signal stands well above the noise. It is only used when the quiet frames' echo disagrees
+ * with the loud frames' (quietAndLoudGains): a level gate also selects cells by their level, which
  * costs accuracy on material whose noise does carry the echo.
  */
 export async function levelGate(source: AudioSource, framing: Framing, options: RefineOptions): Promise<Float64Array | null> {
@@ -161,18 +167,24 @@ export async function levelGate(source: AudioSource, framing: Framing, options: 
 }
 
 /**
- * The echo's gain in the quietest fifth of the frames (the noise floor, in pauses), at a known
- * delay, from y without cancellation. When the floor carries the echo (room noise that was
- * reflected too) this is close to the gain found on everything; when the floor was added after
- * the reflection (tape hiss, hum) it is close to 0 — then the gated refinement is the right one.
+ * The echo's gain at a known delay, from y without cancellation, in the quietest fifth of the
+ * frames (the noise floor, in pauses) and in the loudest fifth (the programme). When the floor
+ * carries the echo (room noise that was reflected too) the two agree; when the floor was added
+ * after the reflection (tape hiss, hum) it reads close to 0, and after a cancellation it reads
+ * the inverse echo — then the gated refinement is the right one for the programme.
  */
-export async function quietFramesGain(source: AudioSource, delaySamples: number, gain: number, options: RefineOptions): Promise<number | null> {
+export async function quietAndLoudGains(
+  source: AudioSource,
+  delaySamples: number,
+  gain: number,
+  options: RefineOptions,
+): Promise<{ quiet: number; loud: number } | null> {
   const length = options.excerpt.end - options.excerpt.start;
   const framing = chooseFraming(delaySamples, gain, length);
   if (framing.whole) return null;
   const n = framing.fftSize, hop = n / 2;
   const { start, end } = options.excerpt;
-  // Frame energies first (no transforms), for the 20th-percentile threshold.
+  // Frame energies first (no transforms), for the 20th and 80th percentile thresholds.
   const energies: number[] = [];
   let acc = 0, filled = 0;
   const ring = new Float64Array(n);
@@ -192,24 +204,27 @@ export async function quietFramesGain(source: AudioSource, delaySamples: number,
   }
   if (energies.length < 10) return null;
   const sorted = [...energies].sort((a, b) => a - b);
-  const threshold = sorted[Math.floor(0.2 * sorted.length)]!;
-  if (!(threshold > 0)) return null;
+  const quietMax = sorted[Math.floor(0.2 * sorted.length)]!, loudMin = sorted[Math.floor(0.8 * sorted.length)]!;
+  if (!(quietMax > 0)) return null;
   const plan = sharedPlan(n);
-  const quiet = new LogSpectrumAccumulator({
-    fftSize: n,
-    hopSize: hop,
-    accept: (l) => {
-      let e = 0;
-      for (let k = 0; k < l.length; k++) e += Math.exp(l[k]!);
-      // Σ over the half spectrum ≈ (N/2)·Σ(w·x)² ≈ (N/2)·(3/8)·Σx² for a Hann frame (Parseval);
-      // 20 % slack for the window's weighting of an uneven frame.
-      return e <= threshold * (n / 2) * 0.375 * 1.2;
-    },
-  });
-  for await (const block of source.blocks({ startFrame: start, endFrame: end })) quiet.push(mixBlock(block, options.channel));
-  if (quiet.frames < 3) return null;
-  const data = undoCancellationCepstrum(quiet.meanLogSpectrum(), null, plan);
-  return fitSingleEcho(data, n, { delaySamples, gain: gain * 0.5 }, { windows: fitWindows(delaySamples, gain, n) }).gain;
+  // Σ over the half spectrum ≈ (N/2)·Σ(w·x)² ≈ (N/2)·(3/8)·Σx² for a Hann frame (Parseval);
+  // 20 % slack for the window's weighting of an uneven frame.
+  const frameEnergy = (l: Float64Array) => {
+    let e = 0;
+    for (let k = 0; k < l.length; k++) e += Math.exp(l[k]!);
+    return e / ((n / 2) * 0.375);
+  };
+  const quiet = new LogSpectrumAccumulator({ fftSize: n, hopSize: hop, accept: (l) => frameEnergy(l) <= quietMax * 1.2 });
+  const loud = new LogSpectrumAccumulator({ fftSize: n, hopSize: hop, accept: (l) => frameEnergy(l) >= loudMin * 0.8 });
+  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
+    const mono = mixBlock(block, options.channel);
+    quiet.push(mono);
+    loud.push(mono);
+  }
+  if (quiet.frames < 3 || loud.frames < 3) return null;
+  const fit = (a: LogSpectrumAccumulator) =>
+    fitSingleEcho(undoCancellationCepstrum(a.meanLogSpectrum(), null, plan), n, { delaySamples, gain: gain * 0.5 }, { windows: fitWindows(delaySamples, gain, n) }).gain;
+  return { quiet: fit(quiet), loud: fit(loud) };
 }
 
 /**

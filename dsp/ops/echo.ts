@@ -99,10 +99,17 @@ export const echo: AnalysisOp<EchoAnalysis> = {
         },
       });
     } else {
+      // A floor whose own reflection differs from the programme's (e.g. hiss after an echo was
+      // cancelled carries the inverse echo) is said, so that it is not mistaken for the programme's.
+      const floor =
+        rf.floorGain !== null && Math.abs(rf.floorGain) >= 0.1 && rf.delaySeconds !== null
+          ? ` The quiet stretches alone show one ${(rf.delaySeconds * 1000).toFixed(1)} ms after themselves (gain ${rf.floorGain.toFixed(2)}) that the ` +
+            'programme does not have: noise added after a reflection shows this once the reflection is cancelled; it stays at the level of that noise.'
+          : '';
       out.push({
         op: 'echo',
         title: 'No single strong reflection',
-        sentence: `No single strong reflection was found between ${(r.rangeSeconds[0] * 1000).toFixed(1)} ms and ${(r.rangeSeconds[1] * 1000).toFixed(0)} ms.`,
+        sentence: `No single strong reflection was found between ${(r.rangeSeconds[0] * 1000).toFixed(1)} ms and ${(r.rangeSeconds[1] * 1000).toFixed(0)} ms.${floor}`,
         confidence: 1 - rf.confidence,
         severity: 'ok',
       });

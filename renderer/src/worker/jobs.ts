@@ -72,7 +72,7 @@ export async function remeasure(region: AudioSource, after: AudioSource, steps: 
     seen.add(verb);
     const op = findOperation(verb);
     if (!op || op.kind !== 'analysis') continue;
-    const ctx = { progress: (f: number) => p.progress(f, `Re-measuring ${op.title}`), warn: p.warn, signal: p.signal };
+    const ctx = { progress: (f: number) => p.progress(f, op.title), warn: p.warn, signal: p.signal };
     const measure = async (s: AudioSource) => {
       try {
         return headline(analysisJson(op, await op.run(s, validateParams(op.params, {}), ctx)));
