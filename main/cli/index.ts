@@ -59,6 +59,16 @@ export async function main(argv: string[]): Promise<number> {
   }
 }
 
+/**
+ * A parameter that does not fit the opened file (a range past its end, a channel it lacks) or a
+ * search that found nothing: the one-line message names the file first.
+ */
+function namingFile(e: unknown, filePath: string): unknown {
+  if (e instanceof ParameterError && !e.message.startsWith(filePath)) return new ParameterError(`${filePath}: ${e.message}`);
+  if (e instanceof NotFoundError && !e.message.startsWith(filePath)) return new NotFoundError(`${filePath}: ${e.message}`);
+  return e;
+}
+
 /** Turns an expected failure into one line on stderr and exit 2; anything else is a bug. */
 export function reportError(verb: string, e: unknown): number {
   if (e instanceof InputError) {
@@ -150,6 +160,8 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
     if (json) io.out(toJson(output));
     else io.out(describe(fileLine(info), findings, { ...output, file: undefined, ...(op.name === 'info' ? { chunks: info.chunks.join(' '), audioMd5: info.audioMd5 } : {}) }));
     return 0;
+  } catch (e) {
+    throw namingFile(e, file.path);
   } finally {
     progress.done();
     await file.close();
@@ -215,6 +227,8 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
     if (json) io.out(toJson({ file: source.info, [op.name]: result }));
     else io.out(`${op.title}: wrote ${written.path} (${written.frames} frames, ${(written.frames / rendering.sampleRateHz).toFixed(3)} s, ${written.container}).\n${humanize({ parameters: rendering.resolved })}`);
     return 0;
+  } catch (e) {
+    throw namingFile(e, source.path);
   } finally {
     progress.done();
     await source.close();
@@ -253,6 +267,8 @@ async function runDiagnose(argv: string[]): Promise<number> {
       io.out(describe(fileLine(info), result.findings, {}) + (notes ? `\nNot reported:\n${notes}` : ''));
     }
     return 0;
+  } catch (e) {
+    throw namingFile(e, file.path);
   } finally {
     progress.done();
     await file.close();

@@ -45,6 +45,8 @@ describe('reelwright echo', () => {
       expect(r.code).toBe(2);
       expect(r.out).toBe('');
       expect(r.err.trim().split('\n')).toHaveLength(1);
+      // Source: common practice (the product's bad-input rule) — the line names the file.
+      expect(r.err).toContain(mono);
     }
   });
 });
@@ -64,9 +66,9 @@ describe('reelwright unecho', () => {
   const bad: Array<[string, string[], RegExp]> = [
     ['|g| ≥ 1 by hand', ['--delay', '0.0234', '--gain', '1.2'], /gain|allowed range|−1 < G < 1/],
     ['|g| = 1 exactly', ['--delay', '0.0234', '--gain', '1'], /−1 < G < 1/],
-    ['a delay beyond the file', ['--delay', '9', '--gain', '0.5'], /outside the file/],
-    ['a range beyond the file', ['--range', '0.001:4'], /can be searched|allowed range/],
-    ['a channel a mono file does not have', ['--channel', '2', '--delay', '0.0234', '--gain', '0.5'], /1 channel/],
+    ['a delay beyond the file', ['--delay', '9', '--gain', '0.5'], /\.wav: --delay 9: outside the file/],
+    ['a range beyond the file', ['--range', '0.001:4'], /\.wav: .*can be searched|allowed range/],
+    ['a channel a mono file does not have', ['--channel', '2', '--delay', '0.0234', '--gain', '0.5'], /\.wav: .*1 channel/],
   ];
   for (const [name, args, pattern] of bad) {
     it(`${name}: exit 2, one line, nothing written`, async () => {
