@@ -101,6 +101,23 @@ describe('print-through', () => {
   }
 });
 
+describe('print-through at the ends of its range', () => {
+  // Source: the issue's search range (copies 0.3–4 s away, down to −55 dB); y = x + g·x(t − τ)
+  // made by the DFT shift theorem. 30 s of voice with a quiet floor (−60 dB, a clean transfer):
+  // a −55 dB copy is then above the floor in the pauses, as print-through is heard in practice.
+  const { x } = voiceLike({ sampleRateHz: fs, seconds: 30, seed: 21, noiseDb: -60 });
+  for (const delaySeconds of [-0.4, -3.5, 2.2]) {
+    it(`finds a −55 dB copy ${Math.abs(delaySeconds)} s ${delaySeconds < 0 ? 'before' : 'after'} (±1 ms, ±2 dB)`, async () => {
+      const y = addEchoes(x, [{ delaySamples: delaySeconds * fs, gain: Math.pow(10, -55 / 20) }]);
+      const r = await analyseEcho(new MemorySource([y], fs));
+      expect(r.printThrough.present).toBe(true);
+      expect(Math.abs(r.printThrough.delaySeconds! - delaySeconds)).toBeLessThanOrEqual(0.001);
+      expect(Math.abs(r.printThrough.levelDb! - -55)).toBeLessThanOrEqual(2);
+      expect(r.reflection.present).toBe(false);
+    }, 60_000);
+  }
+});
+
 describe('frequency-dependent reflection', () => {
   it('reports a short filter when one gain does not fit (a lowpass reflection) and cancels with it', async () => {
     // Source: y = x + Σ h_L·x(t − L) with h = (0.15, 0.3, 0.15) at 23.4 ms ± 1 sample — a reflection
