@@ -104,10 +104,11 @@ describe('reflection delay and gain on voice-like material', () => {
         // Source: the target of 35 dB. With the echo given exactly, the canceller alone
         // must reach it. With the echo measured, the residual is about |ĝ − g|/|g|, and the
         // Cramér–Rao bound σ_g (about 0.0014 here) puts −35 dB at the statistical limit for
-        // g = 0.1 on 10 s: the measured case must reach −35 dB or 20·log10(3σ_g/|g|), whichever
-        // is less strict (it only relaxes g = 0.1, to −27.5 dB).
+        // g = 0.1 on 10 s (it needs |ĝ − g| ≤ 0.0018 ≈ 1.3σ_g): the measured case must reach
+        // −35 dB or 20·log10(2σ_g/|g|), whichever is less strict (it only relaxes g = 0.1, to
+        // −31.1 dB; measured: −34.2 dB at 7.77 ms, −37.6 dB or better elsewhere).
         expect(c.givenResidualDb).toBeLessThanOrEqual(-35);
-        expect(c.residualDb).toBeLessThanOrEqual(Math.max(-35, 20 * Math.log10((3 * c.crbGain) / Math.abs(c.g))));
+        expect(c.residualDb).toBeLessThanOrEqual(Math.max(-35, 20 * Math.log10((2 * c.crbGain) / Math.abs(c.g))));
         expect(c.bandDiffDb).toBeLessThanOrEqual(0.1);
       });
     }
