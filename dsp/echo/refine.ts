@@ -180,7 +180,9 @@ export async function quietAndLoudGains(
   options: RefineOptions,
 ): Promise<{ quiet: number; loud: number } | null> {
   const length = options.excerpt.end - options.excerpt.start;
-  const framing = chooseFraming(delaySamples, gain, length);
+  // Frames as short as for a weak echo (8τ): this only has to tell a floor that shares the echo
+  // from one that does not, and the quietest frames have to fit inside the pauses.
+  const framing = chooseFraming(delaySamples, 0, length);
   if (framing.whole) return null;
   const n = framing.fftSize, hop = n / 2;
   const { start, end } = options.excerpt;
