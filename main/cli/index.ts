@@ -69,6 +69,22 @@ function namingFile(e: unknown, filePath: string): unknown {
   return e;
 }
 
+/**
+ * Opens FILE, runs `body` on it and always closes it and the progress line; a parameter that does
+ * not fit the file, or a search that found nothing, is reported with the file's path first.
+ */
+async function usingFile<T>(filePath: string, progress: Progress, body: (file: OpenedAudio) => Promise<T>): Promise<T> {
+  const file = await openAudio(filePath);
+  try {
+    return await body(file);
+  } catch (e) {
+    throw namingFile(e, file.path);
+  } finally {
+    progress.done();
+    await file.close();
+  }
+}
+
 /** Turns an expected failure into one line on stderr and exit 2; anything else is a bug. */
 export function reportError(verb: string, e: unknown): number {
   if (e instanceof InputError) {
@@ -127,8 +143,7 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
   const params = paramsFromFlags(op.params, args.flags);
   const json = args.flags.get('json') === true;
   const progress = new Progress(op.name, args.flags.get('quiet') === true);
-  const file = await openAudio(args.positionals[0]!);
-  try {
+  return usingFile(args.positionals[0]!, progress, async (file) => {
     const facts = factsOf(file);
     if (op.applies && !op.applies(facts)) {
       throw new ParameterError(`${file.path}: ${op.name} does not apply to this file (${facts.channelCount} channel(s), ${facts.sampleRateHz} Hz)`);
@@ -160,12 +175,7 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
     if (json) io.out(toJson(output));
     else io.out(describe(fileLine(info), findings, { ...output, file: undefined, ...(op.name === 'info' ? { chunks: info.chunks.join(' '), audioMd5: info.audioMd5 } : {}) }));
     return 0;
-  } catch (e) {
-    throw namingFile(e, file.path);
-  } finally {
-    progress.done();
-    await file.close();
-  }
+  });
 }
 
 /** Output format: as the source unless --bits/--float say otherwise; dither only when shortening. */
@@ -193,8 +203,7 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
   const params = paramsFromFlags(op.params, args.flags);
   const json = args.flags.get('json') === true;
   const progress = new Progress(op.name, args.flags.get('quiet') === true);
-  const source = await openAudio(inPath);
-  try {
+  return usingFile(inPath, progress, async (source) => {
     const bad = await source.scanNonFinite();
     if (bad > 0) {
       throw new InputError(`${bad} samples are NaN or infinite; refusing to process a damaged file (repair or re-export it first)`, source.path);
@@ -227,12 +236,7 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
     if (json) io.out(toJson({ file: source.info, [op.name]: result }));
     else io.out(`${op.title}: wrote ${written.path} (${written.frames} frames, ${(written.frames / rendering.sampleRateHz).toFixed(3)} s, ${written.container}).\n${humanize({ parameters: rendering.resolved })}`);
     return 0;
-  } catch (e) {
-    throw namingFile(e, source.path);
-  } finally {
-    progress.done();
-    await source.close();
-  }
+  });
 }
 
 /** Float files may hold NaN/Inf samples; the reader counts them (read as 0) and we say so once. */
@@ -254,8 +258,7 @@ async function runDiagnose(argv: string[]): Promise<number> {
   }
   if (args.positionals.length !== 1) throw new ParameterError('expected one FILE (usage: reelwright diagnose FILE [--json])');
   const progress = new Progress('diagnose', args.flags.get('quiet') === true);
-  const file = await openAudio(args.positionals[0]!);
-  try {
+  return usingFile(args.positionals[0]!, progress, async (file) => {
     const result = await diagnose(file, context(progress));
     warnNonFinite(file);
     const info = { ...file.info, audioMd5: await file.audioMd5() };
@@ -267,12 +270,7 @@ async function runDiagnose(argv: string[]): Promise<number> {
       io.out(describe(fileLine(info), result.findings, {}) + (notes ? `\nNot reported:\n${notes}` : ''));
     }
     return 0;
-  } catch (e) {
-    throw namingFile(e, file.path);
-  } finally {
-    progress.done();
-    await file.close();
-  }
+  });
 }
 
 /** "path — BWF, 48000 Hz, 2 ch, 24-bit int, 0:00:24.000". */
