@@ -142,6 +142,7 @@ const notMeasured = (): ReflectionResult => ({ present: false, delaySeconds: nul
  * either, from a fifth of the frames, on material whose floor does carry the echo).
  */
 export const floorDisagrees = (q: number, g: number): boolean => Math.abs(q - g) > Math.max(0.3 * Math.max(Math.abs(q), Math.abs(g)), 0.05);
+
 const noPrintThrough = (): PrintThroughResult => ({ present: false, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
 
 /** Picks the coarse candidate to refine: among significant peaks the strongest, else the most significant. */
@@ -229,9 +230,9 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       // Noise added after the reflection (hiss, hum) does not share the programme's echo: it is
       // echo-free in the original, and after a cancellation it carries the inverse echo instead.
       // That shows in the quiet frames (the floor); when their gain disagrees with the loud
-      // frames' (the programme), the refinement is redone leaving cells near the floor out (refine.ts,
-      // levelGate), so the programme's reflection is what is measured, and the detection score is
-      // scaled by the programme's share of the peak it came from.
+      // frames' (the programme), the refinement is redone leaving cells near the floor out
+      // (refine.ts, levelGate), so the programme's reflection is what is measured, and the
+      // detection score is scaled by the programme's share of the peak it came from.
       const ungatedGain = refined.fit.gain;
       const split = await quietAndLoudGains(source, refined.fit.delaySamples, ungatedGain, { channel, excerpt, signal: options.signal });
       const gateNoise = split !== null && floorDisagrees(split.quiet, split.loud);
