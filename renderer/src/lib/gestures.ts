@@ -1,5 +1,6 @@
 /** Wheel zoom/scroll, drag-to-select and click-to-place on a view of the timeline. */
 import type { Timeline } from '../state/timeline.svelte.ts';
+import { watchSize } from './resize.ts';
 
 export function attachGestures(el: HTMLElement, tl: Timeline): () => void {
   let downX: number | null = null;
@@ -60,4 +61,17 @@ export function drawMarks(ctx: CanvasRenderingContext2D, tl: Timeline, w: number
   }
   const xp = (tl.playhead - tl.start) / spp;
   if (xp >= 0 && xp <= w) { ctx.fillStyle = head; ctx.fillRect(xp, 0, 1.5, h); }
+}
+
+/**
+ * A canvas that shows the timeline: reports its size (lib/resize.ts) and takes the gestures
+ * above; returns one function that undoes both.
+ */
+export function attachTimelineCanvas(el: HTMLElement, tl: Timeline, onSize: (key: number) => void): () => void {
+  const unwatch = watchSize(el, onSize);
+  const off = attachGestures(el, tl);
+  return () => {
+    unwatch();
+    off();
+  };
 }
