@@ -1,13 +1,10 @@
 /** Launching Debian's Chromium through playwright-core, with the flags this machine needs (TOOLCHAIN.md). */
-import fs from 'node:fs';
 import { chromium, type Browser, type Page } from 'playwright-core';
-
-export const CHROMIUM = ['/usr/lib/chromium/chromium', '/usr/bin/chromium'].find((p) => fs.existsSync(p));
+import { CHROMIUM, ensureTool } from '../setup/system-tools.ts';
 
 export async function launch(): Promise<Browser> {
-  if (!CHROMIUM) throw new Error('Chromium is not installed: apt-get install -y chromium');
   return chromium.launch({
-    executablePath: CHROMIUM,
+    executablePath: ensureTool(CHROMIUM),
     args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking',
       '--disable-component-update', '--disable-sync', '--autoplay-policy=no-user-gesture-required'],
   });

@@ -6,6 +6,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { build, preview, type PreviewServer } from 'vite';
 import type { TestProject } from 'vitest/node';
+import { CHROMIUM, ensureTool } from '../setup/system-tools.ts';
 
 declare module 'vitest' {
   export interface ProvidedContext {
@@ -20,7 +21,8 @@ let server: PreviewServer | undefined;
 export async function setup(project: TestProject): Promise<void> {
   const out = path.join(root, 'test-output');
   fs.mkdirSync(path.join(out, 'screenshots'), { recursive: true });
-
+  // A fresh machine has no browser: install Debian's Chromium (root) or stop with one line.
+  ensureTool(CHROMIUM);
 
   await build({ configFile, logLevel: 'warn' });
   server = await preview({ configFile, logLevel: 'warn', preview: { host: '127.0.0.1', port: 0, strictPort: false, open: false } });
