@@ -814,11 +814,12 @@ def impaired_recipes(clean: list) -> list:
     by_id = {c['id']: c for c in clean}
     R = []
 
-    def add(cid, base, steps, desc, fast=False):
+    def add(cid, base, steps, desc, fast=False, reference=None):
+        """reference: step types left out of a reference file (what a correction should give back)."""
         c = by_id[base]
         R.append({'id': cid, 'set': 'impaired', 'split': c['split'], 'kind': c['kind'], 'cleanId': base,
                   'sampleRateHz': c['sampleRateHz'], 'channels': c['channels'], 'steps': steps, 'description': desc,
-                  'fast': fast, 'bits': c['bits'], 'tags': c['tags']})
+                  'fast': fast, 'bits': c['bits'], 'tags': c['tags'], **({'reference': reference} if reference else {})})
 
     def pick(kind=None, split='dev', min_channels=1, tag=None, exclude_tags=('short',)):
         return [c['id'] for c in clean if (kind is None or c['kind'] in kind) and c['split'] == split
@@ -837,7 +838,7 @@ def impaired_recipes(clean: list) -> list:
         mains = 50 if i % 2 else 60
         add(f'speed-hum-{i:02d}-{base}', base, [{'type': 'hum', 'mainsHz': mains, 'levelDbfs': -50.0, 'seed': i},
                                                 {'type': 'speed', 'factor': f}],
-            f'hum {mains} Hz at -50 dBFS, played x{f}', fast=(i in (0, 5)))
+            f'hum {mains} Hz at -50 dBFS, played x{f}', fast=(i in (0, 5)), reference=['speed'])
     for i, base in enumerate(voice + music[1::6]):
         add(f'hum-only-{i:02d}-{base}', base, [{'type': 'hum', 'mainsHz': 50 if i % 2 else 60, 'levelDbfs': -50.0, 'seed': 100 + i}],
             'hum at -50 dBFS, right speed', fast=(i == 0))
@@ -855,7 +856,7 @@ def impaired_recipes(clean: list) -> list:
     for i, base in enumerate(voice[:4] + music[:4]):
         add(f'drift-{i:02d}-{base}', base, [{'type': 'hum', 'mainsHz': 50, 'levelDbfs': -50.0, 'seed': 200 + i},
                                             {'type': 'speedCurve', 'timesSeconds': [0.0, 60.0], 'factors': [1.0, 1.0 + 0.01 * 60 / 20]}],
-            'hum 50 Hz, speed ramping 1.000 -> 1.010 over 20 s')
+            'hum 50 Hz, speed ramping 1.000 -> 1.010 over 20 s', reference=['speedCurve'])
     # Flutter from a 3150 Hz test tone at the head.
     for i, (depth, rate_hz) in enumerate([(0.1, 4.0), (0.05, 1.0), (0.2, 10.0), (0.1, 0.5)]):
         base = voice[i % len(voice)]
@@ -872,20 +873,20 @@ def impaired_recipes(clean: list) -> list:
             g = gains[(i * 3 + j) % len(gains)]
             d_jit = d * (1 + 0.013 * rng.uniform(-1, 1)) if d >= 2 else d
             add(f'reflection-{i:02d}{j}-{base}', base, [{'type': 'reflection', 'delaySeconds': round(d_jit, 6) / 1000, 'gain': g}],
-                f'reflection {d_jit:.3f} ms, gain {g}', fast=(i == 0 and j == 0))
+                f'reflection {d_jit:.3f} ms, gain {g}', fast=(i == 0 and j == 0), reference=['reflection'])
     # Reflections at one and two pitch periods of low notes.
     for base, k in [('piano-low-C2', 'C2'), ('bass-finger-held-C2', 'C2'), ('piano-low-A1', 'A1'), ('organ-As1', 'A#1')]:
         per = 1 / hz(key(k))
         for m, g in [(1, 0.5), (2, -0.4)]:
             add(f'reflection-period{m}-{base}', base, [{'type': 'reflection', 'delaySeconds': m * per, 'gain': g}],
-                f'reflection at {m} period(s) of {k} ({m * per * 1000:.3f} ms), gain {g}')
+                f'reflection at {m} period(s) of {k} ({m * per * 1000:.3f} ms), gain {g}', reference=['reflection'])
     # Reflection plus a faint print-through (which one matters).
     for i, base in enumerate(voice[:3] + music[:3]):
         d = [13.1, 61.3, 24.0, 9.0, 38.0, 120.0][i] / 1000
         add(f'reflection-pt-{i:02d}-{base}', base, [{'type': 'pad', 'beforeSeconds': 2.5, 'afterSeconds': 2.5},
                                                     {'type': 'reflection', 'delaySeconds': d, 'gain': 0.35 if i % 2 == 0 else 0.3},
                                                     {'type': 'printThrough', 'delaySeconds': -1.5, 'levelDb': -50.0}],
-            f'reflection {d * 1000:.1f} ms plus print-through -50 dB 1.5 s before')
+            f'reflection {d * 1000:.1f} ms plus print-through -50 dB 1.5 s before', reference=['reflection'])
     # Print-through before/after a loud entry in silence or hiss.
     pt_levels = [-40.0, -45.0, -50.0, -55.0, -60.0]
     pt_delays = [-0.6, -1.37, -1.5, -2.2, -3.0, 0.9, 1.5, 2.2, 3.0, -1.0]
@@ -988,12 +989,29 @@ def build_impaired(args) -> dict:
             f.write(h)
     with open(steps_path) as f:
         done = json.load(f)
+    ref_path = None
+    if recipe.get('reference'):
+        ref_path = path[:-4] + '.ref.wav'
+        if not (os.path.exists(ref_path) and os.path.exists(ref_path + '.hash') and open(ref_path + '.hash').read() == h):
+            rate, x = read_wav(os.path.join(out_dir, clean_entry['file']))
+            # The same steps with the same realised values, minus the fault the correction removes.
+            kept = [st for st in done if st['type'] not in recipe['reference'] and st['type'] != 'gain']
+            ref, _ = apply_impairments(x, rate, kept)
+            gains = [st['gainDb'] for st in done if st['type'] == 'gain']
+            ref = ref * (10 ** (gains[0] / 20) if gains else 1.0)
+            write_wav(ref_path, rate, ref, 32)
+            with open(ref_path + '.hash', 'w') as f:
+                f.write(h)
     rate, y = read_wav(path)
-    return entry(recipe, path, out_dir, rate, y, truth_of(done, rate, clean_entry['truth']), done)
+    e = entry(recipe, path, out_dir, rate, y, truth_of(done, rate, clean_entry['truth']), done)
+    if ref_path:
+        e['referenceFile'] = os.path.relpath(ref_path, out_dir)
+        e['referenceWithout'] = recipe['reference']
+    return e
 
 
 def entry(recipe: dict, path: str, out_dir: str, rate: int, x: np.ndarray, truth: dict, steps: list) -> dict:
-    e = {k: v for k, v in recipe.items() if k not in ('source', 'steps', 'rmsDbfs', 'leadSeconds')}
+    e = {k: v for k, v in recipe.items() if k not in ('source', 'steps', 'rmsDbfs', 'leadSeconds', 'reference')}
     e.update({'file': os.path.relpath(path, out_dir), 'frames': int(x.shape[0]), 'durationSeconds': x.shape[0] / rate,
               'sampleRateHz': rate, 'channels': int(x.shape[1]), 'truth': truth, 'steps': steps,
               'hash': open(path + '.hash').read()})

@@ -68,6 +68,12 @@ export interface CorpusClip {
   tags: string[];
   /** Part of the quick slice. */
   fast: boolean;
+  /**
+   * Absolute path of the same clip with the faults in `referenceWithout` left out: what a
+   * correction of those faults should give back (e.g. the clip before its reflection was added).
+   */
+  referenceFile?: string;
+  referenceWithout?: string[];
 }
 
 export interface Corpus {
@@ -128,7 +134,11 @@ export async function loadCorpus(options: { fast?: boolean; quiet?: boolean; job
     });
     manifest = read();
   }
-  const clips = manifest.clips.map((c) => ({ ...c, file: path.join(dir, c.file) }));
+  const clips = manifest.clips.map((c) => ({
+    ...c,
+    file: path.join(dir, c.file),
+    ...(c.referenceFile ? { referenceFile: path.join(dir, c.referenceFile) } : {}),
+  }));
   const index = new Map(clips.map((c) => [c.id, c]));
   return { dir, fast, packages: manifest.packages, clips, byId: (id) => index.get(id) };
 }

@@ -19,6 +19,7 @@ function parseArgs(argv: string[]): EvalOptions & { out: string; list: number } 
     else if (a === '--jobs') o.jobs = Number(next());
     else if (a === '--out') o.out = next();
     else if (a === '--list') o.list = Number(next());
+    else if (a === '--no-corrections') o.corrections = false;
     else throw new Error(`unknown option ${a} (see the header of test/eval/run.ts)`);
   }
   return o;

@@ -7,18 +7,23 @@
  *   npm run eval -- --split holdout       # only material the estimators were not tuned on
  *   npm run eval -- --match piano         # only clips whose id contains the text
  *   npm run eval -- --jobs 2 --out eval-output/eval.json --list 10
+ *   npm run eval -- --no-corrections      # analyses only
  *
  * For each analysis it prints false alarms on the clean set (and on impaired clips that do not
  * carry that fault), the detection rate and error statistics where the fault is present, and the
- * confidence calibration; JSON with every judgement goes to eval-output/eval.json.
+ * confidence calibration; JSON with every judgement goes to eval-output/eval.json. The corrections
+ * section runs unecho and varispeed, as a user would with no settings but the mains frequency, on
+ * impaired clips and measures each output against the clip's reference (the same clip without the
+ * fault; test/eval/measures.ts).
  */
 import path from 'node:path';
 import { loadCorpus, type CorpusClip } from '../corpus/index.ts';
 import { TaskPool } from './pool.ts';
 import { scorers } from './score/index.ts';
 import { summarise, wilson } from './stats.ts';
-import type { ClipResult, Judgement, Scorer } from './types.ts';
-import type { DiagnoseTask } from './worker.ts';
+import type { ClipResult, CorrectionResult, Judgement, Scorer } from './types.ts';
+import type { CorrectTask, DiagnoseTask } from './worker.ts';
+import type { ParamValues } from '../../dsp/ops/types.ts';
 
 export interface EvalOptions {
   fast?: boolean;
@@ -27,6 +32,29 @@ export interface EvalOptions {
   match?: string;
   jobs?: number;
   quiet?: boolean;
+  /** Run the corrections section too (default true). */
+  corrections?: boolean;
+}
+
+/** A correction applied to an impaired clip and measured against its reference. */
+interface CorrectionCase {
+  clip: CorpusClip;
+  group: string;
+  bars: string;
+  op: string;
+  params: ParamValues;
+  measure: 'echo' | 'speed';
+}
+
+export interface CorrectionGroupReport {
+  group: string;
+  bars: string;
+  cases: number;
+  failed: { id: string; error: string }[];
+  metrics: Record<string, ReturnType<typeof summarise>>;
+  /** Cases meeting the bar, and the listing of the worst. */
+  meetingBar: Rate;
+  worst: { id: string; metrics: Record<string, number>; resolved: Record<string, unknown>; description: string }[];
 }
 
 export interface ScorerReport {
@@ -48,6 +76,7 @@ export interface EvalReport {
   cpuSeconds: { total: number; median: number; worst: { id: string; seconds: number } };
   errors: { id: string; error: string }[];
   scorers: ScorerReport[];
+  corrections: CorrectionGroupReport[];
   calibration: CalibrationRow[];
   judgements: Record<string, Record<string, Judgement | null>>;
 }
@@ -95,6 +124,58 @@ function scoreOne(scorer: Scorer, clips: CorpusClip[], judged: Map<string, Judge
   };
 }
 
+function correctionCases(clips: readonly CorpusClip[]): CorrectionCase[] {
+  const out: CorrectionCase[] = [];
+  for (const clip of clips) {
+    if (!clip.referenceFile) continue;
+    const without = clip.referenceWithout ?? [];
+    const r = clip.truth.reflection;
+    if (without.includes('reflection') && r && Math.abs(r.gain) >= 0.2 && Math.abs(r.gain) <= 0.9 && r.delaySeconds >= 0.001 && r.delaySeconds <= 0.3) {
+      out.push({
+        clip,
+        group: clip.truth.printThrough ? 'unecho, reflection and a faint print-through' : 'unecho, one reflection',
+        bars: 'echo energy reduced ≥ 30 dB in every case, ≥ 35 dB median; programme band within ±0.5 dB; the reflection is cancelled first',
+        op: 'unecho',
+        params: {},
+        measure: 'echo',
+      });
+    }
+    if (without.includes('speed') && clip.truth.hum) {
+      out.push({ clip, group: 'varispeed --from-hum', bars: 'residual speed error ≤ 0.02 % over the whole file', op: 'varispeed',
+        params: { fromHum: String(clip.truth.hum.mainsHz) }, measure: 'speed' });
+    }
+    if (without.includes('speedCurve') && clip.truth.hum) {
+      out.push({ clip, group: 'varispeed --from-hum --follow-curve (drift)', bars: 'residual speed error ≤ 0.02 % over the whole file, edges included', op: 'varispeed',
+        params: { fromHum: String(clip.truth.hum.mainsHz), followCurve: true }, measure: 'speed' });
+    }
+  }
+  return out;
+}
+
+function correctionReport(cases: CorrectionCase[], results: Map<string, CorrectionResult>): CorrectionGroupReport[] {
+  const groups = [...new Set(cases.map((c) => c.group))];
+  return groups.map((group) => {
+    const cs = cases.filter((c) => c.group === group);
+    const rs = cs.map((c) => ({ c, r: results.get(`${c.clip.id} ${c.op}`)! }));
+    const ok = rs.filter((x) => x.r && !x.r.error);
+    const keys = [...new Set(ok.flatMap((x) => Object.keys(x.r.metrics)))];
+    const metrics = Object.fromEntries(keys.map((k) => [k, summarise(ok.map((x) => x.r.metrics[k]!).filter(Number.isFinite))]));
+    const meets = (m: Record<string, number>) =>
+      cs[0]!.measure === 'echo' ? m.reductionDb! <= -30 && m.bandDeviationDb! <= 0.5 : m.maxPercent! <= 0.02;
+    const badness = (m: Record<string, number>) => (cs[0]!.measure === 'echo' ? m.reductionDb! : m.maxPercent!);
+    const sorted = [...ok].sort((a, b) => badness(b.r.metrics) - badness(a.r.metrics));
+    return {
+      group,
+      bars: cs[0]!.bars,
+      cases: cs.length,
+      failed: rs.filter((x) => !x.r || x.r.error).map((x) => ({ id: x.c.clip.id, error: x.r?.error ?? 'no result' })),
+      metrics,
+      meetingBar: rate(ok.filter((x) => meets(x.r.metrics)).length, cs.length),
+      worst: sorted.slice(0, 8).map((x) => ({ id: x.c.clip.id, metrics: x.r.metrics, resolved: x.r.resolved, description: x.c.clip.description })),
+    };
+  });
+}
+
 export async function evaluate(options: EvalOptions = {}): Promise<EvalReport> {
   const corpus = await loadCorpus({ fast: options.fast, quiet: options.quiet, jobs: options.jobs });
   let clips = corpus.clips;
@@ -104,19 +185,32 @@ export async function evaluate(options: EvalOptions = {}): Promise<EvalReport> {
   const needed = new Set(clips.map((c) => c.id));
   for (const c of clips) if (c.cleanId) needed.add(c.cleanId);
   const run = corpus.clips.filter((c) => needed.has(c.id));
-  const pool = new TaskPool<DiagnoseTask, ClipResult>(path.join('test/eval/worker.ts'), options.jobs ?? 2);
+  const pool = new TaskPool<DiagnoseTask | CorrectTask, ClipResult | CorrectionResult>(path.join('test/eval/worker.ts'), options.jobs ?? 2);
   const results = new Map<string, ClipResult>();
+  const corrected = new Map<string, CorrectionResult>();
+  const cases = options.corrections === false ? [] : correctionCases(clips).filter((c) => !options.only || options.only.includes(c.op));
+  const analysesToRun = options.only && options.only.every((o) => cases.some((c) => c.op === o)) ? [] : run;
   let done = 0;
+  const total = analysesToRun.length + cases.length;
   const t0 = Date.now();
+  const tick = () => {
+    done++;
+    if (!options.quiet && process.stderr.isTTY) process.stderr.write(`\reval: ${done}/${total} tasks, ${((Date.now() - t0) / 1000).toFixed(0)} s`);
+  };
   try {
-    await Promise.all(
-      run.map(async (c) => {
-        const r = await pool.run({ task: 'diagnose', id: c.id, file: c.file, ...(options.only ? { only: options.only } : {}) } as DiagnoseTask);
-        results.set(c.id, r);
-        done++;
-        if (!options.quiet && process.stderr.isTTY) process.stderr.write(`\reval: ${done}/${run.length} clips, ${((Date.now() - t0) / 1000).toFixed(0)} s`);
+    await Promise.all([
+      ...analysesToRun.map(async (c) => {
+        const r = await pool.run({ task: 'diagnose', id: c.id, file: c.file, ...(options.only ? { only: options.only } : {}) });
+        results.set(c.id, r as ClipResult);
+        tick();
       }),
-    );
+      ...cases.map(async (c) => {
+        const id = `${c.clip.id} ${c.op}`;
+        const r = await pool.run({ task: 'correct', id, file: c.clip.file, referenceFile: c.clip.referenceFile!, op: c.op, params: c.params, measure: c.measure });
+        corrected.set(id, r as CorrectionResult);
+        tick();
+      }),
+    ]);
   } finally {
     pool.close();
   }
@@ -143,6 +237,7 @@ export async function evaluate(options: EvalOptions = {}): Promise<EvalReport> {
     cpuSeconds: { total: cpu.reduce((a, b) => a + b, 0), median: summarise(cpu).median, worst: { id: worst.id, seconds: worst.cpuSeconds } },
     errors: [...results.values()].filter((r) => r.error).map((r) => ({ id: r.id, error: r.error! })),
     scorers: reports,
+    corrections: correctionReport(cases, corrected),
     calibration: calibrationTable(allCalibration),
     judgements,
   };
@@ -174,6 +269,16 @@ export function formatReport(rep: EvalReport, list = 6): string {
       if (s.falseAlarmList.length > list) out.push(`    … ${s.falseAlarmList.length - list} more false alarms`);
       for (const x of s.missList.slice(0, list)) out.push(`    miss:  ${x.id} — ${x.note ?? ''}`);
       if (s.missList.length > list) out.push(`    … ${s.missList.length - list} more misses`);
+    }
+  }
+  for (const g of rep.corrections) {
+    out.push('', `── correction: ${g.group} ── bars: ${g.bars}`);
+    out.push(`  cases ${g.cases}, meeting the bar ${pct(g.meetingBar)}` + (g.failed.length ? `, failed to run ${g.failed.length}` : ''));
+    for (const [k, e] of Object.entries(g.metrics)) out.push(`  ${k.padEnd(22)} n ${e.n}  median ${num(e.median)}  p95 ${num(e.p95)}  worst ${num(e.worst)}`);
+    for (const f of g.failed.slice(0, list)) out.push(`    failed: ${f.id} — ${f.error}`);
+    for (const w of g.worst.slice(0, list)) {
+      const m = Object.entries(w.metrics).map(([k, v]) => `${k} ${num(v)}`).join(', ');
+      out.push(`    ${w.id} (${w.description}): ${m}; used ${JSON.stringify(w.resolved)}`);
     }
   }
   out.push('', '── calibration over every analysis (the bar: of claims with confidence ≥ 0.9, ≥ 99 % true) ──');

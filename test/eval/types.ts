@@ -51,3 +51,14 @@ export interface Scorer {
   /** null when the clip says nothing about this fault (e.g. azimuth on a mono clip). */
   judge(clip: CorpusClip, result: ClipResult, ctx: ScoreContext): Judgement | null;
 }
+
+/** One correction run on an impaired clip, measured against its reference (test/eval/measures.ts). */
+export interface CorrectionResult {
+  id: string;
+  metrics: Record<string, number>;
+  /** Parameters the correction used (after measuring): what it cancelled, which factor… */
+  resolved: Record<string, unknown>;
+  warnings: string[];
+  cpuSeconds: number;
+  error?: string;
+}
