@@ -10,9 +10,9 @@ import {
   type RawChunk,
 } from '../../../dsp/formats/index.ts';
 import { MemorySource, readAll } from '../../../dsp/source.ts';
-import type { ParamValues, Rendering } from '../../../dsp/ops/types.ts';
+import type { Rendering } from '../../../dsp/ops/types.ts';
 import type { FileSource } from './file-source.ts';
-import { correctionOf, renderInMemory, streamingRendering, type Progress } from './pipeline.ts';
+import { renderInMemory, streamingRendering, type Progress, type StepReport } from './pipeline.ts';
 import type { Job, JobResults } from './protocol.ts';
 
 type ExportJob = Extract<Job, { type: 'export' }>;
@@ -27,16 +27,16 @@ const WRITE_BYTES = 4 << 20;
 export async function exportFile(source: FileSource, sourceHandle: string, read: Read, write: Write, job: ExportJob, p: Progress): Promise<JobResults['export']> {
   const layout = source.layout;
   let rendering: Rendering;
-  let resolved: ParamValues[];
+  let reports: StepReport[];
   const renderProgress: Progress = { progress: (f, l) => p.progress(0.5 * f, l), warn: p.warn, signal: p.signal };
   if (layout.frames * layout.channels <= IN_MEMORY_SAMPLES) {
     const whole = new MemorySource(await readAll(source), source.sampleRateHz);
     const r = await renderInMemory(whole, job.steps, renderProgress);
-    resolved = r.resolved;
+    reports = r.reports;
     rendering = { sampleRateHz: r.out.sampleRateHz, channelCount: r.out.channelCount, framesHint: r.out.frames, blocks: r.out.blocks(), resolved: {} };
   } else {
     const r = await streamingRendering(source, job.steps, renderProgress);
-    resolved = r.resolved;
+    reports = r.reports;
     rendering = r.rendering;
   }
   const fmt = job.format;
@@ -44,9 +44,7 @@ export async function exportFile(source: FileSource, sourceHandle: string, read:
 
   // The record of what was done: one line per step, then the export itself.
   let added = '';
-  job.steps.forEach((s, k) => {
-    added += codingHistoryLine({ ...out, text: correctionOf(s.op).history({ ...s.params, ...resolved[k] }) });
-  });
+  for (const r of reports) added += codingHistoryLine({ ...out, text: r.history });
   added += codingHistoryLine({ ...out, text: `reelwright export${fmt.dither && fmt.sampleFormat === 'int' ? ' with TPDF dither' : ''}` });
   let history = layout.bext?.codingHistory ?? '';
   if (!history) history = codingHistoryLine({ sampleRateHz: layout.sampleRateHz, bitsPerSample: layout.bitsPerSample, sampleFormat: layout.sampleFormat, channels: layout.channels, text: 'source as received' });

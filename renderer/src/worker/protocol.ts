@@ -9,6 +9,16 @@ export type Which = 'original' | 'processed';
 export interface StepSpec {
   readonly op: string;
   readonly params: ParamValues;
+  /**
+   * What its delays and positions refer to: 'original' (default; measured on the original
+   * recording or read off its time line, carried across earlier steps that change time) or
+   * 'input' (the step's own input, used as they are).
+   */
+  readonly basis?: 'original' | 'input';
+  /** Leave out what the step measures itself, so it measures on its own input. */
+  readonly measureHere?: boolean;
+  /** Limit the step to this part of the original recording (seconds), crossfaded at its edges. */
+  readonly rangeSeconds?: readonly [number, number] | null;
 }
 
 export interface FileRef {
