@@ -14,6 +14,7 @@ export const reverse: CorrectionOp = {
   name: 'reverse',
   title: 'Reverse',
   summary: 'Play the whole file, a time range, or chosen channels backwards (bit-exact).',
+  measures: 'reversed',
   params: [
     { name: 'channels', flag: 'channels', type: 'list', label: 'Channels', help: 'Channels to reverse, counted from 1, comma-separated (default: all).', min: 1 },
     { name: 'fromSeconds', flag: 'from', type: 'number', label: 'From', help: 'Start of the range to reverse (default: the start).', unit: 's', min: 0, quantity: 'instant' },
