@@ -3,9 +3,11 @@
  * the 'data' chunk, offset in sample frames) and the `LIST` chunk of type `adtl` holding a `labl`
  * sub-chunk (identifier, zero-terminated text) for each named cue point. Layout as in Microsoft's
  * "Multimedia Programming Interface and Data Specifications 1.0" (1991), §3 "cue-ck" and
- * "assoc-data-list"; EBU Tech 3285 (BWF) carries them unchanged. Pure byte code.
+ * "assoc-data-list"; EBU Tech 3285 (BWF) carries them unchanged. Labels are Latin-1, as the bext
+ * fields are (a character outside it is written as '?'). Pure byte code.
  */
 import { InputError } from '../errors.ts';
+import { latin1Bytes, readAsciiField } from './bytes.ts';
 
 export interface CuePoint {
   /** dwIdentifier, unique in the file (1, 2, …). */
@@ -39,8 +41,7 @@ export function buildCueChunk(points: readonly CuePoint[]): Uint8Array {
 
 /** The `LIST` payload (type `adtl`) with one `labl` per point that has a label. */
 export function buildAdtlList(points: readonly CuePoint[]): Uint8Array {
-  const enc = new TextEncoder();
-  const parts = points.filter((p) => p.label !== '').map((p) => ({ id: p.id, text: enc.encode(p.label) }));
+  const parts = points.filter((p) => p.label !== '').map((p) => ({ id: p.id, text: latin1Bytes(p.label) }));
   const size = 4 + parts.reduce((n, p) => { const s = 4 + p.text.length + 1; return n + 8 + s + (s & 1); }, 0);
   const b = new Uint8Array(size);
   putFourcc(b, 0, 'adtl');
@@ -66,15 +67,12 @@ export function parseCuePoints(cue: Uint8Array, adtl: Uint8Array | null, name = 
   if (4 + 24 * n > cue.length) throw new InputError(`the cue chunk says ${n} points but holds ${Math.floor((cue.length - 4) / 24)}`, name);
   const labels = new Map<number, string>();
   if (adtl && isAdtlList(adtl)) {
-    const dec = new TextDecoder();
     for (let at = 4; at + 8 <= adtl.length;) {
       const id = fourcc(adtl, at), size = u32(adtl, at + 4);
       if (at + 8 + size > adtl.length) break;
       if ((id === 'labl' || id === 'note') && size >= 4) {
         const cueId = u32(adtl, at + 8);
-        let end = at + 12;
-        while (end < at + 8 + size && adtl[end] !== 0) end++;
-        if (id === 'labl' || !labels.has(cueId)) labels.set(cueId, dec.decode(adtl.subarray(at + 12, end)));
+        if (id === 'labl' || !labels.has(cueId)) labels.set(cueId, readAsciiField(adtl, at + 12, size - 4));
       }
       at += 8 + size + (size & 1);
     }

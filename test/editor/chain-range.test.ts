@@ -6,7 +6,7 @@ import { describe, expect, it } from 'vitest';
 import { WaveFile } from 'wavefile';
 import { MemorySource, readAll } from '../../dsp/source.ts';
 import { mapTime } from '../../dsp/ops/timing.ts';
-import { parseCuePoints } from '../../dsp/formats/cue.ts';
+import { buildAdtlList, buildCueChunk, parseCuePoints } from '../../dsp/formats/cue.ts';
 import { renderInMemory, RANGE_FADE_SECONDS } from '../../renderer/src/worker/pipeline.ts';
 import { fileMarkers } from '../../renderer/src/worker/markers.ts';
 import { exportInMemory, memoryFileSource } from '../helpers/editor-export.ts';
@@ -108,7 +108,13 @@ describe('markers as BWF cue points', () => {
     expect(ids.filter((x) => x === 'cue ').length).toBe(1);
   });
 
-  it('parses what it builds and refuses a cue chunk shorter than its count', () => {
+  it('parses what it builds (odd and even label lengths, an unlabelled point) and refuses a cue chunk shorter than its count', () => {
+    // Source: the cue/adtl layout of the RIFF specification (24-byte cue points; labl = id + zero-terminated text, padded to even).
+    const points = [{ id: 1, frame: 0, label: 'Tone' }, { id: 2, frame: 48000 * 61, label: 'Ada, 2nd reel' }, { id: 3, frame: 123456789, label: '' }];
+    const cue = buildCueChunk(points), adtl = buildAdtlList(points);
+    expect(cue.length).toBe(4 + 24 * 3);
+    expect(adtl.length % 2).toBe(0);
+    expect(parseCuePoints(cue, adtl)).toEqual(points);
     expect(() => parseCuePoints(Uint8Array.from([5, 0, 0, 0, 1, 2]), null, 'x.wav')).toThrow(/says 5 points/);
   });
 });

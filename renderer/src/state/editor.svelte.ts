@@ -36,7 +36,7 @@ export class Editor {
   peaks = $state.raw<PeakPyramid | null>(null);
   corrected = $state.raw<{ peaks: PeakPyramid; offsetSeconds: number; preview: PreviewResult; version: number; placement: Placement } | null>(null);
   /** What Compare measured, on both time lines (seconds). */
-  compared = $state.raw<{ original: { start: number; end: number }; corrected: { start: number; end: number } | null } | null>(null);
+  compared = $state.raw<{ what: 'selection' | 'previewed part'; original: { start: number; end: number }; corrected: { start: number; end: number } | null } | null>(null);
   diagnosis = $state.raw<DiagnoseResult | null>(null);
   spectra = $state.raw<SpectrumPair | null>(null);
   remeasures = $state.raw<Remeasure[] | null>(null);
@@ -323,19 +323,27 @@ export class Editor {
     const r = c ? { start: c.preview.startFrame / rate, end: c.preview.endFrame / rate } : { start: 0, end: this.opened.layout.frames / rate };
     const sel = this.timeline.selection;
     const selOrig = sel ? [this.toOriginal(sel.start), this.toOriginal(sel.end)].sort((x, y) => x - y) as [number, number] : null;
-    const original = selOrig && selOrig[0] >= r.start - 1e-6 && selOrig[1] <= r.end + 1e-6 ? { start: selOrig[0], end: selOrig[1] } : r;
+    const inside = selOrig !== null && selOrig[0] >= r.start - 1e-6 && selOrig[1] <= r.end + 1e-6;
+    const original = inside ? { start: selOrig[0], end: selOrig[1] } : r;
     const m = c ? [toCorrected(c.placement, original.start), toCorrected(c.placement, original.end)].sort((x, y) => x - y) : null;
     const corrected = m ? { start: m[0]!, end: m[1]! } : null;
-    this.compared = { original, corrected };
+    this.compared = { what: inside ? 'selection' : 'previewed part', original, corrected };
     const steps = this.specs();
     try {
       this.spectra = await this.#track('Spectra', (p) => work.run({
         type: 'spectra', startFrame: Math.round(original.start * rate), endFrame: Math.round(original.end * rate),
         ...(corrected ? { afterStartSeconds: corrected.start, afterEndSeconds: corrected.end } : {}),
       }, { progress: p }));
-      if (this.corrected) this.remeasures = await this.#track('Re-measuring', (p) => work.run({ type: 'remeasure', steps }, { progress: p }));
+      // Each step is measured again over the whole preview, once per rendering (a new selection changes only the spectra).
+      const c2 = this.corrected;
+      if (c2 && this.#remeasuredFor !== c2) {
+        this.remeasures = null;
+        const r = await this.#track('Re-measuring', (p) => work.run({ type: 'remeasure', steps }, { progress: p }));
+        if (this.corrected === c2) { this.remeasures = r; this.#remeasuredFor = c2; }
+      }
     } catch (e) { this.#fail('Compare')(e); }
   };
+  #remeasuredFor: unknown = null;
 
   exportTo = async (name: string, format: ExportFormat): Promise<boolean> => {
     const work = this.work, f = this.file;
