@@ -83,3 +83,20 @@ describe('the programme apart from a line-up tone', () => {
     expect([plain.startFrame, plain.endFrame]).toEqual([0, v.x.length]);
   });
 });
+
+describe('re-measuring a reverse with the real detector', () => {
+  it('judges the reversed channel by its reversal score, forwards after the fix', async () => {
+    // Plucked strings decay slowly after a sharp attack (Fletcher & Rossing §2–3): forwards in
+    // channel 1, backwards in channel 2 (a quarter-track reel transferred in one pass).
+    const { pluckPhrase } = await import('../helpers/plucks.ts');
+    const { remeasure } = await import('../../renderer/src/worker/jobs.ts');
+    const rate = 48000;
+    const fwd = pluckPhrase(rate, 8);
+    const src = new MemorySource([fwd, Float64Array.from(fwd).reverse()], rate);
+    const [m] = await remeasure(src, 0, [{ op: 'reverse', params: { channels: [2] }, suggestedBy: 'reversed' }], { progress() {}, warn() {}, signal: { aborted: false } });
+    expect(m!.rows.length).toBe(1);
+    expect(m!.rows[0]!.outcome).toBe('fixed');
+    expect(verdictText(m!.rows[0]!)).toMatch(/^Channel 2 reversal score 0\.\d\d \(plays backwards\) → -0\.\d\d \(plays forwards\): fixed$/);
+    expect(m!.material).toMatch(/^channel 2/);
+  });
+});
