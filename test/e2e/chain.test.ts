@@ -136,6 +136,13 @@ describe('a chain of corrections on the demo', () => {
     await page.waitForTimeout(800);
     await page.screenshot({ path: path.join(shots, '14-compare-selection.png') });
 
+    // Point 4: a step limited to the selection says so on its card (and undoes in one step).
+    await echoCard.getByTestId('step-limit').click();
+    await expect(echoCard.getByTestId('step-range').textContent()).resolves.toMatch(/^0:07\.\d{3}–0:10\.\d{3}$/);
+    await expect(echoCard.locator('[data-testid=step-timing][data-kind=range]').textContent()).resolves.toMatch(/10 ms crossfades/);
+    await page.locator('body').press('Control+z');
+    await echoCard.getByTestId('step-range').waitFor({ state: 'detached' });
+
     // Point 4: a marker, named, exported as a cue point where the correction moves it.
     await clickWave(0.25);
     const markAt = await playhead();
