@@ -1,6 +1,8 @@
 /**
  * `reversed FILE`: per channel, does it play backwards? Scores the asymmetry of onsets and decays
  * (dsp/reverse/detect.ts): natural sounds rise fast and decay slowly, reversed ones swell and stop.
+ * A channel whose evidence is thin or contradictory gets `likely: null` and a "not determined"
+ * finding with the reason and no fix.
  */
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD, detectReversedChannels, type ReversedResult } from '../reverse/detect.ts';
 import type { AnalysisOp, Finding } from './types.ts';
@@ -20,29 +22,48 @@ export const reversed: AnalysisOp<ReversedResult> = {
   },
   findings(result) {
     const out: Finding[] = [];
+    const evidence = (ch: ReversedResult['channels'][number]) =>
+      ch.basis === 'many-events'
+        ? `${ch.likely ? ch.abruptStops : ch.abruptStarts} hard ${ch.likely ? 'stops' : 'starts'} against ${ch.likely ? ch.abruptStarts : ch.abruptStops} hard ${ch.likely ? 'starts' : 'stops'}`
+        : ch.basis === 'long-swell'
+          ? 'one long swell straight into a hard stop, the shape of a decaying note played backwards'
+          : `${ch.swellsIntoStops ?? 0} swell${ch.swellsIntoStops === 1 ? '' : 's'} straight into hard stops and no hard start`;
     for (const ch of result.channels) {
-      if (ch.likely) {
+      if (ch.likely === true) {
         out.push({
           op: 'reversed',
           title: `Channel ${ch.channel} plays backwards`,
-          sentence: `Channel ${ch.channel} swells into its sounds and stops them abruptly — the signature of a recording played in reverse (score ${ch.score.toFixed(2)}, ${ch.abruptStops} abrupt stops against ${ch.abruptStarts} abrupt starts; forward material scores below 0).`,
+          sentence: `Channel ${ch.channel} swells into its sounds and stops them abruptly — the signature of a recording played in reverse (score ${ch.score.toFixed(2)}; ${evidence(ch)}).`,
           value: ch.score,
-          confidence: Math.min(1, ch.score),
+          confidence: ch.confidence ?? Math.min(1, ch.score),
           severity: 'warn',
           suggestion: { op: 'reverse', params: { channels: [ch.channel] } },
         });
       }
     }
-    if (out.length === 0) {
-      const judged = result.channels.filter((c) => c.activeSeconds >= REVERSED_MIN_ACTIVE_SECONDS);
+    const unknown = result.channels.filter((c) => c.likely === null);
+    for (const ch of unknown) {
+      const why =
+        ch.basis === 'too-little-sound'
+          ? `less than ${REVERSED_MIN_ACTIVE_SECONDS} s of sound loud enough to judge`
+          : ch.basis === 'no-hard-edges'
+            ? 'its sounds neither start nor stop abruptly (sustained or steady material), so their shape does not tell the direction'
+            : ch.basis === 'cues-disagree'
+              ? `its level steps lean one way (skew ${(ch.skew ?? ch.score).toFixed(2)}) but its hard starts and stops (${ch.abruptStarts} and ${ch.abruptStops}) do not agree — slow attacks with quick releases (winds, bowed strings, organ, fades) look like this either way round`
+              : `too few independent sounds agree (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops, skew ${(ch.skew ?? ch.score).toFixed(2)})`;
       out.push({
         op: 'reversed',
-        title: judged.length > 0 ? 'No channel plays backwards' : 'Too little material to judge direction',
-        sentence:
-          judged.length > 0
-            ? `No channel shows the swell-then-stop shape of sound played backwards (scores ${result.channels.map((c) => c.score.toFixed(2)).join(', ')}; ${REVERSED_SCORE_THRESHOLD} or more would mean reversed, below 0 reads as forward).`
-            : `Less than ${REVERSED_MIN_ACTIVE_SECONDS} s of sound loud enough to tell whether a channel plays backwards.`,
-        severity: judged.length > 0 ? 'ok' : 'info',
+        title: `Direction of channel ${ch.channel} not determined`,
+        sentence: `Whether channel ${ch.channel} plays backwards is not determined: ${why}. Listen to it.`,
+        severity: 'info',
+      });
+    }
+    if (out.length === 0) {
+      out.push({
+        op: 'reversed',
+        title: 'No channel plays backwards',
+        sentence: `Every channel starts its sounds abruptly and lets them die away, as sound played forwards does (scores ${result.channels.map((c) => c.score.toFixed(2)).join(', ')}; ${REVERSED_SCORE_THRESHOLD} or more would mean reversed, below 0 reads as forward).`,
+        severity: 'ok',
       });
     }
     return out;

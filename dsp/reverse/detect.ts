@@ -1,54 +1,96 @@
 /**
- * Reversed-channel detection from the asymmetry of onsets and decays.
+ * Reversed-channel detection: does a channel play backwards? Evidence from how sounds start and stop.
  *
  * Natural sounds start quickly and die away slowly: a struck, plucked or spoken sound reaches its
- * peak in milliseconds and decays over tens or hundreds of milliseconds (exponential decay of
- * free vibration; e.g. Fletcher & Rossing, The Physics of Musical Instruments, 2nd ed., §2–3, and
- * the attack/decay shapes of speech syllables). Played backwards the same material swells slowly
- * and stops abruptly. The detector measures that asymmetry in the level envelope:
+ * peak in milliseconds and decays over tens or hundreds of milliseconds (free vibration decays
+ * exponentially, a straight line in dB; e.g. Fletcher & Rossing, The Physics of Musical
+ * Instruments, 2nd ed., §2–3). Played backwards the same material swells into hard stops. But some
+ * forward programme has slow attacks and quick releases (winds, bowed strings, organ, pads, a
+ * fade-in then a cut), and sustained notes between hard edges say nothing about direction. So the
+ * detector weighs several cues from one compact summary and says "not determined" (`likely: null`)
+ * when they are thin or disagree.
  *
- *  1. per channel, the mean power of consecutive 10 ms blocks, in dB, floored 60 dB below a robust
- *     peak (the 99th percentile of the blocks), so silences do not produce infinite steps;
- *  2. the steps d = L[i+1] − L[i] between neighbouring blocks where either block is within 35 dB of
- *     that peak (quieter steps are mostly hum, hiss and room tone beating against the blocks);
- *  3. the normalised third moment of the steps, A = (Σ d₊³ − Σ d₋³)/(Σ d₊³ + Σ d₋³) ∈ [−1, 1]
- *     (d₊, d₋ the rising and falling steps; Σd ≈ 0 over a whole file, so this is the sign and
- *     size of the steps' skewness, with big steps counting most).
+ * Summary (streamed, one pass): per channel the mean power of consecutive 10 ms blocks (100 values
+ * per second). From it, in dB, floored 60 dB below a robust peak (the 99th percentile of blocks):
  *
- * Time reversal maps every step d to −d, so A(reversed) = −A(forward) exactly for a block-aligned
- * signal: the score is antisymmetric by construction. The reported `score` is −A: near +1 for
- * reversed percussive or spoken material, near −1 for the same played forwards, near 0 for
- * stationary material (tones, hiss) whose steps are symmetric. `likely` also needs repeated
- * evidence (see `looksReversed`): a single abrupt stop is not enough.
+ *  1. the step skew A: the steps d = L[i+1] − L[i] between neighbouring blocks where either block is
+ *     within 35 dB of the peak; S = (Σ d₋³ − Σ d₊³)/(Σ d₊³ + Σ d₋³) ∈ [−1, 1] (big steps count
+ *     most): near −1 when abrupt steps are rises, near +1 when they are falls;
+ *  2. hard edges: level changes of at least 15 dB within 20 ms whose loud side is within 30 dB of
+ *     the peak (one per edge), counted as hard starts and hard stops;
+ *  3. the agreement of the skew over independent stretches: S computed in 1 s segments, and the
+ *     t statistic of those segment scores (t ≥ 1.5 means the stretches agree);
+ *  4. the context of each hard edge, on a 50 ms smoothed envelope: a hard stop that ends a steady
+ *     swell (≥ 6 dB over ≥ 0.3 s, still rising in its last fifth, never louder than the stop) is a
+ *     free decay played backwards; a hard start followed by a steady decay is the same forwards.
+ *     A hard stop after a plateau (a wind or organ note being released) is neither.
  *
- * Streaming: one pass; the only summary kept is the block-level envelope (100 values per second
- * per channel).
+ * Decision (mirrored exactly for "forward"): reversed when S > 0 and one of
+ *  - many events: S ≥ 0.3, at least 3 hard stops, stops ≥ 1.25 × starts, and either no hard start
+ *    at all or segment agreement t ≥ 1.5 (speech has hard stops too: then the stretches must agree);
+ *  - swells into stops: S ≥ 0.6, no hard start, at least one swell into a hard stop and no decay
+ *    after a start (one reversed struck or plucked note);
+ *  - one long swell: at most one hard start, a swell of ≥ 10 dB over ≥ 2 s into a hard stop, no
+ *    decay after any start (a reversed held low note whose damper release became a hard start).
+ * Otherwise not determined. A forward clarinet (swell 50 ms, plateau, cut; as many hard starts as
+ * stops) is not determined in either direction, and so is a reversed one.
+ *
+ * Antisymmetry: time reversal maps every step d to −d and every hard start to a hard stop with the
+ * mirrored context, so S(reversed) = −S(forward) exactly for a block-aligned envelope, and the
+ * decision rules mirror each other (up to the alignment of the 1 s segments).
+ *
+ * The reported `score` is S when the direction is determined, and S/4 when it is not (so that
+ * |score| ≥ 0.3 only ever accompanies a determined direction).
  */
 import type { AudioSource } from '../source.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
   readonly channel: number;
-  readonly likely: boolean;
+  /** true: plays backwards; false: plays forwards; null: not determined (evidence too thin). */
+  readonly likely: boolean | null;
   /** −1 … +1: positive when the channel swells and stops abruptly (plays backwards). */
   readonly score: number;
+  /** The step skew S itself, whether or not the direction is determined. (The fields from here on are
+   * always filled by `detectReversedChannels`; optional so that older summaries still type-check.) */
+  readonly skew?: number;
   /** Seconds of material loud enough to judge. */
   readonly activeSeconds: number;
-  /** Level rises and falls of at least 6 dB within 10 ms. */
+  /** Hard edges: level rises and falls of at least 15 dB within 20 ms. */
   readonly abruptStarts: number;
   readonly abruptStops: number;
+  /** Swells into hard stops (free decays backwards) and decays after hard starts (forwards). */
+  readonly swellsIntoStops?: number;
+  readonly decaysAfterStarts?: number;
+  /** Agreement of the 1 s segment scores (t statistic; 0 when fewer than 3 segments). */
+  readonly segmentAgreement?: number;
+  /** Which rule decided, or why nothing did. */
+  readonly basis?: ReversedBasis;
+  /** Calibrated on the real-material corpus; 0 when not determined. */
+  readonly confidence?: number;
 }
+
+export type ReversedBasis = 'many-events' | 'swells-into-stops' | 'long-swell' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'thin';
 
 export interface ReversedResult {
   readonly channels: ReversedChannel[];
 }
 
 export const REVERSED_BLOCK_SECONDS = 0.01;
+/** |score| at or above this comes only with a determined direction (the editor's reading). */
 export const REVERSED_SCORE_THRESHOLD = 0.3;
-export const REVERSED_MIN_ACTIVE_SECONDS = 2;
-export const REVERSED_MIN_EVENTS = 5;
+/** Below this much active sound the direction is not judged at all. */
+export const REVERSED_MIN_ACTIVE_SECONDS = 0.3;
 const FLOOR_DB = 60;
 const ACTIVE_DB = 35;
+/** Hard edges: ≥ 15 dB within 2 blocks (20 ms), loud side within 30 dB of the peak. */
+const EDGE_DB = 15;
+const EDGE_LOUD_DB = 30;
+/** Context of an edge: up to 4 s, at least 0.3 s, ≥ 6 dB, never 3 dB above the edge's loud side. */
+const RAMP_MAX_BLOCKS = 400;
+const RAMP_MIN_BLOCKS = 30;
+const RAMP_MIN_DB = 6;
+const SEGMENT_BLOCKS = 100;
 
 /** Per-channel block power envelope, grown as the source streams past. */
 class Envelope {
@@ -88,54 +130,187 @@ class Envelope {
   }
 }
 
-/** Steps of at least this size (dB per block) count as attacks or abrupt stops. */
+/** Steps of at least this size (dB per block) count in `largeRises`/`largeFalls`. */
 export const LARGE_STEP_DB = 6;
 
+export interface Ramp {
+  readonly seconds: number;
+  readonly db: number;
+}
+
 export interface Asymmetry {
-  /** −A (see the module comment): positive when the envelope swells and stops abruptly. */
+  /** S (see the module comment): positive when the envelope swells and stops abruptly. */
   readonly score: number;
   readonly activeBlocks: number;
   /** Rising and falling steps of at least LARGE_STEP_DB among the active ones. */
   readonly largeRises: number;
   readonly largeFalls: number;
+  /** Hard edges (≥ 15 dB within 20 ms). */
+  readonly hardStarts: number;
+  readonly hardStops: number;
+  /** Swells into hard stops, and decays after hard starts. */
+  readonly swells: readonly Ramp[];
+  readonly decays: readonly Ramp[];
+  /** t statistic of the 1 s segment scores (0 when fewer than 3 segments). */
+  readonly segmentT: number;
 }
 
-/** The asymmetry score of one block-power envelope (see the module comment). */
+function skewOf(db: Float64Array, from: number, to: number, active: number): { up: number; down: number; n: number; rises: number; falls: number } {
+  let up = 0, down = 0, n = 0, rises = 0, falls = 0;
+  for (let i = from; i < to; i++) {
+    const a = db[i]!, b = db[i + 1]!;
+    if (Math.max(a, b) < active) continue;
+    n++;
+    const d = b - a;
+    if (d > 0) up += d * d * d;
+    else down -= d * d * d;
+    if (d >= LARGE_STEP_DB) rises++;
+    else if (d <= -LARGE_STEP_DB) falls++;
+  }
+  return { up, down, n, rises, falls };
+}
+
+/**
+ * From the loud side of an edge at block j, walk away from the edge (dir −1 before a stop, +1 after
+ * a start) over at most `limit` blocks of the smoothed envelope: a steady ramp or null.
+ */
+function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp | null {
+  if (limit < RAMP_MIN_BLOCKS || j < 0 || j >= smooth.length) return null;
+  const top = smooth[j]!;
+  let last = j, count = 0;
+  for (let k = 0; k <= limit; k++) {
+    const p = j + dir * k;
+    if (p < 0 || p >= smooth.length) break;
+    if (smooth[p]! > top + 3) return null;
+    last = p;
+    count++;
+  }
+  const total = top - smooth[last]!;
+  if (total < RAMP_MIN_DB) return null;
+  const fifth = Math.max(1, Math.floor(count / 5));
+  if (top - smooth[j + dir * fifth]! < 0.15 * total) return null;
+  return { seconds: count * REVERSED_BLOCK_SECONDS, db: total };
+}
+
+/** Every cue of one block-power envelope (see the module comment). */
 export function asymmetryScore(power: Float32Array): Asymmetry {
   const n = power.length;
-  if (n < 2) return { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0 };
+  const none = { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0, hardStarts: 0, hardStops: 0, swells: [], decays: [], segmentT: 0 };
+  if (n < 2) return none;
   const db = new Float64Array(n);
   for (let i = 0; i < n; i++) db[i] = 10 * Math.log10(power[i]! + 1e-30);
   const sorted = Float64Array.from(db).sort();
   const peak = sorted[Math.min(n - 1, Math.floor(0.99 * (n - 1)))]!;
-  const floor = peak - FLOOR_DB, active = peak - ACTIVE_DB;
-  let up = 0, down = 0, activeBlocks = 0, largeRises = 0, largeFalls = 0;
-  for (let i = 0; i + 1 < n; i++) {
-    const a = Math.max(db[i]!, floor), b = Math.max(db[i + 1]!, floor);
-    if (Math.max(a, b) < active) continue;
-    activeBlocks++;
-    const d = b - a;
-    if (d > 0) up += d * d * d;
-    else down -= d * d * d;
-    if (d >= LARGE_STEP_DB) largeRises++;
-    else if (d <= -LARGE_STEP_DB) largeFalls++;
+  // Relative to the peak, floored: silences give no infinite steps.
+  for (let i = 0; i < n; i++) db[i] = Math.max(db[i]! - peak, -FLOOR_DB);
+  const all = skewOf(db, 0, n - 1, -ACTIVE_DB);
+  const total = all.up + all.down;
+  const score = total > 0 ? (all.down - all.up) / total : 0;
+
+  // Agreement over 1 s segments (steps centred in the file so that reversal mirrors them as nearly as possible).
+  const steps = n - 1, lead = Math.floor((steps % SEGMENT_BLOCKS) / 2);
+  const seg: number[] = [];
+  for (let a = lead; a + SEGMENT_BLOCKS <= steps; a += SEGMENT_BLOCKS) {
+    const s = skewOf(db, a, a + SEGMENT_BLOCKS, -ACTIVE_DB);
+    if (s.n >= 20 && s.up + s.down > 0) seg.push((s.down - s.up) / (s.up + s.down));
   }
-  const total = up + down;
-  return { score: total > 0 ? (down - up) / total : 0, activeBlocks, largeRises, largeFalls };
+  let segmentT = 0;
+  if (seg.length >= 3) {
+    const mean = seg.reduce((p, v) => p + v, 0) / seg.length;
+    const sd = Math.sqrt(seg.reduce((p, v) => p + (v - mean) ** 2, 0) / (seg.length - 1));
+    segmentT = sd > 0 ? mean / (sd / Math.sqrt(seg.length)) : 0;
+  }
+
+  // Hard edges over 20 ms, one per edge (the largest change among its neighbours).
+  const d2 = new Float64Array(Math.max(0, n - 2));
+  for (let i = 0; i < d2.length; i++) d2[i] = db[i + 2]! - db[i]!;
+  const edges: { at: number; up: boolean }[] = [];
+  for (let i = 0; i < d2.length; i++) {
+    const v = d2[i]!;
+    if (Math.abs(v) < EDGE_DB || Math.max(db[i]!, db[i + 2]!) < -EDGE_LOUD_DB) continue;
+    let keep = true;
+    for (let k = Math.max(0, i - 2); k < Math.min(d2.length, i + 3) && keep; k++) keep = v > 0 ? v >= d2[k]! : v <= d2[k]!;
+    if (keep) edges.push({ at: i, up: v > 0 });
+  }
+
+  // Context of each edge on a 50 ms smoothed envelope (centred, so reversal mirrors it).
+  const smooth = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    let p = 0;
+    for (let k = i - 2; k <= i + 2; k++) if (k >= 0 && k < n) p += 10 ** (db[k]! / 10);
+    smooth[i] = 10 * Math.log10(p / 5 + 1e-30);
+  }
+  const swells: Ramp[] = [], decays: Ramp[] = [];
+  let hardStarts = 0, hardStops = 0;
+  for (let e = 0; e < edges.length; e++) {
+    const { at, up } = edges[e]!;
+    if (up) {
+      hardStarts++;
+      const next = e + 1 < edges.length ? edges[e + 1]!.at : n;
+      const j = at + 4;
+      const r = ramp(smooth, j, 1, Math.min(RAMP_MAX_BLOCKS, next - j - 2));
+      if (r) decays.push(r);
+    } else {
+      hardStops++;
+      const prev = e > 0 ? edges[e - 1]!.at + 2 : -1;
+      const j = at - 2;
+      const r = ramp(smooth, j, -1, Math.min(RAMP_MAX_BLOCKS, j - prev - 2));
+      if (r) swells.push(r);
+    }
+  }
+  return { score, activeBlocks: all.n, largeRises: all.rises, largeFalls: all.falls, hardStarts, hardStops, swells, decays, segmentT };
 }
 
-/**
- * The decision: a clear asymmetry (score ≥ 0.3) over at least 2 s of active material, carried by
- * repeated evidence — at least 5 abrupt stops (falls ≥ 6 dB within 10 ms). One abrupt stop (a tone
- * that ends, an edit) weighs heavily in the score but is not evidence of reversal. (Counting alone
- * would not do: the releases of speech also fall fast near their ends; the score weighs the size
- * of the steps.)
- */
-export function looksReversed(a: Asymmetry, activeSeconds: number): boolean {
-  return a.score >= REVERSED_SCORE_THRESHOLD && activeSeconds >= REVERSED_MIN_ACTIVE_SECONDS && a.largeFalls >= REVERSED_MIN_EVENTS;
+export interface Verdict {
+  readonly likely: boolean | null;
+  readonly basis: ReversedBasis;
+  readonly confidence: number;
 }
 
-/** Reads the source once and scores every channel. */
+/** The rules for "the abrupt edges are stops" (reversed); called mirrored for "forward". */
+function stopsWin(s: number, t: number, stops: number, starts: number, swells: readonly Ramp[], decays: readonly Ramp[]): { basis: ReversedBasis; confidence: number } | null {
+  if (s <= 0) return null;
+  if (s >= REVERSED_SCORE_THRESHOLD && stops >= 3 && stops >= 1.25 * starts && (starts === 0 || t >= 1.5)) {
+    // Calibrated on the corpus: no false call at any count; fewer events, less confidence.
+    return { basis: 'many-events', confidence: stops >= 8 && (starts === 0 || t >= 3) ? 0.95 : 0.8 };
+  }
+  if (s >= 0.6 && starts === 0 && stops >= 1 && swells.length >= 1 && decays.length === 0) return { basis: 'swells-into-stops', confidence: 0.7 };
+  if (starts <= 1 && stops >= Math.max(1, starts) && decays.length === 0 && swells.some((r) => r.seconds >= 2 && r.db >= 10)) return { basis: 'long-swell', confidence: 0.7 };
+  return null;
+}
+
+/** The decision for one channel from its cues (see the module comment). */
+export function judgeDirection(a: Asymmetry, activeSeconds: number): Verdict {
+  if (activeSeconds < REVERSED_MIN_ACTIVE_SECONDS) return { likely: null, basis: 'too-little-sound', confidence: 0 };
+  const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.swells, a.decays);
+  if (back) return { likely: true, ...back };
+  const fwd = stopsWin(-a.score, -a.segmentT, a.hardStarts, a.hardStops, a.decays, a.swells);
+  if (fwd) return { likely: false, ...fwd };
+  const basis: ReversedBasis = a.hardStarts + a.hardStops === 0 ? 'no-hard-edges' : Math.abs(a.score) >= REVERSED_SCORE_THRESHOLD ? 'cues-disagree' : 'thin';
+  return { likely: null, basis, confidence: 0 };
+}
+
+/** Scores one envelope and decides (the same as each channel of `detectReversedChannels`). */
+export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK_SECONDS): Omit<ReversedChannel, 'channel'> {
+  const a = asymmetryScore(power);
+  const activeSeconds = a.activeBlocks * blockSeconds;
+  const v = judgeDirection(a, activeSeconds);
+  return {
+    likely: v.likely,
+    score: v.likely === null ? a.score / 4 : a.score,
+    skew: a.score,
+    activeSeconds,
+    abruptStarts: a.hardStarts,
+    abruptStops: a.hardStops,
+    swellsIntoStops: a.swells.length,
+    decaysAfterStarts: a.decays.length,
+    segmentAgreement: a.segmentT,
+    basis: v.basis,
+    confidence: v.confidence,
+  };
+}
+
+/** Reads the source once and judges every channel. */
 export async function detectReversedChannels(source: AudioSource, onProgress?: (fraction: number) => void): Promise<ReversedResult> {
   const blockFrames = Math.max(1, Math.round(REVERSED_BLOCK_SECONDS * source.sampleRateHz));
   const envs = Array.from({ length: source.channelCount }, () => new Envelope(blockFrames));
@@ -145,17 +320,6 @@ export async function detectReversedChannels(source: AudioSource, onProgress?: (
     done += block[0]!.length;
     onProgress?.(done / Math.max(1, source.frames));
   }
-  const channels = envs.map((env, c) => {
-    const a = asymmetryScore(env.values);
-    const activeSeconds = (a.activeBlocks * blockFrames) / source.sampleRateHz;
-    return {
-      channel: c + 1,
-      likely: looksReversed(a, activeSeconds),
-      score: a.score,
-      activeSeconds,
-      abruptStarts: a.largeRises,
-      abruptStops: a.largeFalls,
-    };
-  });
-  return { channels };
+  const blockSeconds = blockFrames / source.sampleRateHz;
+  return { channels: envs.map((env, c) => ({ channel: c + 1, ...judgeEnvelope(env.values, blockSeconds) })) };
 }
