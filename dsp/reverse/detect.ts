@@ -23,13 +23,17 @@
  *  4. the context of each hard edge, on a 50 ms smoothed envelope: a hard stop that ends a steady
  *     swell (≥ 6 dB over ≥ 0.3 s, still rising in its last fifth, never louder than the stop) is a
  *     free decay played backwards; a hard start followed by a steady decay is the same forwards.
+ *     (A ramp ends where the sound does, 50 dB below the peak; "still rising" means the last fifth
+ *     next to the edge carries at least 15 % of the ramp's dB or 3 dB.)
  *     A hard stop after a plateau (a wind or organ note being released) is neither.
  *
  * Decision (mirrored exactly for "forward"): reversed when S > 0 and one of
  *  - many events: S ≥ 0.3, at least 3 hard stops, stops ≥ 1.25 × starts, and either no hard start
  *    at all or segment agreement t ≥ 1.5 (speech has hard stops too: then the stretches must agree);
  *  - swells into stops: S ≥ 0.6, no hard start, at least one swell into a hard stop and no decay
- *    after a start (one reversed struck or plucked note);
+ *    after a start (one reversed struck or plucked note); or S ≥ 0.3, at least two swells into
+ *    hard stops, no decay after a start and no more hard starts than stops (reversed notes that
+ *    were damped: each damper release became a hard start followed by a swell);
  *  - one long swell: at most one hard start, a swell of ≥ 10 dB over ≥ 2 s into a hard stop, no
  *    decay after any start (a reversed held low note whose damper release became a hard start).
  * Otherwise not determined. A forward clarinet (swell 50 ms, plateau, cut; as many hard starts as
@@ -91,6 +95,7 @@ const RAMP_MAX_BLOCKS = 400;
 const RAMP_MIN_BLOCKS = 30;
 const RAMP_MIN_DB = 6;
 const SEGMENT_BLOCKS = 100;
+const RAMP_END_DB = -FLOOR_DB + 10;
 
 /** Per-channel block power envelope, grown as the source streams past. */
 class Envelope {
@@ -182,13 +187,17 @@ function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp
     const p = j + dir * k;
     if (p < 0 || p >= smooth.length) break;
     if (smooth[p]! > top + 3) return null;
+    // The ramp ends where the sound does (10 dB above the floor).
+    if (smooth[p]! <= RAMP_END_DB) break;
     last = p;
     count++;
   }
+  if (count < RAMP_MIN_BLOCKS) return null;
   const total = top - smooth[last]!;
   if (total < RAMP_MIN_DB) return null;
+  // Still moving near the edge: a plateau that ends in a cut (a wind note released) is no ramp.
   const fifth = Math.max(1, Math.floor(count / 5));
-  if (top - smooth[j + dir * fifth]! < 0.15 * total) return null;
+  if (top - smooth[j + dir * fifth]! < Math.min(0.15 * total, 3)) return null;
   return { seconds: count * REVERSED_BLOCK_SECONDS, db: total };
 }
 
@@ -275,6 +284,7 @@ function stopsWin(s: number, t: number, stops: number, starts: number, swells: r
     return { basis: 'many-events', confidence: stops >= 8 && (starts === 0 || t >= 3) ? 0.95 : 0.8 };
   }
   if (s >= 0.6 && starts === 0 && stops >= 1 && swells.length >= 1 && decays.length === 0) return { basis: 'swells-into-stops', confidence: 0.7 };
+  if (s >= REVERSED_SCORE_THRESHOLD && swells.length >= 2 && decays.length === 0 && stops >= starts) return { basis: 'swells-into-stops', confidence: 0.8 };
   if (starts <= 1 && stops >= Math.max(1, starts) && decays.length === 0 && swells.some((r) => r.seconds >= 2 && r.db >= 10)) return { basis: 'long-swell', confidence: 0.7 };
   return null;
 }

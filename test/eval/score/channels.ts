@@ -34,7 +34,7 @@ export const azimuthScorer: Scorer = {
 
 export const reversedScorer: Scorer = {
   name: 'reversed',
-  bars: 'clean: 0 false; percussive from 1 s, voice and music from 2 s: ≥ 90 % found',
+  bars: 'clean: 0 false; percussive from 1 s, voice and music from 2 s: ≥ 90 % found; a reversed channel never read as forward',
   judge(clip, r) {
     const rv = r.sections.reversed;
     if (!rv) return null;
@@ -42,14 +42,25 @@ export const reversedScorer: Scorer = {
     const truth = new Set(clip.truth.reversedChannels.map((c) => c + 1));
     const wrong = chans.filter((c) => c.likely === true && !truth.has(c.channel));
     const hit = chans.filter((c) => c.likely === true && truth.has(c.channel));
+    // A reversed channel reported as playing forwards is a confident wrong answer (worse than "not determined").
+    const readForward = chans.filter((c) => c.likely === false && truth.has(c.channel));
     const minSeconds = clip.kind === 'drums' || clip.kind === 'effect' ? 1 : 2;
+    // Calibration: each "plays backwards" finding with its confidence, true when that channel is reversed.
+    const calibration = r.findings
+      .filter((f) => f.op === 'reversed' && f.severity === 'warn' && typeof f.confidence === 'number')
+      .map((f) => {
+        const ch = Number(/Channel (\d+)/.exec(f.title)?.[1]);
+        return { confidence: f.confidence!, true: truth.has(ch) };
+      });
     return {
       present: truth.size > 0,
       inBar: truth.size > 0 && clip.durationSeconds >= minSeconds,
       claimed: chans.some((c) => c.likely === true),
       found: truth.size > 0 ? hit.length === truth.size && wrong.length === 0 : undefined,
       withinBar: truth.size > 0 ? hit.length === truth.size && wrong.length === 0 : undefined,
-      note: chans.map((c) => `ch${c.channel} ${c.likely === null ? '?' : c.likely ? 'reversed' : 'forward'} ${c.score?.toFixed?.(2)}`).join(', ') + ` (truth ${[...truth].join(',') || 'none'})`,
+      ...(truth.size > 0 ? { errors: { channelsReadForward: readForward.length } } : {}),
+      calibration,
+      note: chans.map((c) => `ch${c.channel} ${c.likely === null ? 'not determined' : c.likely ? 'reversed' : 'forward'} ${c.score?.toFixed?.(2)}`).join(', ') + ` (truth ${[...truth].join(',') || 'none'})`,
       // A false "reversed" on a clip whose truth has reversed channels elsewhere is still false.
       ...(wrong.length > 0 && truth.size > 0 ? { claimSize: wrong.length } : {}),
     };
