@@ -21,10 +21,11 @@
  *  3. the agreement of the skew over independent stretches: S computed in 1 s segments, and the
  *     t statistic of those segment scores (t ≥ 1.5 means the stretches agree);
  *  4. the context of each hard edge, on a 50 ms smoothed envelope: a hard stop that ends a steady
- *     swell (≥ 6 dB over ≥ 0.3 s, still rising in its last fifth, never louder than the stop) is a
+ *     swell (≥ 6 dB over ≥ 0.3 s, still moving next to the stop, never louder than the stop) is a
  *     free decay played backwards; a hard start followed by a steady decay is the same forwards.
- *     (A ramp ends where the sound does, 50 dB below the peak; "still rising" means the last fifth
- *     next to the edge carries at least 15 % of the ramp's dB or 3 dB.)
+ *     (A ramp ends where the sound does, 50 dB below the peak; "still moving" means the mean level
+ *     of the fifth next to the edge differs from that of the next fifth by 10 % of the ramp's dB
+ *     or 1 dB, whichever is less.)
  *     A hard stop after a plateau (a wind or organ note being released) is neither.
  *
  * Decision (mirrored exactly for "forward"): reversed when S > 0 and one of
@@ -196,8 +197,14 @@ function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp
   const total = top - smooth[last]!;
   if (total < RAMP_MIN_DB) return null;
   // Still moving near the edge: a plateau that ends in a cut (a wind note released) is no ramp.
+  // Mean level over the fifth of the ramp next to the edge against the next fifth.
   const fifth = Math.max(1, Math.floor(count / 5));
-  if (top - smooth[j + dir * fifth]! < Math.min(0.15 * total, 3)) return null;
+  let near = 0, next = 0;
+  for (let k = 0; k < fifth; k++) {
+    near += smooth[j + dir * k]!;
+    next += smooth[j + dir * (k + fifth)]!;
+  }
+  if ((near - next) / fifth < Math.min(0.1 * total, 1)) return null;
   return { seconds: count * REVERSED_BLOCK_SECONDS, db: total };
 }
 
