@@ -25,7 +25,7 @@ export const reversed: AnalysisOp<ReversedResult> = {
     const evidence = (ch: ReversedResult['channels'][number]) =>
       ch.basis === 'many-events'
         ? `${ch.likely ? ch.abruptStops : ch.abruptStarts} hard ${ch.likely ? 'stops' : 'starts'} against ${ch.likely ? ch.abruptStarts : ch.abruptStops} hard ${ch.likely ? 'starts' : 'stops'}`
-        : ch.basis === 'long-swell'
+        : ch.basis === 'long-ramp'
           ? 'one long swell straight into a hard stop, the shape of a decaying note played backwards'
           : `${ch.swellsIntoStops ?? 0} swell${ch.swellsIntoStops === 1 ? '' : 's'} straight into hard stops and no hard start`;
     for (const ch of result.channels) {

@@ -75,7 +75,7 @@ export interface ReversedChannel {
   readonly confidence?: number;
 }
 
-export type ReversedBasis = 'many-events' | 'swells-into-stops' | 'long-swell' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'thin';
+export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'thin';
 
 export interface ReversedResult {
   readonly channels: ReversedChannel[];
@@ -290,9 +290,9 @@ function stopsWin(s: number, t: number, stops: number, starts: number, swells: r
     // Calibrated on the corpus: no false call at any count; fewer events, less confidence.
     return { basis: 'many-events', confidence: stops >= 8 && (starts === 0 || t >= 3) ? 0.95 : 0.8 };
   }
-  if (s >= 0.6 && starts === 0 && stops >= 1 && swells.length >= 1 && decays.length === 0) return { basis: 'swells-into-stops', confidence: 0.7 };
-  if (s >= REVERSED_SCORE_THRESHOLD && swells.length >= 2 && decays.length === 0 && stops >= starts) return { basis: 'swells-into-stops', confidence: 0.8 };
-  if (starts <= 1 && stops >= Math.max(1, starts) && decays.length === 0 && swells.some((r) => r.seconds >= 2 && r.db >= 10)) return { basis: 'long-swell', confidence: 0.7 };
+  if (s >= 0.6 && starts === 0 && stops >= 1 && swells.length >= 1 && decays.length === 0) return { basis: 'ramps-at-edges', confidence: 0.7 };
+  if (s >= REVERSED_SCORE_THRESHOLD && swells.length >= 2 && decays.length === 0 && stops >= starts) return { basis: 'ramps-at-edges', confidence: 0.8 };
+  if (starts <= 1 && stops >= Math.max(1, starts) && decays.length === 0 && swells.some((r) => r.seconds >= 2 && r.db >= 10)) return { basis: 'long-ramp', confidence: 0.7 };
   return null;
 }
 

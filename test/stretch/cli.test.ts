@@ -131,7 +131,12 @@ describe('reelwright reversed', () => {
     expect(r.code).toBe(0);
     const j = JSON.parse(r.out);
     expect(Object.keys(j)).toEqual(['file', 'reversed']);
-    expect(j.reversed.channels.map((c: { likely: boolean }) => c.likely)).toEqual([false, false]);
+    // Not flagged. (Its syllable envelopes are synthesised nearly time-symmetric, skew ≈ 0.06: the
+    // direction is "not determined", null; before, `false` only meant "not reversed".)
+    for (const c of j.reversed.channels as { likely: boolean | null; score: number }[]) {
+      expect(c.likely).not.toBe(true);
+      if (c.likely === null) expect(Math.abs(c.score)).toBeLessThan(0.3);
+    }
     for (const c of j.reversed.channels) expect(Object.keys(c).sort()).toEqual(['channel', 'likely', 'score']);
   });
 

@@ -1,0 +1,108 @@
+/**
+ * Reversed-channel detection (dsp/reverse/detect.ts) on real recordings: the quick slice of the
+ * real-material corpus (test/corpus: Fluid R3 GM through fluidsynth, Hydrogen drum kits, the
+ * Festival kal voice; built at test time by `loadCorpus({ fast: true })`), and the same clips
+ * played backwards by exact reversal of their samples in the test.
+ */
+import { beforeAll, describe, expect, it } from 'vitest';
+import { loadCorpus, type CorpusClip } from '../corpus/index.ts';
+import { openAudio } from '../../main/io/reader.ts';
+import { MemorySource, readAll } from '../../dsp/source.ts';
+import { REVERSED_BLOCK_SECONDS, REVERSED_SCORE_THRESHOLD, detectReversedChannels, type ReversedChannel } from '../../dsp/reverse/detect.ts';
+
+interface Loaded {
+  clip: CorpusClip;
+  sampleRateHz: number;
+  channels: Float64Array[];
+}
+
+let clean: Loaded[] = [];
+let reversedPiano: Loaded;
+
+async function load(clip: CorpusClip): Promise<Loaded> {
+  const a = await openAudio(clip.file);
+  try {
+    const channels = await readAll(a);
+    // Whole 10 ms blocks, so that played backwards the blocks fall on the same samples.
+    const block = Math.round(REVERSED_BLOCK_SECONDS * a.sampleRateHz);
+    const n = Math.floor(channels[0]!.length / block) * block;
+    return { clip, sampleRateHz: a.sampleRateHz, channels: channels.map((c) => c.slice(0, n)) };
+  } finally {
+    await a.close();
+  }
+}
+
+const flip = (x: Float64Array) => x.slice().reverse();
+const judge = async (channels: Float64Array[], rate: number) => (await detectReversedChannels(new MemorySource(channels, rate))).channels;
+const line = (id: string, c: ReversedChannel) =>
+  `${id} ch${c.channel}: ${String(c.likely).padEnd(5)} score ${c.score.toFixed(2)} skew ${c.skew!.toFixed(2)}, ${c.abruptStarts} hard starts, ${c.abruptStops} hard stops (${c.basis})`;
+
+beforeAll(async () => {
+  const corpus = await loadCorpus({ fast: true, quiet: true });
+  clean = await Promise.all(corpus.clips.filter((c) => c.set === 'clean').map(load));
+  reversedPiano = await load(corpus.byId('reversed-00-piano-low-A0')!);
+}, 600_000);
+
+describe('reversed channels on real recordings', () => {
+  it('never calls a clean recording reversed, and a determined direction is the true one', async () => {
+    // Source: the recordings as rendered and recorded (corpus truth: no channel reversed); the
+    // issue's bar "reversed: 0 false on clean real material".
+    expect(clean.length).toBeGreaterThanOrEqual(10);
+    const lines: string[] = [];
+    let forward = 0;
+    for (const { clip, sampleRateHz, channels } of clean) {
+      for (const c of await judge(channels, sampleRateHz)) {
+        lines.push(line(clip.id, c));
+        expect(c.likely).not.toBe(true);
+        if (c.likely === false) forward++;
+        if (c.likely === null) expect(Math.abs(c.score)).toBeLessThan(REVERSED_SCORE_THRESHOLD);
+      }
+    }
+    console.log('[reversed] clean recordings:\n  ' + lines.join('\n  '));
+    // Drum loops, struck piano notes and speech are read as forward (12 of the 19 channels today;
+    // the organ, the bass, the strummed guitar, the choir and the applause are not determined).
+    expect(forward).toBeGreaterThanOrEqual(10);
+  });
+
+  it('finds the same recordings played backwards, percussive ones from 1 s, and mirrors the score exactly', async () => {
+    // Source: construction — exact time reversal of each recording's samples (whole 10 ms blocks,
+    // so the block envelope is reversed exactly and the score must change sign, to rounding).
+    // Bars of the issue: percussive material from 1 s, voice and music from 2 s.
+    const lines: string[] = [];
+    for (const { clip, sampleRateHz, channels } of clean) {
+      const fwd = await judge(channels, sampleRateHz);
+      const back = await judge(channels.map(flip), sampleRateHz);
+      for (let c = 0; c < fwd.length; c++) {
+        const f = fwd[c]!, b = back[c]!;
+        lines.push(line(clip.id + ' reversed', b));
+        expect(b.skew!).toBeCloseTo(-f.skew!, 9);
+        expect([b.abruptStarts, b.abruptStops]).toEqual([f.abruptStops, f.abruptStarts]);
+        // Forward read as forward ⇒ backwards read as backwards; undetermined stays undetermined.
+        expect(b.likely).toBe(f.likely === null ? null : !f.likely);
+      }
+    }
+    console.log('[reversed] the same played backwards:\n  ' + lines.join('\n  '));
+    // One channel of a stereo recording reversed: only that channel is flagged.
+    const voice = clean.find((l) => l.clip.id === 'voice-kal-0')!;
+    const drums = clean.find((l) => l.clip.id === 'h2-colombo-rock-92')!;
+    const mixed = await judge([drums.channels[0]!, flip(drums.channels[1]!)], drums.sampleRateHz);
+    expect(mixed.map((c) => c.likely)).toEqual([false, true]);
+    expect((await judge([flip(voice.channels[0]!)], voice.sampleRateHz))[0]!.likely).toBe(true);
+    // A 1.2 s excerpt of a recorded drum loop (Fluid R3 GM kit), backwards: found; forwards: forward.
+    const loop = clean.find((l) => l.clip.id === 'gm-drums-rock-120')!;
+    const at = Math.round(2 * loop.sampleRateHz), len = Math.round(1.2 * loop.sampleRateHz);
+    const excerpt = loop.channels.map((c) => c.slice(at, at + len));
+    expect((await judge(excerpt.map(flip), loop.sampleRateHz)).map((c) => c.likely)).toEqual([true, true]);
+    expect((await judge(excerpt, loop.sampleRateHz)).map((c) => c.likely)).toEqual([false, false]);
+  });
+
+  it('finds a single reversed low piano note (the corpus clip reversed by scipy), from its swell into the stop', async () => {
+    // Source: corpus truth (reversed-00-piano-low-A0: the Fluid R3 GM piano A0 held 5 s, reversed
+    // by build_corpus.py); the issue's miss "reversed sustained low piano notes … lack 5 abrupt stops".
+    const [c] = await judge(reversedPiano.channels, reversedPiano.sampleRateHz);
+    console.log('[reversed] ' + line(reversedPiano.clip.id, c!));
+    expect(c!.likely).toBe(true);
+    expect(c!.abruptStarts).toBe(0);
+    expect(c!.swellsIntoStops).toBeGreaterThanOrEqual(1);
+  });
+});
