@@ -24,7 +24,8 @@ export const reversed: AnalysisOp<ReversedResult> = {
     const out: Finding[] = [];
     const evidence = (ch: ReversedResult['channels'][number]) =>
       ch.basis === 'many-events'
-        ? `${ch.likely ? ch.abruptStops : ch.abruptStarts} hard ${ch.likely ? 'stops' : 'starts'} against ${ch.likely ? ch.abruptStarts : ch.abruptStops} hard ${ch.likely ? 'starts' : 'stops'}`
+        ? `${ch.likely ? ch.abruptStops : ch.abruptStarts} hard ${ch.likely ? 'stops' : 'starts'} against ${ch.likely ? ch.abruptStarts : ch.abruptStops} hard ${ch.likely ? 'starts' : 'stops'}` +
+          (ch.gatedNotes ? `, leaving out ${ch.gatedNotes} note${ch.gatedNotes === 1 ? '' : 's'} that start and stop abruptly` : '')
         : ch.basis === 'long-ramp'
           ? 'one long swell straight into a hard stop, the shape of a decaying note played backwards'
           : `${ch.swellsIntoStops ?? 0} swell${ch.swellsIntoStops === 1 ? '' : 's'} straight into hard stops and no hard start`;

@@ -21,16 +21,19 @@
  *  3. the agreement of the skew over independent stretches: S computed in 1 s segments, and the
  *     t statistic of those segment scores (t ≥ 1.5 means the stretches agree);
  *  4. the context of each hard edge, on a 50 ms smoothed envelope: a hard stop that ends a steady
- *     swell (≥ 6 dB over ≥ 0.3 s, still moving next to the stop, never louder than the stop) is a
- *     free decay played backwards; a hard start followed by a steady decay is the same forwards.
- *     (A ramp ends where the sound does, 50 dB below the peak; "still moving" means the mean level
- *     of the fifth next to the edge differs from that of the next fifth by 10 % of the ramp's dB
- *     or 1 dB, whichever is less.)
- *     A hard stop after a plateau (a wind or organ note being released) is neither.
+ *     swell (≥ 6 dB over ≥ 0.3 s, never louder than the stop) is a free decay played backwards; a
+ *     hard start followed by a steady decay is the same forwards. "Steady": the mean levels of the
+ *     ramp's fifths, from the edge away, fall by ≥ 8 % of its dB in each of the first two steps and
+ *     never climb back by more than 1 dB, and the nearer half carries at least 35 % of the fall (not
+ *     concave in dB); it ends where the level grows again by 6 dB (another sound). A hard stop after a plateau (a wind or organ note being
+ *     released) or a linear fade-in read back from its cut (concave in dB) is neither. A ramp ends
+ *     where the sound does, 50 dB below the peak.
  *
  * Decision (mirrored exactly for "forward"): reversed when S > 0 and one of
  *  - many events: S ≥ 0.3, at least 3 hard stops, stops ≥ 1.25 × starts, and either no hard start
  *    at all or segment agreement t ≥ 1.5 (speech has hard stops too: then the stretches must agree);
+ *    counted without gated notes — a hard start and the next hard stop with the level held between
+ *    them (a wind or organ note, a tone burst) start and stop abruptly either way round;
  *  - swells into stops: S ≥ 0.6, no hard start, at least one swell into a hard stop and no decay
  *    after a start (one reversed struck or plucked note); or S ≥ 0.3, at least two swells into
  *    hard stops, no decay after a start and no more hard starts than stops (reversed notes that
@@ -66,6 +69,8 @@ export interface ReversedChannel {
   readonly abruptStops: number;
   /** Swells into hard stops (free decays backwards) and decays after hard starts (forwards). */
   readonly swellsIntoStops?: number;
+  /** Gated notes (a hard start and a hard stop with the level held between), left out of the counts. */
+  readonly gatedNotes?: number;
   readonly decaysAfterStarts?: number;
   /** Agreement of the 1 s segment scores (t statistic; 0 when fewer than 3 segments). */
   readonly segmentAgreement?: number;
@@ -97,6 +102,8 @@ const RAMP_MIN_BLOCKS = 30;
 const RAMP_MIN_DB = 6;
 const SEGMENT_BLOCKS = 100;
 const RAMP_END_DB = -FLOOR_DB + 10;
+const GATED_DIP_DB = 10;
+const RAMP_REGROW_DB = 6;
 
 /** Per-channel block power envelope, grown as the source streams past. */
 class Envelope {
@@ -154,6 +161,10 @@ export interface Asymmetry {
   /** Hard edges (≥ 15 dB within 20 ms). */
   readonly hardStarts: number;
   readonly hardStops: number;
+  /** Hard starts and stops that are not the two ends of a gated note, and the gated notes. */
+  readonly openStarts: number;
+  readonly openStops: number;
+  readonly gatedNotes: number;
   /** Swells into hard stops, and decays after hard starts. */
   readonly swells: readonly Ramp[];
   readonly decays: readonly Ramp[];
@@ -183,35 +194,44 @@ function skewOf(db: Float64Array, from: number, to: number, active: number): { u
 function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp | null {
   if (limit < RAMP_MIN_BLOCKS || j < 0 || j >= smooth.length) return null;
   const top = smooth[j]!;
-  let last = j, count = 0;
+  let last = j, count = 0, lowest = top;
   for (let k = 0; k <= limit; k++) {
     const p = j + dir * k;
     if (p < 0 || p >= smooth.length) break;
     if (smooth[p]! > top + 3) return null;
-    // The ramp ends where the sound does (10 dB above the floor).
-    if (smooth[p]! <= RAMP_END_DB) break;
+    // The ramp ends where the sound does (10 dB above the floor), or where the level grows again
+    // (another sound: a free decay read from its loud end only falls).
+    if (smooth[p]! <= RAMP_END_DB || smooth[p]! > lowest + RAMP_REGROW_DB) break;
+    lowest = Math.min(lowest, smooth[p]!);
     last = p;
     count++;
   }
   if (count < RAMP_MIN_BLOCKS) return null;
   const total = top - smooth[last]!;
   if (total < RAMP_MIN_DB) return null;
-  // Still moving near the edge: a plateau that ends in a cut (a wind note released) is no ramp.
-  // Mean level over the fifth of the ramp next to the edge against the next fifth.
-  const fifth = Math.max(1, Math.floor(count / 5));
-  let near = 0, next = 0;
-  for (let k = 0; k < fifth; k++) {
-    near += smooth[j + dir * k]!;
-    next += smooth[j + dir * (k + fifth)]!;
+  // A free decay falls steadily: the mean levels of the ramp's five fifths (from the edge away)
+  // fall by at least 8 % of its dB in each of the first two steps and do not rise again by more
+  // than 1 dB. A plateau that ends in a cut (a wind note released), or a linear fade-in read back
+  // from its cut (concave in dB), is no ramp.
+  const fifth = Math.floor(count / 5);
+  const means: number[] = [];
+  for (let q = 0; q < 5; q++) {
+    let m = 0;
+    for (let k = q * fifth; k < (q + 1) * fifth; k++) m += smooth[j + dir * k]!;
+    means.push(m / fifth);
   }
-  if ((near - next) / fifth < Math.min(0.1 * total, 1)) return null;
+  const drop = (q: number) => means[q]! - means[q + 1]!;
+  if (drop(0) < 0.08 * total || drop(1) < 0.08 * total || drop(2) < -1 || drop(3) < -1) return null;
+  // Not concave in dB: the nearer half carries at least 35 % of the fall (a straight line in dB
+  // carries half, a two-stage decay more, a linear-amplitude fade read back from its cut about a quarter).
+  if (means[0]! - means[2]! < 0.35 * (means[0]! - means[4]!)) return null;
   return { seconds: count * REVERSED_BLOCK_SECONDS, db: total };
 }
 
 /** Every cue of one block-power envelope (see the module comment). */
 export function asymmetryScore(power: Float32Array): Asymmetry {
   const n = power.length;
-  const none = { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0, hardStarts: 0, hardStops: 0, swells: [], decays: [], segmentT: 0 };
+  const none = { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0, hardStarts: 0, hardStops: 0, openStarts: 0, openStops: 0, gatedNotes: 0, swells: [], decays: [], segmentT: 0 };
   if (n < 2) return none;
   const db = new Float64Array(n);
   for (let i = 0; i < n; i++) db[i] = 10 * Math.log10(power[i]! + 1e-30);
@@ -256,6 +276,24 @@ export function asymmetryScore(power: Float32Array): Asymmetry {
     for (let k = i - 2; k <= i + 2; k++) if (k >= 0 && k < n) p += 10 ** (db[k]! / 10);
     smooth[i] = 10 * Math.log10(p / 5 + 1e-30);
   }
+  // Gated notes: a hard start and the next hard stop with the level held in between (never 10 dB
+  // below the quieter edge). A wind or organ note, or a tone burst, starts and stops abruptly
+  // either way round: such pairs are left out of the event counts of the decision.
+  const paired = new Uint8Array(edges.length);
+  let gatedNotes = 0;
+  for (let e = 0; e + 1 < edges.length; e++) {
+    const s0 = edges[e]!, s1 = edges[e + 1]!;
+    if (!s0.up || s1.up || paired[e]) continue;
+    const lo = Math.min(smooth[s0.at + 2]!, smooth[s1.at]!) - GATED_DIP_DB;
+    let held = true;
+    for (let k = s0.at + 2; k <= s1.at && held; k++) held = smooth[k]! >= lo;
+    if (held) {
+      paired[e] = paired[e + 1] = 1;
+      gatedNotes++;
+    }
+  }
+  let openStarts = 0, openStops = 0;
+  for (let e = 0; e < edges.length; e++) if (!paired[e]) edges[e]!.up ? openStarts++ : openStops++;
   const swells: Ramp[] = [], decays: Ramp[] = [];
   let hardStarts = 0, hardStops = 0;
   for (let e = 0; e < edges.length; e++) {
@@ -274,7 +312,7 @@ export function asymmetryScore(power: Float32Array): Asymmetry {
       if (r) swells.push(r);
     }
   }
-  return { score, activeBlocks: all.n, largeRises: all.rises, largeFalls: all.falls, hardStarts, hardStops, swells, decays, segmentT };
+  return { score, activeBlocks: all.n, largeRises: all.rises, largeFalls: all.falls, hardStarts, hardStops, openStarts, openStops, gatedNotes, swells, decays, segmentT };
 }
 
 export interface Verdict {
@@ -284,11 +322,13 @@ export interface Verdict {
 }
 
 /** The rules for "the abrupt edges are stops" (reversed); called mirrored for "forward". */
-function stopsWin(s: number, t: number, stops: number, starts: number, swells: readonly Ramp[], decays: readonly Ramp[]): { basis: ReversedBasis; confidence: number } | null {
+function stopsWin(
+  s: number, t: number, stops: number, starts: number, openStops: number, openStarts: number, swells: readonly Ramp[], decays: readonly Ramp[],
+): { basis: ReversedBasis; confidence: number } | null {
   if (s <= 0) return null;
-  if (s >= REVERSED_SCORE_THRESHOLD && stops >= 3 && stops >= 1.25 * starts && (starts === 0 || t >= 1.5)) {
+  if (s >= REVERSED_SCORE_THRESHOLD && openStops >= 3 && openStops >= 1.25 * openStarts && (openStarts === 0 || t >= 1.5)) {
     // Calibrated on the corpus: no false call at any count; fewer events, less confidence.
-    return { basis: 'many-events', confidence: stops >= 8 && (starts === 0 || t >= 3) ? 0.95 : 0.8 };
+    return { basis: 'many-events', confidence: openStops >= 8 && (openStarts === 0 || t >= 3) ? 0.95 : 0.8 };
   }
   if (s >= 0.6 && starts === 0 && stops >= 1 && swells.length >= 1 && decays.length === 0) return { basis: 'ramps-at-edges', confidence: 0.7 };
   if (s >= REVERSED_SCORE_THRESHOLD && swells.length >= 2 && decays.length === 0 && stops >= starts) return { basis: 'ramps-at-edges', confidence: 0.8 };
@@ -299,9 +339,9 @@ function stopsWin(s: number, t: number, stops: number, starts: number, swells: r
 /** The decision for one channel from its cues (see the module comment). */
 export function judgeDirection(a: Asymmetry, activeSeconds: number): Verdict {
   if (activeSeconds < REVERSED_MIN_ACTIVE_SECONDS) return { likely: null, basis: 'too-little-sound', confidence: 0 };
-  const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.swells, a.decays);
+  const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.openStops, a.openStarts, a.swells, a.decays);
   if (back) return { likely: true, ...back };
-  const fwd = stopsWin(-a.score, -a.segmentT, a.hardStarts, a.hardStops, a.decays, a.swells);
+  const fwd = stopsWin(-a.score, -a.segmentT, a.hardStarts, a.hardStops, a.openStarts, a.openStops, a.decays, a.swells);
   if (fwd) return { likely: false, ...fwd };
   const basis: ReversedBasis = a.hardStarts + a.hardStops === 0 ? 'no-hard-edges' : Math.abs(a.score) >= REVERSED_SCORE_THRESHOLD ? 'cues-disagree' : 'thin';
   return { likely: null, basis, confidence: 0 };
@@ -320,6 +360,7 @@ export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK
     abruptStarts: a.hardStarts,
     abruptStops: a.hardStops,
     swellsIntoStops: a.swells.length,
+    gatedNotes: a.gatedNotes,
     decaysAfterStarts: a.decays.length,
     segmentAgreement: a.segmentT,
     basis: v.basis,

@@ -96,6 +96,42 @@ describe('reversed channels on real recordings', () => {
     expect((await judge(excerpt, loop.sampleRateHz)).map((c) => c.likely)).toEqual([false, false]);
   });
 
+  it('does not call an edit reversed: excerpts faded in and cut off, padded with silence', async () => {
+    // Source: common practice — a fade-in then a cut is forward programme with a slow start and a
+    // quick end; so is a wind or organ note released without a tail. Excerpts of every clean
+    // recording, faded in linearly over the whole excerpt (the worst case: a swell straight into
+    // the cut) or over its first second, or exponentially (40 dB in 1 s), then cut off.
+    let cases = 0;
+    const claims: string[] = [];
+    for (const { clip, sampleRateHz: fs, channels } of clean) {
+      for (const startSeconds of [0.7, 2.1]) {
+        const at = Math.round(startSeconds * fs), len = Math.min(Math.round(3 * fs), channels[0]!.length - at);
+        if (len < fs) continue;
+        for (const fade of ['linear-whole', 'linear-1s', 'exponential-1s'] as const) {
+          const gain = (i: number) => {
+            const t = i / fs;
+            if (fade === 'linear-whole') return i / len;
+            if (fade === 'linear-1s') return Math.min(1, t);
+            return t < 1 ? 10 ** ((-40 * (1 - t)) / 20) : 1;
+          };
+          const pad = Math.round(0.5 * fs);
+          const edited = channels.map((c) => {
+            const y = new Float64Array(len + 2 * pad);
+            for (let i = 0; i < len; i++) y[pad + i] = c[at + i]! * gain(i);
+            return y;
+          });
+          for (const c of await judge(edited, fs)) {
+            cases++;
+            if (c.likely === true) claims.push(`${clip.id} from ${startSeconds} s, ${fade}: ${line('', c)}`);
+          }
+        }
+      }
+    }
+    console.log(`[reversed] ${cases} edited excerpts, ${claims.length} called reversed` + (claims.length ? ':\n  ' + claims.join('\n  ') : ''));
+    expect(cases).toBeGreaterThan(80);
+    expect(claims).toEqual([]);
+  });
+
   it('finds a single reversed low piano note (the corpus clip reversed by scipy), from its swell into the stop', async () => {
     // Source: corpus truth (reversed-00-piano-low-A0: the Fluid R3 GM piano A0 held 5 s, reversed
     // by build_corpus.py); the issue's miss "reversed sustained low piano notes … lack 5 abrupt stops".
