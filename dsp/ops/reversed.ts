@@ -28,7 +28,9 @@ export const reversed: AnalysisOp<ReversedResult> = {
           (ch.gatedNotes ? `, leaving out ${ch.gatedNotes} note${ch.gatedNotes === 1 ? '' : 's'} that start and stop abruptly` : '')
         : ch.basis === 'long-ramp'
           ? 'one long swell straight into a hard stop, the shape of a decaying note played backwards'
-          : `${ch.swellsIntoStops ?? 0} swell${ch.swellsIntoStops === 1 ? '' : 's'} straight into hard stops and no hard start`;
+          : ch.swellsIntoStops === 1
+            ? 'one swell straight into a hard stop and no decay after a hard start'
+            : `${ch.swellsIntoStops ?? 0} swells straight into hard stops and no decay after a hard start`;
     for (const ch of result.channels) {
       if (ch.likely === true) {
         out.push({
@@ -50,7 +52,7 @@ export const reversed: AnalysisOp<ReversedResult> = {
           : ch.basis === 'no-hard-edges'
             ? 'its sounds neither start nor stop abruptly (sustained or steady material), so their shape does not tell the direction'
             : ch.basis === 'cues-disagree'
-              ? `its level steps lean one way (skew ${(ch.skew ?? ch.score).toFixed(2)}) but its hard starts and stops (${ch.abruptStarts} and ${ch.abruptStops}) do not agree — slow attacks with quick releases (winds, bowed strings, organ, fades) look like this either way round`
+              ? `its level steps lean one way (skew ${(ch.skew ?? ch.score).toFixed(2)}) but too few of its sounds say which way (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops${ch.gatedNotes ? `, ${ch.gatedNotes} of them notes that start and stop abruptly, which read the same either way round` : ''}) — slow attacks with quick releases (winds, bowed strings, organ, fades) look like this either way round`
               : `too few independent sounds agree (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops, skew ${(ch.skew ?? ch.score).toFixed(2)})`;
       out.push({
         op: 'reversed',
