@@ -97,7 +97,8 @@ export function smoothSpectrumDb(levelsDb: Float64Array, fraction: number): Floa
  *  - the spectrum is smoothed over ±1/48 octave (power mean), so single bins do not decide;
  *  - floor = the 5th percentile of the smoothed levels between 1 kHz and 0.98·Nyquist (a
  *    percentile, not the minimum, so a notch, a dither shelf or bins of exact digital silence do
- *    not set it); top = their maximum;
+ *    not set it); top = the highest median level of the 1/6-octave bands from 200 Hz up (a
+ *    median, so a line-up tone or a whistle does not count as programme);
  *  - when top − floor < 30 dB there is no band limit to find: the content reaches the top of the
  *    band and the answer is the Nyquist frequency;
  *  - otherwise the answer is the top of the highest run of smoothed levels at least
@@ -118,7 +119,7 @@ export function effectiveBandwidthHz(levelsDb: Float64Array, sampleRateHz: numbe
   if (hi <= lo) return sampleRateHz / 2;
   const band = Float64Array.from(smooth.subarray(lo, hi + 1)).sort();
   const floor = band[Math.floor(0.05 * (band.length - 1))]!;
-  const top = band[band.length - 1]!;
+  const top = broadbandTopDb(levelsDb, binHz, hi);
   if (top - floor < 30) return sampleRateHz / 2;
   const threshold = floor + Math.min(20, (top - floor) / 2);
   let runEnd = -1;
@@ -139,6 +140,18 @@ export function effectiveBandwidthHz(levelsDb: Float64Array, sampleRateHz: numbe
     }
   }
   return 0;
+}
+
+/** Highest median level (dB) of the 1/6-octave bands from 200 Hz to bin `hi`. */
+function broadbandTopDb(levelsDb: Float64Array, binHz: number, hi: number): number {
+  let top = -Infinity;
+  for (let fc = 200; fc / binHz <= hi; fc *= Math.pow(2, 1 / 6)) {
+    const a = Math.max(1, Math.round((fc * Math.pow(2, -1 / 12)) / binHz));
+    const b = Math.min(hi, Math.max(a + 2, Math.round((fc * Math.pow(2, 1 / 12)) / binHz)));
+    const v = Float64Array.from(levelsDb.subarray(a, b + 1)).sort();
+    top = Math.max(top, v[Math.floor(v.length / 2)]!);
+  }
+  return top;
 }
 
 /**

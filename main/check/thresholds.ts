@@ -91,8 +91,10 @@ export const METRICS: Record<string, Metric> = {
     label: 'inter-channel delay', unit: 'µs', digits: 1,
     get: (s) => {
       const a = obj(s.azimuth);
-      const d = numOf(a?.delaySeconds), c = numOf(a?.coherence);
-      return d === undefined || c === undefined || c < 0.5 ? undefined : Math.abs(d) * 1e6;
+      // Judged only where the delay is evidence of the head (the azimuth analysis's verdict):
+      // stereo programme's own inter-channel timing is not a transfer fault.
+      const d = numOf(a?.delaySeconds);
+      return d === undefined || a?.verdict !== 'head' ? undefined : Math.abs(d) * 1e6;
     },
   },
   'speed.absCents': {
