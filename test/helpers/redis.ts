@@ -23,6 +23,8 @@ export interface RedisServer {
   readonly dir: string;
   /** redis://[:password@]127.0.0.1:port/0 (rediss:// with TLS). */
   readonly url: string;
+  /** The running server's process id (undefined while stopped). */
+  readonly pid: number | undefined;
   /** SIGKILL (no shutdown save), then wait until it is gone. */
   kill(): Promise<void>;
   /** Start again on the same port and folder (the append-only file is read back). */
@@ -86,6 +88,9 @@ export async function startRedis(o: RedisServerOptions = {}): Promise<RedisServe
     port,
     dir,
     url: `${o.tls ? 'rediss' : 'redis'}://${auth}127.0.0.1:${port}/0`,
+    get pid() {
+      return child && child.exitCode === null ? child.pid : undefined;
+    },
     kill,
     start,
     async stop() {

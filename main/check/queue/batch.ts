@@ -7,7 +7,7 @@ import type { Redis } from 'ioredis';
 import type { Queue } from 'bullmq';
 import type { FileEntry } from '../check-file.ts';
 import { Progress } from '../../cli/output.ts';
-import { batchKeys, failureEntry, readHash, storeResult, type BatchMeta, type DoneRecord, type FileRecord, type QueueJobData, type ResultRecord } from './store.ts';
+import { batchKeys, failureEntry, readHash, readResults, storeResult, type BatchMeta, type DoneRecord, type FileRecord, type QueueJobData, type ResultRecord } from './store.ts';
 
 /** A job's failure text from BullMQ, in the words of the report. */
 export function failureText(reason: string | undefined, attempts: number): string {
@@ -123,7 +123,7 @@ export async function followBatch(redis: Redis, queue: Queue, batch: string, qui
 export async function batchEntries(redis: Redis, queue: Queue, batch: string, meta: BatchMeta): Promise<{ entries: FileEntry[]; pending: string[]; seconds: number }> {
   await recordFailedJobs(redis, queue, batch);
   const k = batchKeys(batch);
-  const [files, done, results] = await Promise.all([readHash(redis, k.files), readHash(redis, k.done), readHash(redis, k.results)]);
+  const [files, done, results] = await Promise.all([readHash(redis, k.files), readHash(redis, k.done), readResults(redis, batch)]);
   const entries: FileEntry[] = [];
   const pending: string[] = [];
   let last = 0;
@@ -131,9 +131,8 @@ export async function batchEntries(redis: Redis, queue: Queue, batch: string, me
   for (const p of [...files.keys()].sort()) {
     const f = JSON.parse(files.get(p)!) as FileRecord;
     const d = done.get(p);
-    const r = results.get(p);
-    if (d !== undefined && r !== undefined && (JSON.parse(d) as DoneRecord).token === f.token) {
-      const rec = JSON.parse(r) as ResultRecord;
+    const rec = results.get(p);
+    if (d !== undefined && rec !== undefined && (JSON.parse(d) as DoneRecord).token === f.token) {
       entries.push(rec.entry);
       const t = Date.parse(rec.finishedAt);
       if (t >= since) last = Math.max(last, t);

@@ -25,7 +25,7 @@ import { judge, type Thresholds } from '../thresholds.ts';
 import { CheckThreadPool } from '../thread.ts';
 import { connect, hideCommandLine, parseQueueUrl, scrub, type QueueTarget } from './connection.ts';
 import { failureText } from './batch.ts';
-import { batchKeys, checkBatchName, failureEntry, PREFIX, QUEUE_NAME, storeResult, type QueueJobData, type ResultRecord } from './store.ts';
+import { checkBatchName, failureEntry, PREFIX, QUEUE_NAME, readResult, storeResult, type QueueJobData, type ResultRecord } from './store.ts';
 
 const USAGE = `reelwright worker --queue redis://HOST:PORT/DB --root DIR [--root DIR…] [options]
 
@@ -240,8 +240,7 @@ async function work(s: WorkSetup): Promise<number> {
     try {
       result = await pool.run({ path: real, params: d.params, previousMd5: d.previousMd5 });
       if (result.kind === 'unchanged') {
-        const before = await redis.hget(batchKeys(d.batch).results, d.path);
-        const prev = before ? (JSON.parse(before) as ResultRecord) : undefined;
+        const prev = await readResult(redis, d.batch, d.path);
         if (prev) result = { kind: 'entry', entry: { ...prev.entry, file: { ...result.file }, resumed: true } };
         else result = await pool.run({ path: real, params: d.params });
       }
