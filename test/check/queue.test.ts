@@ -135,7 +135,7 @@ beforeAll(async () => {
   fs.writeFileSync(path.join(archive, 'reel-02', 'broken.wav'), 'this is not a WAV file');
   fs.writeFileSync(path.join(archive, 'reel-02', 'notes.txt'), 'splice at 2:10');
   // A file long enough to be caught mid-check, and six short ones.
-  await take(path.join(base, 'long', '00-long.wav'), 0, 20);
+  await take(path.join(base, 'long', '00-long.wav'), 0, 10);
   for (let k = 1; k <= 6; k++) await take(path.join(base, 'long', `take-${k}.wav`), k);
   // A file outside the workers' root, and a link to it inside.
   await take(path.join(tmp, 'outside', 'secret.wav'), 3);
@@ -168,8 +168,10 @@ afterAll(async () => {
 describe('reelwright check on a job queue', () => {
   it('a batch of 41 files (a broken one, a nested folder) over 3 workers reports exactly what the local check reports', async () => {
     const L = (ext: string) => path.join(outDir, `local.${ext}`), Q = (ext: string) => path.join(outDir, `queued.${ext}`);
+    // The workers start (load their code) while the local check runs.
+    const starting = Promise.all([startWorker(), startWorker(), startWorker()]);
     expect(await runCheck([archive, '--json', L('json'), '--csv', L('csv'), '--report', L('html'), '--jobs', '2', '--quiet'], opts)).toBe(1);
-    await Promise.all([startWorker(), startWorker(), startWorker()]);
+    await starting;
 
     outLines.length = 0;
     const code = await runCheck([archive, '--queue', server.url, '--batch', 'eq', '--keep-days', '2', '--wait', '--quiet', '--json', Q('json'), '--csv', Q('csv'), '--report', Q('html')], opts);
@@ -271,22 +273,23 @@ describe('reelwright check on a job queue', () => {
   }, 300_000);
 
   it('Redis restarted in the middle of a batch (append-only file on) loses no finished result', async () => {
-    expect(await runCheck([archive, '--queue', server.url, '--batch', 'restart'], opts)).toBe(0);
+    const reel = path.join(archive, 'reel-01');
+    expect(await runCheck([reel, '--queue', server.url, '--batch', 'restart'], opts)).toBe(0);
     await waitFor(async () => (await done('restart')).done >= 6, 120_000, 'six results');
     const snapshot = await client.hgetallBuffer(batchKeys('restart').results);
     const n = Object.keys(snapshot).length;
     expect(n).toBeGreaterThanOrEqual(6);
-    expect(n).toBeLessThan(41);
+    expect(n).toBeLessThan(20);
     await server.kill();
     await new Promise((r) => setTimeout(r, 500));
     await server.start();
     await waitFor(finished('restart'), 180_000, 'the batch to finish after the restart');
     const after = await client.hgetallBuffer(batchKeys('restart').results);
     for (const [p, v] of Object.entries(snapshot)) expect(after[p]?.equals(v), p).toBe(true);
-    expect(Object.keys(after)).toHaveLength(41);
+    expect(Object.keys(after)).toHaveLength(20);
     const json = path.join(outDir, 'restart.json');
     expect(await runQueueReport(['--queue', server.url, '--batch', 'restart', '--json', json], opts)).toBe(1);
-    expect(readJson(json).files.map((f) => f.file.path)).toEqual(readJson(path.join(outDir, 'local.json')).files.map((f) => f.file.path));
+    expect(readJson(json).files.map((f) => f.file.path)).toEqual(readJson(path.join(outDir, 'local.json')).files.map((f) => f.file.path).filter((p) => p.startsWith(reel + path.sep)));
   }, 300_000);
 
   it('a worker refuses files outside its --root, also through a symbolic link or ".."', async () => {
