@@ -30,6 +30,12 @@ export const REDIS: SystemTool = {
   files: ['/usr/bin/redis-server'],
 };
 
+export const OPENSSL: SystemTool = {
+  purpose: 'the job-queue TLS test',
+  packages: ['openssl'],
+  files: ['/usr/bin/openssl'],
+};
+
 const firstExisting = (files: readonly string[]) => files.find((f) => fs.existsSync(f));
 
 const isRoot = () => typeof process.getuid === 'function' && process.getuid() === 0;
