@@ -14,6 +14,7 @@ import { DEFAULT_BLOCK_FRAMES, resolveRange, type Block, type BlockOptions } fro
 import { FileBytes } from './file-bytes.ts';
 import { openFlac } from './flac.ts';
 import { fileInfoFor } from './info.ts';
+import { breathe } from './yield.ts';
 import type { ChunkRecord, FileInfo, OpenedAudio, SampleFormat } from './types.ts';
 
 /** Bytes per read for whole-file passes (MD5, validation). */
@@ -94,9 +95,13 @@ class PcmFileAudio implements OpenedAudio {
         const block = readBlock(Math.max(start, hi - size), hi);
         for (const ch of block) ch.reverse();
         yield block;
+        await breathe();
       }
     } else {
-      for (let lo = start; lo < end; lo += size) yield readBlock(lo, Math.min(end, lo + size));
+      for (let lo = start; lo < end; lo += size) {
+        yield readBlock(lo, Math.min(end, lo + size));
+        await breathe();
+      }
     }
     if (start === 0 && end === this.frames) this.nonFiniteSamples = bad;
   }
