@@ -11,7 +11,7 @@
  */
 
 export const MIN_SAMPLE_RATE_HZ = 1000;
-export const MAX_SAMPLE_RATE_HZ = 384_000;
+export const MAX_SAMPLE_RATE_HZ = 192_000;
 export const MAX_CHANNELS = 64;
 
 const show = (v: number) => (Number.isFinite(v) ? String(Number(v.toPrecision(10))) : String(v));

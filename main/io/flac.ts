@@ -23,7 +23,7 @@ import { FLACDecoder } from '@wasm-audio-decoders/flac';
 import { InputError } from '../../dsp/errors.ts';
 import { clockTime, findFlacFrame, FlacFrameScanner, type FlacFrame } from '../../dsp/formats/flac-frames.ts';
 import type { AudioLayout, FlacStreamInfo } from '../../dsp/formats/types.ts';
-import { DEFAULT_BLOCK_FRAMES, resolveRange, type Block, type BlockOptions } from '../../dsp/source.ts';
+import { defaultBlockFrames, resolveRange, type Block, type BlockOptions } from '../../dsp/source.ts';
 import type { FileBytes } from './file-bytes.ts';
 import { fileInfoFor } from './info.ts';
 import { breathe } from './yield.ts';
@@ -326,7 +326,7 @@ class FlacFileAudio implements OpenedAudio {
 
   async *blocks(options: BlockOptions = {}): AsyncIterable<Block> {
     const [start, end] = resolveRange(this, options);
-    const size = Math.max(1, Math.floor(options.blockFrames ?? DEFAULT_BLOCK_FRAMES));
+    const size = Math.max(1, Math.floor(options.blockFrames ?? defaultBlockFrames(this.channelCount)));
     if (end <= start) return;
     const channels = this.channelCount;
     if (!options.reverse) {

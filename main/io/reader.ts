@@ -10,7 +10,7 @@ import { countNonFinite, decodeSamples } from '../../dsp/formats/codec.ts';
 import { parseAudioLayout } from '../../dsp/formats/layout.ts';
 import type { AudioLayout } from '../../dsp/formats/types.ts';
 import type { BextInfo } from '../../dsp/formats/bext.ts';
-import { DEFAULT_BLOCK_FRAMES, resolveRange, type Block, type BlockOptions } from '../../dsp/source.ts';
+import { defaultBlockFrames, resolveRange, type Block, type BlockOptions } from '../../dsp/source.ts';
 import { FileBytes } from './file-bytes.ts';
 import { openFlac } from './flac.ts';
 import { fileInfoFor } from './info.ts';
@@ -69,7 +69,7 @@ class PcmFileAudio implements OpenedAudio {
 
   async *blocks(options: BlockOptions = {}): AsyncIterable<Block> {
     const [start, end] = resolveRange(this, options);
-    const size = Math.max(1, Math.floor(options.blockFrames ?? DEFAULT_BLOCK_FRAMES));
+    const size = Math.max(1, Math.floor(options.blockFrames ?? defaultBlockFrames(this.channelCount)));
     const { blockAlign, dataOffset, encoding } = this.layout;
     const channels = this.channelCount;
     const buf = new Uint8Array(Math.min(size, Math.max(1, end - start)) * blockAlign);
