@@ -76,6 +76,10 @@ export interface WriteOptions {
   historyText?: string;
   /** The source path: writing onto it is refused. */
   sourcePath?: string;
+  /** Replace an existing file at the output path (never the source). Default: refuse it. */
+  overwrite?: boolean;
+  /** Stops the write (the temporary file is removed, CancelledError is thrown): Ctrl+C, SIGTERM. */
+  signal?: { readonly aborted: boolean };
   /** Force the RF64 container (tests); otherwise chosen automatically past 4 GiB. */
   forceRf64?: boolean;
   /** Seeded random source for dither (tests); default Math.random. */
