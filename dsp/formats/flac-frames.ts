@@ -196,9 +196,12 @@ export function flacHeaderMismatch(h: FlacRawFrameHeader, si: FlacStreamInfo): s
   return null;
 }
 
-/** The first sample of a frame found on its own (seeking): sample number, or frame number × block size. */
+/**
+ * The first sample of a frame found on its own (seeking): its sample number, or its frame number
+ * × the stream's fixed block size (from the first frame; STREAMINFO's largest block otherwise).
+ */
 function firstSampleOf(h: FlacRawFrameHeader, si: FlacStreamInfo): number {
-  return h.variable ? h.number : h.number * (si.maxBlockSize || h.blockSize);
+  return h.variable ? h.number : h.number * (si.fixedBlockSize ?? (si.maxBlockSize || h.blockSize));
 }
 
 /**
@@ -413,8 +416,9 @@ export class FlacFrameScanner {
         const expected = h.variable ? `sample ${first}` : `frame number ${prev.number + 1}`;
         this.#fail(`FLAC frame header says ${said} where ${expected} (${clockTime(first / si.sampleRateHz)}) comes next: frames are missing or out of order`, abs);
       }
-      if (si.minBlockSize > 0 && prev.blockSize < si.minBlockSize) {
-        this.#fail(`FLAC frame at ${this.#where(first - prev.blockSize)} holds ${prev.blockSize} samples, fewer than the smallest block of ${si.minBlockSize} STREAMINFO gives for any frame but the last`, this.#prevOffset);
+      const fixed = si.fixedBlockSize;
+      if (!prev.variable && fixed !== undefined && prev.blockSize !== fixed) {
+        this.#fail(`FLAC frame at ${this.#where(first - prev.blockSize)} holds ${prev.blockSize} samples where every frame of this fixed-block stream but the last holds ${fixed}`, this.#prevOffset);
       }
     } else if (firstSampleOf(h, si) !== first) {
       this.#fail(`expected the FLAC frame of ${this.#where(first)} here, found one numbered ${h.number}`, abs);

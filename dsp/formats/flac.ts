@@ -8,7 +8,7 @@
  * §8.2 STREAMINFO (bits per sample 4 to 32, channels 1 to 8, sample rate not 0).
  */
 import { InputError } from '../errors.ts';
-import { fourcc, showId, u16be, u32be } from './bytes.ts';
+import { fourcc, showId, u16be, u32be, u32le } from './bytes.ts';
 import { sampleRateProblem } from './limits.ts';
 import { FLAC_MAX_HEADER_BYTES, flacHeaderMismatch, readFlacFrameHeader } from './flac-frames.ts';
 import { readExact, type AudioLayout, type FlacStreamInfo, type LayoutChunk, type ReadFn } from './types.ts';
@@ -53,12 +53,25 @@ export function parseFlac(read: ReadFn, fileSize: number, name: string, start: n
       if (info.bitsPerSample < 4) {
         throw new InputError(`FLAC STREAMINFO says ${info.bitsPerSample} bits per sample (RFC 9639 allows 4 to 32)`, name, pos + 16);
       }
-      if (info.maxBlockSize < 16 || info.minBlockSize > info.maxBlockSize) {
+    }
+    if (type === 4) {
+      // VORBIS_COMMENT (RFC 9639 §8.6): a little-endian vendor string length first. The reference
+      // decoder refuses a block whose vendor string runs past its end; so does this reader.
+      const vendor = size >= 4 ? u32le(readExact(read, fileSize, name, pos + 4, 4, 'the VORBIS_COMMENT vendor length'), 0) : -1;
+      if (vendor < 0 || 4 + vendor > size) {
         throw new InputError(
-          `FLAC STREAMINFO says blocks of ${info.minBlockSize} to ${info.maxBlockSize} samples (RFC 9639 allows 16 to 65535, smallest first)`,
+          `damaged FLAC VORBIS_COMMENT block: ${vendor < 0 ? `${size} bytes, too short for its vendor string's length` : `its vendor string claims ${vendor} bytes but the block holds ${size}`}`,
           name,
           pos + 4,
         );
+      }
+      // Then the number of comments, each at least its 4-byte length: more than fit is damage.
+      const rest = size - 8 - vendor;
+      if (rest >= 0) {
+        const count = u32le(readExact(read, fileSize, name, pos + 8 + vendor, 4, 'the VORBIS_COMMENT comment count'), 0);
+        if (count * 4 > rest) {
+          throw new InputError(`damaged FLAC VORBIS_COMMENT block: it claims ${count} comments in the ${rest} bytes left`, name, pos + 8 + vendor);
+        }
       }
     }
     pos += 4 + size;
@@ -82,6 +95,12 @@ export function parseFlac(read: ReadFn, fileSize: number, name: string, start: n
   }
   const mismatch = flacHeaderMismatch(first, si);
   if (mismatch) throw new InputError(`the first FLAC frame contradicts STREAMINFO: ${mismatch}`, name, pos);
+  if (!first.variable) {
+    if (first.number !== 0) throw new InputError(`the first FLAC frame is numbered ${first.number}, not 0: frames are missing`, name, pos);
+    si.fixedBlockSize = first.blockSize;
+  } else if (first.number !== 0) {
+    throw new InputError(`the first FLAC frame starts at sample ${first.number}, not 0: frames are missing`, name, pos);
+  }
   const bytesPerSample = Math.ceil(si.bitsPerSample / 8);
   return {
     container: 'FLAC',

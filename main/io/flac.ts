@@ -245,7 +245,7 @@ class FlacFileAudio implements OpenedAudio {
    * sample `until` has been produced or the stream ends. Yields decoded pieces in order.
    */
   private async *decodeFrom(offset: number, firstSample: number, until: number): AsyncGenerator<Decoded> {
-    const decoder = await takeDecoder();
+    let decoder: FLACDecoder | undefined;
     let healthy = true;
     const scanner = new FlacFrameScanner(this.si, this.path, { offset, firstSample, fileSize: this.file.size });
     try {
@@ -254,15 +254,23 @@ class FlacFileAudio implements OpenedAudio {
         const n = this.file.readInto(pos, FEED_BYTES, scanner.reserve(FEED_BYTES));
         pos += n;
         const frames = n > 0 ? scanner.commit(n) : scanner.finish();
-        if (frames.length > 0) yield await this.decodeBatch(decoder, frames);
+        if (frames.length > 0) {
+          decoder ??= await takeDecoder();
+          let decoded: Decoded;
+          try {
+            decoded = await this.decodeBatch(decoder, frames);
+          } catch (e) {
+            // The decoder itself failed on a verified frame: do not reuse it.
+            healthy = false;
+            throw e;
+          }
+          yield decoded;
+        }
         if (n === 0) break;
         await breathe();
       }
-    } catch (e) {
-      healthy = false;
-      throw e;
     } finally {
-      returnDecoder(decoder, healthy);
+      if (decoder) returnDecoder(decoder, healthy);
     }
   }
 
@@ -298,7 +306,7 @@ class FlacFileAudio implements OpenedAudio {
   private seek(target: number): { offset: number; first: number } {
     const start = { offset: this.layout.dataOffset, first: 0 };
     if (target <= 0) return start;
-    const window = this.si.maxFrameBytes > 0 ? Math.max(2 * this.si.maxFrameBytes + 64, 128 << 10) : 1 << 20;
+    const window = Math.min(this.file.size, this.si.maxFrameBytes > 0 ? Math.max(2 * this.si.maxFrameBytes + 64, 128 << 10) : 1 << 20);
     let best = start;
     let lo = start.offset;
     let hi = this.file.size;
