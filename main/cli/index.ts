@@ -240,6 +240,9 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
       historyText: op.history(rendering.resolved),
       overwrite,
       signal: interruption,
+      // FLAC carries an MD5 of its audio: a rendering that did not check it on the way (reverse,
+      // ranges) checks it before the output is kept.
+      beforeCommit: source.info.format === 'FLAC' ? () => source.audioMd5() : undefined,
       onProgress: (frames) => progress.update(frames / Math.max(1, hint)),
     }));
     progress.done();

@@ -78,6 +78,12 @@ export interface WriteOptions {
   sourcePath?: string;
   /** Replace an existing file at the output path (never the source). Default: refuse it. */
   overwrite?: boolean;
+  /**
+   * Runs after the last block, before the finished file is moved into place; if it throws, nothing
+   * is written (e.g. the source's own checksum is verified when the rendering did not read it in
+   * one forward pass).
+   */
+  beforeCommit?: () => Promise<unknown>;
   /** Stops the write (the temporary file is removed, CancelledError is thrown): Ctrl+C, SIGTERM. */
   signal?: { readonly aborted: boolean };
   /** Force the RF64 container (tests); otherwise chosen automatically past 4 GiB. */

@@ -290,6 +290,7 @@ export async function writeAudio(outPath: string, rendering: RenderingLike, opti
       if (signal?.aborted) throw interrupted();
     }
     if (encoder.frames === 0) throw new ParameterError(`${outPath}: the rendering produced no audio; nothing was written`);
+    await options.beforeCommit?.();
     const done = encoder.finish();
     writeFully(fd, done.trailer, done.trailer.length, position, outPath);
     writeFully(fd, done.header, done.header.length, 0, outPath);
