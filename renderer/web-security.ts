@@ -26,14 +26,20 @@ function handler(withCsp: boolean): Connect.NextHandleFunction {
     };
     const declared = Number(req.headers['content-length'] ?? 0);
     if (declared > REQUEST_BODY_LIMIT) return refuse();
-    if (req.headers['transfer-encoding'] !== undefined || declared > 0) {
-      let seen = 0;
-      req.on('data', (chunk: Buffer) => {
-        seen += chunk.length;
-        if (seen > REQUEST_BODY_LIMIT) refuse();
-      });
-    }
-    next();
+    if (req.headers['transfer-encoding'] === undefined && declared === 0) return next();
+    // A body: nothing here reads one, so it is taken in (up to the limit) before the request goes on.
+    let seen = 0;
+    let over = false;
+    req.on('data', (chunk: Buffer) => {
+      seen += chunk.length;
+      if (seen > REQUEST_BODY_LIMIT && !over) {
+        over = true;
+        refuse();
+      }
+    });
+    req.on('end', () => {
+      if (!over) next();
+    });
   };
 }
 

@@ -14,7 +14,12 @@ export const MIN_SAMPLE_RATE_HZ = 1000;
 export const MAX_SAMPLE_RATE_HZ = 192_000;
 export const MAX_CHANNELS = 64;
 
-const show = (v: number) => (Number.isFinite(v) ? String(Number(v.toPrecision(10))) : String(v));
+/** A rate for a message: integers exactly, absurd magnitudes in exponent form, others to 10 digits. */
+function show(v: number): string {
+  if (!Number.isFinite(v) || (Number.isInteger(v) && Math.abs(v) < 2 ** 53)) return String(v);
+  if (v !== 0 && (Math.abs(v) >= 1e9 || Math.abs(v) < 1e-3)) return v.toExponential(3).replace(/\.?0+e/, 'e');
+  return String(Number(v.toPrecision(10)));
+}
 
 /**
  * Why `rateHz` is not a sample rate Reelwright reads, as a phrase after "the X chunk says"; null
