@@ -277,14 +277,15 @@ export interface FlacScanStart {
 }
 
 /**
- * The most bytes a frame can take (RFC 9639 §9.2: a subframe is never larger than its verbatim
- * form, one bit more per sample on a side channel), with room for the subframe headers and
- * wasted-bits codes.
+ * The most bytes a frame may take before the scanner calls it damaged: RFC 9639 §9.2 says a
+ * subframe is never larger than its verbatim form (one bit more per sample on a side channel), so
+ * twice that, with room for the subframe headers and wasted-bits codes, leaves encoders slack
+ * while bounding how far a damaged frame is searched. (STREAMINFO's largest frame is a claim,
+ * not a bound: it is not trusted here.)
  */
 function frameByteBound(h: FlacRawFrameHeader, si: FlacStreamInfo): number {
   const bits = (h.bitsPerSample || si.bitsPerSample) + 1;
-  const bound = FLAC_MAX_HEADER_BYTES + 2 + h.channels * (Math.ceil((h.blockSize * bits) / 8) + 8 + bits);
-  return Math.max(bound, si.maxFrameBytes);
+  return 2 * (FLAC_MAX_HEADER_BYTES + 2 + h.channels * (Math.ceil((h.blockSize * bits) / 8) + 8 + bits)) + 1024;
 }
 
 const ID3V1_BYTES = 128;
