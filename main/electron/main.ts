@@ -10,6 +10,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
 import type { Bridge, BridgeCall } from '../bridge/contract.ts';
+import { SECURITY_HEADERS } from '../bridge/security.ts';
 import { AUDIO_EXTENSIONS, bridgeCalls, channelOf, isTrustedSenderUrl, validateCall } from '../bridge/validate.ts';
 import { FileTable } from './files.ts';
 
@@ -18,7 +19,6 @@ const pageDir = path.join(root, 'renderer/dist');
 const demoDir = path.join(root, 'assets/demo');
 const SCHEME = 'reelwright';
 const HOST = 'editor';
-const CSP = "default-src 'none'; script-src 'self'; worker-src 'self'; style-src 'self'; img-src 'self' data: blob:; connect-src 'self'; font-src 'self'; media-src 'self' blob:; base-uri 'none'; form-action 'none'; object-src 'none'; frame-ancestors 'none'";
 const trusted = [{ protocol: `${SCHEME}:`, host: HOST }];
 
 protocol.registerSchemesAsPrivileged([{ scheme: SCHEME, privileges: { standard: true, secure: true, supportFetchAPI: true } }]);
@@ -39,7 +39,21 @@ const handlers: Handlers = {
     return r.canceled || !r.filePaths[0] ? null : files.open(r.filePaths[0]);
   },
   async reopenSource(p, name) {
-    if (p && files.isSessionSource(p) && fs.existsSync(p)) return files.open(p);
+    // A session file can name any path: open it only if it is an audio file and the user agrees.
+    const problem = p && files.isSessionSource(p) ? await files.sessionSourceProblem(p) : 'not named by a session the user opened';
+    if (p && problem === null) {
+      const answer = await dialog.showMessageBox(win!, {
+        type: 'question',
+        title: 'Open the session\'s recording',
+        message: `This session was made on ${path.basename(p)}. Open it?`,
+        detail: p,
+        buttons: ['Open', 'Choose another file…', 'Cancel'],
+        defaultId: 0,
+        cancelId: 2,
+      });
+      if (answer.response === 0) return files.open(p);
+      if (answer.response === 2) return null;
+    }
     const r = await dialog.showOpenDialog(win!, { title: `Find ${name}`, properties: ['openFile'], filters: [{ name: 'Audio', extensions: AUDIO_EXTENSIONS.map((e) => e.slice(1)) }] });
     return r.canceled || !r.filePaths[0] ? null : files.open(r.filePaths[0]);
   },
@@ -57,9 +71,7 @@ const handlers: Handlers = {
   async saveSession(text, suggestedName) {
     const r = await dialog.showSaveDialog(win!, { title: 'Save the session', defaultPath: suggestedName, filters: [{ name: 'Reelwright session', extensions: ['json'] }] });
     if (r.canceled || !r.filePath) return null;
-    files.refuseSources(r.filePath);
-    await fs.promises.writeFile(r.filePath, text, 'utf8');
-    return { name: path.basename(r.filePath), path: r.filePath };
+    return files.writeSession(r.filePath, text);
   },
   async openSession() {
     const r = await dialog.showOpenDialog(win!, { title: 'Open a session', properties: ['openFile'], filters: [{ name: 'Reelwright session', extensions: ['json'] }] });
@@ -105,13 +117,17 @@ app.whenReady().then(() => {
   });
   protocol.handle(SCHEME, async (req) => {
     const u = new URL(req.url);
-    const rel = decodeURIComponent(u.pathname === '/' ? '/index.html' : u.pathname);
+    let rel: string;
+    try {
+      rel = decodeURIComponent(u.pathname === '/' ? '/index.html' : u.pathname);
+    } catch {
+      return new Response('bad request', { status: 400 });
+    }
     const file = path.resolve(pageDir, '.' + rel);
     if (u.host !== HOST || !file.startsWith(pageDir + path.sep) || !fs.existsSync(file)) return new Response('not found', { status: 404 });
     const res = await net.fetch(pathToFileURL(file).href);
     const headers = new Headers(res.headers);
-    headers.set('Content-Security-Policy', CSP);
-    headers.set('X-Content-Type-Options', 'nosniff');
+    for (const [name, value] of Object.entries(SECURITY_HEADERS)) headers.set(name, value);
     return new Response(res.body, { status: res.status, headers });
   });
   win = new BrowserWindow({

@@ -36,6 +36,13 @@ export const OPENSSL: SystemTool = {
   files: ['/usr/bin/openssl'],
 };
 
+/** The reference FLAC encoder/decoder (Xiph.Org libFLAC command-line tool, Debian package flac). */
+export const FLAC_TOOL: SystemTool = {
+  purpose: 'the FLAC reference checks',
+  packages: ['flac'],
+  files: ['/usr/bin/flac'],
+};
+
 const firstExisting = (files: readonly string[]) => files.find((f) => fs.existsSync(f));
 
 const isRoot = () => typeof process.getuid === 'function' && process.getuid() === 0;
