@@ -29,7 +29,7 @@ async function noiseWav(file: string, seed: number, seconds = 0.5): Promise<void
   async function* blocks() {
     yield c;
   }
-  await writeAudio(file, { sampleRateHz: 48000, channelCount: 2, blocks: blocks() }, { bitsPerSample: 24, sampleFormat: 'int', dither: false });
+  await writeAudio(file, { sampleRateHz: 48000, channelCount: 2, blocks: blocks() }, { bitsPerSample: 24, sampleFormat: 'int', dither: false, overwrite: true });
 }
 
 const sha256sum = (file: string) => spawnSync('sha256sum', [file], { encoding: 'utf8' }).stdout.split(' ')[0];

@@ -51,7 +51,7 @@ async function writeWav(file: string, channels: Float64Array[], sampleRateHz = F
   async function* blocks() {
     for (let i = 0; i < n; i += 65536) yield channels.map((c) => c.slice(i, i + 65536));
   }
-  await writeAudio(file, { sampleRateHz, channelCount: channels.length, blocks: blocks() }, { bitsPerSample: bits, sampleFormat: 'int', dither: false });
+  await writeAudio(file, { sampleRateHz, channelCount: channels.length, blocks: blocks() }, { bitsPerSample: bits, sampleFormat: 'int', dither: false, overwrite: true });
 }
 
 /** Small files of four kinds, so the reports differ from file to file. */
@@ -93,7 +93,7 @@ async function startWorker(extra: string[] = []): Promise<WorkerProc> {
   const exited = new Promise<number | null>((r) => child.once('exit', (code) => r(code)));
   const w: WorkerProc = { child, id: `${os.hostname()}/${child.pid}`, output: () => text, exited };
   workers.push(w);
-  await waitFor(() => text.includes('taking files from') || child.exitCode !== null, 90_000, 'the worker to start');
+  await waitFor(() => text.includes('taking files from') || child.exitCode !== null, 270_000, 'the worker to start');
   if (child.exitCode !== null) throw new Error(`worker exited: ${text}`);
   return w;
 }
@@ -211,7 +211,7 @@ describe('reelwright check on a job queue', () => {
     const ttl = await client.ttl(batchKeys('eq').results);
     expect(ttl).toBeGreaterThan(2 * 86400 - 120);
     expect(ttl).toBeLessThanOrEqual(2 * 86400);
-  }, 300_000);
+  }, 900_000);
 
   it('enqueueing the batch again keeps files unchanged in size, time and audio MD5, and checks the others again', async () => {
     const before = readJson(path.join(outDir, 'queued.json'));
@@ -242,7 +242,7 @@ describe('reelwright check on a job queue', () => {
         expect({ ...f, resumed: undefined }).toEqual({ ...was, resumed: undefined });
       }
     }
-  }, 300_000);
+  }, 900_000);
 
   it('a worker killed in the middle of a file: another worker takes its job over once the lock expires, and every file is counted once', async () => {
     const long = path.join(base, 'long');
@@ -257,7 +257,7 @@ describe('reelwright check on a job queue', () => {
     holder!.child.kill('SIGKILL');
     await holder!.exited;
     expect(await finished('kill')()).toBe(false);
-    await waitFor(finished('kill'), 120_000, 'the batch to finish without the killed worker');
+    await waitFor(finished('kill'), 360_000, 'the batch to finish without the killed worker');
 
     const recs = await records('kill');
     expect([...recs.keys()].sort()).toEqual(fs.readdirSync(long).map((f) => path.join(long, f)).sort());
@@ -270,12 +270,12 @@ describe('reelwright check on a job queue', () => {
     const r = readJson(json);
     expect(r.files.map((f) => f.file.path)).toEqual([...recs.keys()].sort());
     expect(r.files.filter((f) => f.error !== undefined)).toEqual([]);
-  }, 300_000);
+  }, 900_000);
 
   it('Redis restarted in the middle of a batch (append-only file on) loses no finished result', async () => {
     const reel = path.join(archive, 'reel-01');
     expect(await runCheck([reel, '--queue', server.url, '--batch', 'restart'], opts)).toBe(0);
-    await waitFor(async () => (await done('restart')).done >= 6, 120_000, 'six results');
+    await waitFor(async () => (await done('restart')).done >= 6, 360_000, 'six results');
     const snapshot = await client.hgetallBuffer(batchKeys('restart').results);
     const n = Object.keys(snapshot).length;
     expect(n).toBeGreaterThanOrEqual(6);
@@ -283,14 +283,14 @@ describe('reelwright check on a job queue', () => {
     await server.kill();
     await new Promise((r) => setTimeout(r, 500));
     await server.start();
-    await waitFor(finished('restart'), 180_000, 'the batch to finish after the restart');
+    await waitFor(finished('restart'), 540_000, 'the batch to finish after the restart');
     const after = await client.hgetallBuffer(batchKeys('restart').results);
     for (const [p, v] of Object.entries(snapshot)) expect(after[p]?.equals(v), p).toBe(true);
     expect(Object.keys(after)).toHaveLength(20);
     const json = path.join(outDir, 'restart.json');
     expect(await runQueueReport(['--queue', server.url, '--batch', 'restart', '--json', json], opts)).toBe(1);
     expect(readJson(json).files.map((f) => f.file.path)).toEqual(readJson(path.join(outDir, 'local.json')).files.map((f) => f.file.path).filter((p) => p.startsWith(reel + path.sep)));
-  }, 300_000);
+  }, 900_000);
 
   it('a worker refuses files outside its --root, also through a symbolic link or ".."', async () => {
     const secret = path.join(tmp, 'outside', 'secret.wav');
@@ -305,7 +305,7 @@ describe('reelwright check on a job queue', () => {
     await client.hset(batchKeys('roots').files, crafted, JSON.stringify(record));
     const data: QueueJobData = { v: 1, batch: 'roots', path: crafted, sizeBytes: st.size, mtimeMs: st.mtimeMs, token, params: {}, thresholds: defaultThresholds(), ttlSeconds: 3600 };
     await queue.add('file', data, { jobId: token, removeOnComplete: true });
-    await waitFor(finished('roots'), 120_000, 'the refusals');
+    await waitFor(finished('roots'), 360_000, 'the refusals');
     const json = path.join(outDir, 'roots.json');
     expect(await runQueueReport(['--queue', server.url, '--batch', 'roots', '--json', json], opts)).toBe(1);
     const r = readJson(json);
@@ -316,7 +316,7 @@ describe('reelwright check on a job queue', () => {
       expect(f.file.sha256, 'never read').toBeUndefined();
       expect(f.levels).toBeUndefined();
     }
-  }, 180_000);
+  }, 540_000);
 
   it('a file that keeps failing is tried a bounded number of times, then reported as failed with its reason', async () => {
     const json = path.join(outDir, 'retry.json');
@@ -328,7 +328,7 @@ describe('reelwright check on a job queue', () => {
     expect(gone.status).toBe('fail');
     expect((await records('retry')).get(gone.file.path)!.attempt).toBe(2);
     expect(r.files.find((f) => f.file.path.endsWith('ok.wav'))!.error).toBeUndefined();
-  }, 180_000);
+  }, 540_000);
 
   it('speaks TLS (rediss://) with a password, the server checked against its certificate authority', async () => {
     const certDir = path.join(tmp, 'tls');
@@ -360,7 +360,7 @@ describe('reelwright check on a job queue', () => {
       else process.env.REELWRIGHT_QUEUE_CA = saved;
       await tls.stop();
     }
-  }, 180_000);
+  }, 540_000);
 
   it('never prints the password: not in reports, log lines, error messages or the process list', async () => {
     // Wrong password, unreachable server, malformed URL.
@@ -389,5 +389,5 @@ describe('reelwright check on a job queue', () => {
       expect(JSON.stringify([...(await records(b)).values()])).not.toContain(PASSWORD);
     }
     expect(JSON.stringify((await queue.getFailed()).map((j) => j.data))).not.toContain(PASSWORD);
-  }, 120_000);
+  }, 360_000);
 });
