@@ -124,8 +124,11 @@ export function createWebBridge(): WebBridge {
       download(new Blob([text], { type: 'application/json' }), name);
       return { name, path: null };
     },
+    async launched() {
+      return null;
+    },
     async openSession() {
-      const f = await pick('.json,application/json');
+      const f = await pick('.rwsession,.json,application/json');
       return f ? { name: f.name, path: null, text: await f.text() } : null;
     },
   };
