@@ -17,8 +17,13 @@ if (!manifest || !isFresh(manifest)) {
   try {
     manifest = await buildCli({ clean: false, quiet: true });
   } catch (e) {
-    process.stderr.write(`reelwright: the command line is not built and could not be built (${e?.message ?? e}); run \`npm install\` in ${root}\n`);
-    process.exit(2);
+    const why = e?.message?.split('\n')[0] ?? String(e);
+    if (!manifest) {
+      process.stderr.write(`reelwright: the command line is not built and could not be built (${why}); run \`npm install\` in ${root}\n`);
+      process.exit(2);
+    }
+    // A read-only install, say: run the earlier build, and say so.
+    process.stderr.write(`reelwright: warning: sources changed since the build but it could not be rebuilt (${why}); running the earlier build\n`);
   }
 }
 if (process.env.REELWRIGHT_DEBUG) process.setSourceMapsEnabled(true);

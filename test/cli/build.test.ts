@@ -52,6 +52,21 @@ describe('built command line', () => {
     expect(isFresh(touched)).toBe(false);
   });
 
+  it('bin/reelwright.mjs rebuilds build/cli first when a source no longer matches the manifest', () => {
+    const file = path.join(repoRoot, 'build/cli/manifest.json');
+    spawnSync(process.execPath, [path.join(repoRoot, 'bin/reelwright.mjs'), '--version']); // make sure a build exists
+    const m = JSON.parse(fs.readFileSync(file, 'utf8')) as CliManifest;
+    const stale = { ...m, inputs: { ...m.inputs, 'main/cli/index.ts': { ...m.inputs['main/cli/index.ts']!, size: 1 } } };
+    fs.writeFileSync(`${file}.${process.pid}.tmp`, JSON.stringify(stale));
+    fs.renameSync(`${file}.${process.pid}.tmp`, file);
+    const r = spawnSync(process.execPath, [path.join(repoRoot, 'bin/reelwright.mjs'), '--version'], { encoding: 'utf8' });
+    expect(r.status, r.stderr).toBe(0);
+    expect(r.stdout.trim()).toBe('reelwright 0.1.0');
+    const after = JSON.parse(fs.readFileSync(file, 'utf8')) as CliManifest;
+    expect(after.inputs['main/cli/index.ts']!.size).toBe(fs.statSync(path.join(repoRoot, 'main/cli/index.ts')).size);
+    expect(isFresh(after)).toBe(true);
+  });
+
   it('gives the same answers as the sources: --version, info --json, an exit code 2', async () => {
     const v = runBuilt('--version');
     expect(v.status, v.stderr).toBe(0);
