@@ -43,6 +43,28 @@ describe('built command line', () => {
     expect(js).not.toMatch(/from\s*["']tsx|import\(["']tsx/);
   });
 
+  it('dsp/ imports nothing outside dsp/ (so fft.js, the tests’ reference FFT, stays a development dependency)', () => {
+    const bare: string[] = [];
+    let seen = 0;
+    const walk = (dir: string) => {
+      for (const e of fs.readdirSync(dir, { withFileTypes: true })) {
+        const p = path.join(dir, e.name);
+        if (e.isDirectory()) walk(p);
+        else if (p.endsWith('.ts')) {
+          for (const m of fs.readFileSync(p, 'utf8').matchAll(/^\s*(?:import|export)\b[^'"]*?from\s*['"]([^'"]+)['"]|import\(\s*['"]([^'"]+)['"]/gm)) {
+            const spec = m[1] ?? m[2]!;
+            seen++;
+            if (!spec.startsWith('.')) bare.push(`${path.relative(repoRoot, p)}: ${spec}`);
+            else expect(path.resolve(path.dirname(p), spec).startsWith(path.join(repoRoot, 'dsp') + path.sep), `${p} imports ${spec}`).toBe(true);
+          }
+        }
+      }
+    };
+    walk(path.join(repoRoot, 'dsp'));
+    expect(seen).toBeGreaterThan(100);
+    expect(bare).toEqual([]);
+  });
+
   it('bundles the check worker and lists every source it was built from', () => {
     expect(manifest.workers).toContain('worker-entry.mjs');
     expect(fs.existsSync(path.join(out, 'worker-entry.mjs'))).toBe(true);
