@@ -120,7 +120,7 @@ export function createWebBridge(): WebBridge {
       exports.delete(handle);
     },
     async saveSession(text, suggestedName) {
-      const name = fileName('saveSession', suggestedName, ['.json']);
+      const name = fileName('saveSession', suggestedName, ['.rwsession', '.json']);
       download(new Blob([text], { type: 'application/json' }), name);
       return { name, path: null };
     },
