@@ -9,6 +9,7 @@ export default defineConfig({
           environment: 'node',
           include: ['test/**/*.test.ts'],
           exclude: ['test/e2e/**', 'node_modules/**'],
+          globalSetup: ['test/setup/global-unit.ts'],
           testTimeout: 120_000,
           hookTimeout: 120_000,
         },

@@ -214,6 +214,11 @@ export interface DemoOptions {
   withReflection?: boolean;
   /** Include hum, tone and hiss (default true). */
   withNoise?: boolean;
+  /**
+   * Include the head azimuth error, channel 2 lagging (default true). False puts both channels at
+   * the same instant: with `withReflection: false` that is what a perfect restoration returns.
+   */
+  withAzimuthError?: boolean;
 }
 
 /** Synthesises the demo as planar float64 channels in the file's (played) time. */
@@ -221,6 +226,7 @@ export function synthesizeDemo(options: DemoOptions = {}): { parameters: DemoPar
   const p = demoParameters();
   const withReflection = options.withReflection ?? true;
   const withNoise = options.withNoise ?? true;
+  const withAzimuthError = options.withAzimuthError ?? true;
   const fs = p.sampleRateHz;
   const n = Math.round(p.durationSeconds * fs);
   const F = p.speedFactor;
@@ -230,7 +236,7 @@ export function synthesizeDemo(options: DemoOptions = {}): { parameters: DemoPar
   if (!breathTable) buildBreath(p.durationSeconds * F + 0.1);
   const channels: Float64Array[] = [];
   for (let c = 0; c < p.channels; c++) {
-    const lag = c === 0 ? 0 : p.interChannelDelaySeconds;
+    const lag = c === 0 || !withAzimuthError ? 0 : p.interChannelDelaySeconds;
     const gainCh = c === 0 ? 1 : 0.94;
     const noise = seededRng(1961 + c);
     const x = new Float64Array(n);

@@ -1,7 +1,7 @@
 /**
  * One streaming pass over a source for everything about levels: sample peak, true peak, RMS, DC
- * offset, clipping, BS.1770 loudness, a 1 ms level track (kept compact: one float per channel per
- * millisecond) for dropouts and head/tail silence, and a sparse long-term spectrum for the
+ * offset, clipping, BS.1770 loudness, runs of exact digital zeros, a 1 ms level track (kept compact:
+ * one float per channel per millisecond) for dropouts, level dips and head/tail silence, and a sparse long-term spectrum for the
  * effective bandwidth.
  */
 import type { AudioSource } from '../source.ts';
@@ -9,8 +9,8 @@ import type { OpContext } from '../ops/types.ts';
 import { CancelledError } from '../errors.ts';
 import { LoudnessMeter } from './loudness.ts';
 import { TruePeakMeter } from './true-peak.ts';
-import { findDropouts } from './dropouts.ts';
-import { SparseSpectrum, compactSpectrum, effectiveBandwidthHz } from './spectrum.ts';
+import { EDGE_SAMPLES, MAX_ZERO_RUNS, MIN_ZERO_RUN_SECONDS, findDropouts, zeroRunDropouts, type ZeroRun } from './dropouts.ts';
+import { bandwidthSpectrum, compactSpectrum, effectiveBandwidthHz } from './spectrum.ts';
 
 export interface LevelsOptions {
   /** Samples at or beyond this magnitude count as clipped (1 for float; the top code for integers). */
@@ -38,6 +38,7 @@ export interface LevelsChannel {
 export interface DropoutReport {
   startSeconds: number;
   durationSeconds: number;
+  /** Drop below the level around it, dB (200 for a run of exact digital zeros). */
   depthDb: number;
   /** 1-based channels where it was found. */
   channels: number[];
@@ -58,7 +59,14 @@ export interface LevelsResult {
   loudnessRangeLu: number;
   /** Highest true peak over all channels, dBTP. */
   truePeakDbtp: number;
+  /** Runs of exact digital zeros inside programme (a transfer fault): see zeroRunDropouts. */
   dropouts: DropoutReport[];
+  /**
+   * Sudden level drops of `dropoutDepthDb` or more in steady programme (findDropouts): a tape
+   * dropout, or a gap in the playing (a pause between notes, a stop consonant) — the level alone
+   * cannot tell which, so these are listed for listening, not counted as faults.
+   */
+  levelDips: DropoutReport[];
   /** The first clipped runs (at most 100), in time order. */
   clippedRuns: ClippedRun[];
   silence: { headSeconds: number; tailSeconds: number; thresholdDbfs: number; allSilent: boolean };
@@ -90,6 +98,18 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
   const runLen = new Float64Array(nCh);
   const runStart = new Float64Array(nCh);
   const runs: ClippedRun[] = [];
+  // Runs of exact digital zeros, per channel (start sample, length).
+  const zeroLen = new Float64Array(nCh);
+  const zeroStart = new Float64Array(nCh);
+  const zeroRuns: ZeroRun[] = [];
+  // Largest |x| of the last EDGE_SAMPLES samples (before a run starts) and of the first ones
+  // after a run ends.
+  const lastAbs = Array.from({ length: nCh }, () => new Float64Array(EDGE_SAMPLES));
+  let ringAt = 0;
+  const edgeBefore = new Float64Array(nCh);
+  const pendingRun: (ZeroRun | null)[] = new Array(nCh).fill(null);
+  const pendingLeft = new Float64Array(nCh);
+  const minZero = Math.max(2, Math.round(MIN_ZERO_RUN_SECONDS * fs));
 
   const frameSamples = Math.max(1, Math.round(fs / 1000));
   const frameSeconds = frameSamples / fs;
@@ -101,9 +121,7 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
 
   const loudness = new LoudnessMeter(fs, nCh, total);
   const truePeak = Array.from({ length: nCh }, () => new TruePeakMeter());
-  const fftSize = fs > 64000 ? 8192 : fs > 24000 ? 4096 : 2048;
-  const hop = Math.max(fftSize, Math.ceil(total / 3000));
-  const spectrum = new SparseSpectrum(fs, nCh, fftSize, hop);
+  const spectrum = bandwidthSpectrum(fs, nCh, total);
 
   let pos = 0;
   for await (const block of source.blocks()) {
@@ -113,10 +131,36 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
       const x = block[c]!;
       let p = peak[c]!, s = 0, s2 = 0, k = 0;
       let rl = runLen[c]!;
+      let zl = zeroLen[c]!;
+      const la = lastAbs[c]!;
       for (let i = 0; i < len; i++) {
         const v = x[i]!;
         const a = v < 0 ? -v : v;
         if (a > p) p = a;
+        if (a === 0) {
+          if (zl === 0) {
+            zeroStart[c] = pos + i;
+            let m = 0;
+            for (const v of la) if (v > m) m = v;
+            edgeBefore[c] = m;
+          }
+          zl++;
+        } else if (zl > 0) {
+          if (zl >= minZero && zeroRuns.length < MAX_ZERO_RUNS && pendingRun[c] === null) {
+            pendingRun[c] = { channel: c, startFrame: zeroStart[c]!, frames: zl, edgeBefore: edgeBefore[c]!, edgeAfter: 0 };
+            pendingLeft[c] = EDGE_SAMPLES;
+          }
+          zl = 0;
+        }
+        const run = pendingRun[c];
+        if (run !== null && zl === 0) {
+          if (a > run.edgeAfter) run.edgeAfter = a;
+          if (--pendingLeft[c]! === 0) {
+            zeroRuns.push(run);
+            pendingRun[c] = null;
+          }
+        }
+        la[(ringAt + i) & (EDGE_SAMPLES - 1)] = a; // EDGE_SAMPLES is a power of two
         s += v;
         s2 += v * v;
         if (a >= clipLevel) {
@@ -129,6 +173,7 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
         }
       }
       runLen[c] = rl;
+      zeroLen[c] = zl;
       peak[c] = p;
       sum[c]! += s;
       sumSq[c]! += s2;
@@ -152,6 +197,7 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
     for (let c = 0; c < nCh; c++) truePeak[c]!.push(block[c]!);
     spectrum.push(block);
     pos += len;
+    ringAt = (ringAt + len) & (EDGE_SAMPLES - 1);
     ctx.progress(pos / Math.max(1, total));
   }
   for (let c = 0; c < nCh; c++) if (runLen[c]! >= minRun) closeRun(c, runLen[c]!);
@@ -186,31 +232,23 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
   }
   runs.sort((a, b) => a.startSeconds - b.startSeconds || a.channel - b.channel);
 
-  // Dropouts per channel, merged where they overlap in time.
-  const found: DropoutReport[] = [];
+  // Dropouts (runs of digital zeros inside programme) and level dips, per channel, each merged
+  // where they overlap in time.
+  const zeros: DropoutReport[] = zeroRunDropouts(zeroRuns, framePower.map((p) => p.subarray(0, frameIndex)), frameSamples, fs).map((d) => ({
+    startSeconds: d.startSeconds,
+    durationSeconds: d.durationSeconds,
+    depthDb: d.depthDb,
+    channels: [d.channel + 1],
+  }));
+  const dips: DropoutReport[] = [];
   for (let c = 0; c < nCh; c++) {
     for (const d of findDropouts(framePower[c]!.subarray(0, frameIndex), { frameSeconds, depthDb: options.dropoutDepthDb ?? 20 })) {
-      found.push({ ...d, channels: [c + 1] });
+      const overlapsZeros = zeros.some((z) => z.channels.includes(c + 1) && z.startSeconds < d.startSeconds + d.durationSeconds && d.startSeconds < z.startSeconds + z.durationSeconds);
+      if (!overlapsZeros) dips.push({ ...d, channels: [c + 1] });
     }
   }
-  found.sort((a, b) => a.startSeconds - b.startSeconds);
-  const dropouts: DropoutReport[] = [];
-  for (const d of found) {
-    const last = dropouts[dropouts.length - 1];
-    if (last && d.startSeconds <= last.startSeconds + last.durationSeconds) {
-      const end = Math.max(last.startSeconds + last.durationSeconds, d.startSeconds + d.durationSeconds);
-      last.durationSeconds = end - last.startSeconds;
-      last.depthDb = Math.max(last.depthDb, d.depthDb);
-      for (const ch of d.channels) if (!last.channels.includes(ch)) last.channels.push(ch);
-    } else {
-      dropouts.push({ ...d, channels: [...d.channels] });
-    }
-  }
-  for (const d of dropouts) {
-    d.startSeconds = round(d.startSeconds, 4);
-    d.durationSeconds = round(d.durationSeconds, 4);
-    d.depthDb = round(d.depthDb, 2);
-  }
+  const dropouts = mergeOverlapping(zeros);
+  const levelDips = mergeOverlapping(dips);
 
   const silence = headTailSilence(framePower, frameIndex, frameSeconds, silenceDb, total / fs);
   const levelsDb = spectrum.levelsDb();
@@ -223,6 +261,7 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
     loudnessRangeLu: l.loudnessRangeLu,
     truePeakDbtp: Math.max(...channels.map((c) => c.truePeakDbtp)),
     dropouts,
+    levelDips,
     clippedRuns: runs,
     silence,
     bandwidthHz: levelsDb.length ? Math.round(effectiveBandwidthHz(levelsDb, fs)) : fs / 2,
@@ -230,6 +269,29 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
     envelope: envelope(framePower, frameIndex, frameSeconds, options.envelopePoints ?? 600),
     durationSeconds: total / fs,
   };
+}
+
+/** Events of several channels merged where they overlap in time, rounded for reports. */
+function mergeOverlapping(found: DropoutReport[]): DropoutReport[] {
+  found.sort((a, b) => a.startSeconds - b.startSeconds);
+  const out: DropoutReport[] = [];
+  for (const d of found) {
+    const last = out[out.length - 1];
+    if (last && d.startSeconds <= last.startSeconds + last.durationSeconds) {
+      const end = Math.max(last.startSeconds + last.durationSeconds, d.startSeconds + d.durationSeconds);
+      last.durationSeconds = end - last.startSeconds;
+      last.depthDb = Math.max(last.depthDb, d.depthDb);
+      for (const ch of d.channels) if (!last.channels.includes(ch)) last.channels.push(ch);
+    } else {
+      out.push({ ...d, channels: [...d.channels] });
+    }
+  }
+  for (const d of out) {
+    d.startSeconds = round(d.startSeconds, 4);
+    d.durationSeconds = round(d.durationSeconds, 4);
+    d.depthDb = round(d.depthDb, 2);
+  }
+  return out;
 }
 
 /** Head and tail silence from the 1 ms track: 10 ms windows below the threshold on every channel. */

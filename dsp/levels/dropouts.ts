@@ -130,3 +130,78 @@ export function findDropouts(power: ArrayLike<number>, options: DropoutOptions):
     };
   }
 }
+
+/** A run of exact digital zeros in one channel (0-based channel, sample positions). */
+export interface ZeroRun {
+  channel: number;
+  startFrame: number;
+  frames: number;
+  /** Largest |x| of the EDGE_SAMPLES samples before the run and of those after it. */
+  edgeBefore: number;
+  edgeAfter: number;
+}
+
+/** Samples either side of a zero run whose largest magnitude tells a cut from a fade. */
+export const EDGE_SAMPLES = 8;
+/** Most zero runs kept for examination (a file of scattered silence could hold millions). */
+export const MAX_ZERO_RUNS = 100_000;
+/** Shortest run of exact zeros examined (seconds): shorter runs happen in quiet 16-bit material. */
+export const MIN_ZERO_RUN_SECONDS = 0.002;
+/** Level either side of a zero run, measured over this long (seconds). */
+const ZERO_EDGE_SECONDS = 0.005;
+/** Either side must be within this much of the channel's programme level (dB). */
+const ZERO_PROGRAMME_DB = 30;
+/** And the two sides within this much of each other: the programme goes on across the gap. */
+const ZERO_CONTINUITY_DB = 30;
+/** The samples at each edge no more than this far under the RMS of the 5 ms beside them. */
+const ZERO_EDGE_DB = 30;
+/** Absolute floor for the level either side (mean square, −60 dBFS). */
+const ZERO_FLOOR = 1e-6;
+/** Longer runs of zeros are a gap in the programme (silence), not a dropout. */
+const ZERO_MAX_SECONDS = 0.5;
+
+/**
+ * Runs of exact digital zeros inside programme: a transfer or editing fault (a lost buffer, a bad
+ * sector), always worth a finding. Sound that stops and later starts again is not one: the run
+ * counts only when the programme sounds right up to it and right after it — the 5 ms either side
+ * within 30 dB of the channel's programme level (the median of its 1 ms frames above −70 dBFS)
+ * and above −60 dBFS, the two sides within 30 dB of each other, the 8 samples at each edge
+ * no more than 30 dB under the RMS beside them (cut, not faded), and the run at most 500 ms long. A note or
+ * a drum hit dying away into digital silence and the next one starting from it fail these tests;
+ * a longer stretch of zeros is a silence in the programme. Our own rule (common practice in transfer QC
+ * has no single published detector). `power[c][k]` is the mean square of 1 ms frame k.
+ */
+export function zeroRunDropouts(runs: readonly ZeroRun[], power: readonly Float32Array[], frameSamples: number, sampleRateHz: number) {
+  const out: { channel: number; startSeconds: number; durationSeconds: number; depthDb: number }[] = [];
+  const edge = Math.max(1, Math.round((ZERO_EDGE_SECONDS * sampleRateHz) / frameSamples));
+  const programme = power.map((p, c) => {
+    if (!runs.some((r) => r.channel === c)) return 0;
+    const loud = Float32Array.from(p).filter((v) => v > 1e-7).sort();
+    return loud.length ? loud[Math.floor(loud.length / 2)]! : 0;
+  });
+  for (const r of runs) {
+    if (r.frames > ZERO_MAX_SECONDS * sampleRateHz) continue;
+    const p = power[r.channel]!;
+    const first = Math.floor(r.startFrame / frameSamples); // frame holding the run's first zero
+    const last = Math.floor((r.startFrame + r.frames - 1) / frameSamples);
+    const mean = (a: number, b: number) => {
+      if (a < 0 || b > p.length || b <= a) return 0;
+      let s = 0;
+      for (let i = a; i < b; i++) s += p[i]!;
+      return s / (b - a);
+    };
+    const before = mean(first - edge, first);
+    const after = mean(last + 1, last + 1 + edge);
+    const ref = programme[r.channel]!;
+    const floor = Math.max(ZERO_FLOOR, ref * 10 ** (-ZERO_PROGRAMME_DB / 10));
+    if (before < floor || after < floor) continue;
+    if (Math.abs(10 * Math.log10(before / after)) > ZERO_CONTINUITY_DB) continue;
+    // Cut, not faded: the samples right next to the run are of the size of the programme around
+    // them (a sound that dies away into digital silence, or starts from it, passes through
+    // values a few bits high; a waveform cut by a fault does not).
+    const abrupt = 10 ** (-ZERO_EDGE_DB / 20);
+    if (r.edgeBefore < Math.sqrt(before) * abrupt || r.edgeAfter < Math.sqrt(after) * abrupt) continue;
+    out.push({ channel: r.channel, startSeconds: r.startFrame / sampleRateHz, durationSeconds: r.frames / sampleRateHz, depthDb: 200 });
+  }
+  return out;
+}

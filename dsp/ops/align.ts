@@ -20,7 +20,7 @@ export const align: CorrectionOp = {
     {
       name: 'delaySeconds', flag: 'delay', type: 'number', label: 'Delay', unit: 's',
       help: 'Delay of channel 2 behind channel 1 to remove, in seconds (negative when channel 1 lags). Measured when absent.',
-      min: -0.05, max: 0.05,
+      min: -0.05, max: 0.05, quantity: 'delay', measured: true,
     },
   ],
   measures: 'azimuth',

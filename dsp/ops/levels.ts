@@ -1,8 +1,8 @@
 /**
  * `levels`: sample peak, true peak (4× oversampling, ITU-R BS.1770-4 Annex 2), RMS, DC offset,
  * clipped samples and runs, integrated loudness (BS.1770-4 K-weighting and gating) with momentary
- * and short-term maxima and the loudness range (EBU Tech 3342), dropouts, silence at head and
- * tail, and the effective bandwidth (in the numbers only: the `spectrum` analysis words the
+ * and short-term maxima and the loudness range (EBU Tech 3342), dropouts (runs of digital zeros
+ * inside programme), level dips (listed for listening), silence at head and tail, and the effective bandwidth (in the numbers only: the `spectrum` analysis words the
  * bandwidth finding). Methods: dsp/levels/.
  */
 import type { AnalysisOp, Finding } from './types.ts';
@@ -13,6 +13,7 @@ import { analyzeLevels, type LevelsResult } from '../levels/analyze.ts';
 export type { LevelsResult } from '../levels/analyze.ts';
 
 const f1 = (v: number) => (Number.isFinite(v) ? v.toFixed(1) : '−∞');
+const ms = (seconds: number) => `${(seconds * 1000).toFixed(0)} ms`;
 
 export const levels: AnalysisOp<LevelsResult> = {
   kind: 'analysis',
@@ -27,8 +28,8 @@ export const levels: AnalysisOp<LevelsResult> = {
       min: -140, max: 0, default: -60,
     },
     {
-      name: 'dropoutDepthDb', flag: 'dropout-db', type: 'number', label: 'Dropout depth', unit: 'dB',
-      help: 'A dropout is a sudden drop at least this deep, lasting 5–500 ms, in otherwise steady programme.',
+      name: 'dropoutDepthDb', flag: 'dropout-db', type: 'number', label: 'Level dip depth', unit: 'dB',
+      help: 'A level dip is a sudden drop at least this deep, lasting 5–500 ms, in otherwise steady programme (listed for listening; runs of digital zeros are dropouts whatever their depth).',
       min: 6, max: 80, default: 20,
     },
     {
@@ -77,9 +78,18 @@ export const levels: AnalysisOp<LevelsResult> = {
     }
     if (r.dropouts.length > 0) {
       const d = r.dropouts[0]!;
+      const n = r.dropouts.length;
       out.push({
-        op, title: `${r.dropouts.length} dropout${r.dropouts.length > 1 ? 's' : ''}`, severity: 'warn', value: r.dropouts.length, unit: 'dropouts',
-        sentence: `The level falls suddenly by ${d.depthDb.toFixed(0)} dB for ${(d.durationSeconds * 1000).toFixed(0)} ms at ${d.startSeconds.toFixed(2)} s${r.dropouts.length > 1 ? ` and ${r.dropouts.length - 1} more time${r.dropouts.length > 2 ? 's' : ''}` : ''}: tape losing contact with the head, a damaged splice or shedding. Check the tape at those places and clean the heads.`,
+        op, title: `${n} dropout${n > 1 ? 's' : ''} (digital silence)`, severity: 'warn', value: n, unit: 'dropouts',
+        sentence: `The audio is exact digital silence for ${ms(d.durationSeconds)} at ${d.startSeconds.toFixed(3)} s${n > 1 ? ` and ${n - 1} more time${n > 2 ? 's' : ''}` : ''} while the programme runs on either side: a transfer fault (a lost buffer, a damaged file or a bad edit), not the recording. Transfer that part again.`,
+      });
+    }
+    if (r.levelDips.length > 0) {
+      const d = r.levelDips[0]!;
+      const n = r.levelDips.length;
+      out.push({
+        op, title: `${n} brief level dip${n > 1 ? 's' : ''}`, severity: 'info', value: n, unit: 'dips',
+        sentence: `The level falls suddenly by ${d.depthDb.toFixed(0)} dB for ${ms(d.durationSeconds)} at ${d.startSeconds.toFixed(2)} s${n > 1 ? ` and ${n - 1} more time${n > 2 ? 's' : ''}` : ''} inside steady programme. That may be a tape dropout (the tape leaving the head) or simply a gap in the playing — a pause between notes or a stop consonant; the level alone cannot tell, so listen there.`,
       });
     }
     if (r.silence.allSilent) {

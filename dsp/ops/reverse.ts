@@ -6,6 +6,7 @@
 import { ParameterError } from '../errors.ts';
 import { resolveReverse, reverseBlocks } from '../reverse/reverse.ts';
 import { list, num } from './params.ts';
+import { reversedSegments } from './timing.ts';
 import type { CorrectionOp } from './types.ts';
 
 export const reverse: CorrectionOp = {
@@ -13,10 +14,11 @@ export const reverse: CorrectionOp = {
   name: 'reverse',
   title: 'Reverse',
   summary: 'Play the whole file, a time range, or chosen channels backwards (bit-exact).',
+  measures: 'reversed',
   params: [
     { name: 'channels', flag: 'channels', type: 'list', label: 'Channels', help: 'Channels to reverse, counted from 1, comma-separated (default: all).', min: 1 },
-    { name: 'fromSeconds', flag: 'from', type: 'number', label: 'From', help: 'Start of the range to reverse (default: the start).', unit: 's', min: 0 },
-    { name: 'toSeconds', flag: 'to', type: 'number', label: 'To', help: 'End of the range to reverse (default: the end).', unit: 's', min: 0 },
+    { name: 'fromSeconds', flag: 'from', type: 'number', label: 'From', help: 'Start of the range to reverse (default: the start).', unit: 's', min: 0, quantity: 'instant' },
+    { name: 'toSeconds', flag: 'to', type: 'number', label: 'To', help: 'End of the range to reverse (default: the end).', unit: 's', min: 0, quantity: 'instant' },
   ],
   async prepare(source, params, ctx) {
     const fs = source.sampleRateHz;
@@ -52,6 +54,19 @@ export const reverse: CorrectionOp = {
         startFrame: resolved.startFrame,
         endFrame: resolved.endFrame,
       },
+    };
+  },
+  timing(r, facts) {
+    // Reversed material moves (t → from + to − t) and its lags change sign; with only some
+    // channels or part of the file reversed, a lag measured across the whole no longer holds.
+    const d = facts.frames / facts.sampleRateHz;
+    const from = num(r, 'fromSeconds') ?? 0, to = Math.min(d, num(r, 'toSeconds') ?? d);
+    const chs = list(r, 'channels');
+    const all = !chs || chs.length >= facts.channelCount;
+    const whole = from <= 0 && to >= d;
+    return {
+      segments: all ? reversedSegments(d, from, to) : [{ inStart: 0, inEnd: d, outStart: 0, outEnd: d }],
+      mapDelay: (x) => (all && whole ? -x : null),
     };
   },
   history(r) {

@@ -7,6 +7,7 @@ import { ParameterError } from '../errors.ts';
 import { MAX_RATIO, MIN_RATIO, defaultStretchFftSize } from '../stretch/phase-vocoder.ts';
 import { stretchSource } from '../stretch/render.ts';
 import { num } from './params.ts';
+import { scaledSegments } from './timing.ts';
 import type { CorrectionOp } from './types.ts';
 
 export const stretch: CorrectionOp = {
@@ -37,6 +38,13 @@ export const stretch: CorrectionOp = {
       blocks: stretchSource(source, { ratio }),
       resolved: { ratio, fftSize: defaultStretchFftSize(source.sampleRateHz) },
     };
+  },
+  timing(r, facts) {
+    // Instants scale by the ratio; a lag within the sound is not simply scaled by a phase vocoder
+    // (short ones stay in the spectrum, long ones move with the material), so it is measured again.
+    const ratio = num(r, 'ratio');
+    if (ratio === undefined) throw new ParameterError('say how much: --ratio R');
+    return { segments: scaledSegments(facts.frames / facts.sampleRateHz, ratio), mapDelay: () => null };
   },
   history(r) {
     return `reelwright stretch ratio=${Number(r.ratio).toPrecision(8)} phase vocoder, identity phase locking, fft=${String(r.fftSize)}`;

@@ -52,6 +52,13 @@ export const transpose: CorrectionOp = {
       },
     };
   },
+  timing(r, facts) {
+    // Duration kept; lags within the sound pass through a phase vocoder and a resampler, so a lag
+    // measured before is measured again after (no transposition at all keeps them).
+    const d = facts.frames / facts.sampleRateHz;
+    const none = (num(r, 'cents') ?? 0) === 0 && (num(r, 'semitones') ?? 0) === 0;
+    return { segments: [{ inStart: 0, inEnd: d, outStart: 0, outEnd: d }], mapDelay: (x) => (none ? x : null) };
+  },
   history(r) {
     return `reelwright transpose cents=${Number(r.cents).toPrecision(8)} factor=${Number(r.factor).toPrecision(8)}${r.keepFormants ? ' keep-formants' : ''} phase vocoder + resampler quality=${String(r.quality)}`;
   },

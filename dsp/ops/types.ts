@@ -29,6 +29,15 @@ export interface ParamSpec {
   readonly default?: number | boolean | string | readonly number[];
   /** Only meaningful on the command line (e.g. a path); the editor hides it. */
   readonly cliOnly?: boolean;
+  /**
+   * What the number is, so a chain of corrections can carry it across a step that changes time
+   * (dsp/ops/timing.ts): 'delay', a lag within the sound (a reflection, the delay between the
+   * channels; a range of them for a 'range'); 'instant', a position in the recording in seconds
+   * from its start. Absent: neither (a gain, a factor, a channel number).
+   */
+  readonly quantity?: 'delay' | 'instant';
+  /** The operation measures this on its own input when it is left out. */
+  readonly measured?: boolean;
 }
 
 /** A parsed `range` parameter: `MIN:MAX` on the command line. */
@@ -127,6 +136,31 @@ export interface CorrectionOp extends OperationBase {
   readonly measures?: string;
   /** Free text for the BWF CodingHistory `T=` field, e.g. "reelwright unecho delay=0.0231s gain=0.42". */
   history(resolved: ParamValues): string;
+  /**
+   * How the output's time relates to the input's, from the resolved parameters and the input's
+   * facts (dsp/ops/timing.ts), so a chain can carry measured delays and positions across this
+   * step. Absent: the step keeps time (every instant stays where it was, delays unchanged).
+   */
+  timing?(resolved: ParamValues, facts: SourceFacts): StepTiming;
+}
+
+/** One linear piece of a time map: input [inStart, inEnd] s → output [outStart, outEnd] s (outEnd < outStart when reversed). */
+export interface TimeSegment {
+  readonly inStart: number;
+  readonly inEnd: number;
+  readonly outStart: number;
+  readonly outEnd: number;
+}
+
+/** What a correction does to time. */
+export interface StepTiming {
+  /** Piecewise-linear map of input seconds to output seconds: segments in input order, covering the input. */
+  readonly segments: readonly TimeSegment[];
+  /**
+   * A lag of `delaySeconds` within the sound of the input (a reflection, a channel delay) as it is
+   * in the output, or null when it does not survive as one lag (it must be measured again there).
+   */
+  mapDelay(delaySeconds: number): number | null;
 }
 
 export type Operation = AnalysisOp | CorrectionOp;

@@ -65,6 +65,8 @@ export const unecho: CorrectionOp = {
       unit: 's',
       min: -60,
       max: 60,
+      quantity: 'delay',
+      measured: true,
     },
     {
       name: 'gain',
@@ -74,6 +76,7 @@ export const unecho: CorrectionOp = {
       help: 'Linear gain of the echo, −1 < G < 1 (negative: inverted polarity). Needs --delay.',
       min: -1,
       max: 1,
+      measured: true,
     },
     {
       name: 'rangeSeconds',
@@ -84,6 +87,7 @@ export const unecho: CorrectionOp = {
       unit: 's',
       min: 0,
       max: 10,
+      quantity: 'delay',
     },
     {
       name: 'channel',

@@ -11,6 +11,7 @@ import { NotFoundError, ParameterError } from '../errors.ts';
 import { ratioFromSpeedCurve, resampleSource, ratioForFactor, Resampler, type ResampleQuality } from '../core/resample.ts';
 import { estimateSpeed, type SpeedMethod } from '../speed/estimate.ts';
 import { bool, num, str } from './params.ts';
+import { scaledSegments } from './timing.ts';
 import type { CorrectionOp, ParamValues } from './types.ts';
 
 export const MIN_FACTOR = 0.25;
@@ -145,6 +146,13 @@ export const varispeed: CorrectionOp = {
       blocks: blocksOf(ratio),
       resolved: { ...resolvedBase, factor },
     };
+  },
+  timing(r, facts) {
+    // Playing f times as fast divides every instant and every lag by f (a speed curve is taken
+    // at its mean). Before rendering, a speed still to be measured is not known.
+    const f = explicitFactor(r);
+    if (f === null) throw new ParameterError('the speed change is known once it has been measured');
+    return { segments: scaledSegments(facts.frames / facts.sampleRateHz, 1 / f), mapDelay: (d) => d / f };
   },
   history(r) {
     const parts = [`reelwright varispeed factor=${Number(r.factor).toPrecision(8)}`];

@@ -28,6 +28,9 @@ type Builtin = (argv: string[]) => Promise<number>;
 const BUILTINS: Record<string, { summary: string; run: Builtin }> = {
   diagnose: { summary: 'Run every analysis that applies and list the findings in plain words.', run: runDiagnose },
   check: { summary: 'Check folders of transfers: every analysis, pass/warn/fail per file, HTML/JSON/CSV reports.', run: async (argv) => (await import('../check/index.ts')).runCheck(argv) },
+  // Many machines: `check … --queue URL --batch NAME` enqueues; these take the jobs and report.
+  worker: { summary: 'Check files queued by `check --queue` on this machine (any number of machines).', run: async (argv) => (await import('../check/queue/worker.ts')).runWorker(argv) },
+  report: { summary: 'Write the HTML/JSON/CSV reports of a queued batch (same gate as check).', run: async (argv) => (await import('../check/queue/report.ts')).runQueueReport(argv) },
 };
 
 /** Writes to stdout/stderr; replaceable in tests. */

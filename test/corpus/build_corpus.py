@@ -46,7 +46,7 @@ import scipy
 import scipy.io.wavfile
 import scipy.signal
 
-CORPUS_VERSION = 1
+CORPUS_VERSION = 2
 warnings.filterwarnings('ignore', category=scipy.io.wavfile.WavFileWarning)
 FLUID = '/usr/share/sounds/sf2/FluidR3_GM.sf2'
 TIMGM = '/usr/share/sounds/sf2/TimGM6mb.sf2'
@@ -172,11 +172,23 @@ def trim_tail(x: np.ndarray, rate: int, keep_seconds: float = 0.3, floor_db: flo
     return x[:end]
 
 
+_resamplers: dict = {}
+
+
 def resample_to(x: np.ndarray, from_rate: int, to_rate: int) -> np.ndarray:
+    """Rate change by scipy.signal.resample_poly with a Kaiser-window FIR (140 dB) whose
+    transition band is 5 % of the lower Nyquist frequency, so the content stops where it stopped."""
     if from_rate == to_rate:
         return x
     fr = Fraction(to_rate, from_rate)
-    return scipy.signal.resample_poly(x, fr.numerator, fr.denominator, axis=0, window=('kaiser', 14.0))
+    up, down = fr.numerator, fr.denominator
+    key_ = (up, down)
+    if key_ not in _resamplers:
+        m = max(up, down)
+        numtaps, beta = scipy.signal.kaiserord(140, 0.05 / m)
+        numtaps |= 1
+        _resamplers[key_] = up * scipy.signal.firwin(numtaps, 0.975 / m, window=('kaiser', beta))
+    return scipy.signal.resample_poly(x, up, down, axis=0, window=_resamplers[key_])
 
 
 # ---------------------------------------------------------------------------------------------
@@ -473,10 +485,11 @@ def imp_clip(x: np.ndarray, overDb: float) -> np.ndarray:
 
 
 def imp_lowpass(x: np.ndarray, rate: int, cutoffHz: float) -> np.ndarray:
-    """Linear-phase FIR (scipy.signal.firwin, Kaiser window, ≥ 100 dB stopband), zero delay."""
-    numtaps, beta = scipy.signal.kaiserord(100, 0.05 * cutoffHz / (rate / 2))
+    """Linear-phase FIR (scipy.signal.firwin, Kaiser window, 120 dB stopband from the cut-off,
+    transition band the 2 % below it), zero delay."""
+    numtaps, beta = scipy.signal.kaiserord(120, 0.02 * cutoffHz / (rate / 2))
     numtaps |= 1
-    h = scipy.signal.firwin(numtaps, cutoffHz * 1.025, window=('kaiser', beta), fs=rate)
+    h = scipy.signal.firwin(numtaps, cutoffHz * 0.99, window=('kaiser', beta), fs=rate)
     y = scipy.signal.fftconvolve(x, h[:, None], axes=0)
     d = (numtaps - 1) // 2
     return y[d:d + x.shape[0]]
@@ -548,6 +561,8 @@ def truth_of(steps: list, rate: int, clean_truth: dict) -> dict:
         k = st['type']
         if k == 'speed':
             factor *= st['factor']
+            if t.get('bandwidthHz'):
+                t['bandwidthHz'] *= st['factor']
         elif k == 'speedCurve':
             t['speedCurve'] = {'timesSeconds': st['timesSeconds'], 'factors': st['factors']}
             factor *= float(np.mean(st['factors']))
@@ -571,7 +586,7 @@ def truth_of(steps: list, rate: int, clean_truth: dict) -> dict:
         elif k == 'clip':
             t['clipped'] = True
         elif k == 'lowpass':
-            t['bandwidthHz'] = st['cutoffHz']
+            t['bandwidthHz'] = min(st['cutoffHz'], t['bandwidthHz'] or math.inf)
         elif k == 'pad':
             pass
     # Events recorded in programme time move with a later speed change (applied after them).
@@ -910,8 +925,10 @@ def impaired_recipes(clean: list) -> list:
         d = az[i % len(az)] * (1 if i % 3 else -1)
         R.append({'id': f'azimuth-{i:02d}-{base}', 'set': 'impaired', 'split': 'dev', 'kind': by_id[base]['kind'], 'cleanId': base,
                   'sampleRateHz': by_id[base]['sampleRateHz'], 'channels': 2, 'bits': by_id[base]['bits'], 'tags': by_id[base]['tags'],
-                  'steps': [{'type': 'twoTracks'}, {'type': 'channelDelay', 'delaySeconds': d}],
-                  'description': f'mono programme on two tracks, channel 2 delayed {d * 1e6:.2f} us', 'fast': i == 0})
+                  'steps': [{'type': 'twoTracks'}, {'type': 'channelDelay', 'delaySeconds': d}]
+                  + ([{'type': 'noise', 'levelDbfs': -62.0, 'seed': 500 + i}] if i % 2 else []),
+                  'description': f'mono programme on two tracks, channel 2 delayed {d * 1e6:.2f} us'
+                  + (', hiss on each track' if i % 2 else ''), 'fast': i == 0})
     # Dropouts: exact zeros inside programme, and level dips.
     for i, base in enumerate(voice + music[::3] + drums[:2]):
         c = by_id[base]
@@ -970,7 +987,12 @@ def build_clean(args) -> dict:
         with open(stamp, 'w') as f:
             f.write(h)
     rate, x = read_wav(path)
-    return entry(recipe, path, out_dir, rate, x, clean_truth(), [])
+    truth = clean_truth()
+    # Speech rendered at 16 kHz (Festival) or recorded at 8 kHz (Asterisk) stops at half that rate.
+    native = {'festival': 8000.0, 'asterisk': 4000.0}.get(recipe['source']['type'])
+    if native:
+        truth['bandwidthHz'] = native
+    return entry(recipe, path, out_dir, rate, x, truth, [])
 
 
 def build_impaired(args) -> dict:

@@ -36,6 +36,12 @@ export const PYTHON3: SystemTool = {
   files: ['/usr/bin/python3'],
 };
 
+export const OPENSSL: SystemTool = {
+  purpose: 'the job-queue TLS test',
+  packages: ['openssl'],
+  files: ['/usr/bin/openssl'],
+};
+
 const firstExisting = (files: readonly string[]) => files.find((f) => fs.existsSync(f));
 
 const isRoot = () => typeof process.getuid === 'function' && process.getuid() === 0;

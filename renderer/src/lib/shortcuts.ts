@@ -1,4 +1,4 @@
-/** Keyboard shortcuts: Space play/stop, B original ⇄ corrected, L loop, + / − zoom, 0 whole view, arrows scroll, Ctrl+Z / Ctrl+Shift+Z undo/redo, Ctrl+O open. */
+/** Keyboard shortcuts: Space play/stop, B original ⇄ corrected, L loop, + / − zoom, 0 whole view, arrows scroll, M marker, [ / ] previous / next marker, Ctrl+Z / Ctrl+Shift+Z undo/redo, Ctrl+O open. */
 import type { Editor } from '../state/editor.svelte.ts';
 
 export function shortcut(e: KeyboardEvent, ed: Editor): void {
@@ -20,6 +20,9 @@ export function shortcut(e: KeyboardEvent, ed: Editor): void {
   else if (e.key === 'ArrowLeft') tl.scroll(-tl.span / 4);
   else if (e.key === 'ArrowRight') tl.scroll(tl.span / 4);
   else if (e.key === 'Home') tl.playhead = tl.selection?.start ?? 0;
+  else if (e.key === 'm' || e.key === 'M') ed.addMarker();
+  else if (e.key === '[') ed.jumpNext(-1);
+  else if (e.key === ']') ed.jumpNext(1);
   else handled = false;
   if (handled) e.preventDefault();
 }

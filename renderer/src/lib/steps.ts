@@ -2,7 +2,8 @@
  * The list of corrections ("steps") as plain data, with undo/redo of every change. Pure: the
  * editor wraps it in a Svelte state class (steps.svelte.ts); tests use it directly.
  */
-import type { ParamValue, ParamValues } from '../../../dsp/ops/types.ts';
+import type { CorrectionOp, ParamValue, ParamValues, SourceFacts } from '../../../dsp/ops/types.ts';
+import { changesTime } from '../../../dsp/ops/timing.ts';
 
 export interface Step {
   /** Stable id within a session (`s1`, `s2`, …). */
@@ -13,6 +14,35 @@ export interface Step {
   readonly enabled: boolean;
   /** The finding that suggested it, kept for the compare view ("echo gain 0.42 → 0.01"). */
   readonly because?: { readonly op: string; readonly title: string };
+  /**
+   * What its delays and positions refer to (absent = 'original'): the original recording's time
+   * (measured there, or read off its time line; carried across earlier steps that change time) or
+   * 'input', the step's own input.
+   */
+  readonly basis?: 'original' | 'input';
+  /** Measure what the step can measure on its own input instead of using the values given. */
+  readonly measureHere?: boolean;
+  /** Only this part of the original recording (seconds), crossfaded at its edges; absent = all. */
+  readonly rangeSeconds?: readonly [number, number];
+}
+
+/** Looks up a correction by name (the registry, or a test's own list). */
+export type FindCorrection = (name: string) => CorrectionOp | undefined;
+
+/**
+ * Where a correction measured on the original recording belongs in the list: before the first
+ * enabled step that changes time (a varispeed, a stretch, a reverse), when its own values are
+ * delays or positions and it keeps time itself, so it runs on the material it was measured on.
+ * Anything else goes at the end.
+ */
+export function placementIndex(steps: readonly Step[], op: CorrectionOp, params: ParamValues, facts: SourceFacts, find: FindCorrection): number {
+  const timed = op.params.some((p) => p.quantity !== undefined && params[p.name] !== undefined);
+  if (!timed || changesTime(op, params, facts) !== false) return steps.length;
+  const k = steps.findIndex((s) => {
+    const other = find(s.op);
+    return s.enabled && other !== undefined && changesTime(other, s.params, facts) !== false;
+  });
+  return k < 0 ? steps.length : k;
 }
 
 export interface Change {
@@ -62,10 +92,26 @@ export class StepList {
     return i;
   }
 
-  add(op: string, params: ParamValues, because?: Step['because'], label = `add ${op}`): Step {
+  /** Adds a step at `at` (default: the end). */
+  add(op: string, params: ParamValues, because?: Step['because'], label = `add ${op}`, at = this.#steps.length): Step {
     const step: Step = { id: `s${this.#nextId++}`, op, params: { ...params }, enabled: true, ...(because ? { because } : {}) };
-    this.#apply(label, [...this.#steps, step]);
+    const k = Math.max(0, Math.min(this.#steps.length, Math.round(at)));
+    this.#apply(label, [...this.#steps.slice(0, k), step, ...this.#steps.slice(k)]);
     return step;
+  }
+
+  /** Changes how a step's values are taken: what they refer to, measuring on its input, its range. */
+  setHow(id: string, how: { basis?: Step['basis']; measureHere?: boolean; rangeSeconds?: Step['rangeSeconds'] | null }, label = 'change step'): void {
+    const i = this.#index(id);
+    const old = this.#steps[i]!;
+    const next: Record<string, unknown> = { ...old };
+    for (const [k, v] of Object.entries(how)) {
+      if (v === undefined) continue;
+      if (v === null || v === false || (k === 'basis' && v === 'original')) delete next[k];
+      else next[k] = v;
+    }
+    if (JSON.stringify(next) === JSON.stringify(old)) return;
+    this.#apply(label, this.#steps.map((s, k) => (k === i ? (next as unknown as Step) : s)));
   }
 
   remove(id: string, label = 'remove step'): void {

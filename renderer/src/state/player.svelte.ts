@@ -24,6 +24,8 @@ export interface PlayerHost {
   /** dB to add to the corrected signal so it sounds as loud as the original (0 when off). */
   readonly correctedMatchDb: number;
   readonly hasCorrected: boolean;
+  /** Called before switching versions: the host moves the time line so the position stays on the same programme. */
+  beforeSwitch?(to: Which): void;
 }
 
 export class Player {
@@ -95,6 +97,7 @@ export class Player {
   switchTo = (which: Which) => {
     if (which === 'processed' && !this.host.hasCorrected) return;
     if (this.which === which) return;
+    this.host.beforeSwitch?.(which);
     this.which = which;
     if (this.playing) this.#begin(this.host.timeline.playhead, 0.01);
   };

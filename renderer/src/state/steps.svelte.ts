@@ -17,11 +17,12 @@ export class StepsState {
 
   #sync = () => { this.#steps = this.#list.steps; this.#version++; };
 
-  add = (op: string, params: ParamValues, because?: Step['because'], title = op) => {
-    const s = this.#list.add(op, params, because, `add ${title}`);
+  add = (op: string, params: ParamValues, because?: Step['because'], title = op, at?: number) => {
+    const s = this.#list.add(op, params, because, `add ${title}`, at);
     this.#sync();
     return s;
   };
+  setHow = (id: string, how: Parameters<StepList['setHow']>[1], label?: string) => { this.#list.setHow(id, how, label); this.#sync(); };
   remove = (id: string) => { this.#list.remove(id); this.#sync(); };
   setEnabled = (id: string, on: boolean) => { this.#list.setEnabled(id, on); this.#sync(); };
   setParam = (id: string, name: string, v: ParamValue) => { this.#list.setParam(id, name, v); this.#sync(); };

@@ -62,6 +62,23 @@ export class Timeline {
     this.#clamp();
   }
 
+  /**
+   * Moves to another time line of `duration` seconds (the corrected preview's, or back): the view,
+   * the selection and the play position follow `map`, so they stay on the same programme.
+   */
+  rebase(duration: number, map: (t: number) => number): void {
+    const a = map(this.start), b = map(this.start + this.span);
+    const sel = this.selection;
+    const s = sel ? [map(sel.start), map(sel.end)] : null;
+    const head = map(this.playhead);
+    this.duration = duration;
+    this.start = Math.min(a, b);
+    this.span = Math.max(Math.abs(b - a), 1e-3);
+    this.#clamp();
+    this.selection = s ? { start: Math.max(0, Math.min(s[0]!, s[1]!)), end: Math.min(duration, Math.max(s[0]!, s[1]!)) } : null;
+    this.playhead = Math.max(0, Math.min(duration, head));
+  }
+
   select(a: number, b: number): void {
     const start = Math.max(0, Math.min(a, b)), end = Math.min(this.duration, Math.max(a, b));
     this.selection = end - start > 0.005 ? { start, end } : null;

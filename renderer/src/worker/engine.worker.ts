@@ -19,6 +19,7 @@ import { spectroTile, longTermSpectrum, toDb, type Placed } from './spectral.ts'
 import { preview, remeasure, type Processed } from './jobs.ts';
 import { diagnose } from '../../../dsp/ops/diagnose.ts';
 import { exportFile } from './export.ts';
+import { fileMarkers } from './markers.ts';
 
 const scope = self as unknown as {
   postMessage(m: FromWorker, transfer?: Transferable[]): void;
@@ -84,7 +85,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
         throw new InputError('the editor opens WAV, BWF, RF64 and AIFF; convert FLAC first with `reelwright convert IN.flac OUT.wav` (bit-exact, tags kept)', job.file.name);
       }
       original = new FileSource((o, l) => readBytes(handle, o, l), layout);
-      const result: JobResults['open'] = { layout, codingHistory: layout.bext?.codingHistory ?? '', chunkIds: layout.chunks.map((c) => c.id) };
+      const result: JobResults['open'] = { layout, codingHistory: layout.bext?.codingHistory ?? '', chunkIds: layout.chunks.map((c) => c.id), markers: await fileMarkers(layout, (o, l) => readBytes(handle, o, l), job.file.name) };
       return { result, transfer: [] };
     }
     case 'overview': {
@@ -167,7 +168,9 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       const t0 = job.startFrame / src.sampleRateHz, t1 = job.endFrame / src.sampleRateHz;
       const fft = 8192;
       const before = await longTermSpectrum({ source: src, offsetSeconds: 0 }, t0, t1, fft, signal);
-      const after = processed ? await longTermSpectrum({ source: processed.source, offsetSeconds: processed.offsetSeconds }, t0, t1, fft, signal) : null;
+      // The same material after a step that changes time: the page maps the range through the chain.
+      const a0 = job.afterStartSeconds ?? t0, a1 = job.afterEndSeconds ?? t1;
+      const after = processed ? await longTermSpectrum({ source: processed.source, offsetSeconds: processed.offsetSeconds }, a0, a1, fft, signal) : null;
       const rate = processed?.source.sampleRateHz ?? src.sampleRateHz;
       const frequenciesHz = Float32Array.from({ length: fft / 2 + 1 }, (_, k) => (k * src.sampleRateHz) / fft);
       if (after && rate !== src.sampleRateHz) throw new InputError('compare needs the same sample rate before and after');
@@ -176,7 +179,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
     }
     case 'remeasure':
       if (!processed?.region) return { result: [], transfer: [] };
-      return { result: await remeasure(processed.region, processed.source, job.steps, ctx), transfer: [] };
+      return { result: await remeasure(processed.region, processed.offsetSeconds, job.steps, ctx), transfer: [] };
     case 'export': {
       if (!file) throw new InputError('no recording is open');
       const r = await exportFile(needOriginal(), file.handle, readBytes, writeBytes, job, ctx);

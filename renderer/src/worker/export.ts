@@ -9,10 +9,12 @@ import {
   appendCodingHistory, buildBext, codingHistoryLine, copiesChunk, newBextFixed, WavStreamEncoder,
   type RawChunk,
 } from '../../../dsp/formats/index.ts';
+import { buildAdtlList, buildCueChunk, isAdtlList, type CuePoint } from '../../../dsp/formats/cue.ts';
+import { mapTime } from '../../../dsp/ops/timing.ts';
 import { MemorySource, readAll } from '../../../dsp/source.ts';
-import type { ParamValues, Rendering } from '../../../dsp/ops/types.ts';
+import type { Rendering, TimeSegment } from '../../../dsp/ops/types.ts';
 import type { FileSource } from './file-source.ts';
-import { correctionOf, renderInMemory, streamingRendering, type Progress } from './pipeline.ts';
+import { renderInMemory, streamingRendering, type Progress, type StepReport } from './pipeline.ts';
 import type { Job, JobResults } from './protocol.ts';
 
 type ExportJob = Extract<Job, { type: 'export' }>;
@@ -27,16 +29,19 @@ const WRITE_BYTES = 4 << 20;
 export async function exportFile(source: FileSource, sourceHandle: string, read: Read, write: Write, job: ExportJob, p: Progress): Promise<JobResults['export']> {
   const layout = source.layout;
   let rendering: Rendering;
-  let resolved: ParamValues[];
+  let reports: StepReport[];
+  let segments: readonly TimeSegment[];
   const renderProgress: Progress = { progress: (f, l) => p.progress(0.5 * f, l), warn: p.warn, signal: p.signal };
   if (layout.frames * layout.channels <= IN_MEMORY_SAMPLES) {
     const whole = new MemorySource(await readAll(source), source.sampleRateHz);
     const r = await renderInMemory(whole, job.steps, renderProgress);
-    resolved = r.resolved;
+    reports = r.reports;
+    segments = r.segments;
     rendering = { sampleRateHz: r.out.sampleRateHz, channelCount: r.out.channelCount, framesHint: r.out.frames, blocks: r.out.blocks(), resolved: {} };
   } else {
     const r = await streamingRendering(source, job.steps, renderProgress);
-    resolved = r.resolved;
+    reports = r.reports;
+    segments = r.segments;
     rendering = r.rendering;
   }
   const fmt = job.format;
@@ -44,9 +49,7 @@ export async function exportFile(source: FileSource, sourceHandle: string, read:
 
   // The record of what was done: one line per step, then the export itself.
   let added = '';
-  job.steps.forEach((s, k) => {
-    added += codingHistoryLine({ ...out, text: correctionOf(s.op).history({ ...s.params, ...resolved[k] }) });
-  });
+  for (const r of reports) added += codingHistoryLine({ ...out, text: r.history });
   added += codingHistoryLine({ ...out, text: `reelwright export${fmt.dither && fmt.sampleFormat === 'int' ? ' with TPDF dither' : ''}` });
   let history = layout.bext?.codingHistory ?? '';
   if (!history) history = codingHistoryLine({ sampleRateHz: layout.sampleRateHz, bitsPerSample: layout.bitsPerSample, sampleFormat: layout.sampleFormat, channels: layout.channels, text: 'source as received' });
@@ -58,12 +61,19 @@ export async function exportFile(source: FileSource, sourceHandle: string, read:
   });
   const bext = fmt.bwf || layout.bext ? buildBext(fixed, history) : undefined;
 
-  // Other chunks (LIST, iXML, axml, cue …) copied as they are, in their places.
+  // Other chunks (LIST, iXML, axml …) copied as they are, in their places. The markers (which
+  // began as the source's own cue points) are written anew at their places in the output's time.
   const before: RawChunk[] = [], after: RawChunk[] = [];
+  const writeMarkers = job.markers !== undefined;
   for (const c of layout.chunks) {
     if (!copiesChunk(c.id) || c.id === 'SSND' || c.id === 'COMM' || c.id === 'FORM' || c.size > 8 << 20) continue;
-    (c.position === 'after-data' ? after : before).push({ id: c.id, data: await read(sourceHandle, c.offset, c.size) });
+    if (writeMarkers && c.id === 'cue ') continue;
+    const data = await read(sourceHandle, c.offset, c.size);
+    if (writeMarkers && c.id === 'LIST' && isAdtlList(data)) continue;
+    (c.position === 'after-data' ? after : before).push({ id: c.id, data });
   }
+  const cues = writeMarkers ? markerCues(job.markers!, segments, rendering.sampleRateHz, rendering.framesHint ?? Infinity) : [];
+  if (cues.length) before.push({ id: 'cue ', data: buildCueChunk(cues) }, { id: 'LIST', data: buildAdtlList(cues) });
   const enc = new WavStreamEncoder(
     { format: { sampleFormat: fmt.sampleFormat, bitsPerSample: fmt.bitsPerSample, channels: rendering.channelCount, sampleRateHz: rendering.sampleRateHz }, bext, chunksBefore: before, chunksAfter: after, container: fmt.container },
     { dither: fmt.dither },
@@ -95,5 +105,13 @@ export async function exportFile(source: FileSource, sourceHandle: string, read:
   const done = enc.finish();
   if (done.trailer.length > 0) await write(job.target, done.trailer, null);
   await write(job.target, done.header, 0);
-  return { frames: done.frames, bytes: done.totalBytes, container: done.container, historyAdded: added };
+  return { frames: done.frames, bytes: done.totalBytes, container: done.container, historyAdded: added, cuePoints: cues.length };
+}
+
+/** Markers (original seconds) as cue points of the output: through the chain's time map, in order. */
+export function markerCues(markers: readonly { seconds: number; name: string }[], segments: readonly TimeSegment[], rateHz: number, frames: number): CuePoint[] {
+  return markers
+    .map((m) => ({ frame: Math.max(0, Math.min(frames, Math.round(mapTime(segments, m.seconds) * rateHz))), label: m.name }))
+    .sort((a, b) => a.frame - b.frame)
+    .map((m, i) => ({ id: i + 1, ...m }));
 }

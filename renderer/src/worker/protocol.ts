@@ -3,12 +3,27 @@ import type { ParamValues } from '../../../dsp/ops/types.ts';
 import type { DiagnoseResult } from '../../../dsp/ops/diagnose.ts';
 import type { PeakLevel, PeakPyramid } from '../lib/peaks.ts';
 import type { AudioLayout } from '../../../dsp/formats/index.ts';
+import type { TimeSegment } from '../../../dsp/ops/types.ts';
+import type { VerdictRow } from '../lib/verdict.ts';
+import type { StepReport } from './pipeline.ts';
 
 export type Which = 'original' | 'processed';
 
 export interface StepSpec {
   readonly op: string;
   readonly params: ParamValues;
+  /**
+   * What its delays and positions refer to: 'original' (default; measured on the original
+   * recording or read off its time line, carried across earlier steps that change time) or
+   * 'input' (the step's own input, used as they are).
+   */
+  readonly basis?: 'original' | 'input';
+  /** Leave out what the step measures itself, so it measures on its own input. */
+  readonly measureHere?: boolean;
+  /** Limit the step to this part of the original recording (seconds), crossfaded at its edges. */
+  readonly rangeSeconds?: readonly [number, number] | null;
+  /** The analysis whose finding suggested it (re-measuring judges against that fault). */
+  readonly suggestedBy?: string;
 }
 
 export interface FileRef {
@@ -26,6 +41,16 @@ export interface OpenResult {
   readonly layout: AudioLayout;
   readonly codingHistory: string;
   readonly chunkIds: readonly string[];
+  /** The file's own cue points (BWF markers), as markers. */
+  readonly markers: readonly Marker[];
+}
+
+/** A named position in the original recording. */
+export interface Marker {
+  readonly id: string;
+  readonly name: string;
+  /** Seconds from the start of the original recording. */
+  readonly seconds: number;
 }
 
 
@@ -40,6 +65,12 @@ export interface PreviewResult {
   /** RMS (dBFS, all channels) of the original region and of the result, for loudness matching. */
   readonly originalRmsDbfs: number;
   readonly processedRmsDbfs: number;
+  /** Per step: what it ran with and what it carried from the original's time. */
+  readonly reports: readonly StepReport[];
+  /** Seconds of the original recording → seconds of the result (from the region's start, which is 0 s of the result). */
+  readonly segments: readonly TimeSegment[];
+  /** Every frequency of the original is × this in the result (1 when the chain keeps pitch; null when unknown). */
+  readonly frequencyScale: number | null;
 }
 
 export interface SpectrumPair {
@@ -48,11 +79,16 @@ export interface SpectrumPair {
   readonly afterDb: Float32Array | null;
 }
 
+/** One step measured again on its own input and output, as verdicts (renderer/src/lib/verdict.ts). */
 export interface Remeasure {
   readonly stepIndex: number;
   readonly op: string;
-  readonly analysis: string;
-  readonly rows: readonly { readonly name: string; readonly before: number | string | null; readonly after: number | string | null }[];
+  readonly title: string;
+  /** The analysis run before and after, or null when the step names none. */
+  readonly analysis: string | null;
+  readonly rows: readonly VerdictRow[];
+  /** What was measured, in words ("the programme of its input, 3.72–24.70 s; the line-up tone left out"). */
+  readonly material: string;
   readonly error: string | null;
 }
 
@@ -85,9 +121,9 @@ export type Job =
   | { type: 'dropProcessed' }
   | { type: 'chunk'; which: Which; startFrame: number; frames: number }
   | { type: 'tile'; which: Which; level: number; index: number }
-  | { type: 'spectra'; startFrame: number; endFrame: number }
+  | { type: 'spectra'; startFrame: number; endFrame: number; afterStartSeconds?: number; afterEndSeconds?: number }
   | { type: 'remeasure'; steps: StepSpec[] }
-  | { type: 'export'; steps: StepSpec[]; format: ExportFormat; target: string; description: string };
+  | { type: 'export'; steps: StepSpec[]; format: ExportFormat; target: string; description: string; markers?: readonly Marker[] };
 
 export interface JobResults {
   open: OpenResult;
@@ -101,7 +137,7 @@ export interface JobResults {
   tile: SpectroTile;
   spectra: SpectrumPair;
   remeasure: Remeasure[];
-  export: { frames: number; bytes: number; container: 'RIFF' | 'RF64'; historyAdded: string };
+  export: { frames: number; bytes: number; container: 'RIFF' | 'RF64'; historyAdded: string; cuePoints: number };
 }
 
 export type ToWorker =

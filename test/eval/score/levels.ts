@@ -10,7 +10,8 @@ export const dropoutScorer: Scorer = {
     const lv = r.sections.levels;
     if (!lv) return null;
     const reported = (lv.dropouts ?? []) as Dropout[];
-    const truth = clip.truth.dropouts;
+    // `dropouts` are runs of digital zeros; level dips are listed apart (levels.levelDips).
+    const truth = clip.truth.dropouts.filter((t) => t.depthDb === null);
     const matches = (d: Dropout, t: (typeof truth)[number]) =>
       d.startSeconds < t.startSeconds + t.durationSeconds + 0.002 && d.startSeconds + d.durationSeconds > t.startSeconds - 0.002;
     const unmatched = reported.filter((d) => !truth.some((t) => matches(d, t)));
@@ -28,7 +29,7 @@ export const dropoutScorer: Scorer = {
       note: `reported ${reported.length} (${unmatched.length} not in the truth), zero runs found ${foundZeros}/${zeros.length}`,
     };
     if (truth.length > 0) {
-      j.found = foundZeros === zeros.length && (zeros.length > 0 || reported.length > unmatched.length);
+      j.found = foundZeros === zeros.length;
       j.withinBar = j.found && unmatched.length === 0;
       const finite = startErrors.filter(Number.isFinite);
       if (finite.length) j.errors = { startMs: Math.max(...finite) };
@@ -69,7 +70,11 @@ export const bandwidthScorer: Scorer = {
     if (t !== null) {
       const err = Math.abs(b - t) / t;
       j.errors!.cutoffPercent = err * 100;
-      j.found = err <= 0.05 && disagree <= 0.05;
+      // A low-pass cut-off is exact; a source rate's Nyquist frequency (16 kHz speech stops at
+      // 8 kHz) is only an upper bound of where its content stops.
+      const cut = clip.steps.some((s) => s.type === 'lowpass');
+      const ok = cut ? err <= 0.05 : b <= 1.05 * t && b >= 0.9 * t;
+      j.found = ok && disagree <= 0.05;
       j.withinBar = j.found;
     }
     return j;

@@ -57,7 +57,7 @@ export const tuningScorer: Scorer = {
   name: 'tuning',
   bars: 'follows a uniform speed change within ±3 cents (mod 100) wherever the reading is confident',
   judge(clip, r, ctx) {
-    if (clip.set !== 'impaired' || !clip.cleanId || clip.truth.speedCurve || clip.truth.flutter) return null;
+    if (!r.sections.speed || clip.set !== 'impaired' || !clip.cleanId || clip.truth.speedCurve || clip.truth.flutter) return null;
     if (Math.abs(clip.truth.speedFactor - 1) < 1e-9) return null;
     const clean = ctx.result(clip.cleanId);
     const reading = (res: typeof r | undefined) =>
