@@ -24,6 +24,7 @@ const OUTPUT_FLAGS: ParamSpec[] = [
   { name: 'float', flag: 'float', type: 'boolean', label: 'Float', help: 'Write IEEE float samples (32-bit unless --bits 64).' },
   { name: 'dither', flag: 'dither', type: 'boolean', label: 'Dither', help: 'TPDF dither when the output word length is shorter than the source (default on; --no-dither turns it off).', default: true },
   { name: 'overwrite', flag: 'overwrite', type: 'boolean', label: 'Overwrite', help: 'Replace OUT if it exists (without it an existing OUT is refused, exit 2). The source is never replaced.' },
+  { name: 'rf64', flag: 'rf64', type: 'boolean', label: 'RF64', help: 'Write the RF64 container even below 4 GiB (it is chosen by itself past 4 GiB).' },
 ];
 
 type Builtin = (argv: string[]) => Promise<number>;
@@ -199,14 +200,14 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
 }
 
 /** Output format: as the source unless --bits/--float say otherwise; dither only when shortening. */
-export function outputFormat(source: OpenedAudio, flags: Map<string, string | boolean>): Pick<WriteOptions, 'bitsPerSample' | 'sampleFormat' | 'dither'> {
+export function outputFormat(source: OpenedAudio, flags: Map<string, string | boolean>): Pick<WriteOptions, 'bitsPerSample' | 'sampleFormat' | 'dither' | 'forceRf64'> {
   const p = paramsFromFlags(OUTPUT_FLAGS, flags);
   const float = p.float === true || (p.float === undefined && p.bits === undefined && source.sampleFormat === 'float');
   const bits = (p.bits as number | undefined) ?? (float ? (source.sampleFormat === 'float' ? source.bitsPerSample : 32) : source.bitsPerSample);
   if (float && bits !== 32 && bits !== 64) throw new ParameterError(`--bits ${bits}: float output is 32 or 64 bits`);
   if (!float && ![8, 16, 24, 32].includes(bits)) throw new ParameterError(`--bits ${bits}: integer output is 8, 16, 24 or 32 bits`);
   const shortening = !float && (source.sampleFormat === 'float' || bits < source.bitsPerSample);
-  return { bitsPerSample: bits as WriteOptions['bitsPerSample'], sampleFormat: float ? 'float' : 'int', dither: shortening && p.dither !== false };
+  return { bitsPerSample: bits as WriteOptions['bitsPerSample'], sampleFormat: float ? 'float' : 'int', dither: shortening && p.dither !== false, forceRf64: p.rf64 === true };
 }
 
 async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> {
@@ -249,6 +250,7 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
       onProgress: (frames) => progress.update(frames / Math.max(1, hint)),
     }));
     progress.done();
+    if (written.notCarried) io.err(`warning: ${source.path}: not carried into ${written.path}: ${written.notCarried.join(', ')}`);
     const result: Record<string, unknown> = { parameters: rendering.resolved, output: written };
     if (measure && json) {
       const out = await openAudio(outPath);

@@ -13,6 +13,7 @@ import type { Bridge, BridgeCall } from '../bridge/contract.ts';
 import { SECURITY_HEADERS } from '../bridge/security.ts';
 import { AUDIO_EXTENSIONS, bridgeCalls, channelOf, isTrustedSenderUrl, validateCall } from '../bridge/validate.ts';
 import { FileTable } from './files.ts';
+import { launchKind, launchPath } from './launch.ts';
 
 const root = path.resolve(__dirname, '../../..');
 const pageDir = path.join(root, 'renderer/dist');
@@ -25,6 +26,25 @@ protocol.registerSchemesAsPrivileged([{ scheme: SCHEME, privileges: { standard: 
 
 const files = new FileTable();
 let win: BrowserWindow | null = null;
+/** The file the app was started with (argument, or macOS open-file), handed to the page once. */
+let launchFile: string | null = launchPath(process.argv, app.isPackaged);
+
+// macOS opens associated files by event, before or after the app is ready. While running, the
+// editor is reloaded on the new file only if the user agrees (unsaved corrections are lost).
+app.on('open-file', (e, p) => {
+  e.preventDefault();
+  if (!launchKind(p)) return;
+  if (!win) { launchFile = p; return; }
+  void dialog.showMessageBox(win, { type: 'question', buttons: ['Open', 'Cancel'], defaultId: 0, cancelId: 1, message: `Open ${path.basename(p)}?`, detail: 'Corrections not saved in a session are lost.' })
+    .then((r) => { if (r.response === 0 && win) { launchFile = p; win.webContents.reload(); } });
+});
+
+async function readSession(p: string): Promise<{ name: string; path: string; text: string }> {
+  if ((await fs.promises.stat(p)).size > 8 * 1024 * 1024) throw new Error('that file is too large to be a session');
+  const text = await fs.promises.readFile(p, 'utf8');
+  files.allowSessionSource(text);
+  return { name: path.basename(p), path: p, text };
+}
 
 /** The bridge's main-process side (the preload forwards each call here). */
 type Handlers = { [K in BridgeCall]: (...args: Parameters<Bridge[K]>) => ReturnType<Bridge[K]> | Promise<Uint8Array> };
@@ -69,18 +89,21 @@ const handlers: Handlers = {
   finishExport: (handle) => files.finish(handle),
   abortExport: (handle) => files.abort(handle),
   async saveSession(text, suggestedName) {
-    const r = await dialog.showSaveDialog(win!, { title: 'Save the session', defaultPath: suggestedName, filters: [{ name: 'Reelwright session', extensions: ['json'] }] });
+    const r = await dialog.showSaveDialog(win!, { title: 'Save the session', defaultPath: suggestedName, filters: [{ name: 'Reelwright session', extensions: ['rwsession'] }] });
     if (r.canceled || !r.filePath) return null;
     return files.writeSession(r.filePath, text);
   },
   async openSession() {
-    const r = await dialog.showOpenDialog(win!, { title: 'Open a session', properties: ['openFile'], filters: [{ name: 'Reelwright session', extensions: ['json'] }] });
+    const r = await dialog.showOpenDialog(win!, { title: 'Open a session', properties: ['openFile'], filters: [{ name: 'Reelwright session', extensions: ['rwsession', 'json'] }] });
     if (r.canceled || !r.filePaths[0]) return null;
-    const p = r.filePaths[0];
-    if ((await fs.promises.stat(p)).size > 8 * 1024 * 1024) throw new Error('that file is too large to be a session');
-    const text = await fs.promises.readFile(p, 'utf8');
-    files.allowSessionSource(text);
-    return { name: path.basename(p), path: p, text };
+    return readSession(r.filePaths[0]);
+  },
+  async launched() {
+    const p = launchFile;
+    launchFile = null;
+    const kind = p ? launchKind(p) : null;
+    if (!p || !kind) return null;
+    return kind === 'audio' ? { kind, file: await files.open(p) } : { kind, session: await readSession(p) };
   },
 };
 

@@ -86,7 +86,7 @@ export interface WriteOptions {
   beforeCommit?: () => Promise<unknown>;
   /** Stops the write (the temporary file is removed, CancelledError is thrown): Ctrl+C, SIGTERM. */
   signal?: { readonly aborted: boolean };
-  /** Force the RF64 container (tests); otherwise chosen automatically past 4 GiB. */
+  /** Force the RF64 container (`--rf64`); otherwise chosen automatically past 4 GiB. */
   forceRf64?: boolean;
   /** Seeded random source for dither (tests); default Math.random. */
   rng?: () => number;
@@ -98,4 +98,6 @@ export interface WriteResult {
   frames: number;
   bytes: number;
   container: 'RIFF' | 'RF64';
+  /** Metadata of a FLAC/AIFF source that the output does not carry (block or chunk ids), when any. */
+  notCarried?: string[];
 }

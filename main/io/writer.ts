@@ -16,13 +16,16 @@
  * cue, unknown ids…) are copied byte-exact in their original order, those that followed the
  * source's audio after the output's audio; JUNK and similar fillers are dropped. The bext chunk is
  * kept with all its fields and its CodingHistory gains one EBU R98 line for this run; a source
- * without bext gets a new one, so the history always records the run.
+ * without bext gets a new one, so the history always records the run. A FLAC or AIFF source's tags
+ * and text chunks become a LIST/INFO chunk (dsp/formats/info-list.ts); its metadata that a WAV
+ * file cannot carry here (pictures, cue sheets, markers) is named in the result's `notCarried`.
  */
 import { randomBytes } from 'node:crypto';
 import fs from 'node:fs';
 import path from 'node:path';
 import { CancelledError, ParameterError } from '../../dsp/errors.ts';
 import { codingHistoryLine, outputBext } from '../../dsp/formats/bext.ts';
+import { carryMetadata } from '../../dsp/formats/info-list.ts';
 import { copiesChunk, WavStreamEncoder, type RawChunk, type WavLayoutSpec } from '../../dsp/formats/wav-writer.ts';
 import type { Block } from '../../dsp/source.ts';
 import { describeFsError } from './file-bytes.ts';
@@ -217,12 +220,20 @@ export async function writeAudio(outPath: string, rendering: RenderingLike, opti
   // Chunks copied from the source, and the bext with this run's history line.
   const chunksBefore: RawChunk[] = [];
   const chunksAfter: RawChunk[] = [];
+  let notCarried: string[] = [];
   if (source && WAV_FAMILY.has(source.info.format)) {
     for (const c of source.chunks) {
       if (!copiesChunk(c.id)) continue;
       const data = await source.readChunk(c);
       (c.position === 'after-data' ? chunksAfter : chunksBefore).push({ id: c.id, data });
     }
+  } else if (source && (source.info.format === 'FLAC' || source.info.format === 'AIFF' || source.info.format === 'AIFC')) {
+    // FLAC tags and AIFF text chunks become a RIFF INFO list; what cannot be carried is reported.
+    const chunks = [];
+    for (const c of source.chunks) chunks.push({ id: c.id, data: await source.readChunk(c) });
+    const carried = carryMetadata(source.info.format, chunks);
+    if (carried.list) chunksBefore.push({ id: 'LIST', data: carried.list });
+    notCarried = [...carried.notCarried];
   }
   const line = codingHistoryLine({
     sampleRateHz: rendering.sampleRateHz,
@@ -300,7 +311,7 @@ export async function writeAudio(outPath: string, rendering: RenderingLike, opti
     if (signal?.aborted) throw interrupted();
     moveIntoPlace(tmp, outPath, overwrite);
     active.delete(tmp);
-    return { path: outPath, frames: done.frames, bytes: done.totalBytes, container: done.container };
+    return { path: outPath, frames: done.frames, bytes: done.totalBytes, container: done.container, ...(notCarried.length ? { notCarried } : {}) };
   } catch (e) {
     if (fd !== undefined) {
       try {
