@@ -26,6 +26,7 @@ import { type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } f
 import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { mixBlock } from './mix.ts';
+import { unlockedFrames } from './evidence.ts';
 
 export interface Excerpt {
   /** First frame analysed. */
@@ -46,6 +47,12 @@ export interface RefineOptions {
   searchSamples?: number;
   /** Leave out cells near the noise floor (default false; see levelGate). */
   gateNoise?: boolean;
+  /**
+   * Leave out frames whose own periodicity puts a peak at this delay (samples; evidence.ts,
+   * pitchLocked): a note whose period is τ, τ/k or k·τ samples the ripple only at its crests and
+   * pulls the fit. Unused when fewer than a fifth of the frames would remain.
+   */
+  lockTau?: number;
   signal?: { readonly aborted: boolean };
   onPass?(pass: number, fit: FitResult, fftSize: number): void;
 }
@@ -123,8 +130,9 @@ export async function cancelledCepstrum(
     // level, 0.406 and −0.008.
     const gate = yGate ?? undefined;
     const gateSmoothBins = gate && kernel ? Math.round(n / Math.max(1, kernelCentroid(kernel))) : 1;
-    const run = async (): Promise<LogSpectrumAccumulator> => {
-      const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from, gate, gateSmoothBins });
+    const run = async (lockTau?: number): Promise<LogSpectrumAccumulator> => {
+      const lock = lockTau !== undefined ? unlockedFrames(n, lockTau, source.sampleRateHz) : null;
+      const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from, gate, gateSmoothBins, accept: lock ? (fl) => lock.accept(fl) : undefined });
       const cancel = kernel ? new EchoCanceller(kernel) : null;
       for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
         if (options.signal?.aborted) break;
@@ -134,7 +142,12 @@ export async function cancelledCepstrum(
       }
       return acc;
     };
-    const acc = await run();
+    let acc = await run(options.lockTau);
+    if (options.lockTau !== undefined && !options.signal?.aborted) {
+      // Too few frames left: measure on all of them rather than on a handful.
+      const all = Math.max(1, Math.floor((end - start - n) / (n / 2)) + 1);
+      if (acc.frames < Math.max(4, 0.2 * all)) acc = await run();
+    }
     if (options.signal?.aborted || acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
