@@ -162,12 +162,19 @@ export const floorDisagrees = (q: number, g: number): boolean => Math.abs(q - g)
 
 const noPrintThrough = (): PrintThroughResult => ({ present: false, reason: null, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
 
-/** Picks the coarse candidate to refine: among significant peaks the strongest, else the most significant. */
-function chooseCandidate(cands: readonly CoarseCandidate[]): CoarseCandidate | null {
-  if (!cands.length) return null;
-  const significant = cands.filter((c) => confidenceFromZ(c.z) >= 0.5);
-  if (significant.length) return significant.reduce((a, b) => (Math.abs(b.amplitude) > Math.abs(a.amplitude) ? b : a));
-  return cands.reduce((a, b) => (b.z > a.z ? b : a));
+/**
+ * The coarse candidates in the order they are looked at: significant peaks strongest first, then
+ * (when none is significant) the most significant one alone.
+ */
+function orderCandidates(cands: readonly CoarseCandidate[], fs: number): CoarseCandidate[] {
+  if (!cands.length) return [];
+  // Peaks under 1 ms (where the spectral envelope lives) go last: they are not determined anyway.
+  const short = (c: CoarseCandidate) => (c.quefrency < 0.001 * fs ? 1 : 0);
+  const significant = cands
+    .filter((c) => confidenceFromZ(c.z) >= 0.5)
+    .sort((a, b) => short(a) - short(b) || Math.abs(b.amplitude) - Math.abs(a.amplitude));
+  if (significant.length) return significant;
+  return [cands.reduce((a, b) => (b.z > a.z ? b : a))];
 }
 
 /** The most active stretch of at most `length` frames, from per-second energies. */
@@ -227,11 +234,13 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   }
   if (secondFill > 0) energies.push((secondAcc * secondLen) / secondFill);
 
-  // --- Reflection.
+  // --- Reflection. The significant peaks are looked at in turn, strongest first, until one is
+  // a reflection (a voice's fixed colouring under 1 ms, a note's period or a repeat can be the
+  // strongest peak and still be none); if none is, the first one's verdict is reported.
   const cepstra = coarse.cepstra();
-  const cand = chooseCandidate(coarse.candidates(cepstra));
-  let reflection = notMeasured();
-  if (cand) {
+  const all = coarse.candidates(cepstra);
+  const order = orderCandidates(all, fs);
+  const measure = async (cand: CoarseCandidate): Promise<ReflectionResult> => {
     const scale = coarse.scales[cand.scale]!;
     const first = fitSingleEcho(cepstra[cand.scale]!, scale.fftSize, { delaySamples: cand.quefrency, gain: cand.amplitude }, { searchSamples: 1.5 });
     let delay = first.delaySamples, gain = first.gain, delayStd = first.delayStdSamples, gainStd = first.gainStd;
@@ -277,7 +286,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         } else {
           evidence = await frameEvidence(source, delay, gain, { channel, start: excerpt.start, end: excerpt.end, signal: options.signal });
           const unlocked = evidence.frames - evidence.locked;
-          if (evidence.frames >= 5 && unlocked >= Math.max(4, 0.2 * evidence.frames) && evidence.locked > 0.02 * evidence.frames) {
+          if (evidence.frames >= 5 && unlocked >= 4 && evidence.locked > 0.02 * evidence.frames) {
             // Measure again without the frames whose own period lands on τ.
             refined = await refineSingleEcho(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal, gateNoise, lockTau: delay });
             delay = refined.fit.delaySamples;
@@ -296,12 +305,13 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
             verdict = { present: false, reason: `the peak at ${ms} ms does not hold when it is cancelled (gain ${gain.toFixed(3)} against ${cand.amplitude.toFixed(3)} in the first look): the programme's own structure, not a reflection` };
           } else if (evidence.frames < 5) {
             verdict = { present: null, reason: `a peak at ${ms} ms, but the sound is too short (${evidence.frames} frames with programme) to tell a reflection from its own structure` };
-          } else if (unlocked < Math.max(4, 0.2 * evidence.frames)) {
+          } else if (unlocked < 4) {
             verdict = {
               present: null,
               reason: `${ms} ms is a whole number of periods of the note${evidence.locked > 1 ? 's' : ''} played in ${Math.round((100 * evidence.locked) / evidence.frames)} % of the frames; a pitch period is not evidence of a reflection, and too little else is played to tell`,
             };
-          } else if (spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < 0.35 * Math.abs(gain)) {
+          } else if (spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : 0.35) * Math.abs(gain)) {
+            // (Where most frames are locked the few others must show the echo more clearly.)
             verdict = { present: false, reason: `the peak at ${ms} ms comes from a few moments (a repeated note, hit or phrase), not from the whole programme as a reflection would` };
           } else if (pair !== null && (Math.sign(pair) !== Math.sign(gain) || Math.abs(pair) < 0.4 * Math.abs(gain) || Math.abs(pair) > 2 * Math.abs(gain) + 0.05)) {
             verdict = { present: false, reason: `sounds ${ms} ms apart are alike only in some places (a rhythm or repeated phrase), not throughout as with a reflection` };
@@ -315,7 +325,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       }
     }
     const confidence = confidenceFromZ(z);
-    reflection = {
+    return {
       present: verdict ? verdict.present : confidence >= 0.5,
       reason: verdict ? verdict.reason : null,
       evidence,
@@ -328,6 +338,16 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       filter,
       floorGain,
     };
+  };
+  let reflection = notMeasured();
+  for (let i = 0; i < Math.min(order.length, 3); i++) {
+    const r = await measure(order[i]!);
+    if (i === 0) reflection = r;
+    if (r.present === true) {
+      reflection = r;
+      break;
+    }
+    if (confidenceFromZ(order[i + 1]?.z ?? 0) < 0.5) break;
   }
   options.progress?.(0.75);
 

@@ -27,11 +27,15 @@ import { makeWindow } from '../core/windows.ts';
 import type { AudioSource } from '../source.ts';
 import { mixBlock } from './mix.ts';
 
-/** Detrended cepstrum value at a fractional quefrency q (peak over ±w, local mean of the flanks removed). */
-function peakAt(c: Float64Array, q: number, signed: 1 | -1 | 0): number {
+/**
+ * Detrended cepstrum value at quefrency q: with `signed` ±1 the extreme of that sign over ±w
+ * (w = 2 % of q unless given), with 0 the value at q itself; the mean of the flanks w + 3 … w + 12
+ * away is removed.
+ */
+function peakAt(c: Float64Array, q: number, signed: 1 | -1 | 0, halfWidth?: number): number {
   const n = c.length;
   const q0 = Math.round(q);
-  const w = Math.max(1, Math.round(0.02 * q));
+  const w = halfWidth ?? Math.max(1, Math.round(0.02 * q));
   if (q0 + w + 12 >= n / 2) return 0;
   // The cepstrum of a real log spectrum is even: c(−p) = c(p).
   const at = (p: number) => c[Math.abs(p)]!;
@@ -55,9 +59,14 @@ const PITCH_PEAK = 0.1;
  * puts a peak at `tau` by itself (see the module comment). `fs` sets the pitch range.
  */
 export function pitchLocked(c: Float64Array, tau: number, fs: number): boolean {
+  return pitchLock(c, tau, fs) !== null;
+}
+
+/** As pitchLocked, saying how: the frame's pitch period in samples and k (τ = k·P, or P = k·τ as −k), or null. */
+export function pitchLock(c: Float64Array, tau: number, fs: number): { periodSamples: number; k: number } | null {
   const n2 = c.length / 2;
   const lo = Math.max(8, Math.floor(0.001 * fs)), hi = Math.min(Math.floor(0.04 * fs), Math.floor(n2 / 2) - 16);
-  if (hi <= lo) return false;
+  if (hi <= lo) return null;
   // The frame's pitch: the strongest detrended peak over the range (with a short local baseline).
   let best = -Infinity, bestQ = -1;
   for (let q = lo; q <= hi; q++) {
@@ -67,21 +76,25 @@ export function pitchLocked(c: Float64Array, tau: number, fs: number): boolean {
       bestQ = q;
     }
   }
-  if (bestQ < 0) return false;
+  if (bestQ < 0) return null;
   const strength = peakAt(c, bestQ, 1);
-  if (!(strength > PITCH_PEAK)) return false;
+  if (!(strength > PITCH_PEAK)) return null;
   const near = (a: number, b: number) => Math.abs(a - b) <= Math.max(1.5, 0.02 * b);
   if (near(bestQ, tau)) {
     // A peak at τ itself: a source periodic at τ has a positive rahmonic at 2τ, an echo −g²/2.
-    if (2 * tau + 20 >= n2) return true;
-    const second = peakAt(c, 2 * tau, 1);
+    if (2 * tau + 20 >= n2) return { periodSamples: bestQ, k: 1 };
+    // Within a sample of 2τ: a maximum over a wider span would be biased upwards by the noise.
+    const second = peakAt(c, 2 * tau, 1, 1);
     const first = peakAt(c, tau, 0);
-    return second + 0.5 * first * first > 0.05;
+    // The echo's own second rahmonic is −g²/2, so second + first²/2 ≈ 0 for an echo alone; a
+    // note's is positive and comparable to its first (about half of it on sustained bass notes).
+    return second + 0.5 * first * first > Math.max(0.06, 0.25 * Math.abs(first)) ? { periodSamples: bestQ, k: 1 } : null;
   }
   for (let k = 2; k <= 8; k++) {
-    if (near(bestQ, tau / k) || near(bestQ, k * tau)) return true;
+    if (near(bestQ, tau / k)) return { periodSamples: bestQ, k };
+    if (near(bestQ, k * tau)) return { periodSamples: bestQ, k: -k };
   }
-  return false;
+  return null;
 }
 
 export interface FrameEvidence {
