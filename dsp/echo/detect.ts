@@ -406,13 +406,14 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
           refinedOk = true;
           const db = 20 * Math.log10(Math.abs(gain));
           const when = `${(Math.abs(lagSamples) / fs).toFixed(2)} s ${lagSamples > 0 ? 'before' : 'after'}`;
+          // Bands where the loud passages have energy (with one band only there is nothing to compare).
           const bands = r.bandGains.filter((b): b is number => b !== null);
           const agree = bands.filter((b) => Math.sign(b) === Math.sign(gain) && Math.abs(b) >= 0.25 * Math.abs(gain)).length;
           if (Math.sign(gain) !== Math.sign(pick.gain) || Math.abs(db - coarseDb) > 6) {
             verdict = { present: false, reason: `the copy ${when} reads ${db.toFixed(1)} dB at the full rate against ${coarseDb.toFixed(1)} dB in the coarse search: not one consistent copy` };
           } else if (db > PRINT_THROUGH_MAX_DB) {
             verdict = { present: false, reason: `a copy ${when} at ${db.toFixed(1)} dB is far too strong for print-through (about −40 to −65 dB): the programme repeating itself` };
-          } else if (bands.length < 2 || agree < bands.length) {
+          } else if (bands.length >= 2 && agree < bands.length) {
             verdict = { present: false, reason: `the likeness ${when} is not broadband (${agree} of ${bands.length} bands agree): a sound's own tail or a repeated note, not a copy from the tape` };
           } else if (db < PRINT_THROUGH_MIN_DB) {
             verdict = { present: null, reason: `a copy ${when} at ${db.toFixed(1)} dB is too faint to stand behind` };

@@ -283,7 +283,7 @@ export interface RefinedLag {
   z: number;
   /**
    * Gains in three bands (100–700 Hz, 0.7–2 kHz, 2–5 kHz, each clipped to 0.45·fs) at the common
-   * lag, null where the loud frames hold too little there. A copy from the tape is broadband (its
+   * lag, null where the loud frames hold under 2 % of their energy there. A copy from the tape is broadband (its
    * highs somewhat reduced) and reads the same sign in each; the tail of a note correlates with
    * its own attack only at its partials, with their own phases.
    */
@@ -421,7 +421,7 @@ export async function refinePrintThrough(
       br += S[2 * k]! * Math.cos(w * bestD) + S[2 * k + 1]! * Math.sin(w * bestD);
       be += E[k]!;
     }
-    bandGains.push(kHi > kLo && be > 1e-3 * eSum ? br / be : null);
+    bandGains.push(kHi > kLo && be > 0.02 * eSum ? br / be : null);
   }
   return { lagSamples: t0 + bestD, gain: re / eSum, pairs, z: vSum > 0 ? re / Math.sqrt(0.5 * vSum) : 0, bandGains };
 }
