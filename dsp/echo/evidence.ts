@@ -7,9 +7,10 @@
  * pitch analysis: Noll 1967, "Cepstrum pitch determination", JASA 41(2); the echo's rahmonic
  * signs from the series of log(1 + z), Oppenheim & Schafer, DTSP, ch. 13).
  *
- *  - Pitch lock. A frame is locked to τ when its own periodicity explains a peak at τ: its
- *    strongest cepstral peak over the pitch range (1–40 ms) sits at τ/k or k·τ (k = 2…8), or at τ
- *    itself with a positive second rahmonic at 2τ (a periodic source has one; an echo's is −g²/2).
+ *  - Pitch lock. A frame is locked to τ when its own periodicity explains a peak at τ: with the
+ *    echo's cepstrum (at the measured gain) taken out, its strongest cepstral peak over the pitch
+ *    range (1–40 ms) sits at τ, τ/k or k·τ (k = 2…8). (Without taking it out, a peak at τ counts
+ *    only with a positive second rahmonic at 2τ: a periodic source has one, an echo's is −g²/2.)
  *    Locked frames hold no evidence for or against a reflection at τ: their harmonics sample the
  *    ripple only at its crests. The refinement leaves them out (refine.ts, `accept`), and when
  *    nearly all frames are locked the reflection is not determined.
@@ -25,6 +26,7 @@
 import { nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';
 import type { AudioSource } from '../source.ts';
+import { echoCepstrumInto } from './fit.ts';
 import { mixBlock } from './mix.ts';
 
 /**
@@ -58,14 +60,14 @@ const PITCH_PEAK = 0.1;
  * Whether a frame's cepstrum `c` (length N, of the log power spectrum) shows a periodicity that
  * puts a peak at `tau` by itself (see the module comment). `fs` sets the pitch range.
  */
-export function pitchLocked(c: Float64Array, tau: number, fs: number): boolean {
-  return pitchLock(c, tau, fs) !== null;
+export function pitchLocked(c: Float64Array, tau: number, fs: number, echoRemoved = false): boolean {
+  return pitchLock(c, tau, fs, echoRemoved) !== null;
 }
 
 /** As pitchLocked, saying how: the frame's pitch period in samples and k (τ = k·P, or P = k·τ as −k), or null. */
-export function pitchLock(c: Float64Array, tau: number, fs: number): { periodSamples: number; k: number } | null {
+export function pitchLock(c: Float64Array, tau: number, fs: number, echoRemoved = false): { periodSamples: number; k: number } | null {
   const n2 = c.length / 2;
-  const lo = Math.max(8, Math.floor(0.001 * fs)), hi = Math.min(Math.floor(0.04 * fs), Math.floor(n2 / 2) - 16);
+  const lo = Math.max(8, Math.floor(0.001 * fs)), hi = Math.min(Math.floor(0.04 * fs), n2 - 20);
   if (hi <= lo) return null;
   // The frame's pitch: the strongest detrended peak over the range (with a short local baseline).
   let best = -Infinity, bestQ = -1;
@@ -81,14 +83,16 @@ export function pitchLock(c: Float64Array, tau: number, fs: number): { periodSam
   if (!(strength > PITCH_PEAK)) return null;
   const near = (a: number, b: number) => Math.abs(a - b) <= Math.max(1.5, 0.02 * b);
   if (near(bestQ, tau)) {
-    // A peak at τ itself: a source periodic at τ has a positive rahmonic at 2τ, an echo −g²/2.
+    // With the echo's own cepstrum taken out (echoRemoved), a peak left at τ is the source's.
+    if (echoRemoved) return { periodSamples: bestQ, k: 1 };
+    // Otherwise: a source periodic at τ has a positive rahmonic at 2τ, an echo −g²/2.
     if (2 * tau + 20 >= n2) return { periodSamples: bestQ, k: 1 };
     // Within a sample of 2τ: a maximum over a wider span would be biased upwards by the noise.
     const second = peakAt(c, 2 * tau, 1, 1);
     const first = peakAt(c, tau, 0);
     // The echo's own second rahmonic is −g²/2, so second + first²/2 ≈ 0 for an echo alone; a
     // note's is positive and comparable to its first (about half of it on sustained bass notes).
-    return second + 0.5 * first * first > Math.max(0.06, 0.25 * Math.abs(first)) ? { periodSamples: bestQ, k: 1 } : null;
+    if (second + 0.5 * first * first > Math.max(0.06, 0.25 * Math.abs(first))) return { periodSamples: bestQ, k: 1 };
   }
   for (let k = 2; k <= 8; k++) {
     if (near(bestQ, tau / k)) return { periodSamples: bestQ, k };
@@ -142,6 +146,11 @@ export async function frameEvidence(
   const plan = sharedPlan(n);
   const win = makeWindow('hann', n);
   const rho = windowOverlap(win, tau);
+  // The echo's own cepstrum in a frame (the closed form of fit.ts at the frame's effective gain
+  // ĝ·ρ), taken out before the frame's pitch is read: what is left at τ, 2τ, … is the source's.
+  const model = new Float64Array(n);
+  echoCepstrumInto(Float64Array.from({ length: n }, (_, q) => q), tau, Math.max(-0.95, Math.min(0.95, gain * rho)), n, model);
+  const cx = new Float64Array(n);
   // Pair frames: short (≈ 40 ms, ≤ τ), so that a frame and the one τ later do not overlap.
   const pairN = tau >= 0.04 * fs ? Math.min(nextPowerOfTwo(Math.round(0.04 * fs)) / 2, 1 << Math.floor(Math.log2(tau))) : 0;
   const pairPlan = pairN ? sharedPlan(pairN) : null;
@@ -176,7 +185,8 @@ export async function frameEvidence(
           logs[2 * k + 1] = 0;
         }
         plan.realInverse(logs, cep);
-        values.push({ level: 10 * Math.log10(e / n), value: peakAt(cep, tau, 0), locked: pitchLocked(cep, tau, fs) });
+        for (let q = 0; q < n; q++) cx[q] = cep[q]! - model[q]!;
+        values.push({ level: 10 * Math.log10(e / n), value: peakAt(cep, tau, 0), locked: pitchLocked(cx, tau, fs, true) });
       }
       nextFrame += hop;
     }
@@ -263,7 +273,8 @@ export function unlockedFrames(n: number, tau: number, fs: number): { accept(fra
       }
       plan.realInverse(half, cep);
       state.seen++;
-      if (pitchLocked(cep, tau, fs)) {
+      // These frames come from the signal cancelled with the current estimate: the echo is out.
+      if (pitchLocked(cep, tau, fs, true)) {
         state.left++;
         return false;
       }
