@@ -9,6 +9,7 @@ export default defineConfig({
           environment: 'node',
           include: ['test/**/*.test.ts'],
           exclude: ['test/e2e/**', 'node_modules/**'],
+          globalSetup: ['test/setup/global-unit.ts'],
           testTimeout: 120_000,
           hookTimeout: 120_000,
         },
@@ -20,7 +21,7 @@ export default defineConfig({
           include: ['test/e2e/**/*.test.ts'],
           globalSetup: ['test/e2e/global-setup.ts'],
           fileParallelism: false,
-          // After the unit projects, so the timing checks have the machine to themselves.
+          // After the unit project: the browser tests take the longest.
           sequence: { groupOrder: 1 },
           testTimeout: 180_000,
           hookTimeout: 180_000,

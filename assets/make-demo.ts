@@ -25,6 +25,7 @@ const result = await writeAudio(
     dither: true,
     historyText: 'reelwright demo synthesis (invented recording; see thornbury-reel7.json)',
     rng: seededRng(7),
+    overwrite: true,
   },
 );
 writeFileSync(path.join(here, 'demo', `${DEMO_NAME}.json`), JSON.stringify(parameters, null, 2) + '\n');

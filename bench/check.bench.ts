@@ -27,7 +27,8 @@ import { fmt, line, mb, timeAsync } from './util.ts';
 const FS = 96000;
 const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 
-async function makeFile(file: string, seconds: number): Promise<void> {
+/** The bench material: a test tone, then tilted noise "programme" (see the header). Also used by queue.bench.ts. */
+export async function makeFile(file: string, seconds: number): Promise<void> {
   const frames = Math.round(seconds * FS);
   const block = 65536;
   let seed = 12345;

@@ -7,8 +7,9 @@ import { build } from 'vite';
 export const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 export const rendererConfig = path.join(root, 'renderer/vite.config.ts');
 
-export async function buildPage() {
-  await build({ configFile: rendererConfig, logLevel: 'error' });
+/** Builds the page into renderer/dist, or into `outDir` (the desktop package's staging folder). */
+export async function buildPage(outDir) {
+  await build({ configFile: rendererConfig, logLevel: 'error', ...(outDir ? { build: { outDir, emptyOutDir: true } } : {}) });
 }
 
 export async function buildShell(outDir = path.join(root, 'main/electron/build')) {

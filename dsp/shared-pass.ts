@@ -7,9 +7,11 @@
  * of a block except the last one to take it ("yielded arrays belong to the caller").
  *
  * At most MAX_AHEAD blocks wait in any consumer's queue: the pass pauses until the slowest
- * consumer catches up, so memory stays at a few blocks whatever the file's length.
+ * consumer catches up, so memory stays at a few blocks whatever the file's length. Blocks are
+ * shorter than 65536 frames when there are more than two channels (defaultBlockFrames),
+ * so it also stays a few MiB whatever the channel count; consumers take blocks of any length.
  */
-import { DEFAULT_BLOCK_FRAMES, type AudioSource, type Block, type BlockOptions } from './source.ts';
+import { DEFAULT_BLOCK_FRAMES, defaultBlockFrames, type AudioSource, type Block, type BlockOptions } from './source.ts';
 
 /** The host's timer (Node, browsers and workers all have one; ES2022's lib does not declare it). */
 const nextTurn = (): Promise<void> =>
@@ -39,8 +41,12 @@ export class SharedPass {
   joined = 0;
   separatePasses = 0;
 
-  constructor(inner: AudioSource) {
+  readonly #blockFrames: number;
+
+  /** @param blockFrames frames per shared block (default: defaultBlockFrames(channels)) */
+  constructor(inner: AudioSource, blockFrames = defaultBlockFrames(inner.channelCount)) {
     this.#inner = inner;
+    this.#blockFrames = blockFrames;
   }
 
   /** A source with the same facts (and any extra properties) whose full passes share decoding. */
@@ -132,7 +138,7 @@ export class SharedPass {
             full.wake = r;
           });
         }
-        this.#iterator ??= this.#inner.blocks()[Symbol.asyncIterator]();
+        this.#iterator ??= this.#inner.blocks({ blockFrames: this.#blockFrames })[Symbol.asyncIterator]();
         const r = await this.#iterator.next();
         if (r.done) {
           this.#finished = true;

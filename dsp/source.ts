@@ -13,7 +13,10 @@ export interface BlockOptions {
   startFrame?: Frames;
   /** One past the last frame to read (default: end of source). */
   endFrame?: Frames;
-  /** Frames per yielded block (default 65536). The last block may be shorter. */
+  /**
+   * Frames per yielded block (default 65536 for one or two channels, fewer for more: see
+   * defaultBlockFrames). The last block may be shorter.
+   */
   blockFrames?: Frames;
   /** Yield blocks from the end towards the start, each block's samples reversed. */
   reverse?: boolean;
@@ -32,6 +35,17 @@ export interface AudioSource {
 }
 
 export const DEFAULT_BLOCK_FRAMES = 65536;
+
+/**
+ * Frames per block when the caller does not say: 65536 for one or two channels, fewer for more
+ * (at least 4096), so one block holds at most 2^17 samples (1 MiB of float64) whatever the
+ * channel count. Operations take blocks of any length; their results do not depend on it.
+ */
+export function defaultBlockFrames(channels: number): Frames {
+  let n = DEFAULT_BLOCK_FRAMES;
+  while (n > 4096 && n * channels > 1 << 17) n >>= 1;
+  return n;
+}
 
 export function resolveRange(source: { frames: Frames }, options: BlockOptions = {}): [Frames, Frames] {
   const start = Math.max(0, Math.floor(options.startFrame ?? 0));

@@ -4,13 +4,14 @@ import { fileURLToPath } from 'node:url';
 import path from 'node:path';
 import { defineConfig } from 'vite';
 import { demoFiles } from './demo-files.ts';
+import { webSecurity } from './web-security.ts';
 
 const here = path.dirname(fileURLToPath(import.meta.url));
 
 export default defineConfig({
   root: here,
   base: './',
-  plugins: [svelte(), demoFiles(path.resolve(here, '../assets/demo'))],
+  plugins: [webSecurity(), svelte(), demoFiles(path.resolve(here, '../assets/demo'))],
   build: { outDir: 'dist', emptyOutDir: true, target: 'es2022', chunkSizeWarningLimit: 2000 },
   worker: { format: 'es' },
   server: { fs: { allow: [path.resolve(here, '..')] } },

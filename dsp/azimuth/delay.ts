@@ -28,6 +28,8 @@ export interface CrossSpectrum {
   g22: Float64Array;
   /** Interleaved re/im, bins 0…N/2. */
   g12: Float64Array;
+  /** The same sums over the first and the second half of the frames (for a delay that stays put). */
+  halves?: [CrossSpectrum, CrossSpectrum];
 }
 
 export interface DelayEstimate {
@@ -40,6 +42,18 @@ export interface DelayEstimate {
   bandHz: [number, number];
   /** Standard error of the fit from the weights (seconds). */
   standardErrorSeconds: number;
+  /**
+   * How well one delay explains the phase: the RMS of the fitted phase residuals over their
+   * expected spread (from the coherence). About 1 for two tracks of the same signal with a time
+   * offset; much more for stereo programme, spaced microphones or processing.
+   */
+  phaseFitRatio: number;
+  /** Delays fitted on the lower and upper halves of the coherent band separately (seconds). */
+  bandDelaysSeconds: [number, number];
+  /** Share of the analysed band's bins coherent enough (γ² ≥ 0.5) to enter the fit. */
+  coherentShare: number;
+  /** Delays measured on the first and second half of the file on their own (null: too little). */
+  halfDelaysSeconds: [number | null, number | null];
 }
 
 const MAX_FRAMES = 4000;
@@ -63,6 +77,8 @@ export async function crossSpectrum(
   const count = Math.min(MAX_FRAMES, Math.floor((source.frames - n) / (n / 2)) + 1);
   const span = source.frames - n;
   const g11 = new Float64Array(n / 2 + 1), g22 = new Float64Array(n / 2 + 1), g12 = new Float64Array(n + 2);
+  const part = () => ({ fftSize: n, sampleRateHz: source.sampleRateHz, frames: 0, g11: new Float64Array(n / 2 + 1), g22: new Float64Array(n / 2 + 1), g12: new Float64Array(n + 2) });
+  const halves: [CrossSpectrum, CrossSpectrum] = [part(), part()];
   const a = new Float64Array(n), b = new Float64Array(n);
   const sa = plan.createHalfSpectrum(), sb = plan.createHalfSpectrum();
   for (let f = 0; f < count; f++) {
@@ -80,16 +96,23 @@ export async function crossSpectrum(
     }
     plan.realForward(a, sa);
     plan.realForward(b, sb);
+    const h = halves[f < count / 2 ? 0 : 1];
+    h.frames++;
     for (let k = 0; k <= n / 2; k++) {
       const ar = sa[2 * k]!, ai = sa[2 * k + 1]!, br = sb[2 * k]!, bi = sb[2 * k + 1]!;
-      g11[k]! += ar * ar + ai * ai;
-      g22[k]! += br * br + bi * bi;
-      g12[2 * k]! += ar * br + ai * bi; // conj(A)·B
-      g12[2 * k + 1]! += ar * bi - ai * br;
+      const p11 = ar * ar + ai * ai, p22 = br * br + bi * bi, re = ar * br + ai * bi, im = ar * bi - ai * br; // conj(A)·B
+      g11[k]! += p11;
+      g22[k]! += p22;
+      g12[2 * k]! += re;
+      g12[2 * k + 1]! += im;
+      h.g11[k]! += p11;
+      h.g22[k]! += p22;
+      h.g12[2 * k]! += re;
+      h.g12[2 * k + 1]! += im;
     }
     ctx.progress((f + 1) / count);
   }
-  return { fftSize: n, sampleRateHz: source.sampleRateHz, frames: count, g11, g22, g12 };
+  return { fftSize: n, sampleRateHz: source.sampleRateHz, frames: count, g11, g22, g12, halves };
 }
 
 /** Delay of channel b relative to channel a from an averaged cross-spectrum. */
@@ -166,6 +189,29 @@ export function estimateDelay(cs: CrossSpectrum): DelayEstimate {
     // Phase variance per bin ≈ (1 − γ²)/(2·n_d·γ²) (Bendat & Piersol): var(τ) = 1/(2·n_d·Σ w ω²).
     se = Math.sqrt(1 / (2 * cs.frames * sww)) / fs;
   }
+  // Residuals after the final delay: their weighted spread against the expected one, and the delay
+  // each half of the band would give on its own.
+  const bins: { omega: number; phi: number; w: number }[] = [];
+  for (let k = kLo; k <= kHi; k++) {
+    const c = coh[k]!;
+    if (c < MIN_COHERENCE) continue;
+    const omega = (2 * Math.PI * k) / n;
+    const cr = Math.cos(omega * tau), ci = Math.sin(omega * tau);
+    const re = g12[2 * k]! * cr - g12[2 * k + 1]! * ci;
+    const im = g12[2 * k]! * ci + g12[2 * k + 1]! * cr;
+    bins.push({ omega, phi: Math.atan2(im, re), w: Math.min(c / (1 - c + 1e-12), 1e6) });
+  }
+  let chi2 = 0;
+  for (const b of bins) chi2 += 2 * cs.frames * b.w * b.phi * b.phi;
+  const halfDelay = (part: typeof bins) => {
+    let sx = 0, sw = 0;
+    for (const b of part) {
+      sx += b.w * b.omega * b.phi;
+      sw += b.w * b.omega * b.omega;
+    }
+    return sw > 0 ? (tau + sx / sw) / fs : tau / fs;
+  };
+  const mid = Math.floor(bins.length / 2);
   return {
     delaySeconds: tau / fs,
     delaySamples: tau,
@@ -173,7 +219,21 @@ export function estimateDelay(cs: CrossSpectrum): DelayEstimate {
     binsUsed: used,
     bandHz: [bandLo, bandHi],
     standardErrorSeconds: se,
+    phaseFitRatio: Math.sqrt(chi2 / Math.max(1, bins.length)),
+    bandDelaysSeconds: [halfDelay(bins.slice(0, mid)), halfDelay(bins.slice(mid))],
+    coherentShare: bins.length / Math.max(1, kHi - kLo + 1),
+    halfDelaysSeconds: cs.halves ? [delayOrNull(cs.halves[0]), delayOrNull(cs.halves[1])] : [null, null],
   };
+}
+
+function delayOrNull(cs: CrossSpectrum): number | null {
+  if (cs.frames < 2) return null;
+  try {
+    return estimateDelay(cs).delaySeconds;
+  } catch (e) {
+    if (e instanceof NotFoundError) return null;
+    throw e;
+  }
 }
 
 /**

@@ -26,6 +26,8 @@ import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { CoarseEchoSearch, type CoarseCandidate } from './coarse.ts';
+import { echoCramerRao } from './crb.ts';
+import { type FrameEvidence, frameEvidence } from './evidence.ts';
 import { fitReflectionFilter } from './filter.ts';
 import { fitSingleEcho } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
@@ -35,6 +37,13 @@ import { type Excerpt, MAX_CANCEL_GAIN, quietAndLoudGains, refineSingleEcho } fr
 
 export const DEFAULT_RANGE_SECONDS: readonly [number, number] = [0.0005, 0.5];
 export const PRINT_THROUGH_RANGE_SECONDS: readonly [number, number] = [0.3, 4];
+/**
+ * Levels a tape's print-through can have relative to the passage it copies: about −40 to −65 dB
+ * (REFERENCES.md §4; common practice), with margin. A copy at −10 or −20 dB is the music
+ * repeating itself; one under −80 dB is below what a transfer can show reliably.
+ */
+export const PRINT_THROUGH_MAX_DB = -30;
+export const PRINT_THROUGH_MIN_DB = -80;
 
 export interface EchoAnalysisOptions {
   /** Reflection search range in seconds (positive delays). Default 0.5–500 ms, shortened with a warning on short files. */
@@ -51,7 +60,12 @@ export interface EchoAnalysisOptions {
 }
 
 export interface ReflectionResult {
-  present: boolean;
+  /** true: found; false: none; null: a peak was seen but the evidence does not decide (see `reason`). */
+  present: boolean | null;
+  /** Why a peak was set aside or left undetermined (null when found, or when nothing stood out). */
+  reason: string | null;
+  /** The frame-by-frame look at the peak (evidence.ts), when it ran. */
+  evidence: FrameEvidence | null;
   /** Delay of the reflection after the direct sound (null when nothing could be measured). */
   delaySeconds: number | null;
   /** Signed linear gain g of y = x + g·x(t − τ). */
@@ -76,7 +90,10 @@ export interface ReflectionResult {
 }
 
 export interface PrintThroughResult {
-  present: boolean;
+  /** true: found; false: none; null: a copy was seen but the evidence does not decide (see `reason`). */
+  present: boolean | null;
+  /** Why a copy was set aside or left undetermined (null when found, or when nothing stood out). */
+  reason: string | null;
   /** Signed delay of the copy (negative = before the loud passage), null when nothing could be measured. */
   delaySeconds: number | null;
   /** Level of the copy relative to the passage it copies, dB. */
@@ -134,7 +151,7 @@ export function resolveRange(
   return [lo, hi];
 }
 
-const notMeasured = (): ReflectionResult => ({ present: false, delaySeconds: null, gain: null, confidence: 0, z: 0, delayStdSeconds: null, gainStd: null, filter: null, floorGain: null });
+const notMeasured = (): ReflectionResult => ({ present: false, reason: null, evidence: null, delaySeconds: null, gain: null, confidence: 0, z: 0, delayStdSeconds: null, gainStd: null, filter: null, floorGain: null });
 
 /**
  * Whether the floor's gain q disagrees with the programme's g (quietest and loudest fifth of the
@@ -143,14 +160,21 @@ const notMeasured = (): ReflectionResult => ({ present: false, delaySeconds: nul
  */
 export const floorDisagrees = (q: number, g: number): boolean => Math.abs(q - g) > Math.max(0.3 * Math.max(Math.abs(q), Math.abs(g)), 0.05);
 
-const noPrintThrough = (): PrintThroughResult => ({ present: false, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
+const noPrintThrough = (): PrintThroughResult => ({ present: false, reason: null, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
 
-/** Picks the coarse candidate to refine: among significant peaks the strongest, else the most significant. */
-function chooseCandidate(cands: readonly CoarseCandidate[]): CoarseCandidate | null {
-  if (!cands.length) return null;
-  const significant = cands.filter((c) => confidenceFromZ(c.z) >= 0.5);
-  if (significant.length) return significant.reduce((a, b) => (Math.abs(b.amplitude) > Math.abs(a.amplitude) ? b : a));
-  return cands.reduce((a, b) => (b.z > a.z ? b : a));
+/**
+ * The coarse candidates in the order they are looked at: significant peaks strongest first, then
+ * (when none is significant) the most significant one alone.
+ */
+function orderCandidates(cands: readonly CoarseCandidate[], fs: number): CoarseCandidate[] {
+  if (!cands.length) return [];
+  // Peaks under 1 ms (where the spectral envelope lives) go last: they are not determined anyway.
+  const short = (c: CoarseCandidate) => (c.quefrency < 0.001 * fs ? 1 : 0);
+  const significant = cands
+    .filter((c) => confidenceFromZ(c.z) >= 0.5)
+    .sort((a, b) => short(a) - short(b) || Math.abs(b.amplitude) - Math.abs(a.amplitude));
+  if (significant.length) return significant;
+  return [cands.reduce((a, b) => (b.z > a.z ? b : a))];
 }
 
 /** The most active stretch of at most `length` frames, from per-second energies. */
@@ -210,17 +234,21 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   }
   if (secondFill > 0) energies.push((secondAcc * secondLen) / secondFill);
 
-  // --- Reflection.
+  // --- Reflection. The significant peaks are looked at in turn, strongest first, until one is
+  // a reflection (a voice's fixed colouring under 1 ms, a note's period or a repeat can be the
+  // strongest peak and still be none); if none is, the first one's verdict is reported.
   const cepstra = coarse.cepstra();
-  const cand = chooseCandidate(coarse.candidates(cepstra));
-  let reflection = notMeasured();
-  if (cand) {
+  const all = coarse.candidates(cepstra);
+  const order = orderCandidates(all, fs);
+  const measure = async (cand: CoarseCandidate): Promise<ReflectionResult> => {
     const scale = coarse.scales[cand.scale]!;
     const first = fitSingleEcho(cepstra[cand.scale]!, scale.fftSize, { delaySamples: cand.quefrency, gain: cand.amplitude }, { searchSamples: 1.5 });
     let delay = first.delaySamples, gain = first.gain, delayStd = first.delayStdSamples, gainStd = first.gainStd;
     let filter: ReflectionResult['filter'] = null;
     let z = cand.z;
     let floorGain: number | null = null;
+    let verdict: { present: boolean | null; reason: string } | null = null;
+    let evidence: FrameEvidence | null = null;
     if (confidenceFromZ(cand.z) >= 0.5) {
       const cap = Math.max(1, Math.round((options.refineSeconds ?? 20) * fs));
       const { start, end } = chooseExcerpt(energies, fs, source.frames, cap);
@@ -245,23 +273,81 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       gain = refined.fit.gain;
       delayStd = refined.fit.delayStdSamples;
       gainStd = refined.fit.gainStd;
+      // Is it a reflection? (evidence.ts) The refinement must confirm the peak it started from,
+      // and the frames one by one must show it: in notes of other pitches and in unvoiced
+      // sounds, not only where a note's period or a repeat lands on τ.
       if (confidenceFromZ(z) >= 0.5) {
+        const ms = ((delay / fs) * 1000).toFixed(1);
+        if (delay < 0.001 * fs) {
+          verdict = {
+            present: null,
+            reason: `a peak at ${ms} ms: under 1 ms a reflection cannot be told from the fixed colouring of the voice, instrument or microphone (the spectral envelope lives at those quefrencies)`,
+          };
+        } else {
+          evidence = await frameEvidence(source, delay, gain, { channel, start: excerpt.start, end: excerpt.end, signal: options.signal });
+          const unlocked = evidence.frames - evidence.locked;
+          if (evidence.frames >= 5 && unlocked >= 4 && evidence.locked > 0.02 * evidence.frames) {
+            // Measure again without the frames whose own period lands on τ.
+            refined = await refineSingleEcho(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal, gateNoise, lockTau: delay });
+            delay = refined.fit.delaySamples;
+            gain = refined.fit.gain;
+            delayStd = refined.fit.delayStdSamples;
+            gainStd = refined.fit.gainStd;
+          }
+          // Five standard deviations of the Cramér–Rao bound on the excerpt (crb.ts): a smaller
+          // gain is not distinguishable from the programme's own chance structure.
+          const minGain = 5 * echoCramerRao(excerpt.end - excerpt.start, delay, gain, [0, 0.5], Math.max(20000, Math.ceil(40 * delay))).gainStd;
+          const spread = evidence.medianGain;
+          const pair = evidence.pairGain;
+          if (Math.abs(gain) < minGain) {
+            verdict = { present: false, reason: `the gain measured at ${ms} ms (${gain.toFixed(4)}) is within the measurement's own spread (±${(minGain / 5).toFixed(4)})` };
+          } else if (Math.sign(gain) !== Math.sign(cand.amplitude) || Math.abs(gain) < 0.35 * Math.abs(cand.amplitude)) {
+            verdict = { present: false, reason: `the peak at ${ms} ms does not hold when it is cancelled (gain ${gain.toFixed(3)} against ${cand.amplitude.toFixed(3)} in the first look): the programme's own structure, not a reflection` };
+          } else if (evidence.frames < 5) {
+            verdict = { present: null, reason: `a peak at ${ms} ms, but the sound is too short (${evidence.frames} frames with programme) to tell a reflection from its own structure` };
+          } else if (unlocked < 4) {
+            verdict = {
+              present: null,
+              reason: `${ms} ms is a whole number of periods of the note${evidence.locked > 1 ? 's' : ''} played in ${Math.round((100 * evidence.locked) / evidence.frames)} % of the frames; a pitch period is not evidence of a reflection, and too little else is played to tell`,
+            };
+          } else if (spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : 0.35) * Math.abs(gain)) {
+            // (Where most frames are locked the few others must show the echo more clearly.)
+            verdict = { present: false, reason: `the peak at ${ms} ms comes from a few moments (a repeated note, hit or phrase), not from the whole programme as a reflection would` };
+          } else if (pair !== null && (Math.sign(pair) !== Math.sign(gain) || Math.abs(pair) < 0.4 * Math.abs(gain) || Math.abs(pair) > 2 * Math.abs(gain) + 0.05)) {
+            verdict = { present: false, reason: `sounds ${ms} ms apart are alike only in some places (a rhythm or repeated phrase), not throughout as with a reflection` };
+          }
+          z *= Math.sqrt(unlocked / Math.max(1, evidence.frames));
+        }
+      }
+      if (verdict === null && confidenceFromZ(z) >= 0.5) {
         const f = await fitReflectionFilter(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal, gateNoise });
         if (f) filter = { firstTapSamples: f.kernel.offset, firstTapDelaySeconds: f.kernel.offset / fs, taps: Array.from(f.kernel.taps) };
       }
     }
     const confidence = confidenceFromZ(z);
-    reflection = {
-      present: confidence >= 0.5,
+    return {
+      present: verdict ? verdict.present : confidence >= 0.5,
+      reason: verdict ? verdict.reason : null,
+      evidence,
       delaySeconds: delay / fs,
       gain,
-      confidence,
+      confidence: verdict ? Math.min(confidence, 0.49) : confidence,
       z,
       delayStdSeconds: Number.isFinite(delayStd) ? delayStd / fs : null,
       gainStd: Number.isFinite(gainStd) ? gainStd : null,
       filter,
       floorGain,
     };
+  };
+  let reflection = notMeasured();
+  for (let i = 0; i < Math.min(order.length, 3); i++) {
+    const r = await measure(order[i]!);
+    if (i === 0) reflection = r;
+    if (r.present === true) {
+      reflection = r;
+      break;
+    }
+    if (confidenceFromZ(order[i + 1]?.z ?? 0) < 0.5) break;
   }
   options.progress?.(0.75);
 
@@ -303,22 +389,46 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     const found = searchPrintThrough(stream, rate, PRINT_THROUGH_RANGE_SECONDS[0] * rate, maxPt * rate, exclude);
     const pick = [found.pre, found.post].filter((c): c is LagCandidate => c !== null).sort((a, b) => b.z - a.z)[0];
     if (pick) {
-      const confidence = confidenceFromZ(pick.z);
+      let confidence = confidenceFromZ(pick.z);
       let lagSamples = pick.lag * pt.factor, gain = pick.gain, refinedOk = false;
+      let verdict: { present: boolean | null; reason: string } | null = null;
       if (confidence >= 0.5) {
+        // Print-through is a faint copy of the loud passages in the quiet ones (about −40 to
+        // −65 dB, highs reduced): the full-rate look must confirm the copy the coarse search saw,
+        // at its lag and strength, in every band, and at a level a tape can print.
         const r = await refinePrintThrough(source, channel, lagSamples, found.masks, pt.factor, { signal: options.signal, cancel: fullRateCancel });
-        if (r && Math.abs(r.lagSamples - lagSamples) <= 1.5 * pt.factor && r.gain !== 0) {
+        const coarseDb = 20 * Math.log10(Math.max(1e-12, Math.abs(pick.gain)));
+        if (!r || !(Math.abs(r.lagSamples - lagSamples) <= 1.5 * pt.factor) || !(r.gain !== 0)) {
+          verdict = { present: false, reason: 'the copy seen in the coarse search is not confirmed at the full rate' };
+        } else {
           lagSamples = r.lagSamples;
           gain = r.gain;
           refinedOk = true;
+          const db = 20 * Math.log10(Math.abs(gain));
+          const when = `${(Math.abs(lagSamples) / fs).toFixed(2)} s ${lagSamples > 0 ? 'before' : 'after'}`;
+          // Bands where the loud passages have energy (with one band only there is nothing to compare).
+          const bands = r.bandGains.filter((b): b is number => b !== null);
+          const agree = bands.filter((b) => Math.sign(b) === Math.sign(gain) && Math.abs(b) >= 0.25 * Math.abs(gain)).length;
+          if (Math.sign(gain) !== Math.sign(pick.gain) || Math.abs(db - coarseDb) > 6) {
+            verdict = { present: false, reason: `the copy ${when} reads ${db.toFixed(1)} dB at the full rate against ${coarseDb.toFixed(1)} dB in the coarse search: not one consistent copy` };
+          } else if (db > PRINT_THROUGH_MAX_DB) {
+            verdict = { present: false, reason: `a copy ${when} at ${db.toFixed(1)} dB is far too strong for print-through (about −40 to −65 dB): the programme repeating itself` };
+          } else if (bands.length >= 2 && agree < bands.length) {
+            verdict = { present: false, reason: `the likeness ${when} is not broadband (${agree} of ${bands.length} bands agree): a sound's own tail or a repeated note, not a copy from the tape` };
+          } else if (db < PRINT_THROUGH_MIN_DB) {
+            verdict = { present: null, reason: `a copy ${when} at ${db.toFixed(1)} dB is too faint to stand behind` };
+          }
+          confidence = Math.min(confidence, confidenceFromZ(r.z));
         }
       }
+      const present = verdict ? verdict.present : confidence >= 0.5;
       printThrough = {
-        present: confidence >= 0.5,
+        present,
+        reason: verdict ? verdict.reason : null,
         delaySeconds: -lagSamples / fs,
         levelDb: gain !== 0 ? 20 * Math.log10(Math.abs(gain)) : null,
         gain,
-        confidence,
+        confidence: verdict ? Math.min(confidence, 0.49) : confidence,
         z: pick.z,
         refined: refinedOk,
       };

@@ -34,6 +34,11 @@ export interface LogSpectrumOptions {
    */
   accept?(frameLog: Float64Array): boolean;
   /**
+   * Called with each frame's first sample (counted from the end of `skipSamples`) before it is
+   * analysed; returning false leaves the frame out.
+   */
+  acceptAt?(frameStart: number): boolean;
+  /**
    * Per-bin gate (natural-log power, k = 0…N/2): cells below it are left out of the average, so
    * bins are averaged over the frames where the signal stands above the noise there. Bins that
    * never do are filled by interpolation across frequency (see meanLogSpectrum).
@@ -67,6 +72,7 @@ export class LogSpectrumAccumulator {
   readonly #halves: [Float64Array, Float64Array] | null;
   readonly #halfFrames: [number, number] = [0, 0];
   readonly #accept: ((frameLog: Float64Array) => boolean) | null;
+  readonly #acceptAt: ((frameStart: number) => boolean) | null;
   readonly #gate: Float64Array | null;
   readonly #counts: Float64Array | null;
   readonly #levels: Int32Array | null;
@@ -98,6 +104,7 @@ export class LogSpectrumAccumulator {
     this.#sum = new Float64Array(n / 2 + 1);
     this.#halves = options.keepHalves ? [new Float64Array(n / 2 + 1), new Float64Array(n / 2 + 1)] : null;
     this.#accept = options.accept ?? null;
+    this.#acceptAt = options.acceptAt ?? null;
     this.#gate = options.gate ?? null;
     this.#counts = this.#gate ? new Float64Array(n / 2 + 1) : null;
     this.#levels = options.collectLevels ? new Int32Array(GATE_BANDS * LEVEL_STEPS) : null;
@@ -164,6 +171,7 @@ export class LogSpectrumAccumulator {
 
   #analyse(): void {
     const n = this.fftSize, w = this.#window, f = this.#frame, buf = this.#buf;
+    if (this.#acceptAt && !this.#acceptAt(this.#consumed - this.#skip - n)) return;
     let energy = 0;
     for (let i = 0; i < n; i++) {
       const v = buf[i]! * w[i]!;

@@ -26,6 +26,7 @@ import { type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } f
 import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { mixBlock } from './mix.ts';
+import { unlockedFrames } from './evidence.ts';
 
 export interface Excerpt {
   /** First frame analysed. */
@@ -46,8 +47,60 @@ export interface RefineOptions {
   searchSamples?: number;
   /** Leave out cells near the noise floor (default false; see levelGate). */
   gateNoise?: boolean;
+  /** Frames to leave out (quietFrames(), for the framing in use), or null for none. */
+  quiet?: { fftSize: number; frames: Uint8Array | null };
+  /**
+   * Leave out frames whose own periodicity puts a peak at this delay (samples; evidence.ts,
+   * pitchLocked): a note whose period is τ, τ/k or k·τ samples the ripple only at its crests and
+   * pulls the fit. Unused when fewer than four frames would remain.
+   */
+  lockTau?: number;
   signal?: { readonly aborted: boolean };
   onPass?(pass: number, fit: FitResult, fftSize: number): void;
+}
+
+/**
+ * Frames (Hann, N, hop N/2 from the excerpt's start) whose energy is more than `belowDb` under the
+ * loudest frame's: pauses, digital silence and the ends of a recording. What they hold is mostly
+ * not the programme — the edge of a sound, the ringing of a band-limited delay into digital
+ * silence, rounding noise — and it does not carry the reflection as the model says: left in,
+ * Festival speech with 0.35 s pauses and 13.1 ms / 0.35 read 0.323 (without the pauses 0.349; with
+ * these frames left out 0.348, and resampled to 48 kHz 0.302 → 0.349).
+ * The refinement leaves them out. Returns 1 per frame to leave out, or null when none is.
+ */
+export async function quietFrames(source: AudioSource, options: Pick<RefineOptions, 'channel' | 'excerpt' | 'signal'>, n: number, belowDb = 35): Promise<Uint8Array | null> {
+  const { start, end } = options.excerpt;
+  const hop = n / 2;
+  const count = Math.max(0, Math.floor((end - start - n) / hop) + 1);
+  if (count < 2) return null;
+  // Energies of hop-long pieces; a frame is two of them (the Hann weighting is left aside: this
+  // only ranks frames by level).
+  const pieces = new Float64Array(count + 1);
+  let at = 0;
+  for await (const block of source.blocks({ startFrame: start, endFrame: Math.min(end, start + (count + 1) * hop) })) {
+    if (options.signal?.aborted) return null;
+    const mono = mixBlock(block, options.channel);
+    for (let i = 0; i < mono.length; i++, at++) {
+      const j = Math.floor(at / hop);
+      if (j <= count) pieces[j]! += mono[i]! * mono[i]!;
+    }
+  }
+  const e = new Float64Array(count);
+  let top = 0;
+  for (let j = 0; j < count; j++) {
+    e[j] = pieces[j]! + pieces[j + 1]!;
+    top = Math.max(top, e[j]!);
+  }
+  const limit = top * Math.pow(10, -belowDb / 10);
+  const out = new Uint8Array(count);
+  let any = false;
+  for (let j = 0; j < count; j++) {
+    if (e[j]! < limit) {
+      out[j] = 1;
+      any = true;
+    }
+  }
+  return any ? out : null;
 }
 
 /** Largest |g| used for cancelling: keeps the inverse recursion well inside its stability region. */
@@ -123,8 +176,19 @@ export async function cancelledCepstrum(
     // level, 0.406 and −0.008.
     const gate = yGate ?? undefined;
     const gateSmoothBins = gate && kernel ? Math.round(n / Math.max(1, kernelCentroid(kernel))) : 1;
-    const run = async (): Promise<LogSpectrumAccumulator> => {
-      const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, skipSamples: start - from, gate, gateSmoothBins });
+    const quiet = options.quiet?.fftSize === n ? options.quiet.frames : null;
+    const acceptAt = quiet ? (at: number) => !quiet[Math.round(at / (n / 2))] : undefined;
+    const run = async (lockTau?: number, skipSilent = true): Promise<LogSpectrumAccumulator> => {
+      const lock = lockTau !== undefined ? unlockedFrames(n, lockTau, source.sampleRateHz) : null;
+      const acc = new LogSpectrumAccumulator({
+        fftSize: n,
+        hopSize: n / 2,
+        skipSamples: start - from,
+        gate,
+        gateSmoothBins,
+        accept: lock ? (fl) => lock.accept(fl) : undefined,
+        acceptAt: skipSilent ? acceptAt : undefined,
+      });
       const cancel = kernel ? new EchoCanceller(kernel) : null;
       for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
         if (options.signal?.aborted) break;
@@ -134,7 +198,13 @@ export async function cancelledCepstrum(
       }
       return acc;
     };
-    const acc = await run();
+    let acc = await run(options.lockTau);
+    if ((options.lockTau !== undefined || acceptAt) && !options.signal?.aborted) {
+      // Too few frames left: measure on more of them.
+      const all = Math.max(1, Math.floor((end - start - n) / (n / 2)) + 1);
+      if (acc.frames < Math.min(4, all) && options.lockTau !== undefined) acc = await run(undefined, true);
+      if (acc.frames < Math.min(4, all)) acc = await run(undefined, false);
+    }
     if (options.signal?.aborted || acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
@@ -164,6 +234,52 @@ export async function levelGate(source: AudioSource, framing: Framing, options: 
     acc.push(mixBlock(block, options.channel));
   }
   return acc.noiseGate();
+}
+
+/**
+ * Bins the programme never reaches: mean log power of y more than 70 dB under the level that 5 %
+ * of the bins exceed (the empty top of a resampled or low-passed recording). There a file holds
+ * only its own rounding noise (about 98 dB under full scale at 16 bits, 144 dB at 24 bits), added
+ * after any reflection: left in, it carries no ripple and pulls the gain towards 0 (Festival
+ * speech resampled from 16 to 44.1 kHz, 24 bits, 17.5 ms / 0.9: 0.49–0.53). Their gate is +∞:
+ * they are left out of the averages, meanLogSpectrum fills them from the nearest bins that have
+ * programme, and the cancellation added back gives them the model's ripple. Null when every bin
+ * is reached.
+ */
+export function deadBins(meanLog: Float64Array): Float64Array | null {
+  const sorted = Float64Array.from(meanLog).sort();
+  const top = sorted[Math.floor(0.95 * (sorted.length - 1))]!;
+  const limit = top - (70 * Math.LN10) / 10;
+  let dead = 0;
+  const gate = new Float64Array(meanLog.length);
+  for (let k = 0; k < meanLog.length; k++) {
+    if (meanLog[k]! < limit) {
+      gate[k] = Infinity;
+      dead++;
+    } else gate[k] = -Infinity;
+  }
+  return dead > 0 && dead < meanLog.length / 2 + meanLog.length / 4 ? gate : null;
+}
+
+async function deadBinGate(source: AudioSource, framing: Framing, options: RefineOptions): Promise<Float64Array | null> {
+  if (framing.whole) return null;
+  const { start, end } = options.excerpt;
+  const n = framing.fftSize;
+  const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2 });
+  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
+    if (options.signal?.aborted) return null;
+    acc.push(mixBlock(block, options.channel));
+  }
+  return acc.frames ? deadBins(acc.meanLogSpectrum()) : null;
+}
+
+/** The noise gate (when asked for) and the dead-bin gate together: a cell must pass both. */
+async function combinedGate(source: AudioSource, framing: Framing, options: RefineOptions, noise: boolean): Promise<Float64Array | null> {
+  const dead = await deadBinGate(source, framing, options);
+  const level = noise ? await levelGate(source, framing, options) : null;
+  if (!dead) return level;
+  if (!level) return dead;
+  return level.map((v, k) => Math.max(v, dead[k]!));
 }
 
 /**
@@ -242,7 +358,11 @@ export async function refineSingleEcho(
   let framing = chooseFraming(initial.delaySamples, initial.gain, length);
   let plan = sharedPlan(framing.fftSize);
   const gateOn = options.gateNoise ?? false;
-  let gate = gateOn ? await levelGate(source, framing, options) : null;
+  const leaveQuiet = async (f: Framing) => {
+    if (!f.whole && options.quiet?.fftSize !== f.fftSize) options = { ...options, quiet: { fftSize: f.fftSize, frames: await quietFrames(source, options, f.fftSize) } };
+  };
+  await leaveQuiet(framing);
+  let gate = await combinedGate(source, framing, options, gateOn);
   const maxPasses = options.maxPasses ?? 6;
   let tau = initial.delaySamples, g = initial.gain;
   let fit: FitResult | null = null;
@@ -254,7 +374,8 @@ export async function refineSingleEcho(
       framing = f;
       plan = sharedPlan(f.fftSize);
       prev = null; // a different framing measures a slightly different G
-      gate = gateOn ? await levelGate(source, framing, options) : null;
+      await leaveQuiet(f);
+      gate = await combinedGate(source, framing, options, gateOn);
     }
     const gc = clampCancel(g);
     const kernel = singleEchoKernel(tau, gc);

@@ -10,6 +10,7 @@
 import { InputError } from '../errors.ts';
 import { fourcc, i16be, putFourcc, putU16be, putU32be, readExtended80, showId, u32be, writeExtended80 } from './bytes.ts';
 import { encodingProblem, type SampleEncoding, type SampleFormat } from './codec.ts';
+import { channelCountProblem, sampleRateProblem } from './limits.ts';
 import { readExact, type AudioLayout, type LayoutChunk, type ReadFn } from './types.ts';
 
 /** Uncompressed AIFC compression types: byte order and sample kind (bytes from sampleSize unless fixed). */
@@ -91,9 +92,10 @@ export function parseAiff(read: ReadFn, fileSize: number, name: string, head: Ui
     );
   }
   if (comm.channels <= 0) throw new InputError(`the COMM chunk says ${comm.channels} channels`, name, comm.at);
-  if (!(comm.rateHz > 0) || !Number.isFinite(comm.rateHz)) {
-    throw new InputError(`the COMM chunk says a sample rate of ${comm.rateHz} Hz`, name, comm.at + 8);
-  }
+  const tooMany = channelCountProblem(comm.channels);
+  if (tooMany) throw new InputError(`the COMM chunk says ${tooMany}`, name, comm.at);
+  const badRate = sampleRateProblem(comm.rateHz);
+  if (badRate) throw new InputError(`the COMM chunk says ${badRate}`, name, comm.at + 8);
   if (t.sampleFormat === 'int' && comm.bits <= 0) throw new InputError(`the COMM chunk says ${comm.bits} bits per sample`, name, comm.at + 6);
   const bytesPerSample = t.bytes ?? Math.ceil(comm.bits / 8);
   const encoding: SampleEncoding = { sampleFormat: t.sampleFormat, bytesPerSample, bigEndian: t.bigEndian, unsigned8: false };

@@ -12,3 +12,5 @@ export * from './wav.ts';
 export * from './wav-writer.ts';
 export * from './aiff.ts';
 export * from './flac.ts';
+export * from './flac-frames.ts';
+export * from './limits.ts';

@@ -34,6 +34,11 @@ export interface FlacStreamInfo {
   totalSamples: number;
   /** MD5 of the decoded PCM as hex; all zeros when not computed by the encoder. */
   md5: string;
+  /**
+   * Not in STREAMINFO: for a fixed-block-size stream, the block size of its frames, taken from the
+   * first frame (parseFlac); frame n starts at sample n × this. Absent for variable block sizes.
+   */
+  fixedBlockSize?: number;
 }
 
 export interface AudioLayout {

@@ -10,6 +10,7 @@ import { InputError } from '../errors.ts';
 import { parseBext } from './bext.ts';
 import { fourcc, showId, u16le, u32le, u64le } from './bytes.ts';
 import { encodingProblem, type SampleEncoding } from './codec.ts';
+import { channelCountProblem, sampleRateProblem } from './limits.ts';
 import { readExact, type AudioLayout, type LayoutChunk, type ReadFn } from './types.ts';
 
 /** Known compressed or otherwise unsupported WAVE format tags, for clear messages. */
@@ -93,7 +94,10 @@ function parseFmt(p: Uint8Array, at: number, name: string): FmtInfo {
     );
   }
   if (channels === 0) throw new InputError('the fmt chunk says zero channels', name, at + 2);
-  if (sampleRateHz === 0) throw new InputError('the fmt chunk says a sample rate of 0 Hz', name, at + 4);
+  const tooMany = channelCountProblem(channels);
+  if (tooMany) throw new InputError(`the fmt chunk says ${tooMany}`, name, at + 2);
+  const badRate = sampleRateProblem(sampleRateHz);
+  if (badRate) throw new InputError(`the fmt chunk says ${badRate}`, name, at + 4);
   if (containerBitsField === 0) throw new InputError('the fmt chunk says 0 bits per sample', name, at + 14);
   const sampleFormat = formatTag === 3 ? 'float' : 'int';
   // Container size: whole bytes for the stated bits, or wider when blockAlign says so (e.g. 24 in 32).

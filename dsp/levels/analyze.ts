@@ -10,7 +10,7 @@ import { CancelledError } from '../errors.ts';
 import { LoudnessMeter } from './loudness.ts';
 import { TruePeakMeter } from './true-peak.ts';
 import { EDGE_SAMPLES, MAX_ZERO_RUNS, MIN_ZERO_RUN_SECONDS, findDropouts, zeroRunDropouts, type ZeroRun } from './dropouts.ts';
-import { SparseSpectrum, compactSpectrum, effectiveBandwidthHz } from './spectrum.ts';
+import { bandwidthSpectrum, compactSpectrum, effectiveBandwidthHz } from './spectrum.ts';
 
 export interface LevelsOptions {
   /** Samples at or beyond this magnitude count as clipped (1 for float; the top code for integers). */
@@ -121,9 +121,7 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
 
   const loudness = new LoudnessMeter(fs, nCh, total);
   const truePeak = Array.from({ length: nCh }, () => new TruePeakMeter());
-  const fftSize = fs > 64000 ? 8192 : fs > 24000 ? 4096 : 2048;
-  const hop = Math.max(fftSize, Math.ceil(total / 3000));
-  const spectrum = new SparseSpectrum(fs, nCh, fftSize, hop);
+  const spectrum = bandwidthSpectrum(fs, nCh, total);
 
   let pos = 0;
   for await (const block of source.blocks()) {

@@ -93,14 +93,21 @@ export function smoothSpectrumDb(levelsDb: Float64Array, fraction: number): Floa
 }
 
 /**
- * Effective bandwidth: the highest frequency still at least 10 dB above the spectrum's floor.
- *  - floor = lowest level of the 1/24-octave-smoothed spectrum between 1 kHz and 0.98·Nyquist;
- *  - when the loudest smoothed level above 1 kHz is less than 30 dB over that floor, the content
- *    reaches the top of the band (no band limit to find) and the answer is the Nyquist frequency;
- *  - otherwise the answer is the top of the highest run of bins at least floor + 10 dB that is at
- *    least max(3 bins, 2 % of its frequency) wide (so a lone whistle or pilot tone is not taken
- *    for programme).
- * Our own rule, documented in the levels op; it answers "where does the content stop".
+ * Effective bandwidth: where the content stops.
+ *  - the spectrum is smoothed over ±1/48 octave (power mean), so single bins do not decide;
+ *  - floor = the 5th percentile of the smoothed levels between 1 kHz and 0.98·Nyquist (a
+ *    percentile, not the minimum, so a notch, a dither shelf or bins of exact digital silence do
+ *    not set it); top = the highest median level of the 1/6-octave bands from 200 Hz up (a
+ *    median, so a line-up tone or a whistle does not count as programme);
+ *  - when top − floor < 30 dB there is no band limit to find: the content reaches the top of the
+ *    band and the answer is the Nyquist frequency;
+ *  - otherwise the answer is the top of the highest run of smoothed levels at least
+ *    floor + min(20 dB, (top − floor)/2) that is at least 1/12 octave wide (and 3 bins), so a lone
+ *    whistle or pilot tone is not taken for programme, ending on the last unsmoothed bin that
+ *    reaches the threshold; a run reaching 0.98·Nyquist means the Nyquist frequency.
+ * Our own rule; on the real-material corpus it reads low-passed and band-limited speech within
+ * 5 % of the cut-off (test/eval, bandwidth table). `levels` and `spectrum` both use it on the same
+ * sparse Blackman–Harris spectrum (`bandwidthSpectrum`), so they agree.
  */
 export function effectiveBandwidthHz(levelsDb: Float64Array, sampleRateHz: number): number {
   const n = levelsDb.length;
@@ -110,24 +117,50 @@ export function effectiveBandwidthHz(levelsDb: Float64Array, sampleRateHz: numbe
   const lo = Math.max(1, Math.ceil(1000 / binHz));
   const hi = Math.min(n - 1, Math.floor((0.98 * sampleRateHz) / 2 / binHz));
   if (hi <= lo) return sampleRateHz / 2;
-  let floor = Infinity, loud = -Infinity;
-  for (let k = lo; k <= hi; k++) {
-    floor = Math.min(floor, smooth[k]!);
-    loud = Math.max(loud, smooth[k]!);
-  }
-  if (loud - floor < 30) return sampleRateHz / 2;
-  const threshold = floor + 10;
+  const band = Float64Array.from(smooth.subarray(lo, hi + 1)).sort();
+  const floor = band[Math.floor(0.05 * (band.length - 1))]!;
+  const top = broadbandTopDb(levelsDb, binHz, hi);
+  if (top - floor < 30) return sampleRateHz / 2;
+  const threshold = floor + Math.min(20, (top - floor) / 2);
   let runEnd = -1;
-  for (let k = n - 1; k >= 1; k--) {
-    if (levelsDb[k]! >= threshold) {
+  for (let k = hi; k >= 1; k--) {
+    if (smooth[k]! >= threshold) {
       if (runEnd < 0) runEnd = k;
       const width = runEnd - k + 1;
-      if (width >= Math.max(3, 0.02 * runEnd)) return runEnd * binHz;
+      if (width >= Math.max(3, (Math.pow(2, 1 / 12) - 1) * runEnd)) {
+        if (runEnd === hi) return sampleRateHz / 2;
+        // The smoothing spreads the edge upwards by up to 1/48 octave: end on the last bin of
+        // the unsmoothed spectrum that still reaches the threshold.
+        let edge = runEnd;
+        while (edge > k && levelsDb[edge]! < threshold) edge--;
+        return edge * binHz;
+      }
     } else {
       runEnd = -1;
     }
   }
   return 0;
+}
+
+/** Highest median level (dB) of the 1/6-octave bands from 200 Hz to bin `hi`. */
+function broadbandTopDb(levelsDb: Float64Array, binHz: number, hi: number): number {
+  let top = -Infinity;
+  for (let fc = 200; fc / binHz <= hi; fc *= Math.pow(2, 1 / 6)) {
+    const a = Math.max(1, Math.round((fc * Math.pow(2, -1 / 12)) / binHz));
+    const b = Math.min(hi, Math.max(a + 2, Math.round((fc * Math.pow(2, 1 / 12)) / binHz)));
+    const v = Float64Array.from(levelsDb.subarray(a, b + 1)).sort();
+    top = Math.max(top, v[Math.floor(v.length / 2)]!);
+  }
+  return top;
+}
+
+/**
+ * The sparse long-term spectrum both `levels` and `spectrum` read the bandwidth from: FFT size by
+ * sample rate, at most about 3000 frames spread over the file.
+ */
+export function bandwidthSpectrum(sampleRateHz: number, channelCount: number, frames: number): SparseSpectrum {
+  const fftSize = sampleRateHz > 64000 ? 8192 : sampleRateHz > 24000 ? 4096 : 2048;
+  return new SparseSpectrum(sampleRateHz, channelCount, fftSize, Math.max(fftSize, Math.ceil(frames / 3000)));
 }
 
 /** A compact log-spaced view of a spectrum for reports: mean power per 1/12-octave band from 20 Hz. */

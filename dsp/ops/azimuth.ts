@@ -6,7 +6,7 @@
 import type { AnalysisOp, Finding } from './types.ts';
 import { num } from './params.ts';
 import { ParameterError } from '../errors.ts';
-import { azimuthArcMinutes, crossSpectrum, estimateDelay, monoNullHz } from '../azimuth/delay.ts';
+import { azimuthArcMinutes, crossSpectrum, estimateDelay, monoNullHz, type DelayEstimate } from '../azimuth/delay.ts';
 
 export interface AzimuthResult {
   /** Positive when channel 2 lags channel 1. */
@@ -21,6 +21,55 @@ export interface AzimuthResult {
   bandHz: [number, number];
   tapeSpeedIps: number | null;
   trackSpacingMm: number | null;
+  /** Delays fitted on the lower and upper halves of the coherent band (seconds). */
+  bandDelaysSeconds: [number, number];
+  /** Share of the analysed band coherent enough to enter the fit. */
+  coherentShare: number;
+  /** Delays of the first and second half of the file measured apart (null: too little signal). */
+  halfDelaysSeconds: [number | null, number | null];
+  /** Largest delay a playback head could make at the given (or assumed) tape format, seconds. */
+  headLimitSeconds: number;
+  /**
+   * What the delay is evidence of: 'head' (one clean time offset between two tracks of the same
+   * programme, within what a head can make), 'programme' (the channels differ: stereo programme,
+   * spaced microphones, processing), or null (too little common signal to tell).
+   */
+  verdict: 'head' | 'programme' | null;
+}
+
+/**
+ * Evidence for a head azimuth error (our own rule, from the physics of the error: a tilted gap
+ * delays one track against the other by Δt = d·tan θ / v at every frequency):
+ *  - the channels carry the same programme: power-weighted coherence ≥ 0.95 over at least 5 % of
+ *    the band;
+ *  - one delay explains the phase at every frequency and all the time: the delays fitted on the
+ *    lower and upper halves of the coherent band, and on the first and second half of the file,
+ *    agree within max(0.5 µs, 5 %, 4 standard errors);
+ *  - the delay is one a head can make: |Δt| ≤ d·tan 2° / v at the given tape format, or 1 ms when
+ *    it is not given (a 2° error on quarter-track tape at 1⅞ ips is about 1 ms; common practice:
+ *    real azimuth errors give a few µs to a few hundred).
+ * Stereo programme and spaced microphones fail the first two (their inter-channel delays differ
+ * by frequency and source), and often the last (milliseconds).
+ */
+const MIN_HEAD_COHERENCE = 0.95;
+const MIN_COHERENT_SHARE = 0.05;
+const DEFAULT_HEAD_LIMIT_SECONDS = 1e-3;
+
+export function headLimitSeconds(tapeSpeedIps: number | null, trackSpacingMm: number | null): number {
+  if (tapeSpeedIps === null || trackSpacingMm === null) return DEFAULT_HEAD_LIMIT_SECONDS;
+  return (trackSpacingMm * Math.tan((2 * Math.PI) / 180)) / (tapeSpeedIps * 25.4);
+}
+
+function verdictOf(est: DelayEstimate, limit: number): 'head' | 'programme' | null {
+  if (est.coherence < 0.3 || est.coherentShare < 0.05) return null;
+  const d = est.delaySeconds;
+  const tol = Math.max(0.5e-6, 0.05 * Math.abs(d), 4 * est.standardErrorSeconds);
+  const [lo, hi] = est.bandDelaysSeconds;
+  const [first, second] = est.halfDelaysSeconds;
+  const steady = first === null || second === null || (Math.abs(first - d) <= 2 * tol && Math.abs(second - d) <= 2 * tol);
+  const consistent = Math.abs(lo - hi) <= tol && steady;
+  if (est.coherence >= MIN_HEAD_COHERENCE && est.coherentShare >= MIN_COHERENT_SHARE && consistent && Math.abs(d) <= limit) return 'head';
+  return 'programme';
 }
 
 const us = (s: number) => `${(s * 1e6).toFixed(1)} µs`;
@@ -49,6 +98,7 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
     const ips = num(params, 'tapeSpeedIps') ?? null;
     const mm = num(params, 'trackSpacingMm') ?? null;
     const est = estimateDelay(await crossSpectrum(source, ctx));
+    const limit = headLimitSeconds(ips, mm);
     return {
       delaySeconds: est.delaySeconds,
       delaySamples: est.delaySamples,
@@ -59,6 +109,11 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
       bandHz: est.bandHz,
       tapeSpeedIps: ips,
       trackSpacingMm: mm,
+      bandDelaysSeconds: est.bandDelaysSeconds,
+      coherentShare: est.coherentShare,
+      halfDelaysSeconds: est.halfDelaysSeconds,
+      headLimitSeconds: limit,
+      verdict: verdictOf(est, limit),
     };
   },
   findings(r, facts) {
@@ -66,10 +121,21 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
     const d = r.delaySeconds;
     const lagging = d >= 0 ? 'Channel 2 lags channel 1' : 'Channel 1 lags channel 2';
     const angle = r.azimuthArcMinutes !== null ? ` At ${r.tapeSpeedIps} ips with tracks ${r.trackSpacingMm} mm apart that is ${Math.abs(r.azimuthArcMinutes).toFixed(1)} arc-minutes of azimuth error.` : '';
-    if (r.coherence < 0.3) {
+    if (r.verdict === null) {
       out.push({
         op: 'azimuth', title: 'Channels too different to judge azimuth', severity: 'info', value: Math.round(r.coherence * 100) / 100,
-        sentence: `The two channels share little common signal (coherence ${r.coherence.toFixed(2)}), so the measured delay of ${us(d)} is uncertain.`,
+        sentence: `The two channels share little common signal (coherence ${r.coherence.toFixed(2)}), so azimuth cannot be judged from this programme; a mono section or a line-up tone would show it.`,
+      });
+      return out;
+    }
+    if (r.verdict === 'programme' && Math.abs(d) >= 2e-6) {
+      const ms = Math.abs(d) >= 1e-3;
+      out.push({
+        op: 'azimuth', title: `Channels differ (${ms ? `${(Math.abs(d) * 1000).toFixed(2)} ms` : us(Math.abs(d))} apart on average)`, severity: 'info',
+        value: Math.round(d * 1e7) / 10, unit: 'µs',
+        sentence:
+          `The channels are not two tracks of the same signal with a time offset: ${Math.abs(d) > r.headLimitSeconds ? `their delay of ${ms ? `${(Math.abs(d) * 1000).toFixed(2)} ms` : us(Math.abs(d))} is more than a playback head can make${r.tapeSpeedIps !== null && r.trackSpacingMm !== null ? ` at ${r.tapeSpeedIps} ips with tracks ${r.trackSpacingMm} mm apart` : ''}, and ` : ''}` +
+          `their timing differs with frequency (${us(r.bandDelaysSeconds[0])} in the lower band, ${us(r.bandDelaysSeconds[1])} in the upper; coherence ${r.coherence.toFixed(2)}) — stereo programme, spaced microphones or processing, not head azimuth. Leave the channels as they are; check azimuth on a mono section or a line-up tone.`,
       });
       return out;
     }
@@ -77,7 +143,9 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
     if (nullHz === null || Math.abs(d) < 2e-6) {
       out.push({
         op: 'azimuth', title: `Channels aligned (${us(d)})`, severity: 'ok', value: Math.round(d * 1e7) / 10, unit: 'µs',
-        sentence: `The channels line up within ${us(Math.abs(d))}: the head azimuth is good.${angle}`,
+        sentence: r.verdict === 'head'
+          ? `The channels line up within ${us(Math.abs(d))}: the head azimuth is good.${angle}`
+          : `The channels line up within ${us(Math.abs(d))} on average; they carry different programme (stereo), so that says little about the head — check azimuth on a mono section or a line-up tone.`,
       });
       return out;
     }
@@ -86,7 +154,7 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
       op: 'azimuth',
       title: `${lagging} by ${us(Math.abs(d))}`,
       sentence:
-        `${lagging} by ${us(Math.abs(d))} (${Math.abs(r.delaySamples).toFixed(2)} samples), a sign of head azimuth error.${angle} ` +
+        `${lagging} by ${us(Math.abs(d))} (${Math.abs(r.delaySamples).toFixed(2)} samples) at every frequency, with the same programme on both (coherence ${r.coherence.toFixed(2)}): head azimuth error.${angle} ` +
         (audible
           ? `Summed to mono, the treble cancels near ${(nullHz / 1000).toFixed(1)} kHz; re-align the playback head and transfer again, or remove the delay.`
           : `The first cancellation in a mono sum falls at ${(nullHz / 1000).toFixed(1)} kHz, above the audible band, but the stereo image is slightly skewed.`),

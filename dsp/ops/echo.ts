@@ -49,10 +49,12 @@ export const echo: AnalysisOp<EchoAnalysis> = {
   toJson(r) {
     // Delay and strength are printed only for what is present; the strongest candidate of a
     // search that found nothing is not a measurement anyone should act on.
-    const rp = r.reflection.present, pp = r.printThrough.present;
+    // present is true, false, or null when a peak was seen but the evidence does not decide.
+    const rp = r.reflection.present === true && r.reflection.delaySeconds !== null && r.reflection.gain !== null;
+    const pp = r.printThrough.present === true && r.printThrough.delaySeconds !== null && r.printThrough.levelDb !== null;
     return {
       echo: {
-        present: rp,
+        present: rp ? true : r.reflection.present === null ? null : false,
         delaySeconds: rp ? round(r.reflection.delaySeconds, 9) : null,
         gain: rp ? round(r.reflection.gain, 5) : null,
         confidence: round(r.reflection.confidence, 3),
@@ -62,7 +64,7 @@ export const echo: AnalysisOp<EchoAnalysis> = {
           : {}),
       },
       printThrough: {
-        present: pp,
+        present: pp ? true : r.printThrough.present === null ? null : false,
         delaySeconds: pp ? round(r.printThrough.delaySeconds, 7) : null,
         levelDb: pp ? round(r.printThrough.levelDb, 2) : null,
         confidence: round(r.printThrough.confidence, 3),
@@ -72,7 +74,7 @@ export const echo: AnalysisOp<EchoAnalysis> = {
   findings(r) {
     const out: Finding[] = [];
     const rf = r.reflection;
-    if (rf.present && rf.delaySeconds !== null && rf.gain !== null) {
+    if (rf.present === true && rf.delaySeconds !== null && rf.gain !== null) {
       const ms = rf.delaySeconds * 1000;
       const db = 20 * Math.log10(Math.abs(rf.gain));
       out.push({
@@ -98,6 +100,14 @@ export const echo: AnalysisOp<EchoAnalysis> = {
             : { delaySeconds: rf.delaySeconds, gain: rf.gain },
         },
       });
+    } else if (rf.present === null && rf.reason) {
+      out.push({
+        op: 'echo',
+        title: 'Reflection not determined',
+        sentence: `Not determined: ${rf.reason}.`,
+        confidence: 0,
+        severity: 'info',
+      });
     } else {
       // A floor whose own reflection differs from the programme's (e.g. hiss after an echo was
       // cancelled carries the inverse echo) is said, so that it is not mistaken for the programme's.
@@ -109,13 +119,18 @@ export const echo: AnalysisOp<EchoAnalysis> = {
       out.push({
         op: 'echo',
         title: 'No single strong reflection',
-        sentence: `No single strong reflection was found between ${(r.rangeSeconds[0] * 1000).toFixed(1)} ms and ${(r.rangeSeconds[1] * 1000).toFixed(0)} ms.${floor}`,
+        sentence:
+          `No single strong reflection was found between ${(r.rangeSeconds[0] * 1000).toFixed(1)} ms and ${(r.rangeSeconds[1] * 1000).toFixed(0)} ms.${floor}` +
+          (rf.reason ? ` (A peak was set aside: ${rf.reason}.)` : ''),
         confidence: 1 - rf.confidence,
         severity: 'ok',
       });
     }
     const pt = r.printThrough;
-    if (pt.present && pt.delaySeconds !== null && pt.levelDb !== null && pt.gain !== null) {
+    if (pt.present === null && pt.reason) {
+      out.push({ op: 'echo', title: 'Print-through not determined', sentence: `Not determined: ${pt.reason}.`, confidence: 0, severity: 'info' });
+    }
+    if (pt.present === true && pt.delaySeconds !== null && pt.levelDb !== null && pt.gain !== null) {
       const when = pt.delaySeconds < 0 ? 'before' : 'after';
       out.push({
         op: 'echo',

@@ -17,6 +17,7 @@ import { reverse } from './reverse.ts';
 import { reversed } from './reversed.ts';
 import { echo } from './echo.ts';
 import { unecho } from './unecho.ts';
+import { convert } from './convert.ts';
 
 export const operations: readonly Operation[] = [
   // Analyses (read only), in the order diagnose and the reports show them.
@@ -35,6 +36,7 @@ export const operations: readonly Operation[] = [
   stretch,
   transpose,
   reverse,
+  convert,
 ];
 
 export function findOperation(name: string): Operation | undefined {

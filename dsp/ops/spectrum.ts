@@ -2,10 +2,11 @@
  * `spectrum`: the long-term average spectrum (Welch, Hann, 50 % overlap) per channel, in dB re a
  * full-scale sine (a full-scale sine reads 0 dBFS at its bin), and the effective bandwidth.
  *
- * Effective bandwidth: the same rule as `levels` (dsp/levels/spectrum.ts, effectiveBandwidthHz):
- * the highest frequency still at least 10 dB above the spectrum's floor. It answers "where does the
- * programme stop?" — about 5 kHz for many acoustic discs, 12–16 kHz for cassettes, the converter's
- * limit for modern material.
+ * Effective bandwidth: the same rule as `levels` on the same sparse Blackman–Harris spectrum
+ * (dsp/levels/spectrum.ts, effectiveBandwidthHz and bandwidthSpectrum), so the two always agree.
+ * It answers "where does the programme stop?" — about 5 kHz for many acoustic discs, 12–16 kHz for
+ * cassettes, the converter's limit for modern material. (The Welch spectrum shown is for reading;
+ * its Hann window spills a strong band edge over a few per cent, which would move the answer.)
  *
  * Long files are estimated from at most MAX_FRAMES evenly spaced frames (see welchSpectrum).
  */
@@ -13,9 +14,9 @@ import type { AnalysisOp, Finding } from './types.ts';
 import { num } from './params.ts';
 import { welchSpectrum } from '../core/welch.ts';
 import { isPowerOfTwo } from '../core/fft.ts';
-import { ParameterError } from '../errors.ts';
+import { CancelledError, ParameterError } from '../errors.ts';
 import { lineChartSvg } from '../plot/svg.ts';
-import { effectiveBandwidthHz } from '../levels/spectrum.ts';
+import { bandwidthSpectrum, effectiveBandwidthHz } from '../levels/spectrum.ts';
 
 /** Frames analysed at most; beyond that, evenly spaced frames stand for the whole file. */
 export const MAX_FRAMES = 4000;
@@ -67,8 +68,17 @@ export const spectrum: AnalysisOp<SpectrumResult> = {
   async run(source, params, ctx) {
     const fftSize = num(params, 'fftSize') ?? 8192;
     if (!isPowerOfTwo(fftSize)) throw new ParameterError(`--fft-size ${fftSize}: must be a power of two`);
-    const r = await welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => ctx.progress(f));
-    const bandwidthHz = Math.max(...r.levelsDb.map((l) => effectiveBandwidthHz(l, source.sampleRateHz)));
+    const r = await welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => ctx.progress(0.5 * f));
+    const sparse = bandwidthSpectrum(source.sampleRateHz, source.channelCount, source.frames);
+    let done = 0;
+    for await (const block of source.blocks()) {
+      if (ctx.signal?.aborted) throw new CancelledError('spectrum cancelled');
+      sparse.push(block);
+      done += block[0]!.length;
+      ctx.progress(0.5 + (0.5 * done) / Math.max(1, source.frames));
+    }
+    const levels = sparse.levelsDb();
+    const bandwidthHz = levels.length ? Math.round(effectiveBandwidthHz(levels, source.sampleRateHz)) : source.sampleRateHz / 2;
     const levelsDb = r.levelsDb.map((l) => Array.from(l, round3));
     const frequenciesHz = Array.from(r.frequenciesHz, round3);
     return { frequenciesHz, levelsDb, bandwidthHz, fftSize, frames: r.frames };

@@ -3,7 +3,9 @@
  * y = x + g·x(t − τ): x̂[n] = y[n] − g·x̂[n − τ] with a windowed-sinc fractional delay on the
  * feedback path; a pre-echo (τ < 0) runs the same recursion on the time-reversed signal.
  * With --delay and --gain the echo is given by hand; with --delay alone the gain is measured at
- * that delay; with neither, `echo` measures and everything it reports as present is cancelled.
+ * that delay; with neither, `echo` measures and everything it reports as present is cancelled,
+ * the strongest first (it is named first in the output), and what it found but could not decide
+ * is listed as left.
  * Method and memory use: dsp/echo/render.ts.
  */
 import { analyseEcho } from '../echo/detect.ts';
@@ -16,6 +18,7 @@ import { num, range } from './params.ts';
 import type { CorrectionOp, OpContext, ParamValues } from './types.ts';
 
 interface EchoToCancel {
+  kind: 'reflection' | 'print-through';
   delaySeconds: number;
   gain: number;
   source: 'given' | 'measured';
@@ -118,9 +121,10 @@ export const unecho: CorrectionOp = {
       if (Math.abs(delay) >= duration) throw new ParameterError(`--delay ${delay}: outside the file, which is ${duration.toFixed(3)} s long`);
     }
     const echoes: EchoToCancel[] = [];
+    const left: string[] = [];
     if (delay !== undefined) {
       const g = gain ?? (await measureAt(source, delay, channel, ctx));
-      echoes.push({ delaySeconds: delay, gain: g, source: gain === undefined ? 'measured' : 'given' });
+      echoes.push({ kind: Math.abs(delay) >= 0.3 ? 'print-through' : 'reflection', delaySeconds: delay, gain: g, source: gain === undefined ? 'measured' : 'given' });
     } else {
       const a = await analyseEcho(source, {
         rangeSeconds: range(params, 'rangeSeconds'),
@@ -129,35 +133,58 @@ export const unecho: CorrectionOp = {
         progress: (f) => ctx.progress(0.5 * f),
         warn: (m) => ctx.warn(m),
       });
-      if (a.reflection.present && a.reflection.delaySeconds !== null && a.reflection.gain !== null) {
-        echoes.push({ delaySeconds: a.reflection.delaySeconds, gain: a.reflection.gain, source: 'measured', filter: a.reflection.filter ?? undefined });
+      const rf = a.reflection, pt = a.printThrough;
+      if (rf.present === true && rf.delaySeconds !== null && rf.gain !== null) {
+        echoes.push({ kind: 'reflection', delaySeconds: rf.delaySeconds, gain: rf.gain, source: 'measured', filter: rf.filter ?? undefined });
+      } else if (rf.present === null && rf.reason) {
+        left.push(`reflection not determined: ${rf.reason}`);
       }
-      if (a.printThrough.present && a.printThrough.delaySeconds !== null && a.printThrough.gain !== null) {
-        echoes.push({ delaySeconds: a.printThrough.delaySeconds, gain: a.printThrough.gain, source: 'measured' });
+      if (pt.present === true && pt.delaySeconds !== null && pt.gain !== null) {
+        echoes.push({ kind: 'print-through', delaySeconds: pt.delaySeconds, gain: pt.gain, source: 'measured' });
+      } else if (pt.present === null && pt.reason) {
+        left.push(`print-through not determined: ${pt.reason}`);
       }
-      if (!echoes.length) throw new NotFoundError('no reflection or print-through found to cancel; give --delay and --gain to cancel one by hand');
+      if (!echoes.length) {
+        throw new NotFoundError(
+          `no reflection or print-through found to cancel${left.length ? ` (${left.join('; ')})` : ''}; give --delay and --gain to cancel one by hand`,
+        );
+      }
     }
-    const plan: CancelPlan = { post: null, pre: null, channels: channel < 0 ? null : [channel] };
+    // The echo that carries the most energy matters most and is named (and cancelled) first: a
+    // reflection of gain g adds g² of the programme's energy, a copy at c dB adds 10^(c/10).
+    echoes.sort((p, q) => Math.abs(q.gain) - Math.abs(p.gain));
+    const plan: CancelPlan = { post: null, pre: null, postAfter: null, channels: channel < 0 ? null : [channel] };
     const used: EchoToCancel[] = [];
     for (const e of echoes) {
       const g = clampGain(e.gain, ctx);
       const d = Math.abs(e.delaySeconds) * fs;
       const kernel = e.filter ? { offset: e.filter.firstTapSamples, taps: Float64Array.from(e.filter.taps) } : singleEchoKernel(d, g);
-      if (e.delaySeconds > 0) plan.post = kernel;
-      else plan.pre = { kernel, gain: g, delaySamples: d };
+      if (e.delaySeconds > 0) {
+        if (!plan.post) plan.post = kernel;
+        else if (!plan.postAfter) plan.postAfter = kernel;
+        else continue;
+      } else if (!plan.pre) plan.pre = { kernel, gain: g, delaySamples: d };
+      else continue;
       used.push({ ...e, gain: g });
     }
+    const describe = (e: EchoToCancel) =>
+      e.kind === 'reflection'
+        ? `reflection ${(e.delaySeconds * 1000).toFixed(3)} ms, gain ${e.gain.toFixed(4)}${e.filter ? ` (${e.filter.taps.length}-tap filter)` : ''}`
+        : `print-through ${Math.abs(e.delaySeconds).toFixed(4)} s ${e.delaySeconds < 0 ? 'before' : 'after'}, ${(20 * Math.log10(Math.abs(e.gain))).toFixed(1)} dB`;
     const resolved: ParamValues = {};
-    const post = used.find((e) => e.delaySeconds > 0), pre = used.find((e) => e.delaySeconds < 0);
-    const main = post ?? pre!;
+    const [main, second] = used as [EchoToCancel, EchoToCancel | undefined];
     resolved.delaySeconds = main.delaySeconds;
     resolved.gain = main.gain;
-    if (post && pre) {
-      resolved.preEchoDelaySeconds = pre.delaySeconds;
-      resolved.preEchoGain = pre.gain;
+    if (second) {
+      resolved.secondDelaySeconds = second.delaySeconds;
+      resolved.secondGain = second.gain;
     }
+    // In the order they matter (the first is the strongest), and what was found but left alone.
+    resolved.cancelled = used.map(describe).join('; ');
+    if (left.length) resolved.left = left.join('; ');
     if (ch !== undefined) resolved.channel = ch;
-    if (post?.filter) resolved.filterTaps = post.filter.taps.length;
+    const filtered = used.find((e) => e.filter);
+    if (filtered?.filter) resolved.filterTaps = filtered.filter.taps.length;
     return {
       sampleRateHz: fs,
       channelCount: source.channelCount,
@@ -168,8 +195,8 @@ export const unecho: CorrectionOp = {
   },
   history(resolved) {
     const parts = [`reelwright unecho delay=${Number(resolved.delaySeconds).toFixed(7)}s gain=${Number(resolved.gain).toFixed(4)}`];
-    if (resolved.preEchoDelaySeconds !== undefined) {
-      parts.push(`pre-echo delay=${Number(resolved.preEchoDelaySeconds).toFixed(7)}s gain=${Number(resolved.preEchoGain).toFixed(5)}`);
+    if (resolved.secondDelaySeconds !== undefined) {
+      parts.push(`then delay=${Number(resolved.secondDelaySeconds).toFixed(7)}s gain=${Number(resolved.secondGain).toFixed(5)}`);
     }
     if (resolved.channel !== undefined) parts.push(`channel=${resolved.channel}`);
     if (resolved.filterTaps !== undefined) parts.push(`filter=${resolved.filterTaps}taps`);

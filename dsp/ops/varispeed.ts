@@ -4,7 +4,8 @@
  * resampler in dsp/core/resample.ts (Kaiser-windowed sinc; 'archive' ≥ 140 dB image/alias
  * rejection, 'draft' ≥ 90 dB). The speed can be given (--factor, --undo, --semitones, --cents) or
  * measured and undone in one go (--from-hum, --from-tone, --follow-curve); --rate changes the
- * output sample rate at the same time.
+ * output sample rate at the same time. When every output frame falls on an input frame (a factor
+ * of 1 at the same rate, or a factor equal to the rate change) the output is the input's samples.
  */
 import { NotFoundError, ParameterError } from '../errors.ts';
 import { ratioFromSpeedCurve, resampleSource, ratioForFactor, Resampler, type ResampleQuality } from '../core/resample.ts';
@@ -67,6 +68,20 @@ export const varispeed: CorrectionOp = {
         throw new ParameterError(`the combined factor ${explicit.toPrecision(6)} is outside ${MIN_FACTOR}–${MAX_FACTOR}`);
       }
       const ratio = ratioForFactor(explicit, inRate, outRate);
+      if (ratio === 1) {
+        // One output frame per input frame at the same instants: the samples are the input's.
+        // A resampler would still low-pass them (its band edge is 0.45 × the rate), so copy.
+        ctx.warn(outRate === inRate
+          ? 'a factor of 1 at the same sample rate changes nothing; the output is an exact copy'
+          : `factor ${explicit} with the rate ${inRate} → ${outRate} Hz keeps every sample; the output is the same samples at ${outRate} Hz`);
+        return {
+          sampleRateHz: outRate,
+          channelCount: source.channelCount,
+          framesHint: source.frames,
+          blocks: source.blocks(),
+          resolved: { factor: explicit, quality: 'copy', rateHz: outRate },
+        };
+      }
       const framesHint = Math.ceil(source.frames * ratio - 1e-9);
       return {
         sampleRateHz: outRate,

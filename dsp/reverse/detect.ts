@@ -105,13 +105,21 @@ const RAMP_END_DB = -FLOOR_DB + 10;
 const GATED_DIP_DB = 10;
 const RAMP_REGROW_DB = 6;
 
-/** Per-channel block power envelope, grown as the source streams past. */
+/**
+ * Per-channel block power envelope, grown as the source streams past. Sized for the source's
+ * length up front (4 bytes per 10 ms block), so a long many-channel file costs no more than that.
+ */
 class Envelope {
-  #values = new Float32Array(1024);
+  #values: Float32Array;
   length = 0;
   #acc = 0;
   #count = 0;
-  constructor(readonly blockFrames: number) {}
+  constructor(
+    readonly blockFrames: number,
+    expectedBlocks: number,
+  ) {
+    this.#values = new Float32Array(Math.max(16, expectedBlocks));
+  }
 
   add(x: Float64Array): void {
     const b = this.blockFrames;
@@ -371,7 +379,8 @@ export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK
 /** Reads the source once and judges every channel. */
 export async function detectReversedChannels(source: AudioSource, onProgress?: (fraction: number) => void): Promise<ReversedResult> {
   const blockFrames = Math.max(1, Math.round(REVERSED_BLOCK_SECONDS * source.sampleRateHz));
-  const envs = Array.from({ length: source.channelCount }, () => new Envelope(blockFrames));
+  const expected = Math.ceil(source.frames / blockFrames) + 1;
+  const envs = Array.from({ length: source.channelCount }, () => new Envelope(blockFrames, expected));
   let done = 0;
   for await (const block of source.blocks()) {
     for (let c = 0; c < envs.length; c++) envs[c]!.add(block[c]!);

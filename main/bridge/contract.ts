@@ -75,7 +75,14 @@ export interface Bridge {
   saveSession(text: string, suggestedName: string): Promise<SavedText | null>;
   /** Opens a session JSON the user picks; null when cancelled. */
   openSession(): Promise<OpenedText | null>;
+  /**
+   * The recording or session the app was started with (a double-click on an associated file),
+   * opened; null when there is none (always in web mode). Each launch file is handed out once.
+   */
+  launched(): Promise<Launched | null>;
 }
+
+export type Launched = { readonly kind: 'audio'; readonly file: OpenedFile } | { readonly kind: 'session'; readonly session: OpenedText };
 
 /** The calls that cross IPC (everything but `mode`). */
 export type BridgeCall = Exclude<keyof Bridge, 'mode'>;

@@ -107,9 +107,10 @@ export const validators: Validators = {
   abortExport: (a) => (count('abortExport', a, 1), [handle('abortExport', a[0], 'x')]),
   saveSession: (a) => {
     count('saveSession', a, 2);
-    return [text('saveSession', 'session', a[0], MAX_SESSION_CHARS), fileName('saveSession', a[1], ['.json'])];
+    return [text('saveSession', 'session', a[0], MAX_SESSION_CHARS), fileName('saveSession', a[1], ['.rwsession', '.json'])];
   },
   openSession: (a) => (count('openSession', a, 0), []),
+  launched: (a) => (count('launched', a, 0), []),
 };
 
 export const AUDIO_EXTENSIONS = ['.wav', '.bwf', '.rf64', '.aif', '.aiff', '.aifc', '.flac'] as const;

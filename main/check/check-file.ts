@@ -8,6 +8,7 @@ import { diagnose } from '../../dsp/ops/diagnose.ts';
 import type { Finding, ParamValues } from '../../dsp/ops/types.ts';
 import { CancelledError, InputError } from '../../dsp/errors.ts';
 import type { FileInfo, OpenedAudio } from '../io/types.ts';
+import { fileSha256 } from './fixity.ts';
 
 export interface CheckJob {
   path: string;
@@ -17,9 +18,12 @@ export interface CheckJob {
   previousMd5?: string;
 }
 
+/** The entry's `file`: the contract's file object plus the SHA-256 of the file's bytes (fixity). */
+export type EntryFile = Partial<FileInfo> & { path: string; sha256?: string };
+
 /** One file's row in the report. Analysis sections sit beside `file` under their contract keys. */
 export interface FileEntry {
-  file: Partial<FileInfo> & { path: string };
+  file: EntryFile;
   findings: Finding[];
   notes: { op: string; reason: string }[];
   /** Why the file could not be checked (unreadable, truncated…). */
@@ -34,7 +38,7 @@ export interface FileEntry {
   [section: string]: unknown;
 }
 
-export type JobResult = { kind: 'entry'; entry: FileEntry } | { kind: 'unchanged'; file: FileInfo };
+export type JobResult = { kind: 'entry'; entry: FileEntry } | { kind: 'unchanged'; file: FileInfo & { sha256?: string } };
 
 export type Opener = (path: string) => Promise<OpenedAudio>;
 
@@ -43,15 +47,24 @@ const MD5_SHARE = 0.1;
 export async function checkFile(job: CheckJob, open: Opener, onProgress: (fraction: number) => void, signal?: { aborted: boolean }): Promise<JobResult> {
   const t0 = Date.now();
   const seconds = () => (Date.now() - t0) / 1000;
+  // The whole file's SHA-256 (fixity manifests), also for files that cannot be read as audio.
+  let sha256: string | undefined;
+  try {
+    sha256 = fileSha256(job.path, (f) => onProgress(0.5 * MD5_SHARE * f));
+  } catch {
+    /* unopenable: the opener below says why */
+  }
+  const withSha = <T extends object>(o: T) => (sha256 === undefined ? o : { ...o, sha256 });
   let file: OpenedAudio;
   try {
     file = await open(job.path);
   } catch (e) {
-    return { kind: 'entry', entry: { file: { path: job.path }, findings: [], notes: [], error: reason(e), seconds: seconds() } };
+    return { kind: 'entry', entry: { file: withSha({ path: job.path }), findings: [], notes: [], error: reason(e), seconds: seconds() } };
   }
-  let info: FileInfo = { ...file.info };
+  let info: FileInfo & { sha256?: string } = { ...file.info };
   try {
-    info.audioMd5 = await file.audioMd5((f) => onProgress(MD5_SHARE * f));
+    info.audioMd5 = await file.audioMd5((f) => onProgress(0.5 * MD5_SHARE * (1 + f)));
+    info = withSha(info);
     if (job.previousMd5 !== undefined && job.previousMd5 === info.audioMd5) return { kind: 'unchanged', file: info };
     const warnings: string[] = [];
     const result = await diagnose(
@@ -59,7 +72,7 @@ export async function checkFile(job: CheckJob, open: Opener, onProgress: (fracti
       { progress: (f) => onProgress(MD5_SHARE + (1 - MD5_SHARE) * f), warn: (m) => warnings.push(m), signal },
       { params: job.params },
     );
-    info = { ...info, ...file.info, audioMd5: info.audioMd5 };
+    info = withSha({ ...info, ...file.info, audioMd5: info.audioMd5 });
     // Float files may hold NaN/Inf samples; the reader counts them (they are read as 0).
     const nonFinite = file.nonFiniteSamples ?? 0;
     return {
@@ -75,7 +88,7 @@ export async function checkFile(job: CheckJob, open: Opener, onProgress: (fracti
     };
   } catch (e) {
     if (e instanceof CancelledError) throw e;
-    return { kind: 'entry', entry: { file: info, findings: [], notes: [], error: reason(e), seconds: seconds() } };
+    return { kind: 'entry', entry: { file: withSha(info), findings: [], notes: [], error: reason(e), seconds: seconds() } };
   } finally {
     await file.close().catch(() => {});
   }

@@ -11,11 +11,10 @@
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { Worker } from 'node:worker_threads';
 import { analyses } from '../../dsp/ops/registry.ts';
 import { ParameterError } from '../../dsp/errors.ts';
 import type { ParamSpec, ParamValues } from '../../dsp/ops/types.ts';
-import { parseArgs } from '../cli/args.ts';
+import { parseArgs, type ParsedArgs } from '../cli/args.ts';
 import { Progress, toJson } from '../cli/output.ts';
 import { paramsFromFlags, reportError, suggestionCommand } from '../cli/index.ts';
 import { checkFile, type CheckJob, type FileEntry, type JobResult, type Opener } from './check-file.ts';
@@ -23,6 +22,8 @@ import type { FromWorker, ToWorker } from './worker.ts';
 import { defaultThresholds, judge, mergeThresholds, type Thresholds } from './thresholds.ts';
 import { reportCsv, type CheckReport } from './report.ts';
 import { reportHtml } from './report-html.ts';
+import { checkManifestName, fileSha256, formatManifest, manifestRelative, parseManifest, payloadFiles, verifyManifest, type ManifestLine } from './fixity.ts';
+import { newCheckThread } from './thread.ts';
 
 export const AUDIO_EXTENSIONS = new Set(['.wav', '.wave', '.bwf', '.rf64', '.bw64', '.aif', '.aiff', '.aifc', '.flac']);
 const VERSION = '0.1.0';
@@ -49,7 +50,19 @@ Options:
   --jobs N                    Worker threads (default: the number of cores).
   --resume                    Take over files from the existing --json report whose audio checksum is unchanged.
   --thresholds FILE.json      Pass/warn/fail rules replacing the defaults one by one (see main/check/default-thresholds.json).
+  --manifest FILE             Verify a SHA-256 manifest ("CHECKSUM  PATH" lines, paths relative to its folder, as in
+                              BagIt): lists missing, changed and unlisted files; a missing or changed file fails.
+  --write-manifest FILE       Write such a manifest of every file under the checked paths (never replaces a file).
   --quiet                     No progress line.
+Many machines (a Redis-backed job queue; start workers with \`reelwright worker\`):
+  --queue redis://HOST:PORT/DB  Enqueue one job per file instead of checking here (rediss:// for TLS;
+                              a password as redis://:PASSWORD@HOST or in REELWRIGHT_QUEUE_PASSWORD).
+  --batch NAME                The batch's name (letters, digits, . _ -). Enqueueing it again re-checks changed
+                              files only; \`reelwright report --queue URL --batch NAME\` writes its reports.
+  --wait                      Follow the batch until every file is checked, then report as above.
+  --keep-days D               How long Redis keeps the batch's results after its last change (default 30).
+  --attempts N                Tries per file when a worker cannot read it (default 3).
+  --retry-seconds S           Pause before the first retry, doubled for each next one (default 10).
 Analysis options (passed to the analyses that take them):
 `;
 
@@ -81,28 +94,40 @@ export async function runCheck(argv: string[], options: CheckOptions = {}): Prom
   }
 }
 
-async function check(argv: string[], options: CheckOptions, out: (s: string) => void, err: (s: string) => void): Promise<number> {
+/** Flags that only the queued mode (`--queue`) takes. */
+export const QUEUE_VALUE_FLAGS = ['queue', 'batch', 'keep-days', 'attempts', 'retry-seconds'];
+
+/** What every form of `check` (here, queued, and `report`) reads from its arguments. */
+export interface CheckSetup {
+  args: ParsedArgs;
+  str(flag: string): string | undefined;
+  thresholds: Thresholds;
+  params: Record<string, ParamValues>;
+  outputs: ReportOutputs;
+}
+
+export interface ReportOutputs {
+  json?: string;
+  html?: string;
+  csv?: string;
+  /** --manifest: the manifest to verify, read. */
+  manifest?: { path: string; lines: ManifestLine[] };
+  /** --write-manifest: where to write one. */
+  writeManifest?: string;
+}
+
+/** Parses the check flags: thresholds, analysis parameters, report outputs, manifest options. */
+export function parseCheckSetup(argv: string[], extra: { booleans?: string[]; values?: string[] } = {}): CheckSetup | 'help' {
   const opFlags = analysisFlags();
   const args = parseArgs(argv, {
-    booleans: new Set(['help', 'resume', 'quiet', ...[...opFlags.values()].filter((f) => f.spec.type === 'boolean').map((f) => f.spec.flag)]),
-    values: new Set(['report', 'json', 'csv', 'jobs', 'thresholds', ...[...opFlags.values()].filter((f) => f.spec.type !== 'boolean').map((f) => f.spec.flag)]),
+    booleans: new Set(['help', 'resume', 'quiet', ...(extra.booleans ?? []), ...[...opFlags.values()].filter((f) => f.spec.type === 'boolean').map((f) => f.spec.flag)]),
+    values: new Set(['report', 'json', 'csv', 'jobs', 'thresholds', 'manifest', 'write-manifest', ...(extra.values ?? []), ...[...opFlags.values()].filter((f) => f.spec.type !== 'boolean').map((f) => f.spec.flag)]),
   });
-  if (args.flags.get('help')) {
-    const lines = [...opFlags.values()].map(({ spec, ops }) => `  --${spec.flag}${spec.type === 'boolean' ? '' : ' N'}`.padEnd(30) + ` ${spec.help} (${ops.join(', ')})`);
-    out(USAGE + lines.join('\n'));
-    return 0;
-  }
-  if (args.positionals.length === 0) throw new ParameterError('expected at least one file or folder (usage: reelwright check PATH… [--report report.html] [--json report.json] [--csv report.csv])');
+  if (args.flags.get('help')) return 'help';
   const str = (k: string) => {
     const v = args.flags.get(k);
     return typeof v === 'string' ? v : undefined;
   };
-  const jsonPath = str('json'), htmlPath = str('report'), csvPath = str('csv');
-  const jobsText = str('jobs');
-  const jobs = jobsText === undefined ? Math.max(1, os.availableParallelism?.() ?? os.cpus().length) : Number(jobsText);
-  if (!Number.isInteger(jobs) || jobs < 1 || jobs > 256) throw new ParameterError(`--jobs ${jobsText}: expected a whole number from 1 to 256`);
-  const resume = args.flags.get('resume') === true;
-  if (resume && !jsonPath) throw new ParameterError('--resume needs --json FILE: the earlier report to take unchanged files from');
 
   // Thresholds.
   let thresholds = defaultThresholds();
@@ -125,13 +150,59 @@ async function check(argv: string[], options: CheckOptions, out: (s: string) => 
     if (mine.size) params[op.name] = paramsFromFlags(op.params, mine);
   }
 
+  const outputs: ReportOutputs = { json: str('json'), html: str('report'), csv: str('csv') };
+  const manifestPath = str('manifest');
+  const writeManifest = str('write-manifest');
+  if (manifestPath && writeManifest) throw new ParameterError('--manifest and --write-manifest: give one (verify an existing manifest, or write a new one)');
+  if (manifestPath) {
+    checkManifestName(manifestPath, 'manifest');
+    let text: string;
+    try {
+      text = fs.readFileSync(manifestPath, 'utf8');
+    } catch (e) {
+      throw new ParameterError(`--manifest ${manifestPath}: ${(e as NodeJS.ErrnoException).code === 'ENOENT' ? 'no such file' : (e as Error).message}`);
+    }
+    outputs.manifest = { path: manifestPath, lines: parseManifest(text, manifestPath) };
+  }
+  if (writeManifest) {
+    checkManifestName(writeManifest, 'write-manifest');
+    if (fs.existsSync(writeManifest)) throw new ParameterError(`--write-manifest ${writeManifest}: the file exists; a manifest is a fixity record and is never replaced (remove it or choose another name)`);
+    if (!fs.existsSync(path.dirname(path.resolve(writeManifest)))) throw new ParameterError(`--write-manifest ${writeManifest}: no such folder`);
+    outputs.writeManifest = writeManifest;
+  }
+  return { args, str, thresholds, params, outputs };
+}
+
+function checkHelp(): string {
+  const lines = [...analysisFlags().values()].map(({ spec, ops }) => `  --${spec.flag}${spec.type === 'boolean' ? '' : ' N'}`.padEnd(30) + ` ${spec.help} (${ops.join(', ')})`);
+  return USAGE + lines.join('\n');
+}
+
+async function check(argv: string[], options: CheckOptions, out: (s: string) => void, err: (s: string) => void): Promise<number> {
+  const setup = parseCheckSetup(argv, { booleans: ['wait'], values: QUEUE_VALUE_FLAGS });
+  if (setup === 'help') {
+    out(checkHelp());
+    return 0;
+  }
+  const { args, str, outputs } = setup;
+  if (args.positionals.length === 0) throw new ParameterError('expected at least one file or folder (usage: reelwright check PATH… [--report report.html] [--json report.json] [--csv report.csv])');
+  if (args.flags.has('queue')) return (await import('./queue/enqueue.ts')).enqueueCheck(setup, out, err);
+  for (const f of [...QUEUE_VALUE_FLAGS, 'wait']) if (args.flags.has(f)) throw new ParameterError(`--${f} needs --queue URL (the job queue to use)`);
+
+  const jobsText = str('jobs');
+  const jobs = jobsText === undefined ? Math.max(1, os.availableParallelism?.() ?? os.cpus().length) : Number(jobsText);
+  if (!Number.isInteger(jobs) || jobs < 1 || jobs > 256) throw new ParameterError(`--jobs ${jobsText}: expected a whole number from 1 to 256`);
+  const resume = args.flags.get('resume') === true;
+  if (resume && !outputs.json) throw new ParameterError('--resume needs --json FILE: the earlier report to take unchanged files from');
+
   const files = collectAudioFiles(args.positionals);
   if (files.length === 0) {
     err(`reelwright check: no audio files (${[...AUDIO_EXTENSIONS].join(' ')}) found in ${args.positionals.join(', ')}`);
     return 2;
   }
+  if (outputs.writeManifest) outsideManifest(outputs.writeManifest, args.positionals, outputs);
 
-  const previous = resume && jsonPath ? loadPrevious(jsonPath, err) : new Map<string, FileEntry>();
+  const previous = resume && outputs.json ? loadPrevious(outputs.json, err) : new Map<string, FileEntry>();
   const t0 = Date.now();
   const progress = new Progress('check', args.flags.get('quiet') === true);
   const sizes = files.map((f) => fileSize(f));
@@ -144,7 +215,7 @@ async function check(argv: string[], options: CheckOptions, out: (s: string) => 
     progress.update(b / totalBytes, `(${done}/${files.length} files${failed ? `, ${failed} failed` : ''})`);
   };
 
-  const jobsList: CheckJob[] = files.map((p) => ({ path: p, params, previousMd5: previous.get(p)?.file.audioMd5 }));
+  const jobsList: CheckJob[] = files.map((p) => ({ path: p, params: setup.params, previousMd5: previous.get(p)?.file.audioMd5 }));
   const results = await runJobs(jobsList, Math.min(jobs, files.length), options.opener, (i, f) => {
     fractions[i] = f;
     tick();
@@ -156,11 +227,52 @@ async function check(argv: string[], options: CheckOptions, out: (s: string) => 
   });
   progress.done();
 
-  const entries: FileEntry[] = results.map((r, i) => {
-    let e: FileEntry;
-    if (r.kind === 'unchanged') e = { ...previous.get(files[i]!)!, file: r.file, resumed: true };
-    else e = r.entry;
-    const j = judge(e, thresholds);
+  const entries: FileEntry[] = results.map((r, i) => (r.kind === 'unchanged' ? { ...previous.get(files[i]!)!, file: r.file, resumed: true } : r.entry));
+  return finishCheck(entries, { paths: args.positionals, thresholds: setup.thresholds, seconds: (Date.now() - t0) / 1000, outputs }, out);
+}
+
+/** Refuses (before any work) a manifest to be written where some checked file lies outside its folder. */
+export function outsideManifest(manifestFile: string, paths: readonly string[], outputs: ReportOutputs): void {
+  const payload = payloadFiles(paths, excludedFromPayload(outputs));
+  const outside = payload.find((f) => manifestRelative(manifestFile, f) === undefined);
+  if (outside) throw new ParameterError(`--write-manifest ${manifestFile}: ${outside} lies outside the manifest's folder; put the manifest in a folder that holds every checked file`);
+}
+
+function excludedFromPayload(outputs: ReportOutputs): Set<string> {
+  return new Set([outputs.json, outputs.html, outputs.csv, outputs.manifest?.path, outputs.writeManifest].filter((p): p is string => p !== undefined).map((p) => path.resolve(p)));
+}
+
+export interface FinishOptions {
+  paths: string[];
+  thresholds: Thresholds;
+  seconds: number;
+  outputs: ReportOutputs;
+  batch?: string;
+  /** Also printed: lines about the run (e.g. files still queued). */
+  notes?: string[];
+}
+
+/**
+ * The end of every check (here, queued, `report`): verifies or writes the manifest, judges each
+ * entry with the thresholds, writes the reports, prints one line per file and the summary, and
+ * returns the exit gate (1 when any file fails or a listed file is missing or changed).
+ */
+export function finishCheck(raw: FileEntry[], o: FinishOptions, out: (s: string) => void): number {
+  // A resumed entry may carry an earlier run's manifest status: only this run's counts.
+  let entries = raw.map(({ manifest: _, ...e }) => e as FileEntry);
+  let manifest: CheckReport['manifest'];
+  const shaByPath = new Map(entries.filter((e) => e.file.sha256).map((e) => [path.resolve(e.file.path), e.file.sha256!] as const));
+  if (o.outputs.manifest) {
+    const payload = payloadFiles(o.paths, excludedFromPayload(o.outputs));
+    const v = verifyManifest(o.outputs.manifest.path, o.outputs.manifest.lines, payload, (p) => shaByPath.get(p));
+    manifest = v.check;
+    entries = entries.map((e) => {
+      const st = v.status.get(path.resolve(e.file.path));
+      return st === undefined ? e : { ...e, manifest: st };
+    });
+  }
+  entries = entries.map((e) => {
+    const j = judge(e, o.thresholds);
     return { ...e, status: j.status, reasons: j.reasons };
   });
   const count = (s: string) => entries.filter((e) => e.status === s).length;
@@ -168,29 +280,59 @@ async function check(argv: string[], options: CheckOptions, out: (s: string) => 
     tool: 'reelwright check',
     version: VERSION,
     createdAt: new Date().toISOString(),
-    paths: args.positionals,
-    thresholds,
+    paths: o.paths,
+    thresholds: o.thresholds,
     summary: {
       files: entries.length,
       pass: count('pass'),
       warn: count('warn'),
       fail: count('fail'),
       resumed: entries.filter((e) => e.resumed).length,
-      seconds: (Date.now() - t0) / 1000,
+      seconds: o.seconds,
     },
+    ...(manifest ? { manifest } : {}),
+    ...(o.batch !== undefined ? { batch: o.batch } : {}),
     files: entries,
   };
-  if (jsonPath) writeAtomic(jsonPath, toJson(report) + '\n');
-  if (csvPath) writeAtomic(csvPath, reportCsv(report));
-  if (htmlPath) writeAtomic(htmlPath, reportHtml(report, suggestionCommand));
+  if (o.outputs.json) writeAtomic(o.outputs.json, toJson(report) + '\n');
+  if (o.outputs.csv) writeAtomic(o.outputs.csv, reportCsv(report));
+  if (o.outputs.html) writeAtomic(o.outputs.html, reportHtml(report, suggestionCommand));
+  let written: string | undefined;
+  if (o.outputs.writeManifest) {
+    const target = o.outputs.writeManifest;
+    const lines: ManifestLine[] = [];
+    for (const f of payloadFiles(o.paths, excludedFromPayload(o.outputs))) {
+      const rel = manifestRelative(target, f);
+      if (rel === undefined) throw new ParameterError(`--write-manifest ${target}: ${f} lies outside the manifest's folder`);
+      let sha = shaByPath.get(f);
+      if (sha === undefined) {
+        try {
+          sha = fileSha256(f);
+        } catch {
+          continue; // vanished meanwhile: not part of the payload any more
+        }
+      }
+      lines.push({ sha256: sha, relPath: rel });
+    }
+    writeAtomic(target, formatManifest(lines), true);
+    written = `wrote ${target}: ${lines.length} file${lines.length === 1 ? '' : 's'} (SHA-256)`;
+  }
 
   for (const e of entries) {
     const why = e.status === 'pass' ? '' : `  ${(e.reasons ?? []).join('; ')}`;
     out(`${e.status!.toUpperCase().padEnd(4)}  ${e.file.path}${why}`);
   }
+  for (const n of o.notes ?? []) out(n);
+  if (manifest) {
+    for (const m of manifest.missing) out(`MISSING  ${m}  (listed in ${manifest.path})`);
+    for (const c of manifest.changed) out(`CHANGED  ${c.path}  (SHA-256 ${c.actualSha256}, listed ${c.expectedSha256})`);
+    for (const x of manifest.extra) out(`EXTRA  ${x}  (not listed in ${manifest.path})`);
+  }
+  if (written) out(written);
   const s = report.summary;
-  out(`${s.files} file${s.files === 1 ? '' : 's'}: ${s.pass} pass, ${s.warn} warn, ${s.fail} fail${s.resumed ? ` (${s.resumed} unchanged since the last report)` : ''} in ${s.seconds.toFixed(1)} s`);
-  return s.fail > 0 ? 1 : 0;
+  const fixity = manifest ? `; manifest: ${manifest.verified} of ${manifest.listed} verified, ${manifest.missing.length} missing, ${manifest.changed.length} changed, ${manifest.extra.length} not listed` : '';
+  out(`${s.files} file${s.files === 1 ? '' : 's'}: ${s.pass} pass, ${s.warn} warn, ${s.fail} fail${s.resumed ? ` (${s.resumed} unchanged since the last report)` : ''}${fixity} in ${s.seconds.toFixed(1)} s`);
+  return s.fail > 0 || (manifest && (manifest.missing.length > 0 || manifest.changed.length > 0)) ? 1 : 0;
 }
 
 /** Audio files under the given paths, recursively, sorted; hidden files and AppleDouble "._" files skipped. */
@@ -273,11 +415,15 @@ function loadPrevious(jsonPath: string, err: (s: string) => void): Map<string, F
   return m;
 }
 
-function writeAtomic(target: string, text: string): void {
+function writeAtomic(target: string, text: string, noReplace = false): void {
   const tmp = path.join(path.dirname(target), `.${path.basename(target)}.${process.pid}.tmp`);
   try {
     fs.writeFileSync(tmp, text);
-    fs.renameSync(tmp, target);
+    if (noReplace) {
+      // A hard link fails when the target exists (no check-then-rename race).
+      fs.linkSync(tmp, target);
+      fs.rmSync(tmp);
+    } else fs.renameSync(tmp, target);
   } catch (e) {
     try {
       fs.rmSync(tmp, { force: true });
@@ -308,11 +454,10 @@ async function runJobs(
     return results;
   }
   let next = 0;
-  const entryUrl = new URL('./worker-entry.mjs', import.meta.url);
   await new Promise<void>((resolve) => {
     let running = 0;
     const start = () => {
-      const w = new Worker(entryUrl);
+      const w = newCheckThread();
       let current = -1;
       let finished = false;
       const take = () => {

@@ -57,6 +57,7 @@ export function reportHtml(report: CheckReport, commandFor: CommandFor): string 
       (s.resumed ? ` · ${s.resumed} taken over unchanged from the previous report` : '') +
       ` · ${report.tool} ${esc(report.version)}</div>`,
   );
+  if (report.manifest) parts.push(manifestSection(report));
   parts.push(overview(report));
   report.files.forEach((e, i) => parts.push(fileSection(e, i, commandFor)));
   parts.push(thresholdTable(report), '</body></html>');
@@ -176,6 +177,20 @@ function envelopePlot(e: FileEntry): string | undefined {
   const series = [{ label: 'loudest 1 ms', x: t, y: m ?? r, color: '#8a7fb8' }, { label: 'RMS', x: t, y: r }];
   const floor = Math.max(-100, Math.min(...r.filter(Number.isFinite)) - 6);
   return lineChartSvg({ ...SMALL, title: 'Level envelope', xLabel: 'Time (s)', yLabel: 'dBFS', yRange: [floor, 0], series });
+}
+
+function manifestSection(report: CheckReport): string {
+  const m = report.manifest!;
+  const ok = m.missing.length === 0 && m.changed.length === 0;
+  const list = (title: string, items: string[]) =>
+    items.length ? `<h3>${esc(title)} (${items.length})</h3><ul class="findings">${items.map((i) => `<li>${esc(i)}</li>`).join('')}</ul>` : '';
+  return (
+    `<h3>Fixity</h3><p class="${ok ? 'meta' : 'error'}">Manifest ${esc(m.path)} (SHA-256): ${m.listed} listed, ${m.verified} verified, ` +
+    `${m.missing.length} missing, ${m.changed.length} changed, ${m.extra.length} not listed.</p>` +
+    list('Missing: listed but not found', m.missing) +
+    list('Changed: another checksum', m.changed.map((c) => `${c.path} — listed ${c.expectedSha256}, found ${c.actualSha256}`)) +
+    list('Not listed in the manifest', m.extra)
+  );
 }
 
 function thresholdTable(report: CheckReport): string {

@@ -4,6 +4,7 @@
  */
 import type { FileEntry } from './check-file.ts';
 import { METRICS, type Thresholds } from './thresholds.ts';
+import type { ManifestCheck } from './fixity.ts';
 
 export interface CheckReport {
   tool: 'reelwright check';
@@ -13,6 +14,10 @@ export interface CheckReport {
   paths: string[];
   thresholds: Thresholds;
   summary: { files: number; pass: number; warn: number; fail: number; resumed: number; seconds: number };
+  /** With --manifest: what the checksum manifest says (missing, changed and extra files). */
+  manifest?: ManifestCheck;
+  /** A batch checked on the job queue (`check --queue`): its name. */
+  batch?: string;
   files: FileEntry[];
 }
 
@@ -41,6 +46,8 @@ export const COLUMNS: Column[] = [
   { header: 'sampleFormat', get: (e) => e.file.sampleFormat },
   { header: 'durationSeconds', get: (e) => round(e.file.durationSeconds, 3) },
   { header: 'audioMd5', get: (e) => e.file.audioMd5 },
+  { header: 'sha256', get: (e) => e.file.sha256 },
+  { header: 'manifest', get: (e) => (typeof e.manifest === 'string' ? e.manifest : undefined) },
   { header: 'nonFiniteSamples', get: (e) => (e.error === undefined ? num(e.nonFiniteSamples) ?? 0 : undefined) },
   { header: 'loudnessLufs', get: (e) => round(num(obj(e.levels)?.loudnessLufs), 2) },
   { header: 'truePeakDbtp', get: (e) => round(num(obj(e.levels)?.truePeakDbtp), 2) },

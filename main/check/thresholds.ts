@@ -28,6 +28,8 @@ interface Metric {
   label: string;
   unit: string;
   digits: number;
+  /** A yes/no metric (1 or 0): a crossed rule's reason is the label alone. */
+  flag?: boolean;
   /** The value, or undefined when the analysis did not run / does not apply. */
   get(s: Sections): number | undefined;
 }
@@ -43,6 +45,14 @@ const arr = (v: unknown): unknown[] | undefined => (Array.isArray(v) ? v : undef
 export const METRICS: Record<string, Metric> = {
   'file.unreadable': { label: 'unreadable file', unit: '', digits: 0, get: (s) => (s.error !== undefined ? 1 : 0) },
   'file.nonFiniteSamples': { label: 'NaN or infinite samples', unit: '', digits: 0, get: (s) => (s.error !== undefined ? undefined : numOf(s.nonFiniteSamples) ?? 0) },
+  'fixity.manifestChanged': {
+    label: 'SHA-256 differs from the manifest', unit: '', digits: 0, flag: true,
+    get: (s) => (s.manifest === undefined ? undefined : s.manifest === 'changed' ? 1 : 0),
+  },
+  'fixity.notInManifest': {
+    label: 'not listed in the manifest', unit: '', digits: 0, flag: true,
+    get: (s) => (s.manifest === undefined ? undefined : s.manifest === 'unlisted' ? 1 : 0),
+  },
   'file.sampleRateHz': { label: 'sample rate', unit: 'Hz', digits: 0, get: (s) => numOf(obj(s.file)?.sampleRateHz) },
   'file.bitsPerSample': { label: 'word length', unit: 'bits', digits: 0, get: (s) => numOf(obj(s.file)?.bitsPerSample) },
   'levels.clippedRuns': {
@@ -91,8 +101,10 @@ export const METRICS: Record<string, Metric> = {
     label: 'inter-channel delay', unit: 'µs', digits: 1,
     get: (s) => {
       const a = obj(s.azimuth);
-      const d = numOf(a?.delaySeconds), c = numOf(a?.coherence);
-      return d === undefined || c === undefined || c < 0.5 ? undefined : Math.abs(d) * 1e6;
+      // Judged only where the delay is evidence of the head (the azimuth analysis's verdict):
+      // stereo programme's own inter-channel timing is not a transfer fault.
+      const d = numOf(a?.delaySeconds);
+      return d === undefined || a?.verdict !== 'head' ? undefined : Math.abs(d) * 1e6;
     },
   },
   'speed.absCents': {
@@ -190,7 +202,7 @@ export function judge(sections: Sections, thresholds: Thresholds): Judgement {
     const v = m?.get(sections);
     if (!m || v === undefined) continue;
     const u = m.unit ? ` ${m.unit}` : '';
-    const say = (op: string, limit: number) => `${m.label} ${fmt(v, m.digits)}${u} ${op} ${fmt(limit, m.digits)}${u}`;
+    const say = (op: string, limit: number) => (m.flag ? m.label : `${m.label} ${fmt(v, m.digits)}${u} ${op} ${fmt(limit, m.digits)}${u}`);
     if (rule.failAt !== undefined && v >= rule.failAt) fails.push(say('≥', rule.failAt));
     else if (rule.failBelow !== undefined && v < rule.failBelow) fails.push(say('<', rule.failBelow));
     else if (rule.warnAt !== undefined && v >= rule.warnAt) warns.push(say('≥', rule.warnAt));

@@ -4,7 +4,7 @@
  * and writes OUT. Contract: ARCHITECTURE.md ("Command line contract").
  */
 import path from 'node:path';
-import { writeFileSync } from 'node:fs';
+import { existsSync, writeFileSync } from 'node:fs';
 import { operations, findOperation } from '../../dsp/ops/registry.ts';
 import { parseParam, validateParams } from '../../dsp/ops/params.ts';
 import { analysisJson, diagnose, factsOf } from '../../dsp/ops/diagnose.ts';
@@ -15,18 +15,25 @@ import { writeAudio } from '../io/writer.ts';
 import type { FileInfo, OpenedAudio, WriteOptions } from '../io/types.ts';
 import { parseArgs, type FlagShape } from './args.ts';
 import { humanize, Progress, toJson } from './output.ts';
+import { interruptExitCode, interruption, whileWriting } from './interrupt.ts';
+import { InternalFailure, WarningHold } from './failures.ts';
 
 const COMMON_BOOLEANS = ['json', 'quiet', 'help'];
 const OUTPUT_FLAGS: ParamSpec[] = [
   { name: 'bits', flag: 'bits', type: 'integer', label: 'Bit depth', help: 'Output word length: 16, 24 or 32 (integer), or 32/64 with --float. Default: as the source.', min: 8, max: 64 },
   { name: 'float', flag: 'float', type: 'boolean', label: 'Float', help: 'Write IEEE float samples (32-bit unless --bits 64).' },
   { name: 'dither', flag: 'dither', type: 'boolean', label: 'Dither', help: 'TPDF dither when the output word length is shorter than the source (default on; --no-dither turns it off).', default: true },
+  { name: 'overwrite', flag: 'overwrite', type: 'boolean', label: 'Overwrite', help: 'Replace OUT if it exists (without it an existing OUT is refused, exit 2). The source is never replaced.' },
+  { name: 'rf64', flag: 'rf64', type: 'boolean', label: 'RF64', help: 'Write the RF64 container even below 4 GiB (it is chosen by itself past 4 GiB).' },
 ];
 
 type Builtin = (argv: string[]) => Promise<number>;
 const BUILTINS: Record<string, { summary: string; run: Builtin }> = {
   diagnose: { summary: 'Run every analysis that applies and list the findings in plain words.', run: runDiagnose },
   check: { summary: 'Check folders of transfers: every analysis, pass/warn/fail per file, HTML/JSON/CSV reports.', run: async (argv) => (await import('../check/index.ts')).runCheck(argv) },
+  // Many machines: `check … --queue URL --batch NAME` enqueues; these take the jobs and report.
+  worker: { summary: 'Check files queued by `check --queue` on this machine (any number of machines).', run: async (argv) => (await import('../check/queue/worker.ts')).runWorker(argv) },
+  report: { summary: 'Write the HTML/JSON/CSV reports of a queued batch (same gate as check).', run: async (argv) => (await import('../check/queue/report.ts')).runQueueReport(argv) },
 };
 
 /** Writes to stdout/stderr; replaceable in tests. */
@@ -34,6 +41,8 @@ export const io = {
   out: (s: string) => void process.stdout.write(s.endsWith('\n') ? s : s + '\n'),
   err: (s: string) => void process.stderr.write(s.endsWith('\n') ? s : s + '\n'),
 };
+/** Warnings of the command under way wait for its result, so a refusal stays one line. */
+const warnings = new WarningHold((m) => io.err(`warning: ${m}`));
 
 export async function main(argv: string[]): Promise<number> {
   const [verb, ...rest] = argv;
@@ -66,22 +75,29 @@ export async function main(argv: string[]): Promise<number> {
 function namingFile(e: unknown, filePath: string): unknown {
   if (e instanceof ParameterError && !e.message.startsWith(filePath)) return new ParameterError(`${filePath}: ${e.message}`);
   if (e instanceof NotFoundError && !e.message.startsWith(filePath)) return new NotFoundError(`${filePath}: ${e.message}`);
-  return e;
+  if (e instanceof InputError || e instanceof CancelledError || e instanceof ParameterError || e instanceof NotFoundError) return e;
+  return new InternalFailure(filePath, e);
 }
 
 /**
  * Opens FILE, runs `body` on it and always closes it and the progress line; a parameter that does
- * not fit the file, or a search that found nothing, is reported with the file's path first.
+ * not fit the file, a search that found nothing, or an internal error is reported with the file's
+ * path first.
  */
 async function usingFile<T>(filePath: string, progress: Progress, body: (file: OpenedAudio) => Promise<T>): Promise<T> {
-  const file = await openAudio(filePath);
+  warnings.hold();
+  let file: OpenedAudio | undefined;
   try {
-    return await body(file);
+    file = await openAudio(filePath);
+    const result = await body(file);
+    warnings.release();
+    return result;
   } catch (e) {
-    throw namingFile(e, file.path);
+    warnings.drop();
+    throw namingFile(e, file?.path ?? filePath);
   } finally {
     progress.done();
-    await file.close();
+    await file?.close();
   }
 }
 
@@ -96,12 +112,14 @@ export function reportError(verb: string, e: unknown): number {
     return 2;
   }
   if (e instanceof CancelledError) {
-    io.err(`reelwright ${verb}: cancelled`);
-    return 130;
+    io.err(`reelwright ${verb}: ${e.message}`);
+    return interruptExitCode() ?? 130;
   }
-  const err = e as Error;
-  const kind = e instanceof BugError ? 'internal error (please report)' : 'internal error';
-  io.err(`reelwright ${verb}: ${kind}: ${err?.message ?? String(e)}${process.env.REELWRIGHT_DEBUG ? '\n' + err?.stack : ''}`);
+  const file = e instanceof InternalFailure ? e.file : undefined;
+  const err = (e instanceof InternalFailure ? e.failure : e) as Error;
+  const kind = err instanceof BugError ? 'internal error (please report)' : 'internal error';
+  const message = (err?.message ?? String(err)).replace(/\s*\n\s*/g, ' ');
+  io.err(`reelwright ${verb}: ${file ? `${file}: ` : ''}${kind}: ${message}${process.env.REELWRIGHT_DEBUG ? '\n' + err?.stack : ''}`);
   return 3;
 }
 
@@ -126,9 +144,11 @@ function context(progress: Progress): OpContext {
   return {
     progress: (f) => progress.update(f),
     warn: (m) => {
+      if (warnings.add(m)) return;
       progress.done();
       io.err(`warning: ${m}`);
     },
+    signal: interruption,
   };
 }
 
@@ -172,6 +192,7 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
     }
     await other?.close();
     progress.done();
+    warnings.release();
     if (json) io.out(toJson(output));
     else io.out(describe(fileLine(info), findings, { ...output, file: undefined, ...(op.name === 'info' ? { chunks: info.chunks.join(' '), audioMd5: info.audioMd5 } : {}) }));
     return 0;
@@ -179,14 +200,14 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
 }
 
 /** Output format: as the source unless --bits/--float say otherwise; dither only when shortening. */
-export function outputFormat(source: OpenedAudio, flags: Map<string, string | boolean>): Pick<WriteOptions, 'bitsPerSample' | 'sampleFormat' | 'dither'> {
+export function outputFormat(source: OpenedAudio, flags: Map<string, string | boolean>): Pick<WriteOptions, 'bitsPerSample' | 'sampleFormat' | 'dither' | 'forceRf64'> {
   const p = paramsFromFlags(OUTPUT_FLAGS, flags);
   const float = p.float === true || (p.float === undefined && p.bits === undefined && source.sampleFormat === 'float');
   const bits = (p.bits as number | undefined) ?? (float ? (source.sampleFormat === 'float' ? source.bitsPerSample : 32) : source.bitsPerSample);
   if (float && bits !== 32 && bits !== 64) throw new ParameterError(`--bits ${bits}: float output is 32 or 64 bits`);
   if (!float && ![8, 16, 24, 32].includes(bits)) throw new ParameterError(`--bits ${bits}: integer output is 8, 16, 24 or 32 bits`);
   const shortening = !float && (source.sampleFormat === 'float' || bits < source.bitsPerSample);
-  return { bitsPerSample: bits as WriteOptions['bitsPerSample'], sampleFormat: float ? 'float' : 'int', dither: shortening && p.dither !== false };
+  return { bitsPerSample: bits as WriteOptions['bitsPerSample'], sampleFormat: float ? 'float' : 'int', dither: shortening && p.dither !== false, forceRf64: p.rf64 === true };
 }
 
 async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> {
@@ -200,6 +221,8 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
   if (path.resolve(inPath) === path.resolve(outPath)) {
     throw new ParameterError(`refusing to write onto the source file ${inPath}; originals are never modified — choose another OUT`);
   }
+  const overwrite = args.flags.get('overwrite') === true;
+  if (!overwrite && existsSync(outPath)) throw new ParameterError(`${outPath} already exists; nothing was written (pass --overwrite to replace it)`);
   const params = paramsFromFlags(op.params, args.flags);
   const json = args.flags.get('json') === true;
   const progress = new Progress(op.name, args.flags.get('quiet') === true);
@@ -214,14 +237,20 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
     const before = json && measure ? await measure.run(source, validateParams(measure.params, {}), silentProgress(ctx)) : undefined;
     const rendering = await op.prepare(source, params, ctx);
     const hint = rendering.framesHint ?? source.frames;
-    const written = await writeAudio(outPath, rendering, {
+    const written = await whileWriting(() => writeAudio(outPath, rendering, {
       ...format,
       copyFrom: source,
       sourcePath: source.path,
       historyText: op.history(rendering.resolved),
+      overwrite,
+      signal: interruption,
+      // FLAC carries an MD5 of its audio: a rendering that did not check it on the way (reverse,
+      // ranges) checks it before the output is kept.
+      beforeCommit: source.info.format === 'FLAC' ? () => source.audioMd5() : undefined,
       onProgress: (frames) => progress.update(frames / Math.max(1, hint)),
-    });
+    }));
     progress.done();
+    if (written.notCarried) io.err(`warning: ${source.path}: not carried into ${written.path}: ${written.notCarried.join(', ')}`);
     const result: Record<string, unknown> = { parameters: rendering.resolved, output: written };
     if (measure && json) {
       const out = await openAudio(outPath);
@@ -233,6 +262,7 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
         await out.close();
       }
     }
+    warnings.release();
     if (json) io.out(toJson({ file: source.info, [op.name]: result }));
     else io.out(`${op.title}: wrote ${written.path} (${written.frames} frames, ${(written.frames / rendering.sampleRateHz).toFixed(3)} s, ${written.container}).\n${humanize({ parameters: rendering.resolved })}`);
     return 0;
@@ -242,7 +272,9 @@ async function runCorrection(op: CorrectionOp, argv: string[]): Promise<number> 
 /** Float files may hold NaN/Inf samples; the reader counts them (read as 0) and we say so once. */
 function warnNonFinite(file: OpenedAudio): void {
   const n = file.nonFiniteSamples ?? 0;
-  if (n > 0) io.err(`warning: ${file.path}: ${n} samples are NaN or infinite and were read as 0`);
+  if (n === 0) return;
+  const m = `${file.path}: ${n} samples are NaN or infinite and were read as 0`;
+  if (!warnings.add(m)) io.err(`warning: ${m}`);
 }
 
 const silentProgress = (ctx: OpContext): OpContext => ({ ...ctx, progress: () => {} });
@@ -263,6 +295,7 @@ async function runDiagnose(argv: string[]): Promise<number> {
     warnNonFinite(file);
     const info = { ...file.info, audioMd5: await file.audioMd5() };
     progress.done();
+    warnings.release();
     if (args.flags.get('json') === true) {
       io.out(toJson({ file: info, ...result.sections, findings: result.findings, notes: result.notes }));
     } else {
@@ -356,7 +389,9 @@ function generalHelp(): string {
     'Corrections (write a new file; the source is never modified):  reelwright VERB IN OUT [options]',
     ...c.map((o) => row(o.name, o.summary)),
     '',
-    'Every verb takes --help. Exit status: 0 ok, 1 a check threshold was crossed, 2 bad usage or unreadable input.',
+    'Every verb takes --help. Exit status: 0 ok, 1 a check threshold was crossed, 2 bad usage or unreadable input',
+    '(or OUT exists without --overwrite), 3 internal error (the file is named), 130/143 interrupted by Ctrl+C/SIGTERM',
+    '(the unfinished output is removed).',
     'Caution: processed audio can be much louder than the original; lower your monitor level before listening.',
   ].join('\n');
 }

@@ -1,13 +1,15 @@
 /**
  * The main process's file table: open sources (read-only handles), exports in progress (written
- * to a temporary file beside the target and moved into place at the end) and the session paths
- * the user opened. Node only; Electron's dialogs stay in main.ts. The source is never written:
- * an export whose target resolves to an open source file is refused.
+ * to a temporary file beside the target and moved into place at the end), sessions (written the
+ * same way) and the session paths the user opened. Node only; Electron's dialogs stay in main.ts.
+ * The source is never written: an export or a session whose target is an open source file — by
+ * any spelling of its path, a symbolic link, or a hard link (same device and inode) — is refused.
  */
 import fs from 'node:fs';
 import path from 'node:path';
 import { randomBytes } from 'node:crypto';
 import type { ExportDone, ExportTarget, OpenedFile } from '../bridge/contract.ts';
+import { AUDIO_EXTENSIONS } from '../bridge/validate.ts';
 
 const id = (prefix: 'f' | 'x') => `${prefix}-${randomBytes(9).toString('hex')}`;
 
@@ -26,7 +28,40 @@ export class SourceRefusedError extends Error {
   override name = 'SourceRefusedError';
 }
 
-interface OpenSource { path: string; fh: fs.promises.FileHandle; size: number; isDemo: boolean }
+interface OpenSource { path: string; fh: fs.promises.FileHandle; size: number; isDemo: boolean; dev: number; ino: number }
+
+/**
+ * Whether the first bytes are those of a file Reelwright reads: RIFF/RF64/BW64 + WAVE,
+ * FORM + AIFF/AIFC, fLaC (after an optional ID3v2 tag).
+ */
+export function looksLikeAudio(head: Uint8Array): boolean {
+  const id = (at: number) => String.fromCharCode(...head.subarray(at, at + 4));
+  if (head.length >= 12 && ['RIFF', 'RF64', 'BW64'].includes(id(0)) && id(8) === 'WAVE') return true;
+  if (head.length >= 12 && id(0) === 'FORM' && (id(8) === 'AIFF' || id(8) === 'AIFC')) return true;
+  if (head.length >= 4 && id(0) === 'fLaC') return true;
+  if (head.length >= 10 && id(0).startsWith('ID3')) {
+    const size = ((head[6]! & 0x7f) << 21) | ((head[7]! & 0x7f) << 14) | ((head[8]! & 0x7f) << 7) | (head[9]! & 0x7f);
+    const at = 10 + size + (head[5]! & 0x10 ? 10 : 0);
+    return head.length >= at + 4 && id(at) === 'fLaC';
+  }
+  return false;
+}
+
+/** Writes `text` to `target` through a temporary file in the same folder, flushed and renamed. */
+async function writeWhole(target: string, text: string): Promise<void> {
+  const temp = path.join(path.dirname(target), `.${path.basename(target)}.${randomBytes(4).toString('hex')}.partial`);
+  const fh = await fs.promises.open(temp, 'wx');
+  try {
+    await fh.writeFile(text, 'utf8');
+    await fh.sync();
+    await fh.close();
+    await fs.promises.rename(temp, target);
+  } catch (e) {
+    await fh.close().catch(() => {});
+    await fs.promises.rm(temp, { force: true });
+    throw e;
+  }
+}
 interface OpenExport { target: string; temp: string; fh: fs.promises.FileHandle; written: number }
 
 export class FileTable {
@@ -38,9 +73,9 @@ export class FileTable {
   async open(filePath: string, isDemo = false): Promise<OpenedFile> {
     const real = canonical(filePath);
     const fh = await fs.promises.open(real, 'r');
-    const { size } = await fh.stat();
+    const { size, dev, ino } = await fh.stat();
     const handle = id('f');
-    this.#sources.set(handle, { path: real, fh, size, isDemo });
+    this.#sources.set(handle, { path: real, fh, size, isDemo, dev, ino });
     return { handle, name: path.basename(real), path: real, sizeBytes: size, isDemo };
   }
 
@@ -70,12 +105,31 @@ export class FileTable {
     return s.path;
   }
 
-  /** Throws SourceRefusedError when `target` is any open source recording. */
+  /**
+   * Throws SourceRefusedError when `target` is any open source recording: the same canonical
+   * path, or (when it exists) the same device and inode, which catches hard links.
+   */
   refuseSources(target: string): void {
     const t = canonical(target);
-    for (const s of this.#sources.values()) {
-      if (s.path === t) throw new SourceRefusedError(`${path.basename(t)} is the source recording: originals are never overwritten; choose another name`);
+    let st: fs.Stats | undefined;
+    try {
+      st = fs.statSync(t);
+    } catch {
+      // Does not exist yet: only the path can match.
     }
+    for (const s of this.#sources.values()) {
+      if (s.path === t || (st && st.dev === s.dev && st.ino === s.ino)) {
+        throw new SourceRefusedError(`${path.basename(t)} is the source recording: originals are never overwritten; choose another name`);
+      }
+    }
+  }
+
+  /** Saves a session file: never onto an open source, and through a temporary file renamed into place. */
+  async writeSession(target: string, text: string): Promise<{ name: string; path: string }> {
+    this.refuseSources(target);
+    const real = canonical(target);
+    await writeWhole(real, text);
+    return { name: path.basename(real), path: real };
   }
 
   async beginExport(target: string): Promise<ExportTarget> {
@@ -129,5 +183,31 @@ export class FileTable {
 
   isSessionSource(p: string): boolean {
     return this.sessionPaths.has(canonical(p));
+  }
+
+  /**
+   * Why the recording a session names cannot be opened without the user choosing it (null when
+   * it can, after the user confirms): it must be a regular file with an audio extension whose
+   * first bytes are a WAV, AIFF or FLAC header.
+   */
+  async sessionSourceProblem(p: string): Promise<string | null> {
+    if (!path.isAbsolute(p)) return 'the session names a relative path';
+    if (!(AUDIO_EXTENSIONS as readonly string[]).includes(path.extname(p).toLowerCase())) {
+      return `${path.basename(p)} does not have an audio file's extension (${AUDIO_EXTENSIONS.join(', ')})`;
+    }
+    let fh: fs.promises.FileHandle | undefined;
+    try {
+      const st = await fs.promises.stat(p);
+      if (!st.isFile()) return `${path.basename(p)} is not a regular file`;
+      fh = await fs.promises.open(p, 'r');
+      const head = new Uint8Array(4096);
+      const { bytesRead } = await fh.read(head, 0, head.length, 0);
+      if (!looksLikeAudio(head.subarray(0, bytesRead))) return `${path.basename(p)} is not a WAV, AIFF or FLAC file`;
+      return null;
+    } catch (e) {
+      return `${path.basename(p)} cannot be read (${(e as { code?: string }).code ?? (e as Error).message})`;
+    } finally {
+      await fh?.close();
+    }
   }
 }

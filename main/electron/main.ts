@@ -10,21 +10,41 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
 import type { Bridge, BridgeCall } from '../bridge/contract.ts';
+import { SECURITY_HEADERS } from '../bridge/security.ts';
 import { AUDIO_EXTENSIONS, bridgeCalls, channelOf, isTrustedSenderUrl, validateCall } from '../bridge/validate.ts';
 import { FileTable } from './files.ts';
+import { launchKind, launchPath } from './launch.ts';
 
 const root = path.resolve(__dirname, '../../..');
 const pageDir = path.join(root, 'renderer/dist');
 const demoDir = path.join(root, 'assets/demo');
 const SCHEME = 'reelwright';
 const HOST = 'editor';
-const CSP = "default-src 'none'; script-src 'self'; worker-src 'self'; style-src 'self'; img-src 'self' data: blob:; connect-src 'self'; font-src 'self'; media-src 'self' blob:; base-uri 'none'; form-action 'none'; object-src 'none'; frame-ancestors 'none'";
 const trusted = [{ protocol: `${SCHEME}:`, host: HOST }];
 
 protocol.registerSchemesAsPrivileged([{ scheme: SCHEME, privileges: { standard: true, secure: true, supportFetchAPI: true } }]);
 
 const files = new FileTable();
 let win: BrowserWindow | null = null;
+/** The file the app was started with (argument, or macOS open-file), handed to the page once. */
+let launchFile: string | null = launchPath(process.argv, app.isPackaged);
+
+// macOS opens associated files by event, before or after the app is ready. While running, the
+// editor is reloaded on the new file only if the user agrees (unsaved corrections are lost).
+app.on('open-file', (e, p) => {
+  e.preventDefault();
+  if (!launchKind(p)) return;
+  if (!win) { launchFile = p; return; }
+  void dialog.showMessageBox(win, { type: 'question', buttons: ['Open', 'Cancel'], defaultId: 0, cancelId: 1, message: `Open ${path.basename(p)}?`, detail: 'Corrections not saved in a session are lost.' })
+    .then((r) => { if (r.response === 0 && win) { launchFile = p; win.webContents.reload(); } });
+});
+
+async function readSession(p: string): Promise<{ name: string; path: string; text: string }> {
+  if ((await fs.promises.stat(p)).size > 8 * 1024 * 1024) throw new Error('that file is too large to be a session');
+  const text = await fs.promises.readFile(p, 'utf8');
+  files.allowSessionSource(text);
+  return { name: path.basename(p), path: p, text };
+}
 
 /** The bridge's main-process side (the preload forwards each call here). */
 type Handlers = { [K in BridgeCall]: (...args: Parameters<Bridge[K]>) => ReturnType<Bridge[K]> | Promise<Uint8Array> };
@@ -39,7 +59,21 @@ const handlers: Handlers = {
     return r.canceled || !r.filePaths[0] ? null : files.open(r.filePaths[0]);
   },
   async reopenSource(p, name) {
-    if (p && files.isSessionSource(p) && fs.existsSync(p)) return files.open(p);
+    // A session file can name any path: open it only if it is an audio file and the user agrees.
+    const problem = p && files.isSessionSource(p) ? await files.sessionSourceProblem(p) : 'not named by a session the user opened';
+    if (p && problem === null) {
+      const answer = await dialog.showMessageBox(win!, {
+        type: 'question',
+        title: 'Open the session\'s recording',
+        message: `This session was made on ${path.basename(p)}. Open it?`,
+        detail: p,
+        buttons: ['Open', 'Choose another file…', 'Cancel'],
+        defaultId: 0,
+        cancelId: 2,
+      });
+      if (answer.response === 0) return files.open(p);
+      if (answer.response === 2) return null;
+    }
     const r = await dialog.showOpenDialog(win!, { title: `Find ${name}`, properties: ['openFile'], filters: [{ name: 'Audio', extensions: AUDIO_EXTENSIONS.map((e) => e.slice(1)) }] });
     return r.canceled || !r.filePaths[0] ? null : files.open(r.filePaths[0]);
   },
@@ -55,20 +89,21 @@ const handlers: Handlers = {
   finishExport: (handle) => files.finish(handle),
   abortExport: (handle) => files.abort(handle),
   async saveSession(text, suggestedName) {
-    const r = await dialog.showSaveDialog(win!, { title: 'Save the session', defaultPath: suggestedName, filters: [{ name: 'Reelwright session', extensions: ['json'] }] });
+    const r = await dialog.showSaveDialog(win!, { title: 'Save the session', defaultPath: suggestedName, filters: [{ name: 'Reelwright session', extensions: ['rwsession'] }] });
     if (r.canceled || !r.filePath) return null;
-    files.refuseSources(r.filePath);
-    await fs.promises.writeFile(r.filePath, text, 'utf8');
-    return { name: path.basename(r.filePath), path: r.filePath };
+    return files.writeSession(r.filePath, text);
   },
   async openSession() {
-    const r = await dialog.showOpenDialog(win!, { title: 'Open a session', properties: ['openFile'], filters: [{ name: 'Reelwright session', extensions: ['json'] }] });
+    const r = await dialog.showOpenDialog(win!, { title: 'Open a session', properties: ['openFile'], filters: [{ name: 'Reelwright session', extensions: ['rwsession', 'json'] }] });
     if (r.canceled || !r.filePaths[0]) return null;
-    const p = r.filePaths[0];
-    if ((await fs.promises.stat(p)).size > 8 * 1024 * 1024) throw new Error('that file is too large to be a session');
-    const text = await fs.promises.readFile(p, 'utf8');
-    files.allowSessionSource(text);
-    return { name: path.basename(p), path: p, text };
+    return readSession(r.filePaths[0]);
+  },
+  async launched() {
+    const p = launchFile;
+    launchFile = null;
+    const kind = p ? launchKind(p) : null;
+    if (!p || !kind) return null;
+    return kind === 'audio' ? { kind, file: await files.open(p) } : { kind, session: await readSession(p) };
   },
 };
 
@@ -105,13 +140,17 @@ app.whenReady().then(() => {
   });
   protocol.handle(SCHEME, async (req) => {
     const u = new URL(req.url);
-    const rel = decodeURIComponent(u.pathname === '/' ? '/index.html' : u.pathname);
+    let rel: string;
+    try {
+      rel = decodeURIComponent(u.pathname === '/' ? '/index.html' : u.pathname);
+    } catch {
+      return new Response('bad request', { status: 400 });
+    }
     const file = path.resolve(pageDir, '.' + rel);
     if (u.host !== HOST || !file.startsWith(pageDir + path.sep) || !fs.existsSync(file)) return new Response('not found', { status: 404 });
     const res = await net.fetch(pathToFileURL(file).href);
     const headers = new Headers(res.headers);
-    headers.set('Content-Security-Policy', CSP);
-    headers.set('X-Content-Type-Options', 'nosniff');
+    for (const [name, value] of Object.entries(SECURITY_HEADERS)) headers.set(name, value);
     return new Response(res.body, { status: res.status, headers });
   });
   win = new BrowserWindow({

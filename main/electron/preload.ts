@@ -26,6 +26,7 @@ const bridge: Bridge = {
   abortExport: call('abortExport'),
   saveSession: call('saveSession'),
   openSession: call('openSession'),
+  launched: call('launched'),
 };
 
 contextBridge.exposeInMainWorld('reelwright', bridge);

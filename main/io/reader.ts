@@ -10,10 +10,11 @@ import { countNonFinite, decodeSamples } from '../../dsp/formats/codec.ts';
 import { parseAudioLayout } from '../../dsp/formats/layout.ts';
 import type { AudioLayout } from '../../dsp/formats/types.ts';
 import type { BextInfo } from '../../dsp/formats/bext.ts';
-import { DEFAULT_BLOCK_FRAMES, resolveRange, type Block, type BlockOptions } from '../../dsp/source.ts';
+import { defaultBlockFrames, resolveRange, type Block, type BlockOptions } from '../../dsp/source.ts';
 import { FileBytes } from './file-bytes.ts';
 import { openFlac } from './flac.ts';
 import { fileInfoFor } from './info.ts';
+import { breathe } from './yield.ts';
 import type { ChunkRecord, FileInfo, OpenedAudio, SampleFormat } from './types.ts';
 
 /** Bytes per read for whole-file passes (MD5, validation). */
@@ -68,7 +69,7 @@ class PcmFileAudio implements OpenedAudio {
 
   async *blocks(options: BlockOptions = {}): AsyncIterable<Block> {
     const [start, end] = resolveRange(this, options);
-    const size = Math.max(1, Math.floor(options.blockFrames ?? DEFAULT_BLOCK_FRAMES));
+    const size = Math.max(1, Math.floor(options.blockFrames ?? defaultBlockFrames(this.channelCount)));
     const { blockAlign, dataOffset, encoding } = this.layout;
     const channels = this.channelCount;
     const buf = new Uint8Array(Math.min(size, Math.max(1, end - start)) * blockAlign);
@@ -94,9 +95,13 @@ class PcmFileAudio implements OpenedAudio {
         const block = readBlock(Math.max(start, hi - size), hi);
         for (const ch of block) ch.reverse();
         yield block;
+        await breathe();
       }
     } else {
-      for (let lo = start; lo < end; lo += size) yield readBlock(lo, Math.min(end, lo + size));
+      for (let lo = start; lo < end; lo += size) {
+        yield readBlock(lo, Math.min(end, lo + size));
+        await breathe();
+      }
     }
     if (start === 0 && end === this.frames) this.nonFiniteSamples = bad;
   }

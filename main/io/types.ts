@@ -76,7 +76,17 @@ export interface WriteOptions {
   historyText?: string;
   /** The source path: writing onto it is refused. */
   sourcePath?: string;
-  /** Force the RF64 container (tests); otherwise chosen automatically past 4 GiB. */
+  /** Replace an existing file at the output path (never the source). Default: refuse it. */
+  overwrite?: boolean;
+  /**
+   * Runs after the last block, before the finished file is moved into place; if it throws, nothing
+   * is written (e.g. the source's own checksum is verified when the rendering did not read it in
+   * one forward pass).
+   */
+  beforeCommit?: () => Promise<unknown>;
+  /** Stops the write (the temporary file is removed, CancelledError is thrown): Ctrl+C, SIGTERM. */
+  signal?: { readonly aborted: boolean };
+  /** Force the RF64 container (`--rf64`); otherwise chosen automatically past 4 GiB. */
   forceRf64?: boolean;
   /** Seeded random source for dither (tests); default Math.random. */
   rng?: () => number;
@@ -88,4 +98,6 @@ export interface WriteResult {
   frames: number;
   bytes: number;
   container: 'RIFF' | 'RF64';
+  /** Metadata of a FLAC/AIFF source that the output does not carry (block or chunk ids), when any. */
+  notCarried?: string[];
 }

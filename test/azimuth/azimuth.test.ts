@@ -8,7 +8,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { MemorySource, collectBlocks } from '../../dsp/source.ts';
-import { azimuth, type AzimuthResult } from '../../dsp/ops/azimuth.ts';
+import { azimuth, headLimitSeconds, type AzimuthResult } from '../../dsp/ops/azimuth.ts';
 import { align } from '../../dsp/ops/align.ts';
 import { silentContext } from '../../dsp/ops/types.ts';
 import { validateParams } from '../../dsp/ops/params.ts';
@@ -187,5 +187,60 @@ describe('azimuth: angle and mono null', () => {
     const r = await measure(ch, { tapeSpeedIps: 7.5, trackSpacingMm: 4.1 });
     expect(Math.abs(r.azimuthArcMinutes! - 6)).toBeLessThan(0.1);
     expect(Math.abs(r.monoNullHz! - 13298)).toBeLessThan(200);
+  });
+});
+
+describe('azimuth: what the delay is evidence of', () => {
+  const facts = { sampleRateHz: FS, channelCount: 2, frames: 1 << 18 };
+
+  it('calls one delay at every frequency between two tracks of the same programme a head error', async () => {
+    // Source: Δt = d·tan θ / v is the same at every frequency (McKnight, "Azimuth in a Magnetic Tape
+    // Recorder", REFERENCES.md §3): 33 µs, both halves of the band agree.
+    const r = await measure(programme(33e-6, 31, 1 << 18));
+    expect(r.verdict).toBe('head');
+    expect(Math.abs(r.bandDelaysSeconds[0] - r.bandDelaysSeconds[1])).toBeLessThan(0.5e-6);
+    const f = azimuth.findings!(r, facts);
+    expect(f[0]!.sentence).toMatch(/head azimuth error/);
+    expect(f[0]!.suggestion?.op).toBe('align');
+  });
+
+  it('does not call milliseconds of delay, or a delay that changes with frequency, head azimuth', async () => {
+    // Common practice: spaced microphones give milliseconds; no head makes 2.4 ms.
+    const far = await measure(programme(2.4e-3, 32, 1 << 18));
+    expect(far.verdict).toBe('programme');
+    const ff = azimuth.findings!(far, facts);
+    expect(ff.some((x) => /azimuth error/.test(x.sentence) || x.suggestion)).toBe(false);
+    expect(ff[0]!.title).toMatch(/Channels differ \(2\.40 ms/);
+    // Stereo programme: low frequencies 40 µs apart, high frequencies 5 µs (two sources placed
+    // differently). Built exactly in the frequency domain by splitting at 2 kHz.
+    const lo = programme(40e-6, 33, 1 << 18), hi = programme(5e-6, 34, 1 << 18);
+    const plan = new FftPlan(1 << 18);
+    const split = (x: Float64Array, keepLow: boolean) => {
+      const s = plan.createHalfSpectrum();
+      plan.realForward(x, s);
+      for (let k = 0; k < s.length / 2; k++) {
+        const f = (k * FS) / (1 << 18);
+        if ((f < 2000) !== keepLow) s[2 * k] = s[2 * k + 1] = 0;
+      }
+      const out = new Float64Array(1 << 18);
+      plan.realInverse(s, out);
+      return out;
+    };
+    const mix = [0, 1].map((c) => {
+      const a = split(lo[c]!, true), b = split(hi[c]!, false);
+      return a.map((v, i) => v + b[i]!);
+    });
+    const stereo = await measure(mix);
+    expect(stereo.verdict).toBe('programme');
+    expect(azimuth.findings!(stereo, facts).some((x) => x.suggestion)).toBe(false);
+  });
+
+  it('bounds a head delay by the tape format when it is given', async () => {
+    // Source: Δt = d·tan θ / v with θ = 2°: 4.1 mm at 15 ips (381 mm/s) → 376 µs; a 600 µs delay is
+    // then no head's, though within the 1 ms allowed when the format is unknown.
+    expect(headLimitSeconds(15, 4.1)).toBeCloseTo((4.1 * Math.tan((2 * Math.PI) / 180)) / 381, 12);
+    const x = programme(600e-6, 35, 1 << 18);
+    expect((await measure(x)).verdict).toBe('head');
+    expect((await measure(x, { tapeSpeedIps: 15, trackSpacingMm: 4.1 })).verdict).toBe('programme');
   });
 });

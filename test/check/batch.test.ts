@@ -25,7 +25,7 @@ async function writeWav(file: string, channels: Float64Array[], sampleRateHz = F
   async function* blocks() {
     for (let i = 0; i < n; i += 65536) yield channels.map((c) => c.slice(i, i + 65536));
   }
-  await writeAudio(file, { sampleRateHz, channelCount: channels.length, blocks: blocks() }, { bitsPerSample: bits, sampleFormat: 'int', dither: false });
+  await writeAudio(file, { sampleRateHz, channelCount: channels.length, blocks: blocks() }, { bitsPerSample: bits, sampleFormat: 'int', dither: false, overwrite: true });
 }
 
 /** Shaped noise "programme" (−3 dB/octave), channel 2 delayed by `delaySeconds` exactly (DFT shift theorem). */

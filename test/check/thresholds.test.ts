@@ -103,7 +103,7 @@ describe('check reports', () => {
   const good = entry();
   const bad = entry({
     file: { ...entry().file, path: '/archive/reel "7", side B.wav' },
-    azimuth: { delaySeconds: 40e-6, coherence: 0.95, monoNullHz: 12500, azimuthArcMinutes: null },
+    azimuth: { delaySeconds: 40e-6, coherence: 0.95, monoNullHz: 12500, azimuthArcMinutes: null, verdict: 'head' },
     findings: [
       { op: 'azimuth', title: 'Channel 2 lags channel 1 by 40.0 µs', sentence: 'Channel 2 lags channel 1 by 40.0 µs <really>.', severity: 'warn', suggestion: { op: 'align', params: { delaySeconds: 40e-6 } } },
     ],

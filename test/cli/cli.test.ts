@@ -141,7 +141,7 @@ describe('corrections never touch the source', () => {
 });
 
 describe('the installed bin', () => {
-  it('runs through the tsx loader with exit 2 on bad usage', () => {
+  it('runs the built command line (build/cli) with exit 2 on bad usage', () => {
     // Source: the command-line contract (exit 2 = bad usage).
     const ok = spawnSync(process.execPath, [path.join(root, 'bin/reelwright.mjs'), '--help'], { encoding: 'utf8' });
     expect(ok.status).toBe(0);

@@ -925,8 +925,10 @@ def impaired_recipes(clean: list) -> list:
         d = az[i % len(az)] * (1 if i % 3 else -1)
         R.append({'id': f'azimuth-{i:02d}-{base}', 'set': 'impaired', 'split': 'dev', 'kind': by_id[base]['kind'], 'cleanId': base,
                   'sampleRateHz': by_id[base]['sampleRateHz'], 'channels': 2, 'bits': by_id[base]['bits'], 'tags': by_id[base]['tags'],
-                  'steps': [{'type': 'twoTracks'}, {'type': 'channelDelay', 'delaySeconds': d}],
-                  'description': f'mono programme on two tracks, channel 2 delayed {d * 1e6:.2f} us', 'fast': i == 0})
+                  'steps': [{'type': 'twoTracks'}, {'type': 'channelDelay', 'delaySeconds': d}]
+                  + ([{'type': 'noise', 'levelDbfs': -62.0, 'seed': 500 + i}] if i % 2 else []),
+                  'description': f'mono programme on two tracks, channel 2 delayed {d * 1e6:.2f} us'
+                  + (', hiss on each track' if i % 2 else ''), 'fast': i == 0})
     # Dropouts: exact zeros inside programme, and level dips.
     for i, base in enumerate(voice + music[::3] + drums[:2]):
         c = by_id[base]

@@ -88,17 +88,17 @@ export interface Corpus {
 const ROOT = path.resolve(import.meta.dirname, '../..');
 const SCRIPT = path.join(ROOT, 'test/corpus/build_corpus.py');
 
-/** Files the build reads, and the Debian package that provides each. */
-const NEEDS: readonly (readonly [string, string])[] = [
-  ['/usr/bin/fluidsynth', 'fluidsynth'],
-  ['/usr/share/sounds/sf2/FluidR3_GM.sf2', 'fluid-soundfont-gm'],
-  ['/usr/share/sounds/sf2/TimGM6mb.sf2', 'timgm6mb-soundfont'],
-  ['/usr/share/hydrogen/data/drumkits/ColomboAcousticDrumkit', 'hydrogen-drumkits'],
-  ['/usr/bin/flac', 'flac'],
-  ['/usr/bin/text2wave', 'festival'],
-  ['/usr/share/festival/voices/english/kal_diphone', 'festvox-kallpc16k'],
-  ['/usr/share/festival/voices/english/ked_diphone', 'festvox-kdlpc16k'],
-  ['/usr/share/asterisk/sounds/en_US_f_Allison', 'asterisk-core-sounds-en-wav'],
+/** Files the build reads, the Debian package that provides each, and whether the quick slice needs it. */
+const NEEDS: readonly (readonly [string, string, boolean])[] = [
+  ['/usr/bin/fluidsynth', 'fluidsynth', true],
+  ['/usr/share/sounds/sf2/FluidR3_GM.sf2', 'fluid-soundfont-gm', true],
+  ['/usr/share/sounds/sf2/TimGM6mb.sf2', 'timgm6mb-soundfont', false],
+  ['/usr/share/hydrogen/data/drumkits/ColomboAcousticDrumkit', 'hydrogen-drumkits', true],
+  ['/usr/bin/flac', 'flac', true],
+  ['/usr/bin/text2wave', 'festival', true],
+  ['/usr/share/festival/voices/english/kal_diphone', 'festvox-kallpc16k', true],
+  ['/usr/share/festival/voices/english/ked_diphone', 'festvox-kdlpc16k', false],
+  ['/usr/share/asterisk/sounds/en_US_f_Allison', 'asterisk-core-sounds-en-wav', false],
 ];
 
 export function corpusDir(fast: boolean): string {
@@ -107,8 +107,8 @@ export function corpusDir(fast: boolean): string {
 }
 
 /** Installs the Debian packages the corpus is rendered from (root), or throws one line. */
-export function ensureCorpusPrograms(): void {
-  const missing = [...new Set(NEEDS.filter(([f]) => !fs.existsSync(f)).map(([, p]) => p))];
+export function ensureCorpusPrograms(fast = false): void {
+  const missing = [...new Set(NEEDS.filter(([f, , quick]) => (quick || !fast) && !fs.existsSync(f)).map(([, p]) => p))];
   if (missing.length) aptInstall(missing, 'the real-material corpus');
   if (spawnSync('python3', ['-c', 'import numpy, scipy'], { stdio: 'ignore' }).status !== 0) {
     throw new Error('the real-material corpus needs python3 with numpy and scipy (Debian: apt-get install -y python3-numpy python3-scipy)');
@@ -127,7 +127,7 @@ export async function loadCorpus(options: { fast?: boolean; quiet?: boolean; job
   const read = () => JSON.parse(fs.readFileSync(manifestPath, 'utf8')) as { recipeHash: string; packages: Corpus['packages']; clips: CorpusClip[] };
   let manifest = fs.existsSync(manifestPath) ? read() : undefined;
   if (!manifest || manifest.recipeHash !== recipeHash(fast)) {
-    ensureCorpusPrograms();
+    ensureCorpusPrograms(fast);
     fs.mkdirSync(dir, { recursive: true });
     execFileSync('python3', [SCRIPT, '--out', dir, ...(fast ? ['--fast'] : []), '--jobs', String(options.jobs ?? 2)], {
       stdio: ['ignore', options.quiet ? 'ignore' : 'inherit', 'inherit'],

@@ -1,7 +1,7 @@
 /**
  * Test recordings for the browser tests (not the demo): a short stereo voice-like signal with a
  * 1 kHz tone at the head, 60 Hz hum and one reflection, and a 1-hour 96 kHz stereo file written
- * in pieces for the performance check.
+ * in pieces for the long-recording test and the editor bench.
  */
 import fs from 'node:fs';
 import { seededRng } from '../helpers/rng.ts';

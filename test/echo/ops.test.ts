@@ -130,6 +130,25 @@ describe('unecho with the echo given by hand', () => {
   });
 });
 
+describe('unecho, measuring first', () => {
+  it('with a reflection and a print-through after the loud passages, cancels both, the reflection first, and says so', async () => {
+    // Source: y = (x + 0.4·x(t − 23.4 ms)) + 10^(−40/20)·(the same)(t − 1.5 s): a reflection, then
+    // print-through of the recorded signal one reel-turn later, each made by the DFT shift theorem.
+    // The corrections issue's case: before, the copy's kernel replaced the reflection's (both are
+    // post-echoes) and the reflection was left. The cascade of the two inverses is exact here.
+    const { x: v } = voiceLike({ sampleRateHz: fs, seconds: 12, seed: 21 });
+    const r1 = addEchoes(v, [{ delaySamples: 0.0234 * fs, gain: 0.4 }]);
+    const y = addEchoes(r1, [{ delaySamples: 1.5 * fs, gain: Math.pow(10, -40 / 20) }]);
+    const r = await unecho.prepare(new MemorySource([y], fs), {}, silentContext);
+    expect(String(r.resolved.cancelled)).toMatch(/^reflection 23\.4\d* ms, gain 0\.4\d*; print-through 1\.5\d* s after, -40\.\d dB$/);
+    expect(r.resolved.delaySeconds as number).toBeCloseTo(0.0234, 6);
+    expect(r.resolved.secondDelaySeconds as number).toBeCloseTo(1.5, 4);
+    const [out] = await collectBlocks(r.blocks, 1);
+    expect(residualRatioDb(out!, y, v)).toBeLessThanOrEqual(-30);
+    expect(unecho.history(r.resolved)).toMatch(/^reelwright unecho delay=0\.0234\d*s gain=0\.4\d* then delay=1\.5\d*s gain=0\.0(09|10)\d*$/);
+  }, 60_000);
+});
+
 describe('unecho: bad input', () => {
   const src = new MemorySource([x], fs);
   const prep = (p: Record<string, unknown>) => unecho.prepare(src, validateParams(unecho.params, p as never), silentContext);

@@ -7,7 +7,7 @@ const bad = (call: string, args: unknown[], msg: RegExp) => expect(() => validat
 
 describe('bridge argument validation', () => {
   it('has a validator for every call of the Bridge interface', () => {
-    expect(bridgeCalls.sort()).toEqual(['abortExport', 'beginExport', 'closeFile', 'finishExport', 'openDemo', 'openSession',
+    expect(bridgeCalls.sort()).toEqual(['abortExport', 'beginExport', 'closeFile', 'finishExport', 'launched', 'openDemo', 'openSession',
       'pickAudioFile', 'readBytes', 'reopenSource', 'saveSession', 'writeExport'].sort());
     expect(Object.keys(validators)).not.toContain('mode');
   });
@@ -45,7 +45,7 @@ describe('bridge argument validation', () => {
     for (const name of ['../x.wav', 'a/b.wav', 'a\\b.wav', 'C:x.wav', '.hidden.wav', ' x.wav', 'x.txt', '', 'a\nb.wav', 'x'.repeat(201) + '.wav']) {
       expect(() => validateCall('beginExport', [name, 'f-1']), name).toThrow(BridgeArgumentError);
     }
-    bad('saveSession', ['{}', 'session.wav'], /must end with .json/);
+    bad('saveSession', ['{}', 'session.wav'], /must end with \.rwsession or \.json/);
   });
 
   it('trusts only the editor page as sender', () => {

@@ -161,7 +161,7 @@ function correctionReport(cases: CorrectionCase[], results: Map<string, Correcti
     const keys = [...new Set(ok.flatMap((x) => Object.keys(x.r.metrics)))];
     const metrics = Object.fromEntries(keys.map((k) => [k, summarise(ok.map((x) => x.r.metrics[k]!).filter(Number.isFinite))]));
     const meets = (m: Record<string, number>) =>
-      cs[0]!.measure === 'echo' ? m.reductionDb! <= -30 && m.bandDeviationDb! <= 0.5 : m.maxPercent! <= 0.02;
+      cs[0]!.measure === 'echo' ? m.reductionDb! <= -30 && m.bandDeviationDb! <= 0.5 && m.reflectionFirst !== 0 : m.maxPercent! <= 0.02;
     const badness = (m: Record<string, number>) => (cs[0]!.measure === 'echo' ? m.reductionDb! : m.maxPercent!);
     const sorted = [...ok].sort((a, b) => badness(b.r.metrics) - badness(a.r.metrics));
     return {

@@ -68,6 +68,8 @@ async function correct(t: CorrectTask): Promise<CorrectionResult> {
       metrics.reductionDb = echoReductionDb(input, output, reference);
       metrics.bandDeviationDb = bandDeviationDb(output, reference, rate, 50, Math.min(16000, 0.45 * rate));
       metrics.inputBandDeviationDb = bandDeviationDb(input, reference, rate, 50, Math.min(16000, 0.45 * rate));
+      // 1 when what unecho names first (the strongest echo it cancelled) is a reflection.
+      metrics.reflectionFirst = /^reflection /.test(String(rendering.resolved.cancelled ?? '')) ? 1 : 0;
     } else {
       const track = offsetTrack(output, reference, rate);
       const res = residualSpeedPercent(track);

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { spawnSync } from 'node:child_process';
+import { PYTHON3, ensureTool } from '../setup/system-tools.ts';
 import {
   countNonFinite,
   decodeSamples,
@@ -178,7 +179,7 @@ describe('80-bit extended float (AIFF sample rate)', () => {
       '  f=io.BytesIO(); aifc._write_float(f, r); out.append(f.getvalue().hex())',
       'print(json.dumps(out))',
     ].join('\n');
-    const r = spawnSync('python3', ['-W', 'ignore', '-c', code], { encoding: 'utf8' });
+    const r = spawnSync(ensureTool(PYTHON3), ['-W', 'ignore', '-c', code], { encoding: 'utf8' });
     expect(r.status, r.stderr).toBe(0);
     const want = JSON.parse(r.stdout) as string[];
     rates.forEach((rate, i) => {

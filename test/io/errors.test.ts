@@ -189,7 +189,7 @@ describe('the writer leaves nothing behind on failure', () => {
       yield [new Float64Array(1000), new Float64Array(1000)];
       throw new Error('processing stopped by the user');
     }
-    await expect(writeAudio(out, { sampleRateHz: 48000, channelCount: 2, blocks: failing() }, opts)).rejects.toThrow('processing stopped by the user');
+    await expect(writeAudio(out, { sampleRateHz: 48000, channelCount: 2, blocks: failing() }, { ...opts, overwrite: true })).rejects.toThrow('processing stopped by the user');
     expect(fs.readFileSync(out, 'utf8')).toBe('previous take');
     expect(tempLeftovers(dir)).toEqual([]);
     const fresh = path.join(dir, 'never.wav');

@@ -1,7 +1,7 @@
 /**
  * Programs the tests need that npm cannot install (Debian packages): Chromium for the browser
- * tests, redis-server for the queue tests, fluidsynth and the recorded sample sets for the
- * real-material corpus. `npm test` must pass on a fresh machine by itself, so a missing program is
+ * tests, python3 for checks against Python's standard library, redis-server for the queue tests,
+ * fluidsynth and the recorded sample sets for the real-material corpus. `npm test` must pass on a fresh machine by itself, so a missing program is
  * installed through apt when the tests run as root (as CI does); otherwise the run stops at once
  * with one line naming the package to install. A missing program never skips a test.
  */
@@ -30,6 +30,25 @@ export const REDIS: SystemTool = {
   files: ['/usr/bin/redis-server'],
 };
 
+export const PYTHON3: SystemTool = {
+  purpose: 'the tests that compare with Python\'s standard library',
+  packages: ['python3'],
+  files: ['/usr/bin/python3'],
+};
+
+export const OPENSSL: SystemTool = {
+  purpose: 'the job-queue TLS test',
+  packages: ['openssl'],
+  files: ['/usr/bin/openssl'],
+};
+
+/** The reference FLAC encoder/decoder (Xiph.Org libFLAC command-line tool, Debian package flac). */
+export const FLAC_TOOL: SystemTool = {
+  purpose: 'the FLAC reference checks',
+  packages: ['flac'],
+  files: ['/usr/bin/flac'],
+};
+
 const firstExisting = (files: readonly string[]) => files.find((f) => fs.existsSync(f));
 
 const isRoot = () => typeof process.getuid === 'function' && process.getuid() === 0;
@@ -43,11 +62,13 @@ export function aptInstall(packages: readonly string[], purpose: string): void {
   const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
   process.stderr.write(`installing ${packages.join(' ')} for ${purpose} (apt-get)…\n`);
   try {
+    // Test files run in parallel: a second apt-get waits for the first one's lock instead of failing.
+    const wait = ['-o', 'DPkg::Lock::Timeout=600'];
     if (!aptUpdated) {
-      execFileSync('apt-get', ['update', '-qq'], { stdio: ['ignore', 'ignore', 'inherit'], env });
+      execFileSync('apt-get', [...wait, 'update', '-qq'], { stdio: ['ignore', 'ignore', 'inherit'], env });
       aptUpdated = true;
     }
-    execFileSync('apt-get', ['install', '-y', '-qq', '--no-install-recommends', ...packages], { stdio: ['ignore', 'ignore', 'inherit'], env });
+    execFileSync('apt-get', [...wait, 'install', '-y', '-qq', '--no-install-recommends', ...packages], { stdio: ['ignore', 'ignore', 'inherit'], env });
   } catch {
     throw new Error(`${hint} (apt-get failed)`);
   }

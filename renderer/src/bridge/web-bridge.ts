@@ -120,12 +120,15 @@ export function createWebBridge(): WebBridge {
       exports.delete(handle);
     },
     async saveSession(text, suggestedName) {
-      const name = fileName('saveSession', suggestedName, ['.json']);
+      const name = fileName('saveSession', suggestedName, ['.rwsession', '.json']);
       download(new Blob([text], { type: 'application/json' }), name);
       return { name, path: null };
     },
+    async launched() {
+      return null;
+    },
     async openSession() {
-      const f = await pick('.json,application/json');
+      const f = await pick('.rwsession,.json,application/json');
       return f ? { name: f.name, path: null, text: await f.text() } : null;
     },
   };

@@ -183,6 +183,16 @@ export class Editor {
     this.note(`${what}: ${err instanceof Error ? err.message : String(err)}`, 'error');
   };
 
+  /** At start: the recording or session the app was started with, else (unless told not to) the demo. */
+  openAtStart = async (demo: boolean) => {
+    try {
+      const l = await this.bridge.launched();
+      if (l?.kind === 'audio') return await this.open(l.file);
+      if (l?.kind === 'session') return await this.resumeSession(parseSession(l.session.text));
+    } catch (e) { this.#fail('Opening the file the app was started with')(e); return; }
+    if (demo) await this.openDemo();
+  };
+
   openDemo = async () => {
     try {
       const f = await this.bridge.openDemo();
@@ -373,7 +383,7 @@ export class Editor {
     if (!this.checksum) { this.note('The checksum is still being computed; try again in a moment.', 'warn'); return; }
     const text = sessionText({ name: this.file.name, path: this.file.path, sizeBytes: this.file.sizeBytes, audioMd5: this.checksum }, this.steps.steps, this.markers.list);
     try {
-      const saved = await this.bridge.saveSession(text, this.file.name.replace(/\.[^.]+$/, '') + '.session.json');
+      const saved = await this.bridge.saveSession(text, this.file.name.replace(/\.[^.]+$/, '') + '.rwsession');
       if (saved) this.note(`Session saved as ${saved.name}.`);
     } catch (e) { this.#fail('Saving the session')(e); }
   };

@@ -82,7 +82,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       const handle = job.file.handle;
       layout = await readLayout((o, l) => readBytes(handle, o, l), job.file.sizeBytes, job.file.name);
       if (layout.container === 'FLAC' || layout.blockAlign === 0) {
-        throw new InputError('the editor opens WAV, BWF, RF64 and AIFF; convert FLAC first (reelwright varispeed IN OUT --factor 1 writes a WAV)', job.file.name);
+        throw new InputError('the editor opens WAV, BWF, RF64 and AIFF; convert FLAC first with `reelwright convert IN.flac OUT.wav` (bit-exact, tags kept)', job.file.name);
       }
       original = new FileSource((o, l) => readBytes(handle, o, l), layout);
       const result: JobResults['open'] = { layout, codingHistory: layout.bext?.codingHistory ?? '', chunkIds: layout.chunks.map((c) => c.id), markers: await fileMarkers(layout, (o, l) => readBytes(handle, o, l), job.file.name) };

@@ -1,8 +1,8 @@
 /** Azimuth (inter-channel delay) and reversed channels. */
 import type { Judgement, Scorer } from '../types.ts';
 
-/** Largest delay a head can make (common practice: cassette at 0.5°, 0.9 mm spacing, 4.76 cm/s ≈ 165 µs; kept generous). */
-const HEAD_LIMIT_SECONDS = 500e-6;
+/** Largest delay a head can make when the format is not given (common practice: about 2° on quarter-track tape at 1⅞ ips). */
+const HEAD_LIMIT_SECONDS = 1e-3;
 
 export const azimuthScorer: Scorer = {
   name: 'azimuth',
@@ -23,7 +23,8 @@ export const azimuthScorer: Scorer = {
     if (t !== null && measured !== null) {
       const err = Math.abs(measured - t);
       j.errors = { microseconds: err * 1e6 };
-      j.found = err <= Math.max(0.5e-6, 0.02 * Math.abs(t));
+      // Measured right, and recognised as a head's delay (not set aside as stereo programme).
+      j.found = err <= Math.max(0.5e-6, 0.02 * Math.abs(t)) && (a.verdict === undefined || a.verdict === 'head');
       j.withinBar = j.found;
     } else if (t !== null) j.found = false;
     // A claimed azimuth error with a delay no head makes is always false.

@@ -46,7 +46,7 @@ export const printThroughScorer: Scorer = {
       present: t !== null,
       inBar: t !== null && t.levelDb >= -40.5,
       claimed,
-      note: `${claimed ? 'claims' : 'none'}: ${p.delaySeconds ?? '–'} s at ${p.levelDb ?? '–'} dB, confidence ${p.confidence}` + (t ? `; truth ${t.delaySeconds} s at ${t.levelDb} dB` : ''),
+      note: `${claimed ? 'claims' : p.present === null ? 'not determined' : 'none'}: ${p.delaySeconds ?? '–'} s at ${p.levelDb ?? '–'} dB, confidence ${p.confidence}` + (t ? `; truth ${t.delaySeconds} s at ${t.levelDb} dB` : ''),
       claimSize: claimed && typeof p.levelDb === 'number' ? p.levelDb : undefined,
     };
     if (claimed && (typeof p.levelDb !== 'number' || typeof p.delaySeconds !== 'number')) {

@@ -1,0 +1,285 @@
+/**
+ * Is a cepstral peak at τ a reflection, or the programme's own structure? A reflection delays the
+ * whole programme by one τ whatever is played: every frame carries the same ripple. A pitch
+ * period changes with the note, and a repeated note, hit or bar puts a copy at τ only where it
+ * repeats. Averaged over the file, either can give a peak at τ as sharp as an echo's; frame by
+ * frame they differ. This module looks at the frames one by one (common practice in cepstral
+ * pitch analysis: Noll 1967, "Cepstrum pitch determination", JASA 41(2); the echo's rahmonic
+ * signs from the series of log(1 + z), Oppenheim & Schafer, DTSP, ch. 13).
+ *
+ *  - Pitch lock. A frame is locked to τ when its own periodicity explains a peak at τ: with the
+ *    echo's cepstrum (at the measured gain) taken out, its strongest cepstral peak over the pitch
+ *    range (1–40 ms) sits at τ, τ/k or k·τ (k = 2…8). (Without taking it out, a peak at τ counts
+ *    only with a positive second rahmonic at 2τ: a periodic source has one, an echo's is −g²/2.)
+ *    Locked frames hold no evidence for or against a reflection at τ: their harmonics sample the
+ *    ripple only at its crests. The refinement leaves them out (refine.ts, `accept`), and when
+ *    nearly all frames are locked the reflection is not determined.
+ *  - Spread. Over the unlocked frames that carry programme (within 40 dB of the loudest), the
+ *    median of the frame's cepstrum at τ must reach a fair share of the echo expected there
+ *    (ĝ times the window's overlap with itself shifted by τ): an echo is in every frame, a repeat in
+ *    a few (the mean follows those few, the median does not).
+ *  - For long delays (τ ≥ 40 ms) also pairs of short frames τ apart: with a reflection the later
+ *    frame holds g times the earlier one, so the regression of one on the other (at the phase of
+ *    the fractional delay) reads g in most pairs; a bar or riff repeats only some of its sounds,
+ *    and those whole (the median reads about 0, or far more than the cepstrum's g).
+ */
+import { nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
+import { makeWindow } from '../core/windows.ts';
+import type { AudioSource } from '../source.ts';
+import { echoCepstrumInto } from './fit.ts';
+import { mixBlock } from './mix.ts';
+
+/**
+ * Detrended cepstrum value at quefrency q: with `signed` ±1 the extreme of that sign over ±w
+ * (w = 2 % of q unless given), with 0 the value at q itself; the mean of the flanks w + 3 … w + 12
+ * away is removed.
+ */
+function peakAt(c: Float64Array, q: number, signed: 1 | -1 | 0, halfWidth?: number): number {
+  const n = c.length;
+  const q0 = Math.round(q);
+  const w = halfWidth ?? Math.max(1, Math.round(0.02 * q));
+  if (q0 + w + 12 >= n / 2) return 0;
+  // The cepstrum of a real log spectrum is even: c(−p) = c(p).
+  const at = (p: number) => c[Math.abs(p)]!;
+  let base = 0, cnt = 0;
+  for (let d = w + 3; d <= w + 12; d++) {
+    base += at(q0 - d) + at(q0 + d);
+    cnt += 2;
+  }
+  base /= cnt;
+  if (signed === 0) return at(q0) - base;
+  let best = -Infinity;
+  for (let p = q0 - w; p <= q0 + w; p++) best = Math.max(best, signed * (at(p) - base));
+  return signed * best;
+}
+
+/** Threshold (natural-log power cepstrum units) for a frame's own pitch peak. */
+const PITCH_PEAK = 0.1;
+
+/**
+ * Whether a frame's cepstrum `c` (length N, of the log power spectrum) shows a periodicity that
+ * puts a peak at `tau` by itself (see the module comment). `fs` sets the pitch range.
+ */
+export function pitchLocked(c: Float64Array, tau: number, fs: number, echoRemoved = false): boolean {
+  return pitchLock(c, tau, fs, echoRemoved) !== null;
+}
+
+/** As pitchLocked, saying how: the frame's pitch period in samples and k (τ = k·P, or P = k·τ as −k), or null. */
+export function pitchLock(c: Float64Array, tau: number, fs: number, echoRemoved = false): { periodSamples: number; k: number } | null {
+  const n2 = c.length / 2;
+  const lo = Math.max(8, Math.floor(0.001 * fs)), hi = Math.min(Math.floor(0.04 * fs), n2 - 20);
+  if (hi <= lo) return null;
+  // The frame's pitch: the strongest detrended peak over the range (with a short local baseline).
+  let best = -Infinity, bestQ = -1;
+  for (let q = lo; q <= hi; q++) {
+    const v = c[q]! - 0.125 * (c[q - 6]! + c[q - 5]! + c[q - 4]! + c[q - 3]! + c[q + 3]! + c[q + 4]! + c[q + 5]! + c[q + 6]!);
+    if (v > best) {
+      best = v;
+      bestQ = q;
+    }
+  }
+  if (bestQ < 0) return null;
+  const strength = peakAt(c, bestQ, 1);
+  if (!(strength > PITCH_PEAK)) return null;
+  const near = (a: number, b: number) => Math.abs(a - b) <= Math.max(1.5, 0.02 * b);
+  if (near(bestQ, tau)) {
+    // With the echo's own cepstrum taken out (echoRemoved), a peak left at τ is the source's.
+    if (echoRemoved) return { periodSamples: bestQ, k: 1 };
+    // Otherwise: a source periodic at τ has a positive rahmonic at 2τ, an echo −g²/2.
+    if (2 * tau + 20 >= n2) return { periodSamples: bestQ, k: 1 };
+    // Within a sample of 2τ: a maximum over a wider span would be biased upwards by the noise.
+    const second = peakAt(c, 2 * tau, 1, 1);
+    const first = peakAt(c, tau, 0);
+    // The echo's own second rahmonic is −g²/2, so second + first²/2 ≈ 0 for an echo alone; a
+    // note's is positive and comparable to its first (about half of it on sustained bass notes).
+    if (second + 0.5 * first * first > Math.max(0.06, 0.25 * Math.abs(first))) return { periodSamples: bestQ, k: 1 };
+  }
+  for (let k = 2; k <= 8; k++) {
+    if (near(bestQ, tau / k)) return { periodSamples: bestQ, k };
+    if (near(bestQ, k * tau)) return { periodSamples: bestQ, k: -k };
+  }
+  return null;
+}
+
+export interface FrameEvidence {
+  /** Frames with programme (within 40 dB of the loudest). */
+  frames: number;
+  /** Of those, frames whose own periodicity explains a peak at τ. */
+  locked: number;
+  /** Median over the unlocked frames of the frame cepstrum at τ, divided by the window's overlap at τ (≈ g for an echo). */
+  medianGain: number | null;
+  /**
+   * For τ ≥ 40 ms: median over frame pairs τ apart (the earlier frame within 30 dB of the loudest)
+   * of the later frame's regression on the earlier one, Re Σ B·conj(A) / Σ |A|² (= g for an echo,
+   * whatever the later frame holds besides); else null.
+   */
+  pairGain: number | null;
+  pairs: number;
+  /** Frame length used for the cepstral look. */
+  fftSize: number;
+}
+
+/** Σ w[n]·w[n + τ] / Σ w[n]²: how much of a frame's direct sound has its echo inside the same frame. */
+export function windowOverlap(w: Float64Array, tau: number): number {
+  const t = Math.round(tau);
+  let a = 0, b = 0;
+  for (let i = 0; i < w.length; i++) {
+    b += w[i]! * w[i]!;
+    if (i + t < w.length) a += w[i]! * w[i + t]!;
+  }
+  return b > 0 ? a / b : 0;
+}
+
+/**
+ * Frame-by-frame evidence for a reflection at `tau` samples over [start, end) of the source
+ * (see the module comment). One streaming pass over the excerpt.
+ */
+export async function frameEvidence(
+  source: AudioSource,
+  tau: number,
+  gain: number,
+  options: { channel: number; start: number; end: number; signal?: { readonly aborted: boolean } },
+): Promise<FrameEvidence> {
+  const fs = source.sampleRateHz;
+  const n = Math.max(4096, nextPowerOfTwo(Math.ceil(4 * (tau + 16))));
+  const hop = n / 2;
+  const plan = sharedPlan(n);
+  const win = makeWindow('hann', n);
+  const rho = windowOverlap(win, tau);
+  // The echo's own cepstrum in a frame (the closed form of fit.ts at the frame's effective gain
+  // ĝ·ρ), taken out before the frame's pitch is read: what is left at τ, 2τ, … is the source's.
+  const model = new Float64Array(n);
+  echoCepstrumInto(Float64Array.from({ length: n }, (_, q) => q), tau, Math.max(-0.95, Math.min(0.95, gain * rho)), n, model);
+  const cx = new Float64Array(n);
+  // Pair frames: short (≈ 40 ms, ≤ τ), so that a frame and the one τ later do not overlap.
+  const pairN = tau >= 0.04 * fs ? Math.min(nextPowerOfTwo(Math.round(0.04 * fs)) / 2, 1 << Math.floor(Math.log2(tau))) : 0;
+  const pairPlan = pairN ? sharedPlan(pairN) : null;
+  const pairWin = pairN ? makeWindow('hann', pairN) : null;
+  const ti = Math.round(tau), frac = tau - ti;
+
+  // Keep the excerpt in one buffer when it is short enough; otherwise stream with a ring of n + τ.
+  const { start, end } = options;
+  const length = end - start;
+  const keep = Math.max(n, ti + pairN) + 1;
+  let buf = new Float64Array(Math.min(length, keep + (1 << 17)));
+  let bufStart = start, bufLen = 0;
+  const values: Array<{ level: number; value: number; locked: boolean }> = [];
+  const pairVals: Array<{ level: number; rho: number }> = [];
+  const frame = new Float64Array(n), spec = new Float64Array(n + 2), logs = new Float64Array(n + 2), cep = new Float64Array(n);
+  const pf = new Float64Array(pairN), pg = new Float64Array(pairN), ps = new Float64Array(pairN + 2), pt = new Float64Array(pairN + 2);
+  let nextFrame = start, nextPair = start;
+  const analyse = () => {
+    while (nextFrame + n <= bufStart + bufLen) {
+      const o = nextFrame - bufStart;
+      let e = 0;
+      for (let i = 0; i < n; i++) {
+        const v = buf[o + i]! * win[i]!;
+        frame[i] = v;
+        e += v * v;
+      }
+      if (e > 1e-24 * n) {
+        plan.realForward(frame, spec);
+        const floor = (e / n) * 1e-20;
+        for (let k = 0; k <= n / 2; k++) {
+          logs[2 * k] = Math.log(spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + floor);
+          logs[2 * k + 1] = 0;
+        }
+        plan.realInverse(logs, cep);
+        for (let q = 0; q < n; q++) cx[q] = cep[q]! - model[q]!;
+        values.push({ level: 10 * Math.log10(e / n), value: peakAt(cep, tau, 0), locked: pitchLocked(cx, tau, fs, true) });
+      }
+      nextFrame += hop;
+    }
+    if (pairPlan && pairWin) {
+      while (nextPair + ti + pairN <= bufStart + bufLen) {
+        const a = nextPair - bufStart, b = a + ti;
+        let ea = 0, eb = 0;
+        for (let i = 0; i < pairN; i++) {
+          pf[i] = buf[a + i]! * pairWin[i]!;
+          pg[i] = buf[b + i]! * pairWin[i]!;
+          ea += pf[i]! ** 2;
+          eb += pg[i]! ** 2;
+        }
+        if (ea > 1e-24 * pairN && eb > 1e-24 * pairN) {
+          pairPlan.realForward(pf, ps);
+          pairPlan.realForward(pg, pt);
+          // Re Σ_k B_k·conj(A_k)·e^{+jω_k·frac}: the later frame holds g·A delayed by the fraction.
+          let re = 0, sa = 0, sb = 0;
+          for (let k = 0; k <= pairN / 2; k++) {
+            const ar = ps[2 * k]!, ai = ps[2 * k + 1]!, br = pt[2 * k]!, bi = pt[2 * k + 1]!;
+            const cr = br * ar + bi * ai, ci = bi * ar - br * ai;
+            const w = (2 * Math.PI * k * frac) / pairN;
+            re += cr * Math.cos(w) - ci * Math.sin(w);
+            sa += ar * ar + ai * ai;
+            sb += br * br + bi * bi;
+          }
+          pairVals.push({ level: 10 * Math.log10(ea / pairN), rho: re / sa });
+        }
+        nextPair += pairN / 2;
+      }
+    }
+  };
+  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
+    if (options.signal?.aborted) break;
+    const mono = mixBlock(block, options.channel);
+    const needFrom = Math.min(nextFrame, nextPair);
+    const drop = Math.max(0, Math.min(bufLen, needFrom - bufStart));
+    if (drop > 0) {
+      buf.copyWithin(0, drop, bufLen);
+      bufStart += drop;
+      bufLen -= drop;
+    }
+    if (bufLen + mono.length > buf.length) {
+      const bigger = new Float64Array(Math.max(2 * buf.length, bufLen + mono.length));
+      bigger.set(buf.subarray(0, bufLen));
+      buf = bigger;
+    }
+    buf.set(mono, bufLen);
+    bufLen += mono.length;
+    analyse();
+  }
+  const top = values.reduce((m, v) => Math.max(m, v.level), -Infinity);
+  const loud = values.filter((v) => v.level >= top - 40);
+  const unlocked = loud.filter((v) => !v.locked).map((v) => v.value).sort((a, b) => a - b);
+  const median = (a: number[]) => (a.length ? (a.length % 2 ? a[a.length >> 1]! : 0.5 * (a[a.length / 2 - 1]! + a[a.length / 2]!)) : null);
+  const m = median(unlocked);
+  const ptop = pairVals.reduce((mm, v) => Math.max(mm, v.level), -Infinity);
+  const pl = pairVals.filter((v) => v.level >= ptop - 30).map((v) => v.rho).sort((a, b) => a - b);
+  const pm = median(pl);
+  return {
+    frames: loud.length,
+    locked: loud.length - unlocked.length,
+    medianGain: m === null || rho <= 0 ? null : m / rho,
+    pairGain: pairN && pm !== null ? pm : null,
+    pairs: pl.length,
+    fftSize: n,
+  };
+}
+
+/**
+ * A frame filter for LogSpectrumAccumulator (`accept`): leaves out frames locked to τ (see
+ * pitchLocked), from their log power spectrum (k = 0…N/2).
+ */
+export function unlockedFrames(n: number, tau: number, fs: number): { accept(frameLog: Float64Array): boolean; seen: number; left: number } {
+  const plan = sharedPlan(n);
+  const half = new Float64Array(n + 2), cep = new Float64Array(n);
+  const state = {
+    seen: 0,
+    left: 0,
+    accept(fl: Float64Array): boolean {
+      for (let k = 0; k <= n / 2; k++) {
+        half[2 * k] = fl[k]!;
+        half[2 * k + 1] = 0;
+      }
+      plan.realInverse(half, cep);
+      state.seen++;
+      // These frames come from the signal cancelled with the current estimate: the echo is out.
+      if (pitchLocked(cep, tau, fs, true)) {
+        state.left++;
+        return false;
+      }
+      return true;
+    },
+  };
+  return state;
+}
