@@ -71,7 +71,11 @@ describe('a chain of corrections on the demo', () => {
     await echoCard.getByTitle('Move down').click();
     await expect.poll(stepOps).toEqual(['align', 'varispeed', 'unecho']);
     const carried = await echoCard.getByTestId('step-timing').first().textContent();
-    expect(carried).toMatch(/carried across Varispeed: delay 12\.0\d\d ms → 12\.4\d\d ms/);
+    const m = /carried across Varispeed: delay (12\.0\d\d) ms → (12\.[34]\d\d) ms/.exec(carried ?? '');
+    expect(m).not.toBeNull();
+    // Source: the demo's truth (assets/demo/thornbury-reel7.json): played ×1.0293, so a delay measured
+    // on the original lasts 1.0293 times as long after the speed is undone (to the 3 decimals shown).
+    expect(Math.abs(Number(m![2]) / Number(m![1]) - 1.0293)).toBeLessThan(2e-4);
     await echoCard.scrollIntoViewIfNeeded();
     await page.screenshot({ path: path.join(shots, '11-chain-carried.png') });
     await page.locator('body').press('Control+z');
