@@ -12,6 +12,7 @@ import { createHash } from 'node:crypto';
 import fs from 'node:fs';
 import path from 'node:path';
 import { ParameterError } from '../../dsp/errors.ts';
+import { walkFiles } from './walk.ts';
 
 const READ_BYTES = 4 << 20;
 
@@ -103,47 +104,7 @@ export function manifestRelative(manifestFile: string, filePath: string): string
  * count as themselves.
  */
 export function payloadFiles(paths: readonly string[], exclude: ReadonlySet<string>): string[] {
-  const found = new Set<string>();
-  const seenDirs = new Set<string>();
-  const walk = (dir: string) => {
-    let real: string;
-    try {
-      real = fs.realpathSync(dir);
-    } catch {
-      return;
-    }
-    if (seenDirs.has(real)) return;
-    seenDirs.add(real);
-    let names: fs.Dirent[];
-    try {
-      names = fs.readdirSync(dir, { withFileTypes: true });
-    } catch {
-      return;
-    }
-    for (const d of names) {
-      if (d.name.startsWith('.')) continue;
-      const p = path.join(dir, d.name);
-      let st: fs.Stats;
-      try {
-        st = fs.statSync(p);
-      } catch {
-        continue;
-      }
-      if (st.isDirectory()) walk(p);
-      else if (st.isFile()) found.add(path.resolve(p));
-    }
-  };
-  for (const p of paths) {
-    let st: fs.Stats;
-    try {
-      st = fs.statSync(p);
-    } catch {
-      continue;
-    }
-    if (st.isDirectory()) walk(p);
-    else if (st.isFile()) found.add(path.resolve(p));
-  }
-  return [...found].filter((f) => !exclude.has(f)).sort();
+  return [...walkFiles(paths, { absolute: true })].filter((f) => !exclude.has(f)).sort();
 }
 
 /** The manifest part of a report (`manifest` beside `summary`). */

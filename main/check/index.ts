@@ -22,6 +22,7 @@ import type { FromWorker, ToWorker } from './worker.ts';
 import { defaultThresholds, judge, mergeThresholds, type Thresholds } from './thresholds.ts';
 import { reportCsv, type CheckReport } from './report.ts';
 import { reportHtml } from './report-html.ts';
+import { walkFiles } from './walk.ts';
 import { checkManifestName, fileSha256, formatManifest, manifestRelative, parseManifest, payloadFiles, verifyManifest, type ManifestLine } from './fixity.ts';
 import { newCheckThread } from './thread.ts';
 
@@ -337,48 +338,16 @@ export function finishCheck(raw: FileEntry[], o: FinishOptions, out: (s: string)
 
 /** Audio files under the given paths, recursively, sorted; hidden files and AppleDouble "._" files skipped. */
 export function collectAudioFiles(paths: readonly string[]): string[] {
-  const found = new Set<string>();
-  const seenDirs = new Set<string>();
-  const walk = (dir: string) => {
-    let real: string;
-    try {
-      real = fs.realpathSync(dir);
-    } catch {
-      return;
-    }
-    if (seenDirs.has(real)) return;
-    seenDirs.add(real);
-    let names: fs.Dirent[];
-    try {
-      names = fs.readdirSync(dir, { withFileTypes: true });
-    } catch {
-      return;
-    }
-    for (const d of names) {
-      if (d.name.startsWith('.')) continue;
-      const p = path.join(dir, d.name);
-      let st: fs.Stats;
-      try {
-        st = fs.statSync(p);
-      } catch {
-        // A dangling link or a file we may not stat: report it if it looks like audio.
-        if (AUDIO_EXTENSIONS.has(path.extname(d.name).toLowerCase())) found.add(p);
-        continue;
-      }
-      if (st.isDirectory()) walk(p);
-      else if (st.isFile() && AUDIO_EXTENSIONS.has(path.extname(d.name).toLowerCase())) found.add(p);
-    }
-  };
-  for (const p of paths) {
-    let st: fs.Stats;
-    try {
-      st = fs.statSync(p);
-    } catch {
+  const isAudio = (name: string) => AUDIO_EXTENSIONS.has(path.extname(name).toLowerCase());
+  const found = walkFiles(paths, {
+    accept: isAudio,
+    // A dangling link or a file we may not stat: report it if it looks like audio.
+    keepUnreadable: isAudio,
+    onMissing: (p) => {
       throw new ParameterError(`${p}: no such file or folder`);
-    }
-    if (st.isDirectory()) walk(p);
-    else found.add(p); // named explicitly: checked whatever its extension
-  }
+    },
+    keepNamedSpecial: true, // named explicitly: checked whatever its extension
+  });
   // The same file named twice (a folder and a file inside it, or two spellings of a path) is checked once.
   const byReal = new Map<string, string>();
   for (const f of [...found].sort()) {
