@@ -46,6 +46,9 @@ import scipy
 import scipy.io.wavfile
 import scipy.signal
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), '..', 'helpers'))
+from audio_files import vlq, write_pcm_wav  # noqa: E402
+
 CORPUS_VERSION = 2
 warnings.filterwarnings('ignore', category=scipy.io.wavfile.WavFileWarning)
 FLUID = '/usr/share/sounds/sf2/FluidR3_GM.sf2'
@@ -58,15 +61,6 @@ PACKAGES = ['fluidsynth', 'fluid-soundfont-gm', 'timgm6mb-soundfont', 'hydrogen-
 # ---------------------------------------------------------------------------------------------
 # Small pieces: MIDI files, WAV files, levels
 # ---------------------------------------------------------------------------------------------
-
-def vlq(n: int) -> bytes:
-    out = [n & 0x7F]
-    n >>= 7
-    while n:
-        out.append(0x80 | (n & 0x7F))
-        n >>= 7
-    return bytes(reversed(out))
-
 
 def write_midi(path: str, notes: list, programs: dict, pans: dict | None = None, end_seconds: float | None = None) -> None:
     """Standard MIDI file, format 0, 960 ticks per second (480 per quarter at 120 bpm).
@@ -129,15 +123,7 @@ def write_wav(path: str, rate: int, x: np.ndarray, bits: int) -> None:
     else:
         scale = 2 ** (bits - 1)
         q = np.clip(np.round(x * scale), -scale, scale - 1).astype(np.int64)
-        with wave.open(tmp, 'wb') as w:
-            w.setnchannels(x.shape[1])
-            w.setsampwidth(bits // 8)
-            w.setframerate(rate)
-            if bits == 16:
-                w.writeframes(q.astype('<i2').tobytes())
-            else:
-                b = q.astype('<i4').view(np.uint8).reshape(-1, 4)[:, :3]
-                w.writeframes(b.tobytes())
+        write_pcm_wav(tmp, q, rate, bits)
     os.replace(tmp, path)
 
 

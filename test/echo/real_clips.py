@@ -15,19 +15,13 @@ import numpy as np
 from scipy import signal
 from scipy.io import wavfile
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), '..', 'helpers'))
+from audio_files import vlq  # noqa: E402
+
 OUT = sys.argv[1]
 SF2 = '/usr/share/sounds/sf2/FluidR3_GM.sf2'
 os.makedirs(OUT, exist_ok=True)
 truth = {}
-
-
-def vlq(n):
-    b = [n & 0x7f]
-    n >>= 7
-    while n:
-        b.append(0x80 | (n & 0x7f))
-        n >>= 7
-    return bytes(reversed(b))
 
 
 def render(program, notes, rate, seconds):
