@@ -1,8 +1,14 @@
 import { defineConfig } from 'vitest/config';
 
+// `npm run test:long` (REELWRIGHT_LONG=1): tests that write gigabytes, outside `npm test`.
+const long = process.env.REELWRIGHT_LONG === '1';
+
 export default defineConfig({
   test: {
     projects: [
+      ...(long
+        ? [{ test: { name: 'long', environment: 'node', include: ['test/**/*.long-test.ts'], testTimeout: 900_000, hookTimeout: 900_000 } }]
+        : []),
       {
         test: {
           name: 'unit',
