@@ -10,7 +10,7 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { collectAudioFiles, runCheck } from '../../main/check/index.ts';
 import type { CheckReport } from '../../main/check/report.ts';
-import { writeAudio } from '../../main/io/writer.ts';
+import { writeTestWav } from '../helpers/write-wav.ts';
 import { analyses } from '../../dsp/ops/registry.ts';
 import { FftPlan } from '../../dsp/core/fft.ts';
 import { seededRng, gaussian } from '../helpers/rng.ts';
@@ -19,14 +19,7 @@ const FS = 48000;
 let dir: string;
 let outDir: string;
 
-async function writeWav(file: string, channels: Float64Array[], sampleRateHz = FS, bits: 16 | 24 = 24): Promise<void> {
-  fs.mkdirSync(path.dirname(file), { recursive: true });
-  const n = channels[0]!.length;
-  async function* blocks() {
-    for (let i = 0; i < n; i += 65536) yield channels.map((c) => c.slice(i, i + 65536));
-  }
-  await writeAudio(file, { sampleRateHz, channelCount: channels.length, blocks: blocks() }, { bitsPerSample: bits, sampleFormat: 'int', dither: false, overwrite: true });
-}
+const writeWav = (file: string, channels: Float64Array[], sampleRateHz = FS, bits: 16 | 24 = 24) => writeTestWav(file, channels, sampleRateHz, bits);
 
 /** Shaped noise "programme" (−3 dB/octave), channel 2 delayed by `delaySeconds` exactly (DFT shift theorem). */
 function programme(n: number, delaySeconds: number, rmsGain: number, seed: number): Float64Array[] {

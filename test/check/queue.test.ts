@@ -23,7 +23,7 @@ import { runWorker } from '../../main/check/queue/worker.ts';
 import { batchKeys, PREFIX, QUEUE_NAME, readResults, type FileRecord, type QueueJobData } from '../../main/check/queue/store.ts';
 import { defaultThresholds } from '../../main/check/thresholds.ts';
 import { io } from '../../main/cli/index.ts';
-import { writeAudio } from '../../main/io/writer.ts';
+import { writeTestWav } from '../helpers/write-wav.ts';
 import { gaussian, seededRng } from '../helpers/rng.ts';
 import { startRedis, type RedisServer } from '../helpers/redis.ts';
 import { ensureTool, OPENSSL } from '../setup/system-tools.ts';
@@ -45,14 +45,7 @@ const capture = { out: (s: string) => void printed.push(s), err: (s: string) => 
 const outLines: string[] = [];
 const opts = { out: (s: string) => void (printed.push(s), outLines.push(s)), err: capture.err };
 
-async function writeWav(file: string, channels: Float64Array[], sampleRateHz = FS, bits: 16 | 24 = 24): Promise<void> {
-  fs.mkdirSync(path.dirname(file), { recursive: true });
-  const n = channels[0]!.length;
-  async function* blocks() {
-    for (let i = 0; i < n; i += 65536) yield channels.map((c) => c.slice(i, i + 65536));
-  }
-  await writeAudio(file, { sampleRateHz, channelCount: channels.length, blocks: blocks() }, { bitsPerSample: bits, sampleFormat: 'int', dither: false, overwrite: true });
-}
+const writeWav = (file: string, channels: Float64Array[], sampleRateHz = FS, bits: 16 | 24 = 24) => writeTestWav(file, channels, sampleRateHz, bits);
 
 /** Small files of four kinds, so the reports differ from file to file. */
 async function take(file: string, k: number, seconds = 0.5): Promise<void> {
