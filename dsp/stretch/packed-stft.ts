@@ -18,22 +18,29 @@ export class PackedStft {
   readonly #plan: FftPlan;
   readonly #window: Float64Array;
   readonly #olaWindow: Float64Array;
+  readonly #olaWindowReal: Float64Array; // the same without the 1/N (the real inverse has it)
+  readonly #useReal: boolean;
   readonly #z: Float64Array; // packed complex frame, 2N
   readonly #zt: Float64Array; // its transform, 2N
+  /** Bins 0 … active − 1 are unpacked and synthesised; the rest are taken as 0. */
+  readonly #active: number;
 
   /**
    * @param window analysis window (N samples)
    * @param olaWindow synthesis window, with the overlap-add normalisation and 1/N folded in
    */
-  constructor(fftSize: number, channelCount: number, window: Float64Array, olaWindow: Float64Array) {
+  constructor(fftSize: number, channelCount: number, window: Float64Array, olaWindow: Float64Array, activeBins = fftSize / 2 + 1) {
     this.#plan = new FftPlan(fftSize); // rejects sizes that are not powers of two
     this.fftSize = fftSize;
     this.channelCount = channelCount;
     this.#pairs = Math.ceil(channelCount / 2);
     this.#window = window;
     this.#olaWindow = olaWindow;
+    this.#olaWindowReal = olaWindow.map((w) => w * fftSize);
+    this.#useReal = this.#plan.kernels === 'wasm-simd';
     this.#z = new Float64Array(2 * fftSize);
     this.#zt = new Float64Array(2 * fftSize);
+    this.#active = Math.min(fftSize / 2 + 1, activeBins);
   }
 
   /**
@@ -41,11 +48,22 @@ export class PackedStft {
    * into `spectra[c]`), and their power summed over channels into `power`.
    */
   analyze(input: InputRing, alpha: number, spectra: readonly Float64Array[], power: Float64Array): void {
-    const n = this.fftSize, half = n / 2, wrapN = n - 1;
-    const start = alpha - half;
+    const n = this.fftSize, half = Math.min(n / 2, this.#active - 1), wrapN = n - 1;
+    const start = alpha - n / 2;
     const z = this.#z, zt = this.#zt, w = this.#window;
     const mask = input.mask;
     const contiguous = input.contiguous(start, n);
+    if (contiguous && this.#useReal) {
+      // One real transform per channel (windowing and the split in the WebAssembly kernels).
+      const base = start & mask;
+      for (let c = 0; c < this.channelCount; c++) {
+        const x = spectra[c]!;
+        this.#plan.realForwardWindowed(input.rings[c]!, base, w, x);
+        if (c === 0) for (let k = 0; k <= half; k++) power[k] = x[2 * k]! * x[2 * k]! + x[2 * k + 1]! * x[2 * k + 1]!;
+        else for (let k = 0; k <= half; k++) power[k]! += x[2 * k]! * x[2 * k]! + x[2 * k + 1]! * x[2 * k + 1]!;
+      }
+      return;
+    }
     for (let p = 0; p < this.#pairs; p++) {
       const c0 = 2 * p, c1 = 2 * p + 1;
       const hasSecond = c1 < this.channelCount;
@@ -107,9 +125,16 @@ export class PackedStft {
     const n = this.fftSize, half = n / 2;
     const z = this.#z, zt = this.#zt;
     const w = this.#olaWindow;
+    const full = this.#active === half + 1, top = full ? half : this.#active;
+    if (!full) z.fill(0);
     const start = sigma - half;
     const mask = out.mask;
     const first = Math.max(0, out.emitted - start);
+    if (this.#useReal && first === 0 && full && (start & mask) + n <= mask + 1) {
+      const base = start & mask;
+      for (let c = 0; c < this.channelCount; c++) this.#plan.realInverseAdd(spectra[c]!, this.#olaWindowReal, out.rings[c]!, base);
+      return;
+    }
     for (let p = 0; p < this.#pairs; p++) {
       const c0 = 2 * p, c1 = 2 * p + 1;
       const hasSecond = c1 < this.channelCount;
@@ -120,9 +145,11 @@ export class PackedStft {
         const y1 = spectra[c1]!;
         z[0] = y0[0]!;
         z[1] = -y1[0]!;
-        z[n] = y0[n]!;
-        z[n + 1] = -y1[n]!;
-        for (let k = 1; k < half; k++) {
+        if (full) {
+          z[n] = y0[n]!;
+          z[n + 1] = -y1[n]!;
+        }
+        for (let k = 1; k < top; k++) {
           const ar = y0[2 * k]!, ai = y0[2 * k + 1]!, br = y1[2 * k]!, bi = y1[2 * k + 1]!;
           z[2 * k] = ar - bi;
           z[2 * k + 1] = -(ai + br);
@@ -133,9 +160,11 @@ export class PackedStft {
       } else {
         z[0] = y0[0]!;
         z[1] = 0;
-        z[n] = y0[n]!;
-        z[n + 1] = 0;
-        for (let k = 1; k < half; k++) {
+        if (full) {
+          z[n] = y0[n]!;
+          z[n + 1] = 0;
+        }
+        for (let k = 1; k < top; k++) {
           const ar = y0[2 * k]!, ai = y0[2 * k + 1]!;
           z[2 * k] = ar;
           z[2 * k + 1] = -ai;

@@ -29,6 +29,8 @@ export class PhaseLocker {
   readonly synthesisHop: number;
   readonly channelCount: number;
   readonly #bins: number;
+  /** Bins 0 … active − 1 are processed (a band-limited user needs no more). */
+  readonly #active: number;
   readonly #omega: Float64Array; // last ω̂ of each peak bin (used when the analysis hop is 0)
   /** e^{jθ} per bin (held through a transient zone). */
   readonly rotRe: Float64Array;
@@ -41,11 +43,12 @@ export class PhaseLocker {
   #stepDelta = NaN;
   readonly #peaks: Int32Array;
 
-  constructor(fftSize: number, synthesisHop: number, channelCount: number) {
+  constructor(fftSize: number, synthesisHop: number, channelCount: number, activeBins = fftSize / 2 + 1) {
     this.fftSize = fftSize;
     this.synthesisHop = synthesisHop;
     this.channelCount = channelCount;
     const bins = (this.#bins = fftSize / 2 + 1);
+    this.#active = Math.max(5, Math.min(bins, activeBins));
     this.#stepRe = new Float64Array(bins);
     this.#stepIm = new Float64Array(bins);
     this.#fracRe = new Float64Array(2 * FRACTION_STEPS + 1);
@@ -67,7 +70,7 @@ export class PhaseLocker {
    * take the analysis phase (θ = 0). DC and Nyquist stay real.
    */
   resetRising(after: Float64Array, before: Float64Array): void {
-    const bins = this.#bins;
+    const bins = this.#active;
     const rr = this.rotRe, ri = this.rotIm;
     for (let k = 0; k < bins; k++) {
       if (after[k]! > 4 * before[k]! + 1e-30) {
@@ -75,13 +78,13 @@ export class PhaseLocker {
         ri[k] = 0;
       }
     }
-    rr[0] = rr[bins - 1] = 1;
-    ri[0] = ri[bins - 1] = 0;
+    rr[0] = rr[this.#bins - 1] = 1;
+    ri[0] = ri[this.#bins - 1] = 0;
   }
 
   /** Y = X·(held rotation), per channel. */
   rotateHeld(x: readonly Float64Array[], y: readonly Float64Array[]): void {
-    const bins = this.#bins, rr = this.rotRe, ri = this.rotIm;
+    const bins = this.#active, rr = this.rotRe, ri = this.rotIm;
     for (let c = 0; c < this.channelCount; c++) {
       const xc = x[c]!, out = y[c]!;
       for (let k = 0; k < bins; k++) {
@@ -98,7 +101,7 @@ export class PhaseLocker {
    * Returns false when there is no peak (nothing written).
    */
   lock(pw: Float64Array, xw: readonly Float64Array[], xp: readonly Float64Array[], y: readonly Float64Array[], hopIn: number): boolean {
-    const bins = this.#bins, last = bins - 1;
+    const bins = this.#active, last = bins - 1, full = bins === this.#bins;
     const peaks = this.#peaks;
     let count = 0, top = 0;
     for (let k = 2; k < last - 1; k++) {
@@ -186,14 +189,20 @@ export class PhaseLocker {
       regionStart = regionEnd + 1;
     }
     // DC and Nyquist stay real (the two-channels-per-FFT packing needs real spectra there).
-    rr[0] = rr[last] = 1;
-    ri[0] = ri[last] = 0;
+    rr[0] = 1;
+    ri[0] = 0;
+    if (full) {
+      rr[last] = 1;
+      ri[last] = 0;
+    }
     for (let c = 0; c < channels; c++) {
       const x = xw[c]!, out = y[c]!;
       out[0] = x[0]!;
       out[1] = 0;
-      out[2 * last] = x[2 * last]!;
-      out[2 * last + 1] = 0;
+      if (full) {
+        out[2 * last] = x[2 * last]!;
+        out[2 * last + 1] = 0;
+      }
     }
     return true;
   }

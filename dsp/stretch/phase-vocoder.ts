@@ -31,6 +31,7 @@ import { CHUNK, InputRing, OverlapAddRing } from './rings.ts';
 import { PackedStft } from './packed-stft.ts';
 import { PhaseLocker } from './phase-lock.ts';
 import { TransientTracker } from './transients.ts';
+import { LowBand, lowBandWeight, LOW_BAND_F2_HZ } from './low-band.ts';
 
 export const MIN_RATIO = 0.25;
 export const MAX_RATIO = 4;
@@ -44,6 +45,8 @@ export interface TimeStretchOptions {
   readonly fftSize?: number;
   /** Keep onsets sharp (default true). */
   readonly transients?: boolean;
+  /** Low band with a four times longer window below 180–300 Hz (default true; off at ratio 1). */
+  readonly lowBand?: boolean;
   /**
    * If set, the spectral envelope is pre-warped so that after a resampling that multiplies every
    * frequency by this factor the envelope (formants) is back where it was.
@@ -107,6 +110,13 @@ export class TimeStretcher {
   #frame = 0; // next synthesis frame; σ = (frame − 1)·H_s
 
   readonly #envelope: SpectralEnvelope | null;
+  // Low band (longer window below the crossover) and the main band's weight 1 − m_L.
+  readonly #low: LowBand | null;
+  readonly #lowMask: Float64Array; // m_L at the main band's bins below the crossover
+  readonly #lookahead: number; // the main band waits until the map covers this far beyond σ
+  readonly #reach: number; // input read beyond α by a frame at α
+  readonly #tail: number; // frames continue until σ − tail reaches the output's end
+  readonly #alphaOf = (s: number): number => this.#map.alphaAt(s);
   readonly #onFrame: ((frame: StretchFrame) => void) | undefined;
 
   constructor(options: TimeStretchOptions) {
@@ -135,11 +145,29 @@ export class TimeStretcher {
     const commitDistance = Math.ceil((zoneHalf + hs) * slow) + 2;
     const gridSpacing = Math.max(4 * n, 2 * commitDistance);
     this.#map = new TimeMap(ratio, zoneHalf, MIN_ANCHOR_GAP);
-    this.#map.onAccept = options.onOnset;
     this.#tracker = new TransientTracker({ sampleRateHz, channelCount, commitDistance, gridSpacing, detect: options.transients !== false });
 
-    this.#input = new InputRing(channelCount, n + 2 + gridSpacing + 2 * commitDistance + 2 * zoneHalf + this.#tracker.span + CHUNK);
-    this.#output = new OverlapAddRing(channelCount, 2 * n);
+    const lowReach = ratio !== 1 ? Math.ceil(4 * (4 * n) * Math.max(1, 1 / ratio)) : 0; // the low band's look-ahead, input samples
+    this.#input = new InputRing(channelCount, n + 2 + gridSpacing + 2 * commitDistance + 2 * zoneHalf + this.#tracker.span + CHUNK + lowReach);
+    // The low band needs ratio ≠ 1 (ratio 1 is the identity) and a crossover below fs/2.
+    const low = (this.#low =
+      options.lowBand !== false && ratio !== 1 && sampleRateHz > 8 * LOW_BAND_F2_HZ
+        ? new LowBand({ sampleRateHz, channelCount, ratio, mainFftSize: n, inputSpan: this.#input.capacity })
+        : null);
+    const onOnset = options.onOnset;
+    this.#map.onAccept = low
+      ? (t0: number) => {
+          low.addOnset(t0, Math.round(ratio * t0) - t0);
+          onOnset?.(t0);
+        }
+      : onOnset;
+    this.#output = new OverlapAddRing(channelCount, low ? 2 * n + 4 * low.halfFull + 4 * low.hopFull : 2 * n);
+    this.#reach = low ? Math.max(n / 2, low.reachFull) : n / 2;
+    this.#tail = low ? Math.max(n / 2, low.halfFull + low.hopFull) : n / 2;
+    let highBins = 0;
+    while (low && highBins < bins && (highBins * sampleRateHz) / n < LOW_BAND_F2_HZ) highBins++;
+    this.#lowMask = Float64Array.from({ length: highBins }, (_, k) => lowBandWeight((k * sampleRateHz) / n));
+    this.#lookahead = low ? 2 * low.halfFull + low.decimation : 0;
 
     const perChannel = () => Array.from({ length: channelCount }, () => new Float64Array(n + 2));
     this.#xw = perChannel();
@@ -203,7 +231,8 @@ export class TimeStretcher {
   /** Oldest input sample still needed. */
   #keepFrom(): number {
     const written = this.#input.written;
-    const keep = Math.min(this.#frame > 0 ? this.#prevAlpha - this.#n / 2 : 0, this.#tracker.keepFrom());
+    let keep = Math.min(this.#frame > 0 ? this.#prevAlpha - this.#n / 2 : 0, this.#tracker.keepFrom());
+    if (this.#low) keep = Math.min(keep, this.#low.keepFrom());
     return Math.max(0, Math.min(keep, written));
   }
 
@@ -211,6 +240,7 @@ export class TimeStretcher {
     const written = this.#input.written;
     this.#tracker.run(this.#input, this.#ended);
     this.#tracker.commit(this.#map, written, this.#ended);
+    this.#low?.decimate(this.#input, this.#ended);
     this.#processFrames();
   }
 
@@ -221,17 +251,40 @@ export class TimeStretcher {
     for (;;) {
       const sigma = (this.#frame - 1) * hs;
       if (this.#ended) {
-        if (sigma - n / 2 >= this.#outputFrames) break;
-      } else if (!map.covers(sigma)) break;
+        if (sigma - this.#tail >= this.#outputFrames) break;
+      } else if (!map.covers(sigma + this.#lookahead)) break;
       map.locate(sigma);
       const alpha = map.alpha;
-      if (!this.#ended && alpha + n / 2 > this.#input.written) break; // wait for input
+      if (!this.#ended && alpha + this.#reach > this.#input.written) break; // wait for input
       this.#frameAt(sigma, alpha, map.zoneOnset);
+      const low = this.#low;
+      if (low) {
+        // Low-band frames up to this σ; the one at σ takes this frame's α and rotations.
+        while (low.nextSigma <= sigma) {
+          const at = low.nextSigma;
+          if (at === sigma) low.frame(alpha, this.#lock.rotRe, this.#lock.rotIm, n);
+          else low.frame(map.alphaAt(at), null, null, n);
+        }
+      }
       this.#frame++;
-      out.emitUpTo(sigma + hs - n / 2, this.#outputFrames);
-      map.forgetBefore(sigma - n);
+      this.#emit(sigma + hs - n / 2);
+      map.forgetBefore(low ? sigma - n - 2 * low.halfFull - low.hopFull : sigma - n);
     }
-    if (this.#ended) out.emitUpTo(this.#outputFrames, this.#outputFrames);
+    if (this.#ended) {
+      this.#low?.finish();
+      this.#emit(this.#outputFrames);
+    }
+  }
+
+  /** Hands out the output up to `upTo` (main band final there), as far as the low band is final too. */
+  #emit(upTo: number): void {
+    const out = this.#output, low = this.#low;
+    if (low) {
+      const limit = Math.min(upTo, low.finalUpTo(this.#outputFrames), this.#outputFrames);
+      if (limit <= out.emitted) return;
+      low.addTo(out, out.emitted, limit);
+      out.emitUpTo(limit, this.#outputFrames);
+    } else out.emitUpTo(upTo, this.#outputFrames);
   }
 
   /** One synthesis frame centred at output σ from the analysis frame centred at input α. */
@@ -250,6 +303,19 @@ export class TimeStretcher {
     } else if (!lock.lock(this.#power, this.#xw, this.#xwPrev, this.#y, alpha - this.#prevAlpha)) lock.rotateHeld(this.#xw, this.#y);
     if (this.#gain) this.#applyEnvelope();
     if (this.#onFrame) this.#onFrame({ outputCenter: sigma, inputCenter: alpha, spectra: this.#y, fftSize: this.#n });
+    const lm = this.#lowMask;
+    if (lm.length > 0) {
+      // The main band's weight 1 − m_L·G, G the share the low band carries here.
+      const cover = this.#low!.coverage(sigma, this.#alphaOf);
+      for (let c = 0; c < this.channelCount; c++) {
+        const out = this.#y[c]!;
+        for (let k = 0; k < lm.length; k++) {
+          const g = 1 - lm[k]! * cover;
+          out[2 * k]! *= g;
+          out[2 * k + 1]! *= g;
+        }
+      }
+    }
     this.#stft.synthesize(this.#y, this.#output, sigma);
     // This frame becomes the previous one.
     const t = this.#xwPrev;
