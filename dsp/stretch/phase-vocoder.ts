@@ -329,8 +329,9 @@ export class TimeStretcher {
   }
 
   /**
-   * Entering a transient zone: bins whose power rises by more than 6 dB from the last frame to a
-   * frame centred on the onset take the analysis phase (θ = 0); the rotation is then held.
+   * Entering a transient zone: every bin takes the analysis phase (θ = 0) except the regions of
+   * steady partials (peaks in the last frame and in a frame centred on the onset, their power
+   * within 1 dB); the rotation is then held through the zone.
    */
   #enterZone(t0: number): void {
     this.#zone = t0;
@@ -338,7 +339,7 @@ export class TimeStretcher {
       // #powerPrev is the last frame's power; the onset frame is analysed into the current buffers,
       // which the zone's first frame overwrites next.
       this.#stft.analyze(this.#input, t0, this.#xw, this.#power);
-      this.#lock.resetRising(this.#power, this.#powerPrev);
+      this.#lock.resetUnstable(this.#power, this.#powerPrev);
     } else {
       this.#lock.reset();
     }
