@@ -203,3 +203,133 @@ export function readOnsets(input: Float64Array, output: Float64Array, rateHz: nu
     };
   });
 }
+
+// ------------------------------------------------------------------------------------------------
+// Real material: the clip itself is the reference (its lines, its hits, its envelope).
+
+export interface PartialsReport {
+  /** Largest |cents| of the input's partials, found in the output at f·k. */
+  worstCents: number;
+  /** Partials compared. */
+  partials: number;
+  /** Strongest line in the output with none ≥ 10 dB louder (relative) in the input at f/k, dB re the strongest. */
+  newLineDb: number;
+  newLineHz: number;
+}
+
+/** Local maxima over ±`half` bins, as [bin, power]. */
+function peaksOf(p: Float64Array, half: number, from: number, to: number): [number, number][] {
+  const out: [number, number][] = [];
+  for (let k = Math.max(half, from); k <= Math.min(p.length - 1 - half, to); k++) {
+    const v = p[k]!;
+    let ok = v > 0;
+    for (let j = 1; ok && j <= half; j++) ok = v >= p[k - j]! && v > p[k + j]!;
+    if (ok) out.push([k, v]);
+  }
+  return out;
+}
+
+/**
+ * Partials of a steady stretch x[from, from + length) against y[yFrom, yFrom + length), every
+ * frequency × `factor` (1 for a stretch, 2^(s/12) for a transposition): the input's local maxima
+ * (over its main lobe, ±4 bins) within 50 dB of its strongest, 20 Hz … `maxHz`, at most `count`.
+ */
+export function comparePartials(x: Float64Array, y: Float64Array, rateHz: number, from: number, yFrom: number, length: number, factor: number, maxHz = 5000, count = 12): PartialsReport {
+  const a = lineSpectrum(x, rateHz, from, length), b = lineSpectrum(y, rateHz, yFrom, length);
+  const lobe = Math.round(4 * a.pad);
+  const db = (v: number) => 10 * Math.log10(v + 1e-300);
+  const inPeaks = peaksOf(a.power, lobe, Math.ceil(20 / a.binHz), Math.floor(maxHz / a.binHz));
+  const topIn = Math.max(...inPeaks.map(([, v]) => v), 1e-300);
+  const chosen = inPeaks.filter(([, v]) => db(v) >= db(topIn) - 50).sort((p, q) => q[1] - p[1]).slice(0, count).map(([k]) => k * a.binHz);
+  const expected = chosen.map((f) => f * factor);
+  const lines = chosen.length ? readLines(y, rateHz, expected, yFrom, length) : null;
+  // New lines: output maxima (over the main lobe) whose relative level beats the input's at f/k by 10 dB.
+  const outPeaks = peaksOf(b.power, lobe, Math.ceil((20 * factor) / b.binHz), Math.floor((maxHz * factor) / b.binHz));
+  const topOut = Math.max(...outPeaks.map(([, v]) => v), 1e-300);
+  let newDb = -Infinity, newHz = NaN;
+  for (const [k, v] of outPeaks) {
+    const rel = db(v) - db(topOut);
+    if (rel < -100 || rel <= newDb) continue;
+    const kin = Math.round((k * b.binHz) / factor / a.binHz);
+    let m = 0;
+    for (let j = Math.max(0, kin - 2 * lobe); j <= Math.min(a.power.length - 1, kin + 2 * lobe); j++) m = Math.max(m, a.power[j]!);
+    if (rel - (db(m) - db(topIn)) > 10) {
+      newDb = rel;
+      newHz = k * b.binHz;
+    }
+  }
+  return { worstCents: lines ? lines.worstCents : NaN, partials: chosen.length, newLineDb: newDb, newLineHz: newHz };
+}
+
+/**
+ * Hits of a drum clip: 1 ms blocks; a hit where the 2 ms RMS after a block boundary is ≥ 20 dB
+ * above the largest 2 ms RMS of the 30 ms before and within 30 dB of the clip's loudest, at least
+ * 60 ms after the last; its onset is the first sample within 10 ms reaching half the local peak.
+ * (An independent, plain detector: common practice for isolated attacks.)
+ */
+export function findHits(x: Float64Array, rateHz: number): number[] {
+  const b = Math.max(1, Math.round(0.001 * rateHz));
+  const blocks = Math.floor(x.length / b);
+  const e = new Float64Array(blocks);
+  for (let i = 0; i < blocks; i++) {
+    let s = 0;
+    for (let t = i * b; t < (i + 1) * b; t++) s += x[t]! ** 2;
+    e[i] = s / b;
+  }
+  const r2 = (i: number) => Math.sqrt(((e[i] ?? 0) + (e[i + 1] ?? 0)) / 2);
+  let loud = 0;
+  for (let i = 0; i < blocks; i++) loud = Math.max(loud, r2(i));
+  const hits: number[] = [];
+  let last = -Infinity;
+  for (let i = 30; i < blocks - 12; i++) {
+    let before = 0;
+    for (let j = i - 30; j < i - 1; j++) before = Math.max(before, r2(j));
+    const now = r2(i);
+    if (now < loud * 10 ** (-30 / 20) || now < 10 * before || i * b - last < 0.06 * rateHz) continue;
+    let peak = 0;
+    for (let t = i * b - b; t < i * b + 10 * b; t++) peak = Math.max(peak, Math.abs(x[t]!));
+    let t0 = i * b - b;
+    while (Math.abs(x[t0]!) < 0.5 * peak) t0++;
+    hits.push(t0);
+    last = t0;
+  }
+  return hits;
+}
+
+/** Third-octave long-term spectrum (dB) from 300 Hz to 3.5 kHz, Welch with 8192-point Hann frames. */
+function ltas(x: Float64Array, rateHz: number): { centreHz: number; db: number }[] {
+  const size = 8192;
+  const fft = planOf(size);
+  const w = new Float64Array(size);
+  for (let i = 0; i < size; i++) w[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / size);
+  const buf = new Array<number>(size).fill(0);
+  const out = fft.createComplexArray() as number[];
+  const p = new Float64Array(size / 2 + 1);
+  for (let s = 0; s + size <= x.length; s += size / 2) {
+    for (let i = 0; i < size; i++) buf[i] = x[s + i]! * w[i]!;
+    fft.realTransform(out, buf);
+    for (let k = 0; k <= size / 2; k++) p[k]! += out[2 * k]! ** 2 + out[2 * k + 1]! ** 2;
+  }
+  const bands: { centreHz: number; db: number }[] = [];
+  for (let bnd = -5; bnd <= 5; bnd++) {
+    const fc = 1000 * 2 ** (bnd / 3); // IEC 61260 base-2 centres, 315 Hz … 3.15 kHz
+    const k0 = Math.ceil((fc * 2 ** (-1 / 6) * size) / rateHz), k1 = Math.floor((fc * 2 ** (1 / 6) * size) / rateHz);
+    if (fc * 2 ** (1 / 6) >= rateHz / 2) continue;
+    let e = 0;
+    for (let k = k0; k <= k1; k++) e += p[k]!;
+    bands.push({ centreHz: fc, db: 10 * Math.log10(e + 1e-300) });
+  }
+  return bands;
+}
+
+/**
+ * Spectral envelope deviation of a transposed voice: third-octave long-term spectra of input and
+ * output from 315 Hz to 3.15 kHz (bands 300 Hz–3.5 kHz), their difference with its mean removed
+ * (a level change is no envelope change); the largest |deviation|, dB.
+ */
+export function envelopeDeviationDb(x: Float64Array, y: Float64Array, rateHz: number): number {
+  const a = ltas(x, rateHz), b = ltas(y, rateHz);
+  const d = a.map((band, i) => b[i]!.db - band.db);
+  const mean = d.reduce((s, v) => s + v, 0) / d.length;
+  return Math.max(...d.map((v) => Math.abs(v - mean)));
+}
