@@ -92,6 +92,7 @@ export class LowBand {
   readonly #jLow: number; // smallest jStart over the phases
   readonly #span: number; // values of v one output block reads
   readonly #win: Float64Array;
+  readonly #flatTaps: Float64Array; // D × span: phase r's taps at win positions
 
   constructor(options: LowBandOptions) {
     const fs = options.sampleRateHz, n = options.mainFftSize;
@@ -140,6 +141,11 @@ export class LowBand {
     this.#jLow = jLow;
     this.#span = jHigh - jLow + 1;
     this.#win = new Float64Array(this.#span);
+    this.#flatTaps = new Float64Array(d * this.#span);
+    for (let r = 0; r < d; r++) {
+      const tp = this.#phaseTaps[r]!, off = this.#phaseStart[r]! - jLow;
+      for (let i = 0; i < tp.length; i++) this.#flatTaps[r * this.#span + off + i] = tp[i]!;
+    }
     this.#input = new InputRing(options.channelCount, options.inputSpan / d + 2 * nl + 4 * this.hop);
     // Blackman–Harris for analysis and synthesis; at hop N/8 the overlap-add of w² is constant.
     // (Hop N/4 with a Hann²/Blackman–Harris synthesis window would halve the frames but leaves
@@ -344,10 +350,9 @@ export class LowBand {
   addTo(out: OverlapAddRing, from: number, to: number): void {
     if (to <= from) return;
     const d = this.decimation, shift = Math.log2(d), mask = this.#outMask, omask = out.mask;
-    const phaseTaps = this.#phaseTaps, phaseStart = this.#phaseStart;
-    const span = this.#span, win = this.#win;
-    // j ranges over phaseStart[r] … for every phase r; the values v[q − j] for one q are gathered
-    // once into `win` (win[i] = v[qb − jLow − i]) and shared by the D outputs of that q.
+    const span = this.#span, flat = this.#flatTaps, win = this.#win;
+    // For one q = ⌊t/D⌋ the values v[q − jLow − i], i < span, are gathered once into `win` and
+    // shared by the D outputs of that q; each phase's taps are laid out over the same span.
     const jLow = this.#jLow;
     for (let c = 0; c < this.channelCount; c++) {
       const v = this.#out[c]!, o = out.rings[c]!;
@@ -358,16 +363,15 @@ export class LowBand {
         for (let i = 0; i < span; i++) win[i] = v[(base - i) & mask]!;
         const stop = Math.min(to, (qb + 1) << shift);
         for (; t < stop; t++) {
-          const r = t & (d - 1);
-          const taps = phaseTaps[r]!, off = phaseStart[r]! - jLow;
+          const at = (t & (d - 1)) * span;
           let acc = 0;
-          for (let i = 0; i < taps.length; i++) acc += taps[i]! * win[off + i]!;
+          for (let i = 0; i < span; i++) acc += flat[at + i]! * win[i]!;
           o[t & omask]! += acc;
         }
       }
     }
     // Slots no later sample reads are cleared for the frames still to come.
-    const keep = (to >> shift) - (phaseTaps[0]!.length + 1);
+    const keep = (to >> shift) - (span + 1);
     for (let q = this.#cleared; q < keep; q++) for (let c = 0; c < this.channelCount; c++) this.#out[c]![q & mask] = 0;
     if (keep > this.#cleared) this.#cleared = keep;
   }
