@@ -32,6 +32,13 @@ export const ONSET_LOOKAHEAD_FRAMES = 2;
 const LOOKBACK_MAX = 3;
 const MEAN_FRAMES = 10;
 const HISTORY = 16; // ring of flux values; ≥ MEAN_FRAMES + LOOKAHEAD + 2
+/**
+ * Frames compared with: the largest of frames j − 2 … j − 4 (≈ 21–43 ms back at 24 kHz). Against
+ * frame j − 2 alone, a sustained note below ≈ 50 Hz (a period longer than the ≈ 21 ms frame) swings
+ * with its waveform's phase from frame to frame and reads as onsets every few frames; the maximum
+ * over more than one period of it does not swing (the same idea as the ±1 bin maximum, in time).
+ */
+const REFERENCE_FRAMES = 3;
 /** Absolute floor per bin for |X| (≈ −120 dB re a full-scale sine's peak bin). */
 const FLOOR_PER_BIN = 1e-4;
 
@@ -54,9 +61,8 @@ export class SpectralFluxOnsets {
   readonly #buf: Float64Array;
   readonly #spec: Float64Array;
   #mag: Float64Array;
-  /** Max-filtered magnitudes of the last two frames (the older one is compared with). */
-  #prevMax: Float64Array;
-  #prevMax2: Float64Array;
+  /** Max-filtered magnitudes of the last REFERENCE_FRAMES + 1 frames, newest first. */
+  #prevMax: Float64Array[];
   readonly #flux = new Float64Array(HISTORY);
   /** Frames analysed so far. */
   #count = 0;
@@ -72,8 +78,7 @@ export class SpectralFluxOnsets {
     this.#spec = new Float64Array(this.frameSize + 2);
     const bins = this.frameSize / 2 + 1;
     this.#mag = new Float64Array(bins);
-    this.#prevMax = new Float64Array(bins);
-    this.#prevMax2 = new Float64Array(bins);
+    this.#prevMax = Array.from({ length: REFERENCE_FRAMES + 1 }, () => new Float64Array(bins));
   }
 
   /** Number of frames analysed. */
@@ -96,21 +101,22 @@ export class SpectralFluxOnsets {
     this.#plan.realForward(buf, spec);
     const bins = n / 2 + 1;
     const mag = this.#mag;
-    const prev = this.#prevMax2; // frame j − 2
+    // Frames j − 2 … j − 4 (the first one does not overlap this frame).
+    const p2 = this.#prevMax[1]!, p3 = this.#prevMax[2]!, p4 = this.#prevMax[3]!;
     let rise = 0, total = 0;
     for (let k = 0; k < bins; k++) {
       const re = spec[2 * k]!, im = spec[2 * k + 1]!;
       const a = Math.sqrt(re * re + im * im);
       mag[k] = a;
-      const d = a - prev[k]!;
+      const ref = Math.max(p2[k]!, p3[k]!, p4[k]!);
+      const d = a - ref;
       if (d > 0) rise += d;
-      total += a + prev[k]!;
+      total += a + ref;
     }
     const flux = this.#count < 2 ? 0 : rise / (total + 2 * FLOOR_PER_BIN * bins);
-    // Frame j + 2 compares against this one, max-filtered over ±1 bin.
-    const older = this.#prevMax2;
-    this.#prevMax2 = this.#prevMax;
-    this.#prevMax = older;
+    // Later frames compare against this one, max-filtered over ±1 bin.
+    const older = this.#prevMax.pop()!;
+    this.#prevMax.unshift(older);
     for (let k = 0; k < bins; k++) {
       const l = k > 0 ? mag[k - 1]! : 0, r = k + 1 < bins ? mag[k + 1]! : 0;
       older[k] = Math.max(l, mag[k]!, r);

@@ -134,6 +134,29 @@ export class TimeMap {
     }
   }
 
+  /**
+   * α at output time σ on the map's segments (zones included), rounded to a sample, for other
+   * readers (the low band); any σ from the oldest kept anchor on, and `locate` is not disturbed.
+   */
+  alphaAt(sigma: number): number {
+    const s = this.#s, a = this.#a;
+    if (sigma < s[0]!) return Math.round(a[0]! + (sigma - s[0]!) / this.ratio);
+    let lo = 0, hi = s.length - 1; // last anchor with s ≤ σ
+    while (lo < hi) {
+      const mid = (lo + hi + 1) >> 1;
+      if (s[mid]! <= sigma) lo = mid;
+      else hi = mid - 1;
+    }
+    const i = lo;
+    const zone = this.#zone[i]!;
+    if (zone !== null && i + 1 < s.length) return sigma - zone.offset;
+    if (i + 1 < s.length) {
+      const s0 = s[i]!, s1 = s[i + 1]!, a0 = a[i]!, a1 = a[i + 1]!;
+      return Math.round(a0 + ((sigma - s0) * (a1 - a0)) / (s1 - s0));
+    }
+    return Math.round(a[i]! + (sigma - s[i]!) / this.ratio);
+  }
+
   /** Drops anchors wholly before σ (keeps memory bounded on long inputs). */
   forgetBefore(sigma: number): void {
     let drop = 0;

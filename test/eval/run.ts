@@ -43,8 +43,12 @@ interface CorrectionCase {
   bars: string;
   op: string;
   params: ParamValues;
-  measure: 'echo' | 'speed';
+  measure: 'echo' | 'speed' | 'partials' | 'onsets' | 'formants';
 }
+
+/** Clips with one held note (or chord) from 0.6 s to at least 3.7 s: the partials groups. */
+const heldNote = (c: CorpusClip) =>
+  c.set === 'clean' && c.kind === 'music' && c.durationSeconds >= 3.7 && /held|^organ-|^piano-low-/.test(c.id) && !/two-notes/.test(c.id);
 
 export interface CorrectionGroupReport {
   group: string;
@@ -127,6 +131,26 @@ function scoreOne(scorer: Scorer, clips: CorpusClip[], judged: Map<string, Judge
 function correctionCases(clips: readonly CorpusClip[]): CorrectionCase[] {
   const out: CorrectionCase[] = [];
   for (const clip of clips) {
+    // Stretch and transpose on clean clips: the clip is its own reference.
+    if (heldNote(clip)) {
+      const bars = 'every sustained partial within 3 cents; no new line above −80 dB re the strongest partial';
+      out.push({ clip, group: 'stretch --ratio 1.25, held notes', bars, op: 'stretch', params: { ratio: 1.25 }, measure: 'partials' });
+      for (const semitones of [-5, 5]) {
+        out.push({ clip, group: `transpose --semitones ${semitones}, held notes`, bars, op: 'transpose', params: { semitones }, measure: 'partials' });
+      }
+    }
+    if (clip.set === 'clean' && clip.kind === 'drums') {
+      out.push({ clip, group: 'stretch --ratio 1.3, drums', bars: 'onsets at R·t0 within ±3 ms; pre-echo ≤ −30 dB re the hit where the input is quiet before it',
+        op: 'stretch', params: { ratio: 1.3 }, measure: 'onsets' });
+    }
+    if (clip.set === 'clean' && clip.kind === 'voice' && !clip.tags?.includes('long')) {
+      for (const semitones of [-4, 4]) {
+        out.push({ clip, group: `transpose --semitones ${semitones} --keep-formants, voice`, bars: 'envelope within ±3 dB from 300 Hz to 3.5 kHz',
+          op: 'transpose', params: { semitones, keepFormants: true }, measure: 'formants' });
+        out.push({ clip, group: `transpose --semitones ${semitones} (formants move), voice`, bars: 'none: the envelope moving without --keep-formants, for comparison',
+          op: 'transpose', params: { semitones }, measure: 'formants' });
+      }
+    }
     if (!clip.referenceFile) continue;
     const without = clip.referenceWithout ?? [];
     const r = clip.truth.reflection;
@@ -156,13 +180,23 @@ function correctionReport(cases: CorrectionCase[], results: Map<string, Correcti
   const groups = [...new Set(cases.map((c) => c.group))];
   return groups.map((group) => {
     const cs = cases.filter((c) => c.group === group);
-    const rs = cs.map((c) => ({ c, r: results.get(`${c.clip.id} ${c.op}`)! }));
+    const rs = cs.map((c) => ({ c, r: results.get(`${c.clip.id} ${c.op} ${JSON.stringify(c.params)}`)! }));
     const ok = rs.filter((x) => x.r && !x.r.error);
     const keys = [...new Set(ok.flatMap((x) => Object.keys(x.r.metrics)))];
     const metrics = Object.fromEntries(keys.map((k) => [k, summarise(ok.map((x) => x.r.metrics[k]!).filter(Number.isFinite))]));
+    const kind = cs[0]!.measure;
     const meets = (m: Record<string, number>) =>
-      cs[0]!.measure === 'echo' ? m.reductionDb! <= -30 && m.bandDeviationDb! <= 0.5 && m.reflectionFirst !== 0 : m.maxPercent! <= 0.02;
-    const badness = (m: Record<string, number>) => (cs[0]!.measure === 'echo' ? m.reductionDb! : m.maxPercent!);
+      kind === 'echo' ? m.reductionDb! <= -30 && m.bandDeviationDb! <= 0.5 && m.reflectionFirst !== 0
+      : kind === 'partials' ? m.worstCents! <= 3 && m.newLineDb! <= -80
+      : kind === 'onsets' ? m.onsetErrorMs! <= 3 && !(m.preEchoDb! > -30)
+      : kind === 'formants' ? (/keep-formants/.test(group) ? m.envelopeDb! <= 3 : false)
+      : m.maxPercent! <= 0.02;
+    const badness = (m: Record<string, number>) =>
+      kind === 'echo' ? m.reductionDb!
+      : kind === 'partials' ? Math.max(m.worstCents! / 3, (m.newLineDb! + 80) / 10 + 1)
+      : kind === 'onsets' ? Math.max(m.onsetErrorMs! / 3, Number.isFinite(m.preEchoDb!) ? (m.preEchoDb! + 30) / 10 + 1 : 0)
+      : kind === 'formants' ? m.envelopeDb!
+      : m.maxPercent!;
     const sorted = [...ok].sort((a, b) => badness(b.r.metrics) - badness(a.r.metrics));
     return {
       group,
@@ -205,8 +239,8 @@ export async function evaluate(options: EvalOptions = {}): Promise<EvalReport> {
         tick();
       }),
       ...cases.map(async (c) => {
-        const id = `${c.clip.id} ${c.op}`;
-        const r = await pool.run({ task: 'correct', id, file: c.clip.file, referenceFile: c.clip.referenceFile!, op: c.op, params: c.params, measure: c.measure });
+        const id = `${c.clip.id} ${c.op} ${JSON.stringify(c.params)}`;
+        const r = await pool.run({ task: 'correct', id, file: c.clip.file, referenceFile: c.clip.referenceFile ?? c.clip.file, op: c.op, params: c.params, measure: c.measure });
         corrected.set(id, r as CorrectionResult);
         tick();
       }),

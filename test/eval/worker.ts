@@ -11,6 +11,7 @@ import { collectBlocks, readAll } from '../../dsp/source.ts';
 import type { ParamValues } from '../../dsp/ops/types.ts';
 import type { ClipResult, CorrectionResult } from './types.ts';
 import { bandDeviationDb, echoReductionDb, monoMix, offsetTrack, residualSpeedPercent } from './measures.ts';
+import { comparePartials, envelopeDeviationDb, findHits, readOnsets } from './stretch-measures.ts';
 
 export interface DiagnoseTask {
   task: 'diagnose';
@@ -45,7 +46,7 @@ export interface CorrectTask {
   op: string;
   params: ParamValues;
   /** What to measure against the reference. */
-  measure: 'echo' | 'speed';
+  measure: 'echo' | 'speed' | 'partials' | 'onsets' | 'formants';
 }
 
 async function correct(t: CorrectTask): Promise<CorrectionResult> {
@@ -70,6 +71,31 @@ async function correct(t: CorrectTask): Promise<CorrectionResult> {
       metrics.inputBandDeviationDb = bandDeviationDb(input, reference, rate, 50, Math.min(16000, 0.45 * rate));
       // 1 when what unecho names first (the strongest echo it cancelled) is a reflection.
       metrics.reflectionFirst = /^reflection /.test(String(rendering.resolved.cancelled ?? '')) ? 1 : 0;
+    } else if (t.measure === 'partials' || t.measure === 'onsets' || t.measure === 'formants') {
+      // The clean clip is its own reference: its partials, hits and envelope, mapped.
+      const ratio = t.op === 'stretch' ? Number(t.params.ratio) : 1;
+      const factor = t.op === 'transpose' ? 2 ** ((Number(t.params.semitones ?? 0) * 100 + Number(t.params.cents ?? 0)) / 1200) : 1;
+      if (t.measure === 'partials') {
+        const from = Math.round(0.6 * rate);
+        const len = Math.min(Math.round(2.5 * rate), reference.length - from - Math.round(0.6 * rate));
+        const yFrom = Math.round(ratio * (from + len / 2) - len / 2);
+        const r = comparePartials(reference, output, rate, from, yFrom, len, factor);
+        metrics.worstCents = r.worstCents;
+        metrics.newLineDb = r.newLineDb;
+        metrics.newLineHz = r.newLineHz;
+        metrics.partials = r.partials;
+      } else if (t.measure === 'onsets') {
+        const hits = findHits(reference, rate).filter((h) => h > 0.06 * rate && ratio * h < output.length - 0.05 * rate);
+        const o = readOnsets(reference, output, rate, hits, ratio);
+        const quietBefore = o.filter((q) => q.preEchoDb - q.preEchoRiseDb <= -30);
+        metrics.hits = o.length;
+        metrics.onsetErrorMs = Math.max(...o.map((q) => Math.abs(q.errorMs)));
+        metrics.preEchoDb = quietBefore.length ? Math.max(...quietBefore.map((q) => q.preEchoDb)) : NaN;
+        metrics.preEchoRiseDb = Math.max(...o.map((q) => q.preEchoRiseDb));
+        metrics.attackDb = Math.min(...o.map((q) => q.attackDb));
+      } else {
+        metrics.envelopeDb = envelopeDeviationDb(reference, output, rate);
+      }
     } else {
       const track = offsetTrack(output, reference, rate);
       const res = residualSpeedPercent(track);

@@ -1,0 +1,378 @@
+/**
+ * The low band of the time-stretcher, with four times the time span of the main analysis window
+ * (≈ 340–370 ms at 44.1/48 kHz) and a low-side-lobe window, so that partials two main bins apart
+ * (≈ 21–23 Hz) at 20–300 Hz are resolved and phase-locked each on its own: with the main window a
+ * weak partial 2–3 bins from a strong one is no peak of its own and is turned with the strong one's
+ * frequency (pulled toward it, with stray lines between). This is a two-band multi-resolution
+ * phase vocoder (a longer window below a crossover; window length by band as in Bonada 2000,
+ * "Automatic technique in frequency domain for near-lossless time-scale modification of audio",
+ * ICMC 2000).
+ *
+ * - The input is low-passed and decimated by D (fs/D ≈ 3 kHz; a zero-phase Kaiser-windowed sinc,
+ *   100 dB stop band from fs/D − f₂, so every alias lands above the crossover), analysed with a
+ *   4-term Blackman–Harris window (−92 dB side lobes, main lobe ±4 bins; Harris 1978, "On the use
+ *   of windows for harmonic analysis with the DFT", Proc. IEEE 66(1)) of 4N/D points at hop
+ *   N/(2D) (eight-fold overlap: the overlap-add of w² is exactly constant, w² having cosine terms up
+ *   to the sixth), phase-locked like the main band (only the bins up to f₂ and the main lobe beyond
+ *   it), weighted by the crossover, overlap-added, and interpolated back to fs with the same kernel.
+ *   Its frames fall on every other main frame and take that frame's analysis position α.
+ * - Crossover: m_L = 1 below f₁, 0 above f₂, a raised cosine between.
+ * - Onsets: a long window would spread an attack over its whole length (pre-echo). A low-band frame
+ *   with an onset within ¾ of its window (in the input or in the output; the start counts as one)
+ *   is dropped (weight 0), and the main band carries the low band there: it is weighted by
+ *   1 − m_L·G(σ), G the share of the low band the frames around σ carry. A dropped frame takes over
+ *   the main band's rotations (at the bin of the same frequency), so that both bands give every
+ *   partial the same phase when the low band comes back (no cancellation in the crossover).
+ */
+import { kaiserBeta, kaiserLength, makeWindow } from '../core/windows.ts';
+import { PackedStft } from './packed-stft.ts';
+import { PhaseLocker } from './phase-lock.ts';
+import { InputRing, type OverlapAddRing } from './rings.ts';
+
+/** Crossover: the low band takes everything below F1, nothing above F2 (Hz). */
+export const LOW_BAND_F1_HZ = 180;
+export const LOW_BAND_F2_HZ = 300;
+
+export interface LowBandOptions {
+  readonly sampleRateHz: number;
+  readonly channelCount: number;
+  readonly ratio: number;
+  /** Main FFT size N. */
+  readonly mainFftSize: number;
+  /** Capacity of the main input ring (the decimated ring holds the same span). */
+  readonly inputSpan: number;
+}
+
+/** Crossover weight of the low band at f (Hz). */
+export function lowBandWeight(f: number): number {
+  if (f <= LOW_BAND_F1_HZ) return 1;
+  if (f >= LOW_BAND_F2_HZ) return 0;
+  return 0.5 * (1 + Math.cos((Math.PI * (f - LOW_BAND_F1_HZ)) / (LOW_BAND_F2_HZ - LOW_BAND_F1_HZ)));
+}
+
+export class LowBand {
+  readonly decimation: number;
+  readonly fftSize: number; // decimated points
+  readonly hop: number; // decimated samples
+  /** Hop in output samples at the full rate. */
+  readonly hopFull: number;
+  /** Half the window in full-rate samples. */
+  readonly halfFull: number;
+  readonly channelCount: number;
+  readonly ratio: number;
+  readonly #taps: Float64Array; // lowpass, 2L+1 taps, Σ = 1
+  readonly #half: number; // L
+  readonly #input: InputRing; // decimated input
+  #ended = false;
+  readonly #stft: PackedStft;
+  readonly #lock: PhaseLocker;
+  readonly #active: number; // bins processed
+  readonly #mask: Float64Array; // m_L per low-band bin
+  readonly #olaWeights: Float64Array; // w² of the window
+  #xw: Float64Array[];
+  #xwPrev: Float64Array[];
+  readonly #y: Float64Array[];
+  #power: Float64Array;
+  #powerPrev: Float64Array;
+  #prevValid = false;
+  #prevA = 0;
+  #j: number; // next frame: σ = j·hopFull
+  #onsetFrom = 0;
+  // Onsets accepted by the main map: t0 and σ0 − t0.
+  readonly #onsetT: number[] = [];
+  readonly #onsetOffset: number[] = [];
+  // Decimated overlap-add ring.
+  readonly #outMask: number;
+  readonly #out: Float64Array[];
+  #cleared = 0; // decimated output slots below this are consumed and zeroed
+  /** Decimated output samples below this are final. */
+  #finalQ = -Infinity;
+  readonly #phaseStart: Int32Array; // per phase r: first j (q = ⌊t/D⌋ − j)
+  readonly #phaseTaps: Float64Array[]; // per phase: D·h[r + jD + L] for j = jStart…
+  readonly #jLow: number; // smallest jStart over the phases
+  readonly #span: number; // values of v one output block reads
+  readonly #win: Float64Array;
+  readonly #flatTaps: Float64Array; // D × span: phase r's taps at win positions
+
+  constructor(options: LowBandOptions) {
+    const fs = options.sampleRateHz, n = options.mainFftSize;
+    this.channelCount = options.channelCount;
+    this.ratio = options.ratio;
+    const d = (this.decimation = Math.min(n / 8, Math.max(1, 2 ** Math.round(Math.log2(fs / 3000)))));
+    const nl = (this.fftSize = (4 * n) / d);
+    this.hop = nl / 8;
+    this.hopFull = n / 2;
+    this.halfFull = (nl * d) / 2;
+    // Lowpass: pass to F2, stop from fs/D − F2 (Kaiser design, 100 dB).
+    const stopHz = fs / d - LOW_BAND_F2_HZ;
+    let len = d === 1 ? 1 : kaiserLength(100, (2 * Math.PI * (stopHz - LOW_BAND_F2_HZ)) / fs);
+    if (len % 2 === 0) len++;
+    const l = (this.#half = (len - 1) / 2);
+    const taps = new Float64Array(len);
+    if (d === 1) taps[0] = 1;
+    else {
+      const kw = makeWindow('kaiser', len, { symmetric: true, beta: kaiserBeta(100) });
+      const fc = (LOW_BAND_F2_HZ + stopHz) / 2 / fs; // cycles per sample
+      let sum = 0;
+      for (let i = 0; i < len; i++) {
+        const m = i - l;
+        const s = m === 0 ? 2 * fc : Math.sin(2 * Math.PI * fc * m) / (Math.PI * m);
+        taps[i] = s * kw[i]!;
+        sum += taps[i]!;
+      }
+      for (let i = 0; i < len; i++) taps[i]! /= sum;
+    }
+    this.#taps = taps;
+    // Polyphase interpolation: y[t] = Σ_j D·h[r + jD + L]·v[⌊t/D⌋ − j], r = t mod D.
+    this.#phaseStart = new Int32Array(d);
+    this.#phaseTaps = [];
+    for (let r = 0; r < d; r++) {
+      const j0 = Math.ceil((-l - r) / d), j1 = Math.floor((l - r) / d);
+      this.#phaseStart[r] = j0;
+      const t = new Float64Array(j1 - j0 + 1);
+      for (let j = j0; j <= j1; j++) t[j - j0] = d * taps[r + j * d + l]!;
+      this.#phaseTaps.push(t);
+    }
+    let jLow = 0, jHigh = 0;
+    for (let r = 0; r < d; r++) {
+      jLow = Math.min(jLow, this.#phaseStart[r]!);
+      jHigh = Math.max(jHigh, this.#phaseStart[r]! + this.#phaseTaps[r]!.length - 1);
+    }
+    this.#jLow = jLow;
+    this.#span = jHigh - jLow + 1;
+    this.#win = new Float64Array(this.#span);
+    this.#flatTaps = new Float64Array(d * this.#span);
+    for (let r = 0; r < d; r++) {
+      const tp = this.#phaseTaps[r]!, off = this.#phaseStart[r]! - jLow;
+      for (let i = 0; i < tp.length; i++) this.#flatTaps[r * this.#span + off + i] = tp[i]!;
+    }
+    this.#input = new InputRing(options.channelCount, options.inputSpan / d + 2 * nl + 4 * this.hop);
+    // Blackman–Harris for analysis and synthesis; at hop N/8 the overlap-add of w² is constant.
+    // (Hop N/4 with a Hann²/Blackman–Harris synthesis window would halve the frames but leaves
+    // frame-rate side bands near −65 dB on two partials 2 main bins apart.)
+    const bh = makeWindow('blackman-harris', nl);
+    let olaSum = 0;
+    for (let i = 0; i < nl; i += this.hop) olaSum += bh[i]! * bh[i]!;
+    // Only bins up to the crossover (and the ±4-bin main lobe beyond it) are processed.
+    const active = (this.#active = Math.min(nl / 2 + 1, Math.ceil((LOW_BAND_F2_HZ * d * nl) / fs) + 8));
+    this.#stft = new PackedStft(nl, options.channelCount, bh, bh.map((w) => w / (olaSum * nl)), active);
+    this.#olaWeights = bh.map((w) => w * w);
+    this.#lock = new PhaseLocker(nl, this.hop, options.channelCount, active);
+    const bins = nl / 2 + 1;
+    this.#mask = new Float64Array(bins);
+    for (let k = 0; k < bins; k++) this.#mask[k] = lowBandWeight((k * fs) / d / nl);
+    const perChannel = () => Array.from({ length: options.channelCount }, () => new Float64Array(nl + 2));
+    this.#xw = perChannel();
+    this.#xwPrev = perChannel();
+    this.#y = perChannel();
+    this.#power = new Float64Array(bins);
+    this.#powerPrev = new Float64Array(bins);
+    const outCap = 2 ** Math.ceil(Math.log2(2 * nl + 4 * this.hop + 64));
+    this.#outMask = outCap - 1;
+    this.#out = Array.from({ length: options.channelCount }, () => new Float64Array(outCap));
+    // First frame whose window reaches output sample 0.
+    this.#j = -Math.floor(this.halfFull / this.hopFull) + 1;
+    // The start counts as an onset: the main band carries the first ¾ window, and the low band
+    // takes over the main band's phases meanwhile (both bands then agree on every partial's phase).
+    this.addOnset(0, 0);
+  }
+
+  /** An onset accepted by the main map. */
+  addOnset(t0: number, offset: number): void {
+    this.#onsetT.push(t0);
+    this.#onsetOffset.push(offset);
+  }
+
+  /** Oldest full-rate input sample the decimator still reads. */
+  keepFrom(): number {
+    return this.#input.written * this.decimation - this.#half - 1;
+  }
+
+  /** Decimates what the full-rate input holds (zero-phase: sample m is centred at m·D). */
+  decimate(full: InputRing, ended: boolean): void {
+    const d = this.decimation, l = this.#half, taps = this.#taps;
+    const dec = this.#input, fm = full.mask, written = full.written;
+    const decMask = dec.mask;
+    for (;;) {
+      const m = dec.written, centre = m * d;
+      if (ended ? centre - l >= written : centre + l >= written) break;
+      const lo = centre - l;
+      const inside = lo >= 0 && centre + l < written;
+      for (let c = 0; c < this.channelCount; c++) {
+        const r = full.rings[c]!;
+        let v = 0;
+        if (inside && (lo & fm) + taps.length <= fm + 1) {
+          // Symmetric taps (h[L − i] = h[L + i]), the span not wrapping around the ring.
+          const at = centre & fm;
+          v = taps[l]! * r[at]!;
+          for (let i = 1; i <= l; i++) v += taps[l + i]! * (r[at + i]! + r[at - i]!);
+        } else if (inside) {
+          v = taps[l]! * r[centre & fm]!;
+          for (let i = 1; i <= l; i++) v += taps[l + i]! * (r[(centre + i) & fm]! + r[(centre - i) & fm]!);
+        } else for (let i = 0; i < taps.length; i++) v += taps[i]! * full.sample(c, lo + i);
+        dec.rings[c]![m & decMask] = v;
+      }
+      dec.written = m + 1;
+    }
+    this.#ended = ended;
+  }
+
+  /** Output samples (full rate) below this are final in the low band. */
+  finalUpTo(outputFrames: number): number {
+    if (this.#finalQ === Infinity) return outputFrames;
+    const jMax = 1 - this.#phaseStart[0]!; // furthest q ahead of ⌊t/D⌋ the interpolation reads
+    return Math.max(0, (this.#finalQ - jMax) * this.decimation - this.decimation);
+  }
+
+  /** Input samples beyond α a frame at α reads (the window and the decimation filter). */
+  get reachFull(): number {
+    return this.halfFull + this.#half + 2 * this.decimation;
+  }
+
+  /** The next frame's output time (frames are every `hopFull`, from before the output starts). */
+  get nextSigma(): number {
+    return this.#j * this.hopFull;
+  }
+
+  /**
+   * Weight of the low-band frame at output σ taken from input α: 0 when an onset lies within
+   * three quarters of its window, in the input or in the output (the long window would disperse
+   * the attack over its length: pre-echo), else 1; the main band takes over what the low band
+   * drops. (Blackman–Harris at ¾ of the half-window: w² ≈ −66 dB.)
+   */
+  frameWeight(sigma: number, alpha: number): number {
+    const on = this.#onsetT, off = this.#onsetOffset, reach = 0.75 * this.halfFull;
+    for (let i = this.#onsetFrom; i < on.length; i++) {
+      const t0 = on[i]!, s0 = t0 + off[i]!;
+      if (Math.abs(s0 - sigma) <= reach || Math.abs(t0 - alpha) <= reach) return 0;
+      if (t0 > alpha + reach && s0 > sigma + reach) break;
+    }
+    return 1;
+  }
+
+  /** Forgets onsets wholly before output σ − 2·window. */
+  #prune(sigma: number): void {
+    const on = this.#onsetT, off = this.#onsetOffset;
+    while (this.#onsetFrom < on.length && on[this.#onsetFrom]! + off[this.#onsetFrom]! < sigma - 4 * this.halfFull) this.#onsetFrom++;
+    if (this.#onsetFrom > 64) {
+      on.splice(0, this.#onsetFrom);
+      off.splice(0, this.#onsetFrom);
+      this.#onsetFrom = 0;
+    }
+  }
+
+  /**
+   * How much of the low band the low-band frames carry at output σ (0…1): the weights of the
+   * frames whose window holds σ, averaged with their overlap-add weights w²; `alphaOf` gives each
+   * frame's input position.
+   */
+  coverage(sigma: number, alphaOf: (s: number) => number): number {
+    const hf = this.hopFull, w = this.#olaWeights;
+    const j0 = Math.ceil((sigma - this.halfFull) / hf), j1 = Math.floor((sigma + this.halfFull) / hf);
+    let num = 0, den = 0;
+    for (let j = j0; j <= j1; j++) {
+      const pos = Math.round((sigma - j * hf) / this.decimation) + this.fftSize / 2;
+      if (pos < 0 || pos >= this.fftSize) continue;
+      const v = w[pos]!;
+      if (v === 0) continue;
+      den += v;
+      num += v * this.frameWeight(j * hf, alphaOf(j * hf));
+    }
+    return den > 0 ? num / den : 1;
+  }
+
+  /**
+   * The next low-band frame, at output σ = nextSigma from input α. `mainRotRe/Im` are the main
+   * band's rotations at this σ (N/2+1 bins): a frame the low band drops takes them over, so that
+   * when it comes back its partials have the phases the main band gave them (no cancellation in
+   * the crossover).
+   */
+  frame(alpha: number, mainRotRe: Float64Array | null, mainRotIm: Float64Array | null, mainFftSize: number): void {
+    const sigma = this.nextSigma;
+    this.#prune(sigma);
+    const weight = this.frameWeight(sigma, alpha);
+    const a = Math.round(alpha / this.decimation);
+    const lock = this.#lock, xw = this.#xw, y = this.#y;
+    this.#stft.analyze(this.#input, a, xw, this.#power);
+    if (!this.#prevValid) {
+      lock.reset();
+      lock.rotateHeld(xw, y);
+    } else if (!lock.lock(this.#power, xw, this.#xwPrev, y, a - this.#prevA)) lock.rotateHeld(xw, y);
+    if (weight === 0 && mainRotRe && mainRotIm) {
+      // Take over the main band's rotations (bin of the same frequency), corrected for the
+      // rounding of α to the decimated grid: φ_in here is the phase at a·D, not at α.
+      const bins = this.#active, rr = lock.rotRe, ri = lock.rotIm;
+      const scale = (mainFftSize / this.fftSize) / this.decimation; // main bin per low bin
+      const shift = a * this.decimation - alpha;
+      for (let k = 0; k < bins && this.#mask[k]! > 0; k++) {
+        const km = Math.min(mainFftSize / 2, Math.round(k * scale));
+        const ph = (-2 * Math.PI * k * shift) / (this.fftSize * this.decimation);
+        const cr = Math.cos(ph), ci = Math.sin(ph);
+        const mr = mainRotRe[km]!, mi = mainRotIm[km]!;
+        rr[k] = mr * cr - mi * ci;
+        ri[k] = mr * ci + mi * cr;
+      }
+      lock.rotateHeld(xw, y);
+    }
+    const m = this.#mask, bins = this.#active;
+    for (let c = 0; c < this.channelCount; c++) {
+      const out = y[c]!;
+      for (let k = 0; k < bins; k++) {
+        const g = m[k]! * weight;
+        out[2 * k]! *= g;
+        out[2 * k + 1]! *= g;
+      }
+    }
+    this.#synthesize(sigma / this.decimation);
+    const t = this.#xwPrev;
+    this.#xwPrev = xw;
+    this.#xw = t;
+    const p = this.#powerPrev;
+    this.#powerPrev = this.#power;
+    this.#power = p;
+    this.#prevValid = true;
+    this.#prevA = a;
+    this.#j++;
+    this.#finalQ = sigma / this.decimation + this.hop - this.fftSize / 2;
+  }
+
+  /** After the input has ended and every frame is done: everything is final. */
+  finish(): void {
+    this.#finalQ = Infinity;
+  }
+
+  #synthesize(s: number): void {
+    // The packed synthesis adds into an OverlapAddRing-shaped target.
+    this.#stft.synthesize(this.#y, { mask: this.#outMask, rings: this.#out, emitted: this.#cleared } as unknown as OverlapAddRing, s);
+  }
+
+  /** Adds the interpolated low band for output samples [from, to) to the main overlap-add ring. */
+  addTo(out: OverlapAddRing, from: number, to: number): void {
+    if (to <= from) return;
+    const d = this.decimation, shift = Math.log2(d), mask = this.#outMask, omask = out.mask;
+    const span = this.#span, flat = this.#flatTaps, win = this.#win;
+    // For one q = ⌊t/D⌋ the values v[q − jLow − i], i < span, are gathered once into `win` and
+    // shared by the D outputs of that q; each phase's taps are laid out over the same span.
+    const jLow = this.#jLow;
+    for (let c = 0; c < this.channelCount; c++) {
+      const v = this.#out[c]!, o = out.rings[c]!;
+      let t = from;
+      while (t < to) {
+        const qb = t >> shift;
+        const base = qb - jLow;
+        for (let i = 0; i < span; i++) win[i] = v[(base - i) & mask]!;
+        const stop = Math.min(to, (qb + 1) << shift);
+        for (; t < stop; t++) {
+          const at = (t & (d - 1)) * span;
+          let acc = 0;
+          for (let i = 0; i < span; i++) acc += flat[at + i]! * win[i]!;
+          o[t & omask]! += acc;
+        }
+      }
+    }
+    // Slots no later sample reads are cleared for the frames still to come.
+    const keep = (to >> shift) - (span + 1);
+    for (let q = this.#cleared; q < keep; q++) for (let c = 0; c < this.channelCount; c++) this.#out[c]![q & mask] = 0;
+    if (keep > this.#cleared) this.#cleared = keep;
+  }
+}

@@ -1,0 +1,290 @@
+/**
+ * Identity phase locking (Laroche & Dolson 1999, "Improved phase vocoder time-scale modification
+ * of audio", IEEE Trans. Speech Audio Process. 7(3):323–332, §IV) for the time-stretcher.
+ *
+ * The state is one rotation e^{jθ} per bin, θ = φ_out − φ_in, shared by all channels (so
+ * inter-channel phase and level differences pass unchanged). Peaks are bins larger than their two
+ * neighbours on each side in the channels' summed power; each peak's rotation advances by
+ * (H_s − H_a)·ω̂ with ω̂ its instantaneous frequency, and every bin of the peak's region (bounded
+ * by the lowest bin between two peaks) takes the peak's rotation, so bins other than peaks need no
+ * trigonometry.
+ *
+ * ω̂: the peak's phase advance over the analysis hop H_a (cross-spectrum with the previous frame,
+ * summed over channels), unwrapped with a coarse estimate from Grandke's interpolation for the
+ * Hann window, δ = ±(2a − 1)/(a + 1), a = |X[k±1]|/|X[k]| (Grandke 1983, "Interpolation algorithms
+ * for discrete Fourier transforms of weighted signals", IEEE Trans. Instrum. Meas.
+ * 32(2):350–355). Peaks more than 50 dB below the frame's largest (the noise floor) advance by
+ * table: Grandke's offset rounded to 1/64 bin, no trigonometry.
+ */
+
+const TWO_PI = 2 * Math.PI;
+const wrap = (x: number): number => x - TWO_PI * Math.round(x / TWO_PI);
+/** Peaks this far below the frame's largest (power ratio, −50 dB) advance by table. */
+const WEAK_PEAK = 1e-5;
+/** Resolution of the tabled frequency offset: 1/64 bin. */
+const FRACTION_STEPS = 64;
+
+export class PhaseLocker {
+  readonly fftSize: number;
+  readonly synthesisHop: number;
+  readonly channelCount: number;
+  readonly #bins: number;
+  /** Bins 0 … active − 1 are processed (a band-limited user needs no more). */
+  readonly #active: number;
+  readonly #omega: Float64Array; // last ω̂ of each peak bin (used when the analysis hop is 0)
+  /** e^{jθ} per bin (held through a transient zone). */
+  readonly rotRe: Float64Array;
+  readonly rotIm: Float64Array;
+  // e^{jΔω_k} for the current Δ = H_s − H_a, and e^{jΔ·2π(q/64)/N} for q = −64…64 (weak peaks).
+  readonly #stepRe: Float64Array;
+  readonly #stepIm: Float64Array;
+  readonly #fracRe: Float64Array;
+  readonly #fracIm: Float64Array;
+  #stepDelta = NaN;
+  readonly #peaks: Int32Array;
+
+  constructor(fftSize: number, synthesisHop: number, channelCount: number, activeBins = fftSize / 2 + 1) {
+    this.fftSize = fftSize;
+    this.synthesisHop = synthesisHop;
+    this.channelCount = channelCount;
+    const bins = (this.#bins = fftSize / 2 + 1);
+    this.#active = Math.max(5, Math.min(bins, activeBins));
+    this.#stepRe = new Float64Array(bins);
+    this.#stepIm = new Float64Array(bins);
+    this.#fracRe = new Float64Array(2 * FRACTION_STEPS + 1);
+    this.#fracIm = new Float64Array(2 * FRACTION_STEPS + 1);
+    this.#omega = new Float64Array(bins);
+    this.rotRe = new Float64Array(bins).fill(1);
+    this.rotIm = new Float64Array(bins);
+    this.#peaks = new Int32Array(bins);
+  }
+
+  /** Every rotation back to 1 (the output takes the analysis phases). */
+  reset(): void {
+    this.rotRe.fill(1);
+    this.rotIm.fill(0);
+  }
+
+  /**
+   * Phase reset at a transient: bins whose power rises by more than 6 dB from `before` to `after`
+   * take the analysis phase (θ = 0). DC and Nyquist stay real.
+   */
+  resetRising(after: Float64Array, before: Float64Array): void {
+    const bins = this.#active;
+    const rr = this.rotRe, ri = this.rotIm;
+    for (let k = 0; k < bins; k++) {
+      if (after[k]! > 4 * before[k]! + 1e-30) {
+        rr[k] = 1;
+        ri[k] = 0;
+      }
+    }
+    rr[0] = rr[this.#bins - 1] = 1;
+    ri[0] = ri[this.#bins - 1] = 0;
+  }
+
+  /**
+   * Phase reset at a transient, sparing steady partials: every bin takes the analysis phase
+   * (θ = 0) except the regions (out to the lowest bin on either side) of peaks of `after` that are
+   * peaks of `before` too (at the same bin or the next) with a power no more than 1 dB higher
+   * (and not 6 dB lower): a partial that goes on through the onset keeps its phase, everything else
+   * (the attack, and the decaying tails it lands on) restarts from the analysis phase, so the
+   * attack is not spread over the window (resetting only bins that rise by 6 dB leaves the parts of
+   * an attack that land on a louder tail rotated: pre-echo on real drum loops).
+   */
+  resetUnstable(after: Float64Array, before: Float64Array): void {
+    const bins = this.#active, last = bins - 1;
+    const rr = this.rotRe, ri = this.rotIm;
+    let k = 0;
+    while (k < last) {
+      // The next peak of `after` and its region [lo, hi].
+      let p = -1;
+      for (let j = Math.max(k, 2); j < last - 1; j++) {
+        const v = after[j]!;
+        if (v > after[j - 1]! && v >= after[j + 1]! && v >= after[j - 2]! && v >= after[j + 2]! && v > 0) {
+          p = j;
+          break;
+        }
+      }
+      if (p < 0) {
+        for (let j = k; j <= last; j++) {
+          rr[j] = 1;
+          ri[j] = 0;
+        }
+        break;
+      }
+      let hi = p;
+      while (hi + 1 < last && after[hi + 1]! < after[hi]!) hi++;
+      let b = -1;
+      for (let j = p - 1; j <= p + 1; j++) if (before[j]! >= before[j - 1]! && before[j]! >= before[j + 1]! && (b < 0 || before[j]! > before[b]!)) b = j;
+      const steady = b >= 0 && after[p]! <= 1.26 * before[b]! && after[p]! >= 0.25 * before[b]!;
+      if (!steady) {
+        for (let j = k; j <= hi; j++) {
+          rr[j] = 1;
+          ri[j] = 0;
+        }
+      } else {
+        // Only the bins before the region's lower edge are reset.
+        let lo = p;
+        while (lo - 1 >= k && after[lo - 1]! < after[lo]!) lo--;
+        for (let j = k; j < lo; j++) {
+          rr[j] = 1;
+          ri[j] = 0;
+        }
+      }
+      k = hi + 1;
+    }
+    rr[0] = rr[this.#bins - 1] = 1;
+    ri[0] = ri[this.#bins - 1] = 0;
+  }
+
+  /** Y = X·(held rotation), per channel. */
+  rotateHeld(x: readonly Float64Array[], y: readonly Float64Array[]): void {
+    const bins = this.#active, rr = this.rotRe, ri = this.rotIm;
+    for (let c = 0; c < this.channelCount; c++) {
+      const xc = x[c]!, out = y[c]!;
+      for (let k = 0; k < bins; k++) {
+        const re = xc[2 * k]!, im = xc[2 * k + 1]!, cr = rr[k]!, ci = ri[k]!;
+        out[2 * k] = re * cr - im * ci;
+        out[2 * k + 1] = re * ci + im * cr;
+      }
+    }
+  }
+
+  /**
+   * Advances each peak's rotation over an analysis hop `hopIn`, gives its region the same
+   * rotation and writes Y = X·e^{jθ}. `pw` is the summed power of `xw`; `xp` the previous frame.
+   * Returns false when there is no peak (nothing written).
+   */
+  lock(pw: Float64Array, xw: readonly Float64Array[], xp: readonly Float64Array[], y: readonly Float64Array[], hopIn: number): boolean {
+    const bins = this.#active, last = bins - 1, full = bins === this.#bins;
+    const peaks = this.#peaks;
+    let count = 0, top = 0;
+    for (let k = 2; k < last - 1; k++) {
+      const v = pw[k]!;
+      if (v > pw[k - 1]! && v > pw[k + 1]! && v >= pw[k - 2]! && v >= pw[k + 2]! && v > 0) {
+        peaks[count++] = k;
+        if (v > top) top = v;
+      }
+    }
+    if (count === 0) return false;
+    const hs = this.synthesisHop, n = this.fftSize;
+    const omega = this.#omega, rr = this.rotRe, ri = this.rotIm;
+    const channels = this.channelCount;
+    const binRad = TWO_PI / n;
+    const advance = hs - hopIn;
+    if (advance !== this.#stepDelta) this.#buildSteps(advance);
+    const stepRe = this.#stepRe, stepIm = this.#stepIm, fracRe = this.#fracRe, fracIm = this.#fracIm;
+    const weak = top * WEAK_PEAK;
+    let regionStart = 0;
+    for (let p = 0; p < count; p++) {
+      const kp = peaks[p]!;
+      // Coarse frequency offset (bins): Grandke's Hann interpolation on the larger neighbour.
+      const up = pw[kp + 1]! >= pw[kp - 1]!;
+      const a = Math.sqrt((up ? pw[kp + 1]! : pw[kp - 1]!) / pw[kp]!);
+      const delta = (up ? 1 : -1) * ((2 * a - 1) / (a + 1));
+      let cr: number, ci: number;
+      if (pw[kp]! >= weak) {
+        let w: number;
+        if (hopIn > 0) {
+          const coarse = (kp + delta) * binRad;
+          // Fine: the phase advance over the hop (cross-spectrum with the previous frame).
+          let hr = 0, hi = 0;
+          for (let c = 0; c < channels; c++) {
+            const cur = xw[c]!, prev = xp[c]!;
+            const ar = cur[2 * kp]!, ai = cur[2 * kp + 1]!, br = prev[2 * kp]!, bi = prev[2 * kp + 1]!;
+            hr += ar * br + ai * bi;
+            hi += ai * br - ar * bi;
+          }
+          if (hr === 0 && hi === 0) w = coarse;
+          else {
+            const dphi = Math.atan2(hi, hr);
+            w = (dphi + TWO_PI * Math.round((hopIn * coarse - dphi) / TWO_PI)) / hopIn;
+          }
+        } else {
+          w = omega[kp]!; // the same analysis frame again: keep the last estimate
+        }
+        omega[kp] = w;
+        const phi = wrap(advance * w);
+        cr = Math.cos(phi);
+        ci = Math.sin(phi);
+      } else {
+        // e^{jΔ(ω_k + 2π·q/(64N))} from the two tables.
+        let q = Math.round(delta * FRACTION_STEPS);
+        q = q > FRACTION_STEPS ? FRACTION_STEPS : q < -FRACTION_STEPS ? -FRACTION_STEPS : q;
+        const fr = fracRe[q + FRACTION_STEPS]!, fi = fracIm[q + FRACTION_STEPS]!;
+        const sr = stepRe[kp]!, si = stepIm[kp]!;
+        cr = sr * fr - si * fi;
+        ci = sr * fi + si * fr;
+        omega[kp] = (kp + q / FRACTION_STEPS) * binRad;
+      }
+      // New rotation of the peak, renormalised to unit length (first-order correction).
+      let nr = rr[kp]! * cr - ri[kp]! * ci, ni = rr[kp]! * ci + ri[kp]! * cr;
+      const g = 1.5 - 0.5 * (nr * nr + ni * ni);
+      nr *= g;
+      ni *= g;
+      // The region reaches the lowest bin between this peak and the next.
+      let regionEnd = last;
+      if (p + 1 < count) {
+        const next = peaks[p + 1]!;
+        regionEnd = kp;
+        for (let k = kp + 1; k < next; k++) if (pw[k]! < pw[regionEnd]!) regionEnd = k;
+      }
+      for (let k = regionStart; k <= regionEnd; k++) {
+        rr[k] = nr;
+        ri[k] = ni;
+      }
+      for (let c = 0; c < channels; c++) {
+        const x = xw[c]!, out = y[c]!;
+        for (let k = regionStart; k <= regionEnd; k++) {
+          const re = x[2 * k]!, im = x[2 * k + 1]!;
+          out[2 * k] = re * nr - im * ni;
+          out[2 * k + 1] = re * ni + im * nr;
+        }
+      }
+      regionStart = regionEnd + 1;
+    }
+    // DC and Nyquist stay real (the two-channels-per-FFT packing needs real spectra there).
+    rr[0] = 1;
+    ri[0] = 0;
+    if (full) {
+      rr[last] = 1;
+      ri[last] = 0;
+    }
+    for (let c = 0; c < channels; c++) {
+      const x = xw[c]!, out = y[c]!;
+      out[0] = x[0]!;
+      out[1] = 0;
+      if (full) {
+        out[2 * last] = x[2 * last]!;
+        out[2 * last + 1] = 0;
+      }
+    }
+    return true;
+  }
+
+  /** Tables e^{jΔω_k} (by recurrence) and e^{jΔ·2π(q/64)/N} for the advance Δ = H_s − H_a. */
+  #buildSteps(advance: number): void {
+    this.#stepDelta = advance;
+    const n = this.fftSize, bins = this.#bins;
+    const a = (TWO_PI * advance) / n;
+    const ur = Math.cos(a), ui = Math.sin(a);
+    const sr = this.#stepRe, si = this.#stepIm;
+    let r = 1, i = 0;
+    for (let k = 0; k < bins; k++) {
+      if ((k & 255) === 0) {
+        // Restart from exact values now and then so rounding cannot accumulate.
+        r = Math.cos(a * k);
+        i = Math.sin(a * k);
+      }
+      sr[k] = r;
+      si[k] = i;
+      const t = r * ur - i * ui;
+      i = r * ui + i * ur;
+      r = t;
+    }
+    for (let q = -FRACTION_STEPS; q <= FRACTION_STEPS; q++) {
+      this.#fracRe[q + FRACTION_STEPS] = Math.cos((a * q) / FRACTION_STEPS);
+      this.#fracIm[q + FRACTION_STEPS] = Math.sin((a * q) / FRACTION_STEPS);
+    }
+  }
+}

@@ -1,0 +1,335 @@
+/**
+ * Measures of a time-stretch or transposition against what it should give, for the tests and the
+ * corrections section of `npm run eval`. Like test/eval/measures.ts they use fft.js (an
+ * independent FFT library) and plain loops, not the project's own DSP.
+ *
+ * - Partials: the spectrum of a steady stretch of the output through a 4-term Blackman–Harris
+ *   window (−92 dB side lobes; Harris 1978, "On the use of windows for harmonic analysis with the
+ *   discrete Fourier transform", Proc. IEEE 66(1), table I), zero-padded 4×; each expected
+ *   partial is the largest local maximum within half the distance to its nearest expected
+ *   neighbour (at most ±100 cents), its frequency refined by a parabola through the log magnitudes
+ *   of the three top bins (common practice), and reported as cents against where it belongs.
+ * - Spurious lines: the largest local maximum outside ±6 bins of the unpadded window (the main
+ *   lobe is ±4 bins) of every expected partial, in dB re the strongest partial.
+ * - Onsets: the first sample at which the envelope (|x| through a 0.5 ms maximum) reaches half
+ *   its peak near the expected time; pre-echo: the largest 2 ms RMS in the 50 ms before the onset
+ *   (ending 1 ms before it) in dB re the largest 2 ms RMS of the hit in the 10 ms after it; the
+ *   rise is that figure minus the input's at its own onset (what the stretch added).
+ */
+import FFT from 'fft.js';
+
+const plans = new Map<number, FFT>();
+const planOf = (n: number) => {
+  let p = plans.get(n);
+  if (!p) plans.set(n, (p = new FFT(n)));
+  return p;
+};
+
+/** 4-term Blackman–Harris window (Harris 1978, −92 dB). */
+function blackmanHarris(n: number): Float64Array {
+  const w = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const x = (2 * Math.PI * i) / n;
+    w[i] = 0.35875 - 0.48829 * Math.cos(x) + 0.14128 * Math.cos(2 * x) - 0.01168 * Math.cos(3 * x);
+  }
+  return w;
+}
+
+export interface LineSpectrum {
+  /** Power per bin of the padded transform. */
+  power: Float64Array;
+  /** Hz per padded bin. */
+  binHz: number;
+  /** Padding factor. */
+  pad: number;
+}
+
+/** Blackman–Harris spectrum of x[from, from + length), zero-padded `pad`× to a power of two. */
+export function lineSpectrum(x: Float64Array, rateHz: number, from: number, length: number, pad = 4): LineSpectrum {
+  const size = 2 ** Math.ceil(Math.log2(length * pad));
+  const fft = planOf(size);
+  const w = blackmanHarris(length);
+  const buf = new Array<number>(size).fill(0);
+  for (let i = 0; i < length; i++) buf[i] = (x[from + i] ?? 0) * w[i]!;
+  const out = fft.createComplexArray() as number[];
+  fft.realTransform(out, buf);
+  const power = new Float64Array(size / 2 + 1);
+  for (let k = 0; k <= size / 2; k++) power[k] = out[2 * k]! ** 2 + out[2 * k + 1]! ** 2;
+  return { power, binHz: rateHz / size, pad: size / length };
+}
+
+export interface PartialReading {
+  expectedHz: number;
+  /** Measured frequency, or NaN when no local maximum is found in the search range. */
+  measuredHz: number;
+  cents: number;
+  /** Level re the strongest partial, dB. */
+  levelDb: number;
+}
+
+export interface LineReport {
+  partials: PartialReading[];
+  /** Largest line away from every expected partial, dB re the strongest partial. */
+  spuriousDb: number;
+  spuriousHz: number;
+  /** Largest |cents| over the partials (Infinity when one is missing). */
+  worstCents: number;
+}
+
+/** Reads the expected partials and the strongest other line of x[from, from + length). */
+export function readLines(x: Float64Array, rateHz: number, expectedHz: readonly number[], from: number, length: number, maxHz = 0.45 * rateHz): LineReport {
+  const s = lineSpectrum(x, rateHz, from, length);
+  const p = s.power;
+  const db = (v: number) => 10 * Math.log10(v + 1e-300);
+  const sorted = [...expectedHz].sort((a, b) => a - b);
+  const found: { hz: number; power: number; bin: number }[] = [];
+  for (const f of expectedHz) {
+    const i = sorted.indexOf(f);
+    const gapLo = i > 0 ? f - sorted[i - 1]! : Infinity, gapHi = i + 1 < sorted.length ? sorted[i + 1]! - f : Infinity;
+    const lo = Math.max(f * 2 ** (-100 / 1200), f - gapLo / 2), hi = Math.min(f * 2 ** (100 / 1200), f + gapHi / 2);
+    let best = -1;
+    for (let k = Math.max(1, Math.ceil(lo / s.binHz)); k <= Math.min(p.length - 2, Math.floor(hi / s.binHz)); k++) {
+      if (p[k]! >= p[k - 1]! && p[k]! >= p[k + 1]! && (best < 0 || p[k]! > p[best]!)) best = k;
+    }
+    if (best < 0) {
+      found.push({ hz: NaN, power: 0, bin: -1 });
+      continue;
+    }
+    const a = db(p[best - 1]!), b = db(p[best]!), c = db(p[best + 1]!);
+    const den = a - 2 * b + c;
+    const d = den < 0 ? (0.5 * (a - c)) / den : 0;
+    found.push({ hz: (best + d) * s.binHz, power: p[best]!, bin: best });
+  }
+  const top = Math.max(...found.map((q) => q.power));
+  const partials = expectedHz.map((f, i) => {
+    const q = found[i]!;
+    return { expectedHz: f, measuredHz: q.hz, cents: 1200 * Math.log2(q.hz / f), levelDb: db(q.power) - db(top) };
+  });
+  // Spurious: local maxima outside ±6 unpadded bins of every expected partial (and of the
+  // partial actually found, in case it moved).
+  const guard = Math.round(6 * s.pad);
+  const near = new Uint8Array(p.length);
+  for (const f of [...expectedHz, ...found.map((q) => q.hz).filter(Number.isFinite)]) {
+    const c = Math.round(f / s.binHz);
+    for (let k = Math.max(0, c - guard); k <= Math.min(p.length - 1, c + guard); k++) near[k] = 1;
+  }
+  for (let k = 0; k <= guard; k++) near[k] = 1; // DC
+  let spur = 0, spurBin = 0;
+  const last = Math.min(p.length - 2, Math.floor(maxHz / s.binHz));
+  for (let k = 1; k <= last; k++) {
+    if (near[k] || !(p[k]! >= p[k - 1]! && p[k]! >= p[k + 1]!)) continue;
+    if (p[k]! > spur) {
+      spur = p[k]!;
+      spurBin = k;
+    }
+  }
+  const worstCents = partials.reduce((m, q) => Math.max(m, Number.isFinite(q.cents) ? Math.abs(q.cents) : Infinity), 0);
+  return { partials, spuriousDb: db(spur) - db(top), spuriousHz: spurBin * s.binHz, worstCents };
+}
+
+/** Envelope |x| through a running maximum of `span` samples (centred). */
+function envelope(x: Float64Array, span: number): Float64Array {
+  const e = new Float64Array(x.length);
+  const h = Math.floor(span / 2);
+  for (let i = 0; i < x.length; i++) {
+    let m = 0;
+    for (let j = Math.max(0, i - h); j <= Math.min(x.length - 1, i + h); j++) m = Math.max(m, Math.abs(x[j]!));
+    e[i] = m;
+  }
+  return e;
+}
+
+export interface OnsetReading {
+  expected: number;
+  /** Measured onset, samples (NaN when no hit is found within the search range). */
+  measured: number;
+  errorMs: number;
+  /** Largest 2 ms RMS before the onset re the hit's, dB. */
+  preEchoDb: number;
+  /** The same before the input's onset subtracted: the rise the stretch added, dB. */
+  preEchoRiseDb: number;
+  /** Largest 2 ms RMS of the hit re the same of the input's hit, dB (attack kept when ≈ 0). */
+  attackDb: number;
+}
+
+function rms(x: Float64Array, from: number, len: number): number {
+  let s = 0;
+  for (let i = Math.max(0, from); i < Math.min(x.length, from + len); i++) s += x[i]! ** 2;
+  return Math.sqrt(s / len);
+}
+
+/** First half-peak crossing of the envelope in [from, to). */
+function halfPeakOnset(e: Float64Array, from: number, to: number): number {
+  let peak = 0;
+  for (let i = Math.max(0, from); i < Math.min(e.length, to); i++) peak = Math.max(peak, e[i]!);
+  if (!(peak > 0)) return NaN;
+  for (let i = Math.max(0, from); i < Math.min(e.length, to); i++) if (e[i]! >= 0.5 * peak) return i;
+  return NaN;
+}
+
+/** Largest 2 ms RMS in [from, to). */
+function maxRms(x: Float64Array, from: number, to: number, win: number): number {
+  let m = 0;
+  for (let s = from; s + win <= to; s += Math.max(1, win >> 2)) m = Math.max(m, rms(x, s, win));
+  return m;
+}
+
+/**
+ * Onsets of isolated hits: `inputOnsets` are the hits' onsets in the input (samples), each followed
+ * by at least 60 ms without another; the output's are expected at round(ratio·t0).
+ */
+export function readOnsets(input: Float64Array, output: Float64Array, rateHz: number, inputOnsets: readonly number[], ratio: number): OnsetReading[] {
+  const ms = rateHz / 1000;
+  const ein = envelope(input, Math.round(0.5 * ms)), eout = envelope(output, Math.round(0.5 * ms));
+  const win = Math.round(2 * ms);
+  return inputOnsets.map((t0) => {
+    const tin = halfPeakOnset(ein, t0 - Math.round(5 * ms), t0 + Math.round(10 * ms));
+    const exp = Math.round(ratio * t0);
+    const tout = halfPeakOnset(eout, exp - Math.round(30 * ms), exp + Math.round(10 * ms));
+    const shift = Math.round(ratio * tin) - exp; // where the input's own crossing lands
+    const hitIn = maxRms(input, tin, tin + Math.round(10 * ms), win);
+    const preIn = maxRms(input, tin - Math.round(50 * ms), tin - Math.round(1 * ms), win);
+    const at = Number.isFinite(tout) ? tout : exp;
+    const hitOut = maxRms(output, at, at + Math.round(10 * ms), win);
+    const preOut = maxRms(output, at - Math.round(50 * ms), at - Math.round(1 * ms), win);
+    const rel = (a: number, b: number) => 20 * Math.log10((a + 1e-12) / (b + 1e-12));
+    return {
+      expected: exp + shift,
+      measured: tout,
+      errorMs: (tout - (exp + shift)) / ms,
+      preEchoDb: rel(preOut, hitOut),
+      preEchoRiseDb: rel(preOut, hitOut) - rel(preIn, hitIn),
+      attackDb: rel(hitOut, hitIn),
+    };
+  });
+}
+
+// ------------------------------------------------------------------------------------------------
+// Real material: the clip itself is the reference (its lines, its hits, its envelope).
+
+export interface PartialsReport {
+  /** Largest |cents| of the input's partials, found in the output at f·k. */
+  worstCents: number;
+  /** Partials compared. */
+  partials: number;
+  /** Strongest line in the output with none ≥ 10 dB louder (relative) in the input at f/k, dB re the strongest. */
+  newLineDb: number;
+  newLineHz: number;
+}
+
+/** Local maxima over ±`half` bins, as [bin, power]. */
+function peaksOf(p: Float64Array, half: number, from: number, to: number): [number, number][] {
+  const out: [number, number][] = [];
+  for (let k = Math.max(half, from); k <= Math.min(p.length - 1 - half, to); k++) {
+    const v = p[k]!;
+    let ok = v > 0;
+    for (let j = 1; ok && j <= half; j++) ok = v >= p[k - j]! && v > p[k + j]!;
+    if (ok) out.push([k, v]);
+  }
+  return out;
+}
+
+/**
+ * Partials of a steady stretch x[from, from + length) against y[yFrom, yFrom + length), every
+ * frequency × `factor` (1 for a stretch, 2^(s/12) for a transposition): the input's local maxima
+ * (over its main lobe, ±4 bins) within 50 dB of its strongest, 20 Hz … `maxHz`, at most `count`.
+ */
+export function comparePartials(x: Float64Array, y: Float64Array, rateHz: number, from: number, yFrom: number, length: number, factor: number, maxHz = 5000, count = 12): PartialsReport {
+  const a = lineSpectrum(x, rateHz, from, length), b = lineSpectrum(y, rateHz, yFrom, length);
+  const lobe = Math.round(4 * a.pad);
+  const db = (v: number) => 10 * Math.log10(v + 1e-300);
+  const inPeaks = peaksOf(a.power, lobe, Math.ceil(20 / a.binHz), Math.floor(maxHz / a.binHz));
+  const topIn = Math.max(...inPeaks.map(([, v]) => v), 1e-300);
+  const chosen = inPeaks.filter(([, v]) => db(v) >= db(topIn) - 50).sort((p, q) => q[1] - p[1]).slice(0, count).map(([k]) => k * a.binHz);
+  const expected = chosen.map((f) => f * factor);
+  const lines = chosen.length ? readLines(y, rateHz, expected, yFrom, length) : null;
+  // New lines: output maxima (over the main lobe) whose relative level beats the input's at f/k by 10 dB.
+  const outPeaks = peaksOf(b.power, lobe, Math.ceil((20 * factor) / b.binHz), Math.floor((maxHz * factor) / b.binHz));
+  const topOut = Math.max(...outPeaks.map(([, v]) => v), 1e-300);
+  let newDb = -Infinity, newHz = NaN;
+  for (const [k, v] of outPeaks) {
+    const rel = db(v) - db(topOut);
+    if (rel < -100 || rel <= newDb) continue;
+    const kin = Math.round((k * b.binHz) / factor / a.binHz);
+    let m = 0;
+    for (let j = Math.max(0, kin - 2 * lobe); j <= Math.min(a.power.length - 1, kin + 2 * lobe); j++) m = Math.max(m, a.power[j]!);
+    if (rel - (db(m) - db(topIn)) > 10) {
+      newDb = rel;
+      newHz = k * b.binHz;
+    }
+  }
+  return { worstCents: lines ? lines.worstCents : NaN, partials: chosen.length, newLineDb: newDb, newLineHz: newHz };
+}
+
+/**
+ * Hits of a drum clip: 1 ms blocks; a hit where the 2 ms RMS after a block boundary is ≥ 20 dB
+ * above the largest 2 ms RMS of the 30 ms before and within 30 dB of the clip's loudest, at least
+ * 60 ms after the last; its onset is the first sample within 10 ms reaching half the local peak.
+ * (An independent, plain detector: common practice for isolated attacks.)
+ */
+export function findHits(x: Float64Array, rateHz: number): number[] {
+  const b = Math.max(1, Math.round(0.001 * rateHz));
+  const blocks = Math.floor(x.length / b);
+  const e = new Float64Array(blocks);
+  for (let i = 0; i < blocks; i++) {
+    let s = 0;
+    for (let t = i * b; t < (i + 1) * b; t++) s += x[t]! ** 2;
+    e[i] = s / b;
+  }
+  const r2 = (i: number) => Math.sqrt(((e[i] ?? 0) + (e[i + 1] ?? 0)) / 2);
+  let loud = 0;
+  for (let i = 0; i < blocks; i++) loud = Math.max(loud, r2(i));
+  const hits: number[] = [];
+  let last = -Infinity;
+  for (let i = 30; i < blocks - 12; i++) {
+    let before = 0;
+    for (let j = i - 30; j < i - 1; j++) before = Math.max(before, r2(j));
+    const now = r2(i);
+    if (now < loud * 10 ** (-30 / 20) || now < 10 * before || i * b - last < 0.06 * rateHz) continue;
+    let peak = 0;
+    for (let t = i * b - b; t < i * b + 10 * b; t++) peak = Math.max(peak, Math.abs(x[t]!));
+    let t0 = i * b - b;
+    while (Math.abs(x[t0]!) < 0.5 * peak) t0++;
+    hits.push(t0);
+    last = t0;
+  }
+  return hits;
+}
+
+/** Third-octave long-term spectrum (dB) from 300 Hz to 3.5 kHz, Welch with 8192-point Hann frames. */
+function ltas(x: Float64Array, rateHz: number): { centreHz: number; db: number }[] {
+  const size = 8192;
+  const fft = planOf(size);
+  const w = new Float64Array(size);
+  for (let i = 0; i < size; i++) w[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / size);
+  const buf = new Array<number>(size).fill(0);
+  const out = fft.createComplexArray() as number[];
+  const p = new Float64Array(size / 2 + 1);
+  for (let s = 0; s + size <= x.length; s += size / 2) {
+    for (let i = 0; i < size; i++) buf[i] = x[s + i]! * w[i]!;
+    fft.realTransform(out, buf);
+    for (let k = 0; k <= size / 2; k++) p[k]! += out[2 * k]! ** 2 + out[2 * k + 1]! ** 2;
+  }
+  const bands: { centreHz: number; db: number }[] = [];
+  for (let bnd = -5; bnd <= 5; bnd++) {
+    const fc = 1000 * 2 ** (bnd / 3); // IEC 61260 base-2 centres, 315 Hz … 3.15 kHz
+    const k0 = Math.ceil((fc * 2 ** (-1 / 6) * size) / rateHz), k1 = Math.floor((fc * 2 ** (1 / 6) * size) / rateHz);
+    if (fc * 2 ** (1 / 6) >= rateHz / 2) continue;
+    let e = 0;
+    for (let k = k0; k <= k1; k++) e += p[k]!;
+    bands.push({ centreHz: fc, db: 10 * Math.log10(e + 1e-300) });
+  }
+  return bands;
+}
+
+/**
+ * Spectral envelope deviation of a transposed voice: third-octave long-term spectra of input and
+ * output from 315 Hz to 3.15 kHz (bands 300 Hz–3.5 kHz), their difference with its mean removed
+ * (a level change is no envelope change); the largest |deviation|, dB.
+ */
+export function envelopeDeviationDb(x: Float64Array, y: Float64Array, rateHz: number): number {
+  const a = ltas(x, rateHz), b = ltas(y, rateHz);
+  const d = a.map((band, i) => b[i]!.db - band.db);
+  const mean = d.reduce((s, v) => s + v, 0) / d.length;
+  return Math.max(...d.map((v) => Math.abs(v - mean)));
+}
