@@ -74,6 +74,9 @@ export class Editor {
   /** Analysis settings (op name → values), used by every examination of this and later recordings. */
   analysisParams = $state.raw<Record<string, ParamValues>>({});
   question = $state.raw<Question | null>(null);
+  /** The spectrograms' colour range (dBFS) and the band of frequencies they show (null: all). */
+  spectroRange = $state.raw<{ floorDb: number; topDb: number }>({ floorDb: -110, topDb: -10 });
+  spectroBand = $state.raw<readonly [number, number] | null>(null);
   /** Vertical zoom of the waveform: full scale is this many lane heights (1 … 64). */
   waveZoom = $state(1);
   zoomAmplitude = (by: number) => { this.waveZoom = Math.max(1, Math.min(64, this.waveZoom * by)); };
