@@ -428,7 +428,7 @@ export class Editor {
       this.overviewMs = performance.now() - t0;
     }, (e: unknown) => {
       if (this.view !== view || (e instanceof JobError && e.superseded)) return;
-      this.overviewError = e instanceof JobError && e.cancelled ? 'Drawing was cancelled.' : openErrorWords(e, f.name);
+      this.overviewError = e instanceof JobError && e.cancelled ? 'Drawing its overview was cancelled: open it again to see it.' : openErrorWords(e, f.name);
     });
     void overview
       .then(() => (this.work === work ? this.#examine(work) : null))

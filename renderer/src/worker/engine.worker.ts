@@ -11,7 +11,7 @@ import { MemorySource } from '../../../dsp/source.ts';
 import { PeakBuilder, pyramidBuffers, BASE_BUCKET_FRAMES } from '../lib/peaks.ts';
 import { Md5 } from '../lib/md5.ts';
 import { FileSource } from './file-source.ts';
-import { FlacSource } from '../lib/flac-source.ts';
+import type { FlacSource } from '../lib/flac-source.ts';
 import { decodeSamples, type AudioLayout } from '../../../dsp/formats/index.ts';
 import { readLayout } from './audio-layout.ts';
 import type { FromWorker, Job, JobResults, ToWorker, Which } from './protocol.ts';
@@ -61,6 +61,8 @@ function writeBytes(handle: string, bytes: Uint8Array, atOffset: number | null):
   });
 }
 
+const isFlac = (s: FileSource | FlacSource | null): s is FlacSource => s !== null && s.layout.container === 'FLAC';
+
 const needOriginal = (): FileSource | FlacSource => {
   if (!original) throw new InputError('no recording is open');
   return original;
@@ -83,8 +85,11 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       const handle = job.file.handle;
       layout = await readLayout((o, l) => readBytes(handle, o, l), job.file.sizeBytes, job.file.name);
       const read = (o: number, l: number) => readBytes(handle, o, l);
-      original = layout.container === 'FLAC' ? await FlacSource.open(read, layout, job.file.sizeBytes, job.file.name) : new FileSource(read, layout);
-      if (original instanceof FlacSource && original.frames !== layout.frames) layout = { ...layout, frames: original.frames };
+      // The FLAC decoder loads only when a FLAC opens: WAV and AIFF start without it.
+      original = layout.container === 'FLAC'
+        ? await (await import('../lib/flac-source.ts')).FlacSource.open(read, layout, job.file.sizeBytes, job.file.name)
+        : new FileSource(read, layout);
+      if (isFlac(original) && original.frames !== layout.frames) layout = { ...layout, frames: original.frames };
       const result: JobResults['open'] = { layout, codingHistory: layout.bext?.codingHistory ?? '', chunkIds: layout.chunks.map((c) => c.id), markers: await fileMarkers(layout, (o, l) => readBytes(handle, o, l), job.file.name) };
       return { result, transfer: [] };
     }
@@ -93,7 +98,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       const total = job.endFrame - job.startFrame;
       const builder = new PeakBuilder(src.channelCount, total, src.sampleRateHz);
       let last = 0;
-      if (src instanceof FlacSource) {
+      if (isFlac(src)) {
         for await (const piece of src.float32Pieces(job.startFrame, job.endFrame)) {
           if (signal.aborted) throw new CancelledError('cancelled');
           builder.push(piece);
@@ -122,7 +127,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
     }
     case 'checksum': {
       const src = needOriginal();
-      if (src instanceof FlacSource) return { result: await src.audioMd5((f) => progress(f, 'Checksum'), signal), transfer: [] };
+      if (isFlac(src)) return { result: await src.audioMd5((f) => progress(f, 'Checksum'), signal), transfer: [] };
       const md5 = new Md5();
       for await (const { firstFrame, bytes } of src.rawChunks(0, src.frames)) {
         if (signal.aborted) throw new CancelledError('cancelled');
