@@ -60,7 +60,8 @@ export const levels: AnalysisOp<LevelsResult> = {
       sentence: `The whole file measures ${f1(r.loudnessLufs)} LUFS integrated loudness (ITU-R BS.1770) with a highest true peak of ${f1(r.truePeakDbtp)} dBTP and a loudness range of ${r.loudnessRangeLu.toFixed(1)} LU.`,
       value: Number.isFinite(r.loudnessLufs) ? Math.round(r.loudnessLufs * 10) / 10 : 'silent',
       unit: 'LUFS',
-      severity: 'info',
+      // Above 0 dBTP the reconstructed signal overshoots full scale: a converter or a lossy encoder clips it.
+      severity: r.truePeakDbtp > 0 ? 'warn' : 'info',
     });
     for (const ch of r.channels) {
       if (!(ch.peakDbfs > -60)) {

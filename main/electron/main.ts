@@ -169,6 +169,16 @@ app.whenReady().then(() => {
       spellcheck: false,
     },
   });
+  // The page refuses to unload while corrections are unsaved (beforeunload); Electron shows no
+  // question of its own, so ask here: leaving goes ahead only when the user says so.
+  win.webContents.on('will-prevent-unload', (event) => {
+    const answer = dialog.showMessageBoxSync(win!, {
+      type: 'question', buttons: ['Keep working', 'Discard and leave'], defaultId: 0, cancelId: 0,
+      message: 'Corrections not saved in a session',
+      detail: 'Leaving now discards the corrections and markers that have not been saved in a session.',
+    });
+    if (answer === 1) event.preventDefault();
+  });
   void win.loadURL(`${SCHEME}://${HOST}/index.html`);
   win.on('closed', () => (win = null));
 });

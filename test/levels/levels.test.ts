@@ -210,3 +210,24 @@ describe('levels: silence and bandwidth', () => {
     expect(r.longTermSpectrum.frequenciesHz.length).toBeGreaterThan(100);
   });
 });
+
+describe('true peak above full scale', () => {
+  it('is a warning, not information', async () => {
+    // Source: ITU-R BS.1770-4 Annex 2 — a sine at a quarter of the sample rate sampled 45° off its
+    // crests has samples at 1/√2 of its amplitude, so its true peak is 3.01 dB above its sample peak.
+    const FS2 = 48000, n = FS2;
+    const sine = (scale: number) => Float64Array.from({ length: n }, (_, i) => scale * Math.SQRT2 * Math.sin((Math.PI * i) / 2 + Math.PI / 4));
+    const judge = async (scale: number) => {
+      const src = new MemorySource([sine(scale), sine(scale)], FS2);
+      const r = (await levels.run(src, validateParams(levels.params, {}), silentContext)) as LevelsResult;
+      const f = levels.findings!(r, { sampleRateHz: FS2, channelCount: 2, frames: n }).find((x) => x.title.startsWith('Loudness'))!;
+      return { tp: r.truePeakDbtp, severity: f.severity };
+    };
+    const over = await judge(0.99); // samples at −0.09 dBFS, true peak ≈ +2.9 dBTP
+    expect(over.tp).toBeGreaterThan(2.5);
+    expect(over.severity).toBe('warn');
+    const under = await judge(0.5); // true peak ≈ −3 dBTP
+    expect(under.tp).toBeLessThan(-2.5);
+    expect(under.severity).toBe('info');
+  });
+});

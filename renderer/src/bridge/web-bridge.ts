@@ -43,7 +43,7 @@ interface ExportInProgress {
 }
 
 /** The web bridge, plus one web-only extra: the picked file itself, for the workers to read directly. */
-export type WebBridge = Bridge & { blobOf(handle: string): Blob | undefined };
+export type WebBridge = Bridge & { blobOf(handle: string): Blob | undefined; adoptFile(file: File): OpenedFile };
 
 export function createWebBridge(): WebBridge {
   const files = new Map<string, { file: File; isDemo: boolean }>();
@@ -61,6 +61,8 @@ export function createWebBridge(): WebBridge {
   return {
     mode: 'web',
     blobOf: (handle) => files.get(handle)?.file,
+    /** A file dropped on the page, opened like a picked one. */
+    adoptFile: (file) => opened(file, false),
     async openDemo() {
       const list = await fetch('demo/').then((r) => (r.ok ? (r.json() as Promise<string[]>) : []), () => []);
       const name = list.find((n) => n.toLowerCase().endsWith('.wav'));

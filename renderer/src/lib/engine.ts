@@ -13,7 +13,11 @@ export class JobError extends Error {
     this.name = kind;
   }
   get cancelled(): boolean {
-    return this.kind === 'CancelledError';
+    return this.kind === 'CancelledError' || this.kind === 'Superseded';
+  }
+  /** The worker was stopped because another recording replaced its own: nothing to report. */
+  get superseded(): boolean {
+    return this.kind === 'Superseded';
   }
 }
 
@@ -43,6 +47,7 @@ export class Engine {
     opts: { progress?: (fraction: number, label: string) => void; warn?: (m: string) => void; transfer?: Transferable[] } = {},
   ): Task<JobResults[K]> {
     const id = ++this.#next;
+    if (this.#closed) return { promise: Promise.reject(new JobError('Superseded', 'another recording was opened')), cancel: () => {} };
     const promise = new Promise<JobResults[K]>((resolve, reject) => {
       this.#pending.set(id, { resolve: resolve as (v: unknown) => void, reject, progress: opts.progress, warn: opts.warn });
     });
@@ -50,9 +55,18 @@ export class Engine {
     return { promise, cancel: () => this.#post({ kind: 'cancel', id }) };
   }
 
+  /** Stops the worker; every job still running ends at once (rejected as superseded), so no progress bar outlives it. */
   terminate(): void {
     this.#worker.terminate();
+    this.#closed = true;
+    for (const p of this.#pending.values()) p.reject(new JobError('Superseded', 'another recording was opened'));
+    this.#pending.clear();
   }
+
+  get closed(): boolean {
+    return this.#closed;
+  }
+  #closed = false;
 
   #post(m: ToWorker, transfer: Transferable[] = []) {
     this.#worker.postMessage(m, transfer);

@@ -144,6 +144,14 @@ export class StepList {
     this.#apply(label, after);
   }
 
+  /** Replaces all of a step's values at once (choosing another way of setting them): one undo entry. */
+  replaceParams(id: string, params: ParamValues, label = 'change the way it is set'): void {
+    const i = this.#index(id);
+    const old = this.#steps[i]!;
+    if (JSON.stringify(old.params) === JSON.stringify(params)) return;
+    this.#apply(label, this.#steps.map((s, k) => (k === i ? { ...s, params: { ...params } } : s)));
+  }
+
   /** Moves a step to position `to` (0-based, clamped). */
   move(id: string, to: number): void {
     const from = this.#index(id);

@@ -5,8 +5,10 @@
 import { getContext, setContext } from 'svelte';
 import type { Bridge, OpenedFile } from '../../../main/bridge/contract.ts';
 import { findOperation, corrections } from '../../../dsp/ops/registry.ts';
-import type { Finding, ParamValues } from '../../../dsp/ops/types.ts';
+import type { Finding, ParamValue, ParamValues } from '../../../dsp/ops/types.ts';
 import { Engine, JobError, type Task } from '../lib/engine.ts';
+import { rememberRecent, type RecentItem } from '../lib/recent.ts';
+import { loadAnalysisParams, saveAnalysisParams } from '../lib/analysis-settings.ts';
 import { BASE_BUCKET_FRAMES, pyramidFromParts, type PeakPyramid } from '../lib/peaks.ts';
 import { parseSession, sessionText, type Session } from '../lib/session-file.ts';
 import type { DiagnoseResult } from '../../../dsp/ops/diagnose.ts';
@@ -14,6 +16,7 @@ import type { ExportFormat, OpenResult, PreviewResult, Remeasure, SpectrumPair, 
 import type { CorrectionOp } from '../../../dsp/ops/types.ts';
 import { placementIndex, type Step } from '../lib/steps.ts';
 import { describeSteps } from '../lib/chain-notes.ts';
+import { editorWords, initialParams, stepProblems, switchMode } from '../lib/param-form.ts';
 import { correctedEnd, piecesFor, toCorrected, toOriginal, type Piece, type Placement } from '../lib/timebase.ts';
 import { MarkersState } from './markers.svelte.ts';
 import { Player } from './player.svelte.ts';
@@ -23,7 +26,17 @@ import { Timeline } from './timeline.svelte.ts';
 /** Largest preview held in memory (samples over all channels): ≈ 5.8 min of 48 kHz stereo. */
 export const PREVIEW_MAX_SAMPLES = 1 << 25;
 
-export interface TaskView { id: number; label: string; fraction: number; cancel: () => void }
+export interface TaskView { id: number; label: string; fraction: number; cancel: () => void; cancelling?: boolean }
+/** A question the editor asks before doing something that cannot be undone (lib/dialog.ts draws it). */
+export interface Question {
+  readonly title: string;
+  readonly text: string;
+  readonly choices: readonly { readonly label: string; readonly value: string; readonly primary?: boolean }[];
+  /** The answer Escape gives (the safe one). */
+  readonly cancel: string;
+  readonly testid?: string;
+  readonly answer: (value: string) => void;
+}
 export interface Note { id: number; text: string; tone: 'info' | 'warn' | 'error' }
 
 export class Editor {
@@ -49,12 +62,37 @@ export class Editor {
   /** Timing of the last overview (ms), shown in the status line and read by the browser test. */
   overviewMs = $state<number | null>(null);
   view = $state.raw<Engine | null>(null);
+  /** A file that could not be opened: shown in place of the recording (the previous one stays open behind it). */
+  openError = $state.raw<{ name: string; message: string } | null>(null);
+  /** The file being opened (its header read), before it replaces the current one. */
+  opening = $state<string | null>(null);
+  /** Where the examination stands: the findings panel never says "Examining…" once it has ended. */
+  diagnosisState = $state<'idle' | 'running' | 'done' | 'failed' | 'cancelled'>('idle');
+  diagnosisError = $state<string | null>(null);
+  /** The overview could not be built (a file damaged past its header). */
+  overviewError = $state<string | null>(null);
+  /** Analysis settings (op name → values), used by every examination of this and later recordings. */
+  analysisParams = $state.raw<Record<string, ParamValues>>({});
+  question = $state.raw<Question | null>(null);
+  /** The spectrograms' colour range (dBFS) and the band of frequencies they show (null: all). */
+  spectroRange = $state.raw<{ floorDb: number; topDb: number }>({ floorDb: -110, topDb: -10 });
+  spectroBand = $state.raw<readonly [number, number] | null>(null);
+  /** Vertical zoom of the waveform: full scale is this many lane heights (1 … 64). */
+  waveZoom = $state(1);
+  zoomAmplitude = (by: number) => { this.waveZoom = Math.max(1, Math.min(64, this.waveZoom * by)); };
+  shortcutsOpen = $state(false);
+  /** The steps' version when they were last saved (or opened): other versions are unsaved work. */
+  savedVersion = $state(0);
+  /** A session opened on a recording whose checksum is still being computed: its steps wait. */
+  sessionWaiting = $state.raw<Session | null>(null);
+  #exportTask: Task<unknown> | null = null;
   work = $state.raw<Engine | null>(null);
   #taskId = 0;
   #noteId = 0;
 
   constructor(readonly bridge: Bridge) {
     const self = this;
+    this.analysisParams = loadAnalysisParams();
     this.player = new Player({
       get view() { return self.view; },
       timeline: this.timeline,
@@ -113,6 +151,45 @@ export class Editor {
     return m;
   }
 
+  /** The way each step's main value is set, as last chosen on its card (lib/param-form.ts MODES). */
+  stepModes = $state.raw<Record<string, string>>({});
+  chooseMode = (stepId: string, op: string, mode: string) => {
+    const s = this.steps.steps.find((x) => x.id === stepId);
+    if (!s) return;
+    this.stepModes = { ...this.stepModes, [stepId]: mode };
+    // Text typed into the fields of the way left behind no longer counts.
+    this.typing = Object.fromEntries(Object.entries(this.typing).filter(([k]) => !k.startsWith(stepId + ':')));
+    this.steps.replaceParams(stepId, switchMode(op, s.params, mode), 'change how the speed is set');
+  };
+
+  /** Text being typed that is not a valid value yet, by `stepId:param`. */
+  typing = $state.raw<Record<string, string>>({});
+  setTyping = (stepId: string, param: string, message: string | null) => {
+    const key = `${stepId}:${param}`;
+    if ((this.typing[key] ?? null) === message) return;
+    const next = { ...this.typing };
+    if (message === null) delete next[key]; else next[key] = message;
+    this.typing = next;
+  };
+
+  /** What stops each enabled step from rendering, checked before rendering (lib/param-form.ts), by step id. */
+  get stepProblems(): Map<string, Map<string, string>> {
+    const out = new Map<string, Map<string, string>>();
+    for (const s of this.steps.steps) {
+      const op = findOperation(s.op);
+      const m = op?.kind === 'correction' ? stepProblems(s.op, op.params, s.params, this.facts) : new Map([['', `“${s.op}” is not available in this version.`]]);
+      for (const [k, v] of Object.entries(this.typing)) if (k.startsWith(s.id + ':')) m.set(k.slice(s.id.length + 1), v);
+      if (m.size) out.set(s.id, m);
+    }
+    return out;
+  }
+
+  /** Enabled steps that cannot render as set. */
+  get blockedSteps(): number {
+    const p = this.stepProblems;
+    return this.steps.enabled.filter((s) => p.has(s.id)).length;
+  }
+
   /** What each step card says about time (lib/chain-notes.ts), by step id. */
   get stepNotes() {
     const find = (n: string) => { const o = findOperation(n); return o?.kind === 'correction' ? (o as CorrectionOp) : undefined; };
@@ -161,6 +238,42 @@ export class Editor {
     return Math.max(-24, Math.min(24, p.originalRmsDbfs - p.processedRmsDbfs));
   }
 
+  /** The recording is open and drawn: exporting, saving and rendering make sense. */
+  get ready(): boolean { return this.opened !== null && this.peaks !== null && this.overviewError === null; }
+
+  /** Corrections or markers that a new recording would throw away unsaved. */
+  get dirty(): boolean {
+    return this.file !== null && (this.steps.steps.length > 0 || this.markers.list.length > 0) && this.steps.version !== this.savedVersion;
+  }
+
+  /** Asks a question in a dialog; resolves with the chosen value (Escape: the cancel value). */
+  ask(q: Omit<Question, 'answer'>): Promise<string> {
+    return new Promise((resolve) => {
+      this.question?.answer(this.question.cancel);
+      this.question = { ...q, answer: (v) => { this.question = null; resolve(v); } };
+    });
+  }
+
+  /** Before replacing the recording: unsaved corrections are only thrown away when the user says so. */
+  async mayDiscard(what: string): Promise<boolean> {
+    if (!this.dirty) return true;
+    const n = this.steps.steps.length, m = this.markers.list.length;
+    const parts = [n ? `${n} correction${n === 1 ? '' : 's'}` : '', m ? `${m} marker${m === 1 ? '' : 's'}` : ''].filter(Boolean).join(' and ');
+    const a = await this.ask({
+      title: 'Unsaved corrections',
+      text: `${what} closes ${this.file?.name ?? 'this recording'}, and its ${parts} have not been saved in a session.`,
+      choices: [
+        { label: 'Keep working', value: 'keep' },
+        { label: 'Save the session first', value: 'save' },
+        { label: 'Discard them', value: 'discard', primary: true },
+      ],
+      cancel: 'keep',
+      testid: 'discard-dialog',
+    });
+    if (a === 'save') return await this.saveSession();
+    return a === 'discard';
+  }
+
   note(text: string, tone: Note['tone'] = 'info'): void {
     const n = { id: ++this.#noteId, text, tone };
     this.notes = [...this.notes.slice(-4), n];
@@ -170,7 +283,10 @@ export class Editor {
   #track<T>(label: string, start: (progress: (f: number, l: string) => void) => Task<T>): Promise<T> {
     const id = ++this.#taskId;
     let task: Task<T> | null = null;
-    const cancel = () => task?.cancel();
+    const cancel = () => {
+      task?.cancel();
+      this.tasks = this.tasks.map((t) => (t.id === id ? { ...t, cancelling: true, label: `${t.label} (stopping…)` } : t));
+    };
     this.tasks = [...this.tasks, { id, label, fraction: 0, cancel }];
     task = start((fraction, l) => {
       this.tasks = this.tasks.map((t) => (t.id === id ? { ...t, fraction, label: l && l !== 'done' ? `${label}: ${l}` : label } : t));
@@ -179,8 +295,9 @@ export class Editor {
   }
 
   #fail = (what: string) => (err: unknown) => {
+    if (err instanceof JobError && err.superseded) return;
     if (err instanceof JobError && err.cancelled) { this.note(`${what}: cancelled`); return; }
-    this.note(`${what}: ${err instanceof Error ? err.message : String(err)}`, 'error');
+    this.note(`${what}: ${editorWords(err instanceof Error ? err.message : String(err), corrections().flatMap((o) => o.params))}`, 'error');
   };
 
   /** At start: the recording or session the app was started with, else (unless told not to) the demo. */
@@ -194,6 +311,7 @@ export class Editor {
   };
 
   openDemo = async () => {
+    if (!(await this.mayDiscard('Opening the demo'))) return;
     try {
       const f = await this.bridge.openDemo();
       if (!f) { this.note('No demo recording is installed (run: npm run demo). Open a file instead.', 'warn'); return; }
@@ -202,32 +320,97 @@ export class Editor {
   };
 
   pickFile = async () => {
+    if (!(await this.mayDiscard('Opening another recording'))) return;
     try {
       const f = await this.bridge.pickAudioFile();
       if (f) await this.open(f);
     } catch (e) { this.#fail('Opening')(e); }
   };
 
-  async open(f: OpenedFile): Promise<void> {
+  /** A file dropped on the window (web mode hands the File to the bridge; Electron gives its path). */
+  openDropped = async (file: File) => {
+    const b = this.bridge as Partial<{ adoptFile(f: File): OpenedFile }>;
+    if (!b.adoptFile) { this.note('Dropping files is not available here: use Open recording.', 'warn'); return; }
+    if (/\.(rwsession|json)$/i.test(file.name)) {
+      try {
+        const s = parseSession(await file.text());
+        if (!(await this.mayDiscard('Opening a session'))) return;
+        this.pendingSession = s;
+      } catch (e) { this.openError = { name: file.name, message: e instanceof Error ? e.message : String(e) }; }
+      return;
+    }
+    if (!(await this.mayDiscard('Opening another recording'))) return;
+    await this.open(b.adoptFile(file));
+  };
+
+  /** Reopens a recent item: a session from its saved text; a recording through the picker (a page cannot reopen a file by name). */
+  openRecent = async (r: RecentItem) => {
+    if (r.kind === 'session' && r.text) {
+      if (!(await this.mayDiscard('Opening a session'))) return;
+      try {
+        const s = parseSession(r.text);
+        if (this.bridge.mode === 'web') this.pendingSession = s;
+        else await this.resumeSession(s);
+      } catch (e) { this.openError = { name: r.name, message: e instanceof Error ? e.message : String(e) }; }
+      return;
+    }
+    if (this.bridge.mode === 'web') this.note(`Choose ${r.name} in the file picker: the browser does not let a page reopen a file by itself.`);
+    await this.pickFile();
+  };
+
+  /** Back to the recording that was open before a file failed to open. */
+  dismissOpenError = () => { this.openError = null; };
+
+  /**
+   * Opens a recording. The header is read in new workers first: a file that cannot be opened
+   * leaves the current recording (and its workers) as they were and shows what is wrong.
+   * Otherwise every job of the old recording ends (its workers are stopped) and the new one is
+   * drawn, examined and checksummed.
+   */
+  async open(f: OpenedFile): Promise<boolean> {
+    const view = new Engine(this.bridge, 'views');
+    const work = new Engine(this.bridge, 'work');
+    this.opening = f.name;
+    const blob = 'blobOf' in this.bridge ? (this.bridge as { blobOf(h: string): Blob | undefined }).blobOf(f.handle) : undefined;
+    const ref = { handle: f.handle, name: f.name, sizeBytes: f.sizeBytes, ...(blob ? { blob } : {}) };
+    let opened: OpenResult;
+    try {
+      [opened] = await Promise.all([view.run({ type: 'open', file: ref }).promise, work.run({ type: 'open', file: ref }).promise]);
+    } catch (e) {
+      view.terminate(); work.terminate();
+      if (this.file?.handle !== f.handle) void this.bridge.closeFile(f.handle).catch(() => {});
+      this.opening = null;
+      this.openError = { name: f.name, message: openErrorWords(e, f.name) };
+      return false;
+    } finally {
+      if (this.opening === f.name) this.opening = null;
+    }
     this.player.stop();
     this.view?.terminate();
     this.work?.terminate();
-    if (this.file) void this.bridge.closeFile(this.file.handle);
-    this.view = new Engine(this.bridge, 'views');
-    this.work = new Engine(this.bridge, 'work');
+    this.tasks = [];
+    if (this.file && this.file.handle !== f.handle) void this.bridge.closeFile(this.file.handle).catch(() => {});
+    this.view = view;
+    this.work = work;
     this.file = f;
-    this.opened = null; this.peaks = null; this.corrected = null; this.diagnosis = null;
+    this.openError = null;
+    this.overviewError = null;
+    this.diagnosisError = null;
+    this.diagnosisState = 'running';
+    this.exportOpen = false;
+    this.compareOpen = false;
+    this.peaks = null; this.corrected = null; this.diagnosis = null;
     this.spectra = null; this.remeasures = null; this.checksum = null; this.overviewMs = null; this.compared = null;
+    this.#remeasuredFor = null;
+    this.sessionWaiting = null;
+    if (this.player.which !== 'original') this.player.which = 'original';
     this.steps.reset([]);
-    this.markers.reset([]);
-    const blob = 'blobOf' in this.bridge ? (this.bridge as { blobOf(h: string): Blob | undefined }).blobOf(f.handle) : undefined;
-    const ref = { handle: f.handle, name: f.name, sizeBytes: f.sizeBytes, ...(blob ? { blob } : {}) };
-    const [opened] = await Promise.all([this.view.run({ type: 'open', file: ref }).promise, this.work.run({ type: 'open', file: ref }).promise]);
+    this.savedVersion = this.steps.version;
     this.opened = opened;
     this.markers.reset(opened.markers);
     this.timeline.reset(opened.layout.frames / opened.layout.sampleRateHz);
+    rememberRecent({ kind: 'recording', name: f.name, path: f.path, sizeBytes: f.sizeBytes });
     const t0 = performance.now();
-    const view = this.view, work = this.work;
     // The overview first (it has both cores to itself), then the diagnosis and the checksum.
     // Both workers build half of the overview each (two cores), joined here.
     const { frames, sampleRateHz } = opened.layout;
@@ -243,13 +426,47 @@ export class Editor {
       if (this.view !== view) return;
       this.peaks = pyramidFromParts(levels, frames, sampleRateHz);
       this.overviewMs = performance.now() - t0;
-    }, this.#fail('Overview'));
+    }, (e: unknown) => {
+      if (this.view !== view || (e instanceof JobError && e.superseded)) return;
+      this.overviewError = e instanceof JobError && e.cancelled ? 'Drawing its overview was cancelled: open it again to see it.' : openErrorWords(e, f.name);
+    });
     void overview
-      .then(() => (this.work === work ? this.#track('Diagnosis', (p) => work.run({ type: 'diagnose' }, { progress: p })) : null))
-      .then((d) => { if (d && this.work === work) this.diagnosis = d; }, this.#fail('Diagnosis'))
+      .then(() => (this.work === work ? this.#examine(work) : null))
       .then(() => this.work === work ? this.#track('Checksum', (p) => work.run({ type: 'checksum' }, { progress: p })) : null)
       .then((sum) => { if (sum && this.work === work) this.checksum = sum; }, this.#fail('Checksum'));
+    return true;
   }
+
+  /** Runs every analysis with the editor's analysis settings; the findings panel follows its state. */
+  async #examine(work: Engine): Promise<void> {
+    this.diagnosisState = 'running';
+    this.diagnosisError = null;
+    try {
+      const d = await this.#track('Examining', (p) => work.run({ type: 'diagnose', params: this.analysisParams }, { progress: p }));
+      if (this.work !== work) return;
+      this.diagnosis = d;
+      this.diagnosisState = 'done';
+    } catch (e) {
+      if (this.work !== work || (e instanceof JobError && e.superseded)) return;
+      this.diagnosisState = e instanceof JobError && e.cancelled ? 'cancelled' : 'failed';
+      this.diagnosisError = e instanceof Error ? e.message : String(e);
+    }
+  }
+
+  /** Examines the recording again (after the analysis settings changed, or a cancelled run). */
+  reexamine = async () => {
+    const work = this.work;
+    if (!work || !this.opened || this.diagnosisState === 'running') return;
+    this.diagnosis = null;
+    await this.#examine(work);
+  };
+
+  setAnalysisParam = (op: string, name: string, v: ParamValue) => {
+    const cur = { ...(this.analysisParams[op] ?? {}) };
+    if (v === undefined) delete cur[name]; else cur[name] = v;
+    this.analysisParams = { ...this.analysisParams, [op]: cur };
+    saveAnalysisParams(this.analysisParams);
+  };
 
   get findings(): Finding[] {
     return this.diagnosis?.findings ?? [];
@@ -281,7 +498,7 @@ export class Editor {
     if (!op || op.kind !== 'correction') return;
     const params: ParamValues = {};
     for (const p of op.params) if (!p.cliOnly && p.default !== undefined) params[p.name] = p.default as ParamValues[string];
-    this.steps.add(op.name, params, undefined, op.title);
+    this.steps.add(op.name, initialParams(op.name, params), undefined, op.title);
   };
 
   /** The part of the recording a preview covers: all of it when it fits, else the selection or the view. */
@@ -366,59 +583,110 @@ export class Editor {
     const steps = this.specs();
     const markers = this.markers.list;
     try {
-      const r = await this.#track('Export', (p) => work.run({ type: 'export', steps, format, target: target.handle, description: `Restored from ${f.name}`, markers }, { progress: p }));
+      const r = await this.#track('Export', (p) => (this.#exportTask = work.run({ type: 'export', steps, format, target: target.handle, description: `Restored from ${f.name}`, markers }, { progress: p })));
+      this.#exportTask = null;
       const done = await this.bridge.finishExport(target.handle);
       const cues = r.cuePoints ? `, ${r.cuePoints} marker${r.cuePoints === 1 ? '' : 's'} as cue points` : '';
       this.note(`Exported ${done.name} (${r.container}, ${(done.bytes / 1e6).toFixed(1)} MB, ${steps.length} step${steps.length === 1 ? '' : 's'} in its history${cues}).`);
       return true;
     } catch (e) {
+      this.#exportTask = null;
       await this.bridge.abortExport(target.handle).catch(() => {});
-      this.#fail('Export')(e);
+      if (e instanceof JobError && e.cancelled && !e.superseded) this.note('Export cancelled: nothing was written.');
+      else this.#fail('Export')(e);
       return false;
     }
   };
 
-  saveSession = async () => {
-    if (!this.file) return;
-    if (!this.checksum) { this.note('The checksum is still being computed; try again in a moment.', 'warn'); return; }
+  /** Stops the export under way; the bridge removes what it had written. */
+  cancelExport = () => { this.#exportTask?.cancel(); };
+
+  saveSession = async (): Promise<boolean> => {
+    if (!this.file) return false;
+    if (!this.checksum) { this.note('The checksum is still being computed; try again in a moment.', 'warn'); return false; }
+    const version = this.steps.version;
     const text = sessionText({ name: this.file.name, path: this.file.path, sizeBytes: this.file.sizeBytes, audioMd5: this.checksum }, this.steps.steps, this.markers.list);
     try {
       const saved = await this.bridge.saveSession(text, this.file.name.replace(/\.[^.]+$/, '') + '.rwsession');
-      if (saved) this.note(`Session saved as ${saved.name}.`);
-    } catch (e) { this.#fail('Saving the session')(e); }
+      if (saved) {
+        this.note(`Session saved as ${saved.name}.`);
+        this.savedVersion = version;
+        rememberRecent({ kind: 'session', name: saved.name, path: saved.path, sizeBytes: 0, text });
+        return true;
+      }
+      return false;
+    } catch (e) { this.#fail('Saving the session')(e); return false; }
   };
 
   /** A session waiting for its recording (web mode asks the user to pick it: a picker needs a click). */
   pendingSession = $state.raw<Session | null>(null);
 
   openSession = async () => {
+    if (!(await this.mayDiscard('Opening a session'))) return;
     try {
       const t = await this.bridge.openSession();
       if (!t) return;
       const s = parseSession(t.text);
+      rememberRecent({ kind: 'session', name: t.name, path: t.path, sizeBytes: 0, text: t.text });
       if (this.bridge.mode === 'web') this.pendingSession = s;
       else await this.resumeSession(s);
     } catch (e) { this.#fail('Opening the session')(e); }
   };
 
+  /**
+   * Opens a session's recording; its steps and markers are applied only once the recording's
+   * checksum matches the session's, or after the user says to apply them to a different one.
+   */
   resumeSession = async (s: Session) => {
     this.pendingSession = null;
     try {
       const f = await this.bridge.reopenSource(s.source.path, s.source.name);
       if (!f) return;
-      await this.open(f);
-      this.steps.reset(s.steps);
-      this.markers.reset(s.markers);
+      if (!(await this.open(f))) return;
+      this.sessionWaiting = s;
       const work = this.work;
+      if (f.sizeBytes !== s.source.sizeBytes) { void this.#sessionMismatch(s, f.name, `its size differs (${f.sizeBytes} bytes; the session's recording had ${s.source.sizeBytes})`); return; }
       const check = setInterval(() => {
-        if (this.work !== work) { clearInterval(check); return; }
+        if (this.work !== work || this.sessionWaiting !== s) { clearInterval(check); return; }
         if (!this.checksum) return;
         clearInterval(check);
-        if (this.checksum !== s.source.audioMd5) this.note(`${f.name} is not the recording this session was made on (checksum differs).`, 'error');
-        else this.note(`Session reopened: ${s.steps.length} steps on ${f.name}; checksum matches.`);
+        if (this.checksum !== s.source.audioMd5) void this.#sessionMismatch(s, f.name, 'the checksum of its audio differs');
+        else this.#applySession(s, `Session reopened: ${s.steps.length} step${s.steps.length === 1 ? '' : 's'} on ${f.name}; checksum matches.`);
       }, 250);
     } catch (e) { this.#fail('Opening the session')(e); }
   };
+
+  #applySession(s: Session, message: string): void {
+    this.sessionWaiting = null;
+    this.steps.reset(s.steps);
+    this.markers.reset(s.markers);
+    this.savedVersion = this.steps.version;
+    this.note(message);
+  }
+
+  async #sessionMismatch(s: Session, name: string, why: string): Promise<void> {
+    const work = this.work;
+    const a = await this.ask({
+      title: 'A different recording',
+      text: `${name} is not the recording this session was made on: ${why}. Its ${s.steps.length} correction${s.steps.length === 1 ? '' : 's'} and ${s.markers.length} marker${s.markers.length === 1 ? '' : 's'} were measured on ${s.source.name} and may be wrong here.`,
+      choices: [
+        { label: 'Do not apply them', value: 'no' },
+        { label: 'Apply them anyway', value: 'apply', primary: true },
+      ],
+      cancel: 'no',
+      testid: 'mismatch-dialog',
+    });
+    if (this.work !== work || this.sessionWaiting !== s) return;
+    if (a === 'apply') this.#applySession(s, `Session applied to ${name}, which is not its recording.`);
+    else { this.sessionWaiting = null; this.note(`The session's corrections were not applied to ${name}.`, 'warn'); }
+  }
+}
+
+/** An open failure in words: the reader's one line without a leading copy of the file name. */
+export function openErrorWords(e: unknown, name: string): string {
+  const m = e instanceof Error ? e.message : String(e);
+  const t = m.startsWith(name + ': ') ? m.slice(name.length + 2) : m;
+  return t.charAt(0).toUpperCase() + t.slice(1);
 }
 
 const KEY = Symbol('editor');

@@ -36,6 +36,15 @@ export class Player {
   levelDb = $state(-12);
   meterDb = $state(-120);
   meterPeakDb = $state(-120);
+  /**
+   * Per channel, of the programme as played (before the listening level): sample peak (dBFS, held)
+   * and the loudness of the last ~0.4 s, K-weighted as BS.1770 (LUFS; Web Audio's shelving filter
+   * approximates the standard's first stage).
+   */
+  channelMeters = $state.raw<readonly { peakDb: number; heldDb: number; lufs: number }[]>([]);
+  #splitAnalysers: { peak: AnalyserNode; loud: AnalyserNode }[] = [];
+  #pre: GainNode | null = null;
+  #chanBuf = new Float32Array(0);
   caution = $state<null | { reason: 'first' | 'loud'; detail: string }>(null);
   #accepted = false;
   #loudAcceptedAtDb: number | null = null;
@@ -91,6 +100,7 @@ export class Player {
     for (const s of this.#scheduled) { try { s.node.stop(); } catch { /* already stopped */ } }
     this.#scheduled = [];
     this.meterDb = -120;
+    this.channelMeters = this.channelMeters.map(() => ({ peakDb: -120, heldDb: -120, lufs: -120 }));
   };
 
   /** A/B: the other version from the same position. */
@@ -123,6 +133,28 @@ export class Player {
       this.#analyser.fftSize = 2048;
       this.#master.connect(this.#analyser);
       this.#analyser.connect(this.#ctx.destination);
+      // The programme's own levels, per channel, tapped before the listening level.
+      this.#pre = this.#ctx.createGain();
+      this.#pre.connect(this.#master);
+      const n = 8; // the page shows as many as the recording has
+      const split = this.#ctx.createChannelSplitter(n);
+      this.#pre.connect(split);
+      const win = Math.min(32768, 2 ** Math.ceil(Math.log2(0.4 * this.#ctx.sampleRate)));
+      this.#splitAnalysers = Array.from({ length: n }, (_, c) => {
+        const peak = this.#ctx!.createAnalyser();
+        peak.fftSize = 2048;
+        split.connect(peak, c);
+        const shelf = this.#ctx!.createBiquadFilter();
+        shelf.type = 'highshelf'; shelf.frequency.value = 1681.97; shelf.gain.value = 4.0;
+        const hp = this.#ctx!.createBiquadFilter();
+        hp.type = 'highpass'; hp.frequency.value = 38.14; hp.Q.value = 0.5;
+        split.connect(shelf, c);
+        shelf.connect(hp);
+        const loud = this.#ctx!.createAnalyser();
+        loud.fftSize = win;
+        hp.connect(loud);
+        return { peak, loud };
+      });
     }
     await this.#ctx.resume();
     const ctx = this.#ctx;
@@ -176,7 +208,7 @@ export class Player {
         chunk.forEach((c, i) => buf.copyToChannel(c as Float32Array<ArrayBuffer>, i));
         const node = ctx.createBufferSource();
         node.buffer = buf;
-        node.connect(this.#master!);
+        node.connect(this.#pre ?? this.#master!);
         const at = Math.max(this.#nextAt, ctx.currentTime + 0.01);
         node.start(at);
         this.#scheduled.push({ at, pos: this.#nextPos, dur, node });
@@ -217,5 +249,26 @@ export class Player {
     const db = 20 * Math.log10(peak + 1e-9);
     this.meterDb = Math.max(db, this.meterDb - 1.5);
     this.meterPeakDb = Math.max(db, this.meterPeakDb - 0.3);
+    const prev = this.channelMeters;
+    this.channelMeters = this.#splitAnalysers.map(({ peak: pa, loud }, c) => {
+      if (this.#chanBuf.length < loud.fftSize) this.#chanBuf = new Float32Array(loud.fftSize);
+      const b = this.#chanBuf.subarray(0, pa.fftSize);
+      pa.getFloatTimeDomainData(b);
+      let pk = 0;
+      for (const v of b) { const x = Math.abs(v); if (x > pk) pk = x; }
+      const lb = this.#chanBuf.subarray(0, loud.fftSize);
+      loud.getFloatTimeDomainData(lb);
+      let ms = 0;
+      for (const v of lb) ms += v * v;
+      ms /= lb.length;
+      const peakDb = 20 * Math.log10(pk + 1e-9);
+      const old = prev[c];
+      return {
+        peakDb: Math.max(peakDb, (old?.peakDb ?? -120) - 1.5),
+        heldDb: Math.max(peakDb, (old?.heldDb ?? -120) - 0.15),
+        // BS.1770: loudness = −0.691 + 10·log10(mean square of the K-weighted signal).
+        lufs: ms > 0 ? -0.691 + 10 * Math.log10(ms) : -120,
+      };
+    });
   }
 }

@@ -26,6 +26,7 @@ export class StepsState {
   remove = (id: string) => { this.#list.remove(id); this.#sync(); };
   setEnabled = (id: string, on: boolean) => { this.#list.setEnabled(id, on); this.#sync(); };
   setParam = (id: string, name: string, v: ParamValue) => { this.#list.setParam(id, name, v); this.#sync(); };
+  replaceParams = (id: string, params: ParamValues, label?: string) => { this.#list.replaceParams(id, params, label); this.#sync(); };
   move = (id: string, to: number) => { this.#list.move(id, to); this.#sync(); };
   undo = () => { if (this.#list.undo()) this.#sync(); };
   redo = () => { if (this.#list.redo()) this.#sync(); };

@@ -11,6 +11,7 @@ import { MemorySource } from '../../../dsp/source.ts';
 import { PeakBuilder, pyramidBuffers, BASE_BUCKET_FRAMES } from '../lib/peaks.ts';
 import { Md5 } from '../lib/md5.ts';
 import { FileSource } from './file-source.ts';
+import type { FlacSource } from '../lib/flac-source.ts';
 import { decodeSamples, type AudioLayout } from '../../../dsp/formats/index.ts';
 import { readLayout } from './audio-layout.ts';
 import type { FromWorker, Job, JobResults, ToWorker, Which } from './protocol.ts';
@@ -34,7 +35,7 @@ const running = new Map<number, { aborted: boolean }>();
 
 let file: { handle: string; name: string; sizeBytes: number } | null = null;
 let layout: AudioLayout | null = null;
-let original: FileSource | null = null;
+let original: FileSource | FlacSource | null = null;
 let processed: Processed | null = null;
 
 /** Web mode hands the worker the file itself; reads then never go through the page. */
@@ -60,7 +61,9 @@ function writeBytes(handle: string, bytes: Uint8Array, atOffset: number | null):
   });
 }
 
-const needOriginal = (): FileSource => {
+const isFlac = (s: FileSource | FlacSource | null): s is FlacSource => s !== null && s.layout.container === 'FLAC';
+
+const needOriginal = (): FileSource | FlacSource => {
   if (!original) throw new InputError('no recording is open');
   return original;
 };
@@ -81,10 +84,12 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       processed = null;
       const handle = job.file.handle;
       layout = await readLayout((o, l) => readBytes(handle, o, l), job.file.sizeBytes, job.file.name);
-      if (layout.container === 'FLAC' || layout.blockAlign === 0) {
-        throw new InputError('the editor opens WAV, BWF, RF64 and AIFF; convert FLAC first with `reelwright convert IN.flac OUT.wav` (bit-exact, tags kept)', job.file.name);
-      }
-      original = new FileSource((o, l) => readBytes(handle, o, l), layout);
+      const read = (o: number, l: number) => readBytes(handle, o, l);
+      // The FLAC decoder loads only when a FLAC opens: WAV and AIFF start without it.
+      original = layout.container === 'FLAC'
+        ? await (await import('../lib/flac-source.ts')).FlacSource.open(read, layout, job.file.sizeBytes, job.file.name)
+        : new FileSource(read, layout);
+      if (isFlac(original) && original.frames !== layout.frames) layout = { ...layout, frames: original.frames };
       const result: JobResults['open'] = { layout, codingHistory: layout.bext?.codingHistory ?? '', chunkIds: layout.chunks.map((c) => c.id), markers: await fileMarkers(layout, (o, l) => readBytes(handle, o, l), job.file.name) };
       return { result, transfer: [] };
     }
@@ -93,6 +98,15 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       const total = job.endFrame - job.startFrame;
       const builder = new PeakBuilder(src.channelCount, total, src.sampleRateHz);
       let last = 0;
+      if (isFlac(src)) {
+        for await (const piece of src.float32Pieces(job.startFrame, job.endFrame)) {
+          if (signal.aborted) throw new CancelledError('cancelled');
+          builder.push(piece);
+          if (builder.frames - last > total / 50) { last = builder.frames; progress(builder.frames / total, 'Drawing the overview'); }
+        }
+        const level = builder.level0();
+        return { result: level, transfer: [...level.min, ...level.max].map((a) => a.buffer) };
+      }
       // Straight from the stored bytes into reused float32 buffers: no per-block allocation.
       let planar: Float32Array[] = [];
       for await (const { bytes } of src.rawChunks(job.startFrame, job.endFrame, false, 16 << 20, 2)) {
@@ -113,6 +127,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
     }
     case 'checksum': {
       const src = needOriginal();
+      if (isFlac(src)) return { result: await src.audioMd5((f) => progress(f, 'Checksum'), signal), transfer: [] };
       const md5 = new Md5();
       for await (const { firstFrame, bytes } of src.rawChunks(0, src.frames)) {
         if (signal.aborted) throw new CancelledError('cancelled');
@@ -122,7 +137,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       return { result: md5.hex(), transfer: [] };
     }
     case 'diagnose':
-      return { result: await diagnose(needOriginal(), { progress: (f) => progress(f, 'examining'), warn, signal }), transfer: [] };
+      return { result: await diagnose(needOriginal(), { progress: (f) => progress(f, 'examining'), warn, signal }, { params: job.params ?? {} }), transfer: [] };
     case 'preview': {
       const r = await preview(needOriginal(), job.steps, job.startFrame, job.endFrame, ctx);
       processed = r.processed;

@@ -9,11 +9,13 @@ import {
   appendCodingHistory, buildBext, codingHistoryLine, copiesChunk, newBextFixed, WavStreamEncoder,
   type RawChunk,
 } from '../../../dsp/formats/index.ts';
+import { carryMetadata } from '../../../dsp/formats/info-list.ts';
 import { buildAdtlList, buildCueChunk, isAdtlList, type CuePoint } from '../../../dsp/formats/cue.ts';
 import { mapTime } from '../../../dsp/ops/timing.ts';
 import { MemorySource, readAll } from '../../../dsp/source.ts';
 import type { Rendering, TimeSegment } from '../../../dsp/ops/types.ts';
-import type { FileSource } from './file-source.ts';
+import type { AudioSource } from '../../../dsp/source.ts';
+import type { AudioLayout } from '../../../dsp/formats/index.ts';
 import { renderInMemory, streamingRendering, type Progress, type StepReport } from './pipeline.ts';
 import type { Job, JobResults } from './protocol.ts';
 
@@ -26,7 +28,7 @@ const IN_MEMORY_SAMPLES = 1 << 25;
 /** Bytes per bridge write. */
 const WRITE_BYTES = 4 << 20;
 
-export async function exportFile(source: FileSource, sourceHandle: string, read: Read, write: Write, job: ExportJob, p: Progress): Promise<JobResults['export']> {
+export async function exportFile(source: AudioSource & { readonly layout: AudioLayout }, sourceHandle: string, read: Read, write: Write, job: ExportJob, p: Progress): Promise<JobResults['export']> {
   const layout = source.layout;
   let rendering: Rendering;
   let reports: StepReport[];
@@ -65,7 +67,16 @@ export async function exportFile(source: FileSource, sourceHandle: string, read:
   // began as the source's own cue points) are written anew at their places in the output's time.
   const before: RawChunk[] = [], after: RawChunk[] = [];
   const writeMarkers = job.markers !== undefined;
-  for (const c of layout.chunks) {
+  const foreign = layout.container === 'FLAC' || layout.container === 'AIFF' || layout.container === 'AIFC';
+  if (foreign) {
+    // FLAC tags and AIFF text chunks become a RIFF INFO list, as the command line does (main/io/writer.ts).
+    const chunks = [];
+    for (const c of layout.chunks) if (c.size <= 8 << 20 && c.id !== 'SSND') chunks.push({ id: c.id, data: await read(sourceHandle, c.offset, c.size) });
+    const carried = carryMetadata(layout.container as 'FLAC' | 'AIFF' | 'AIFC', chunks);
+    if (carried.list) before.push({ id: 'LIST', data: carried.list });
+    for (const what of carried.notCarried) p.warn(`not carried into the WAV: ${what}`);
+  }
+  for (const c of foreign ? [] : layout.chunks) {
     if (!copiesChunk(c.id) || c.id === 'SSND' || c.id === 'COMM' || c.id === 'FORM' || c.size > 8 << 20) continue;
     if (writeMarkers && c.id === 'cue ') continue;
     const data = await read(sourceHandle, c.offset, c.size);

@@ -115,7 +115,7 @@ export type Job =
   | { type: 'open'; file: FileRef }
   | { type: 'overview'; startFrame: number; endFrame: number }
   | { type: 'checksum' }
-  | { type: 'diagnose' }
+  | { type: 'diagnose'; params?: Readonly<Record<string, ParamValues>> }
   | { type: 'preview'; steps: StepSpec[]; startFrame: number; endFrame: number }
   | { type: 'adoptProcessed'; channels: Float32Array[]; sampleRateHz: number; startFrame: number }
   | { type: 'dropProcessed' }
