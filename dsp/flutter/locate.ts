@@ -9,7 +9,7 @@
  * with the stronger tone in the middle of the segment.
  */
 import type { AudioSource } from '../source.ts';
-import type { OpContext } from '../ops/types.ts';
+import type { OpContext } from '../context.ts';
 import { CancelledError, NotFoundError } from '../errors.ts';
 import { FftPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';

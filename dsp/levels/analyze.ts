@@ -5,7 +5,7 @@
  * effective bandwidth.
  */
 import type { AudioSource } from '../source.ts';
-import type { OpContext } from '../ops/types.ts';
+import type { OpContext } from '../context.ts';
 import { CancelledError } from '../errors.ts';
 import { LoudnessMeter } from './loudness.ts';
 import { TruePeakMeter } from './true-peak.ts';

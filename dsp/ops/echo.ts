@@ -6,6 +6,8 @@
 import { analyseEcho, type EchoAnalysis } from '../echo/detect.ts';
 import { num, range } from './params.ts';
 import type { AnalysisOp, Finding } from './types.ts';
+import { numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
+import { gainToDb } from '../units.ts';
 
 const round = (v: number | null, digits: number): number | null => (v === null ? null : Number(v.toFixed(digits)));
 
@@ -147,4 +149,33 @@ export const echo: AnalysisOp<EchoAnalysis> = {
     }
     return out;
   },
+
+  // The batch report's columns and the check's gates (delay and strength only for what is present).
+  columns: [
+    { header: 'echoPresent', get: (s) => objectOf(s.echo)?.present as boolean | undefined },
+    { header: 'echoDelaySeconds', get: (s) => (objectOf(s.echo)?.present === true ? roundTo(sectionNumber(s, 'echo', 'delaySeconds'), 6) : undefined) },
+    { header: 'echoGain', get: (s) => (objectOf(s.echo)?.present === true ? roundTo(sectionNumber(s, 'echo', 'gain'), 4) : undefined) },
+    { header: 'printThroughPresent', get: (s) => objectOf(s.printThrough)?.present as boolean | undefined },
+    { header: 'printThroughDelaySeconds', get: (s) => (objectOf(s.printThrough)?.present === true ? roundTo(sectionNumber(s, 'printThrough', 'delaySeconds'), 4) : undefined) },
+    { header: 'printThroughLevelDb', get: (s) => (objectOf(s.printThrough)?.present === true ? roundTo(sectionNumber(s, 'printThrough', 'levelDb'), 1) : undefined) },
+  ],
+  metrics: [
+    {
+      id: 'echo.gainDb', label: 'echo level', unit: 'dB', digits: 1,
+      get: (s) => {
+        const e = objectOf(s.echo);
+        const g = numberOf(e?.gain);
+        return e?.present === true && g !== undefined && g !== 0 ? gainToDb(g) : undefined;
+      },
+      defaultRule: { warnAt: -30, failAt: -15, comment: 'Level of a detected echo relative to the direct sound.' },
+    },
+    {
+      id: 'printThrough.levelDb', label: 'print-through level', unit: 'dB', digits: 1,
+      get: (s) => {
+        const p = objectOf(s.printThrough);
+        return p?.present === true ? numberOf(p.levelDb) : undefined;
+      },
+      defaultRule: { warnAt: -50, failAt: -35, comment: 'Level of detected print-through relative to the programme.' },
+    },
+  ],
 };

@@ -9,6 +9,7 @@ import { num } from './params.ts';
 import { locateTone } from '../flutter/locate.ts';
 import { demodulateTone } from '../flutter/demodulate.ts';
 import { flutterFigures, type FlutterFigures } from '../flutter/meter.ts';
+import { fixedOrDash, roundTo, sectionNumber } from './sections.ts';
 
 export interface FlutterResult extends FlutterFigures {
   /** Nominal tone, Hz. */
@@ -98,4 +99,33 @@ export const flutter: AnalysisOp<FlutterResult> = {
     }
     return out;
   },
+
+  // The batch report's columns and the check's gates (only when a test tone was found).
+  columns: [
+    { header: 'flutterToneHz', get: (s) => sectionNumber(s, 'flutter', 'toneHz') },
+    { header: 'flutterWeightedPeakPercent', get: (s) => roundTo(sectionNumber(s, 'flutter', 'weightedPeakPercent'), 4) },
+    { header: 'flutterUnweightedPeakPercent', get: (s) => roundTo(sectionNumber(s, 'flutter', 'unweightedPeakPercent'), 4) },
+    { header: 'flutterWeightedRmsPercent', get: (s) => roundTo(sectionNumber(s, 'flutter', 'weightedRmsPercent'), 4) },
+    { header: 'flutterDriftPercent', get: (s) => roundTo(sectionNumber(s, 'flutter', 'driftPercent'), 4) },
+    { header: 'flutterDominantRateHz', get: (s) => roundTo(sectionNumber(s, 'flutter', 'dominantRateHz'), 3) },
+  ],
+  overview: [{ heading: 'Flutter % (wtd)', text: (s) => fixedOrDash(sectionNumber(s, 'flutter', 'weightedPeakPercent'), 3) }],
+  metrics: [
+    {
+      id: 'flutter.weightedPeakPercent', label: 'wow and flutter (weighted)', unit: '%', digits: 3, get: (s) => sectionNumber(s, 'flutter', 'weightedPeakPercent'),
+      defaultRule: { warnAt: 0.1, failAt: 0.25, comment: 'Wow and flutter, IEC 60386 weighted, two-sigma peak (only when a test tone is found).' },
+    },
+    {
+      id: 'flutter.driftPercent', label: 'speed drift', unit: '%', digits: 2, get: (s) => sectionNumber(s, 'flutter', 'driftPercent'),
+      defaultRule: { warnAt: 0.2, failAt: 1, comment: 'Slow speed drift over the test tone, +/- %.' },
+    },
+    {
+      id: 'flutter.meanSpeedErrorPercent', label: 'test tone off nominal', unit: '%', digits: 2,
+      get: (s) => {
+        const v = sectionNumber(s, 'flutter', 'meanSpeedErrorPercent');
+        return v === undefined ? undefined : Math.abs(v);
+      },
+      defaultRule: { warnAt: 0.5, failAt: 2, comment: 'Test tone off its nominal frequency, absolute %.' },
+    },
+  ],
 };

@@ -6,6 +6,9 @@
  */
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD, detectReversedChannels, type ReversedResult } from '../reverse/detect.ts';
 import type { AnalysisOp, Finding } from './types.ts';
+import { arrayOf, objectOf, type Sections } from './sections.ts';
+
+const reversedChannels = (s: Sections): number | undefined => arrayOf(objectOf(s.reversed)?.channels)?.filter((c) => objectOf(c)?.likely === true).length;
 
 export const reversed: AnalysisOp<ReversedResult> = {
   kind: 'analysis',
@@ -71,4 +74,13 @@ export const reversed: AnalysisOp<ReversedResult> = {
     }
     return out;
   },
+
+  // The batch report's column and the check's gate.
+  columns: [{ header: 'reversedChannels', get: reversedChannels }],
+  metrics: [
+    {
+      id: 'reversed.channels', label: 'reversed channels', unit: '', digits: 0, get: reversedChannels,
+      defaultRule: { failAt: 1, comment: 'Channels that are likely recorded in the other direction.' },
+    },
+  ],
 };

@@ -5,6 +5,12 @@
  */
 import type { AudioSource, Block } from '../source.ts';
 import type { Frames, Hertz } from '../units.ts';
+import type { OpContext } from '../context.ts';
+import type { Sections } from './sections.ts';
+
+export type { OpContext } from '../context.ts';
+export { silentContext } from '../context.ts';
+export type { Sections } from './sections.ts';
 
 export type ParamType = 'number' | 'integer' | 'boolean' | 'string' | 'enum' | 'range' | 'list';
 
@@ -45,17 +51,6 @@ export type RangeValue = readonly [number, number];
 
 export type ParamValue = number | boolean | string | RangeValue | readonly number[] | undefined;
 export type ParamValues = Record<string, ParamValue>;
-
-export interface OpContext {
-  /** Fraction done 0–1 for this operation's whole run. */
-  progress(fraction: number): void;
-  /** A non-fatal problem worth telling the user (clamped gain, short material…). */
-  warn(message: string): void;
-  /** Set by the caller to stop work early (an AbortSignal fits this shape). */
-  readonly signal?: { readonly aborted: boolean };
-}
-
-export const silentContext: OpContext = { progress() {}, warn() {} };
 
 /** Static facts about the input that decide whether an operation applies. */
 export interface SourceFacts {
@@ -112,6 +107,58 @@ export interface AnalysisOp<R = unknown> extends OperationBase {
   render?(result: R, format: 'svg' | 'csv', compareWith?: R): string;
   /** Before/after comparison for `--compare OTHER` and the editor's compare view. */
   compare?(before: R, after: R): Record<string, unknown>;
+  /** Columns this analysis adds to the batch report (CSV, and the HTML "Numbers" of each file), in order. */
+  readonly columns?: readonly ReportColumn[];
+  /** Cells this analysis adds to the HTML report's overview table (one row per file). */
+  readonly overview?: readonly OverviewCell[];
+  /** Numbers the check's pass/warn/fail rules can name, each with its default rule if it has one. */
+  readonly metrics?: readonly GateMetric[];
+}
+
+/**
+ * One column of the batch report, read from a file's sections (`{ file, levels, speed, … }` as
+ * `--json` prints them): undefined when the analysis did not run or has no such number.
+ */
+export interface ReportColumn {
+  /** CSV header and the label in the HTML numbers, camelCase with the unit (`loudnessLufs`). */
+  readonly header: string;
+  get(s: Sections): string | number | boolean | undefined;
+}
+
+/** One cell of the HTML report's overview table. */
+export interface OverviewCell {
+  /** Column heading with its unit ("Loudness LUFS"). */
+  readonly heading: string;
+  /** The cell's text ("—" when there is nothing to show). */
+  text(s: Sections): string;
+}
+
+/** A pass/warn/fail rule: at or above `…At`, below `…Below`. */
+export interface GateRule {
+  warnAt?: number;
+  failAt?: number;
+  warnBelow?: number;
+  failBelow?: number;
+}
+
+/** A number the check can gate on (`--thresholds` names it by `id`). */
+export interface GateMetric {
+  /** `section.name` as a thresholds file names it (`levels.truePeakDbtp`). */
+  readonly id: string;
+  /** What a reason calls it ("true peak"), its unit and the decimals shown. */
+  readonly label: string;
+  readonly unit: string;
+  readonly digits: number;
+  /** A yes/no metric (1 or 0): a crossed rule's reason is the label alone. */
+  readonly flag?: boolean;
+  /**
+   * The value; undefined when the analysis did not run, does not apply or found nothing to
+   * judge. Reading a field the result does not have is a defect the resolution test catches
+   * (main/check/thresholds.ts `resolveMetric`).
+   */
+  get(s: Sections): number | undefined;
+  /** The rule `check` applies unless a thresholds file replaces it, with one sentence saying what it flags. */
+  readonly defaultRule?: Readonly<GateRule> & { readonly comment: string };
 }
 
 /** What a correction produces: the output's shape and its blocks. */

@@ -4,7 +4,8 @@
  *
  * Checks every audio file in the given files and folders (recursively): fixity checksum, then
  * every registered analysis that applies (dsp/ops/diagnose.ts), each file in a worker thread.
- * Thresholds (default-thresholds.json, or --thresholds FILE) turn the numbers into pass/warn/fail.
+ * Thresholds (each analysis's default rules, listed by `check --help`, or --thresholds FILE) turn
+ * the numbers into pass/warn/fail.
  * Exit status: 0 when no file fails, 1 when any file fails (unreadable files fail), 2 for bad usage
  * or when no audio file is found.
  */
@@ -19,7 +20,7 @@ import { Progress, toJson } from '../cli/output.ts';
 import { paramsFromFlags, reportError, suggestionCommand } from '../cli/index.ts';
 import { checkFile, type CheckJob, type FileEntry, type JobResult, type Opener } from './check-file.ts';
 import type { FromWorker, ToWorker } from './worker.ts';
-import { defaultThresholds, judge, mergeThresholds, type Thresholds } from './thresholds.ts';
+import { defaultThresholds, documentedDefaults, judge, mergeThresholds, type Thresholds } from './thresholds.ts';
 import { reportCsv, type CheckReport } from './report.ts';
 import { reportHtml } from './report-html.ts';
 import { checkManifestName, fileSha256, formatManifest, manifestRelative, parseManifest, payloadFiles, verifyManifest, type ManifestLine } from './fixity.ts';
@@ -49,7 +50,7 @@ Options:
   --csv FILE.csv              Write one row per file.
   --jobs N                    Worker threads (default: the number of cores).
   --resume                    Take over files from the existing --json report whose audio checksum is unchanged.
-  --thresholds FILE.json      Pass/warn/fail rules replacing the defaults one by one (see main/check/default-thresholds.json).
+  --thresholds FILE.json      Pass/warn/fail rules replacing the defaults (listed below) one by one; null switches one off.
   --manifest FILE             Verify a SHA-256 manifest ("CHECKSUM  PATH" lines, paths relative to its folder, as in
                               BagIt): lists missing, changed and unlisted files; a missing or changed file fails.
   --write-manifest FILE       Write such a manifest of every file under the checked paths (never replaces a file).
@@ -175,7 +176,11 @@ export function parseCheckSetup(argv: string[], extra: { booleans?: string[]; va
 
 function checkHelp(): string {
   const lines = [...analysisFlags().values()].map(({ spec, ops }) => `  --${spec.flag}${spec.type === 'boolean' ? '' : ' N'}`.padEnd(30) + ` ${spec.help} (${ops.join(', ')})`);
-  return USAGE + lines.join('\n');
+  const rules = documentedDefaults().map(({ id, rule, comment }) => {
+    const bits = Object.entries(rule).map(([k, v]) => `${k} ${v}`).join(', ');
+    return `  ${id}`.padEnd(30) + ` ${bits}: ${comment}`;
+  });
+  return USAGE + lines.join('\n') + '\nDefault rules (a thresholds file names them the same way, e.g. {"levels.truePeakDbtp": {"warnAt": -1}}):\n' + rules.join('\n');
 }
 
 async function check(argv: string[], options: CheckOptions, out: (s: string) => void, err: (s: string) => void): Promise<number> {

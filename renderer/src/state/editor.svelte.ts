@@ -4,7 +4,8 @@
  */
 import { getContext, setContext } from 'svelte';
 import type { Bridge, OpenedFile } from '../../../main/bridge/contract.ts';
-import { findOperation, corrections } from '../../../dsp/ops/registry.ts';
+import { findOperation } from '../../../dsp/ops/registry.ts';
+import { correctionChoices } from '../lib/operation-lists.ts';
 import type { Finding, ParamValues } from '../../../dsp/ops/types.ts';
 import { Engine, JobError, type Task } from '../lib/engine.ts';
 import { BASE_BUCKET_FRAMES, pyramidFromParts, type PeakPyramid } from '../lib/peaks.ts';
@@ -152,7 +153,7 @@ export class Editor {
 
   get sampleRateHz(): number { return this.opened?.layout.sampleRateHz ?? 48000; }
   get channelCount(): number { return this.opened?.layout.channels ?? 1; }
-  get correctionOps() { return corrections(); }
+  get correctionOps() { return correctionChoices(); }
   /** The corrected preview no longer matches the steps. */
   get stale(): boolean { return this.corrected !== null && this.corrected.version !== this.steps.version; }
   get correctedMatchDb(): number {
