@@ -20,7 +20,7 @@ import { Progress, toJson } from '../cli/output.ts';
 import { paramsFromFlags, reportError, suggestionCommand } from '../cli/index.ts';
 import { checkFile, type CheckJob, type FileEntry, type JobResult, type Opener } from './check-file.ts';
 import type { FromWorker, ToWorker } from './worker.ts';
-import { defaultThresholds, documentedDefaults, judge, mergeThresholds, type Thresholds } from './thresholds.ts';
+import { defaultThresholds, documentedDefaults, judge, unresolvedGates, mergeThresholds, type Thresholds } from './thresholds.ts';
 import { reportCsv, type CheckReport } from './report.ts';
 import { reportHtml } from './report-html.ts';
 import { checkManifestName, fileSha256, formatManifest, manifestRelative, parseManifest, payloadFiles, verifyManifest, type ManifestLine } from './fixity.ts';
@@ -328,6 +328,7 @@ export function finishCheck(raw: FileEntry[], o: FinishOptions, out: (s: string)
     out(`${e.status!.toUpperCase().padEnd(4)}  ${e.file.path}${why}`);
   }
   for (const n of o.notes ?? []) out(n);
+  for (const w of unresolvedGates(entries, o.thresholds)) out(w);
   if (manifest) {
     for (const m of manifest.missing) out(`MISSING  ${m}  (listed in ${manifest.path})`);
     for (const c of manifest.changed) out(`CHANGED  ${c.path}  (SHA-256 ${c.actualSha256}, listed ${c.expectedSha256})`);

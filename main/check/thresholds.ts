@@ -38,12 +38,13 @@ const CHECK_METRICS: readonly GateMetric[] = [
   },
   {
     id: 'fixity.manifestChanged', label: 'SHA-256 differs from the manifest', unit: '', digits: 0, flag: true,
-    get: (s) => (s.manifest === undefined ? undefined : s.manifest === 'changed' ? 1 : 0),
+    // Only with --manifest (the entry has no `manifest` otherwise).
+    get: (s) => (!('manifest' in s) || s.manifest === undefined ? undefined : s.manifest === 'changed' ? 1 : 0),
     defaultRule: { failAt: 1, comment: "With --manifest: the file's SHA-256 is not the one the manifest lists (the bytes changed since it was written)." },
   },
   {
     id: 'fixity.notInManifest', label: 'not listed in the manifest', unit: '', digits: 0, flag: true,
-    get: (s) => (s.manifest === undefined ? undefined : s.manifest === 'unlisted' ? 1 : 0),
+    get: (s) => (!('manifest' in s) || s.manifest === undefined ? undefined : s.manifest === 'unlisted' ? 1 : 0),
     defaultRule: { warnAt: 1, comment: 'With --manifest: an audio file the manifest does not list.' },
   },
   {
@@ -91,10 +92,11 @@ export function defaultThresholds(): Thresholds {
 }
 
 /**
- * How one metric reads on one file's sections: `value` (a number to judge), `absent` (the
- * analysis did not run, does not apply or found nothing to judge: the result says so), or
- * `missing`: the metric reads fields the result does not have (a renamed or misspelt field),
- * which would switch its gate off silently. `unknown` names no metric at all.
+ * How one metric reads on one file's sections: `value` (a number to judge), `absent` (the file
+ * could not be read, or the analysis did not run, does not apply or found nothing to judge, and
+ * its result or note says so), or `missing`: the metric reads fields the result does not have (a
+ * renamed or misspelt field), which would switch its gate off silently. `unknown`: no such metric.
+ * A getter that reads a field which may legitimately be absent tests it with `in` first.
  */
 export type Resolution =
   | { kind: 'value'; value: number }
@@ -108,7 +110,32 @@ export function resolveMetric(id: string, sections: Sections): Resolution {
   const missing: string[] = [];
   const value = m.get(recording(sections, '', missing) as Sections);
   if (value !== undefined) return { kind: 'value', value };
+  if (sections.error !== undefined) return { kind: 'absent' };
+  // An analysis that did not run (does not apply, found nothing) leaves a note instead of its section.
+  const owner = analyses().find((op) => op.metrics?.includes(m));
+  const notes = Array.isArray(sections.notes) ? (sections.notes as { op?: unknown }[]) : [];
+  if (owner && notes.some((n) => n.op === owner.name)) return { kind: 'absent' };
   return missing.length ? { kind: 'missing', fields: [...new Set(missing)] } : { kind: 'absent' };
+}
+
+/**
+ * One line per rule that could not be applied to some readable file because its metric reads a
+ * field the results do not have: such a gate would otherwise be off without anyone knowing.
+ */
+export function unresolvedGates(entries: readonly Sections[], thresholds: Thresholds): string[] {
+  const lines: string[] = [];
+  for (const id of Object.keys(thresholds)) {
+    const fields = new Set<string>();
+    let files = 0;
+    for (const e of entries) {
+      const r = resolveMetric(id, e);
+      if (r.kind !== 'missing') continue;
+      files++;
+      r.fields.forEach((f) => fields.add(f));
+    }
+    if (files) lines.push(`warning: rule "${id}" was not applied to ${files} file${files === 1 ? '' : 's'}: the results have no ${[...fields].join(', ')}`);
+  }
+  return lines;
 }
 
 /** A read-only view of `v` that notes every property read that the object does not have. */
