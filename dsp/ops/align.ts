@@ -8,8 +8,11 @@ import type { CorrectionOp } from './types.ts';
 import type { Block } from '../source.ts';
 import { num } from './params.ts';
 import { ParameterError } from '../errors.ts';
-import { FractionalDelay } from '../core/fractional-delay.ts';
-import { crossSpectrum, estimateDelay } from '../azimuth/delay.ts';
+
+const algorithms = async () => {
+  const [{ FractionalDelay }, { crossSpectrum, estimateDelay }] = await Promise.all([import('../core/fractional-delay.ts'), import('../azimuth/delay.ts')]);
+  return { FractionalDelay, crossSpectrum, estimateDelay };
+};
 
 export const align: CorrectionOp = {
   kind: 'correction',
@@ -25,7 +28,10 @@ export const align: CorrectionOp = {
   ],
   measures: 'azimuth',
   applies: (facts) => facts.channelCount >= 2,
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params, ctx) {
+    const { FractionalDelay, crossSpectrum, estimateDelay } = await algorithms();
     if (source.channelCount < 2) throw new ParameterError('align needs at least two channels');
     let delaySeconds = num(params, 'delaySeconds');
     if (delaySeconds === undefined) delaySeconds = estimateDelay(await crossSpectrum(source, ctx)).delaySeconds;

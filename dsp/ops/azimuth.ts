@@ -6,7 +6,9 @@
 import type { AnalysisOp, Finding } from './types.ts';
 import { num } from './params.ts';
 import { ParameterError } from '../errors.ts';
-import { azimuthArcMinutes, crossSpectrum, estimateDelay, monoNullHz, type DelayEstimate } from '../azimuth/delay.ts';
+import type { DelayEstimate } from '../azimuth/delay.ts';
+
+const algorithms = () => import('../azimuth/delay.ts');
 import { fixedOrDash, numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
 
 const micro = (v: number | undefined) => (v === undefined ? undefined : v * 1e6);
@@ -96,7 +98,10 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
     },
   ],
   applies: (facts) => facts.channelCount >= 2,
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
+    const { azimuthArcMinutes, crossSpectrum, estimateDelay, monoNullHz } = await algorithms();
     if (source.channelCount < 2) throw new ParameterError('azimuth needs at least two channels');
     const ips = num(params, 'tapeSpeedIps') ?? null;
     const mm = num(params, 'trackSpacingMm') ?? null;

@@ -3,7 +3,9 @@
  * desk) and print-through (a faint copy of loud passages 0.3–4 s before or after them), with
  * delay, strength and confidence. Method: dsp/echo/detect.ts.
  */
-import { analyseEcho, type EchoAnalysis } from '../echo/detect.ts';
+import type { EchoAnalysis } from '../echo/detect.ts';
+
+const algorithms = () => import('../echo/detect.ts');
 import { num, range } from './params.ts';
 import type { AnalysisOp, Finding } from './types.ts';
 import { numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
@@ -38,7 +40,10 @@ export const echo: AnalysisOp<EchoAnalysis> = {
       max: 64,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
+    const { analyseEcho } = await algorithms();
     const ch = num(params, 'channel');
     return analyseEcho(source, {
       rangeSeconds: range(params, 'rangeSeconds'),

@@ -6,9 +6,12 @@
  */
 import type { AnalysisOp, Finding } from './types.ts';
 import { num } from './params.ts';
-import { locateTone } from '../flutter/locate.ts';
-import { demodulateTone } from '../flutter/demodulate.ts';
-import { flutterFigures, type FlutterFigures } from '../flutter/meter.ts';
+import type { FlutterFigures } from '../flutter/meter.ts';
+
+const algorithms = async () => {
+  const [{ locateTone }, { demodulateTone }, { flutterFigures }] = await Promise.all([import('../flutter/locate.ts'), import('../flutter/demodulate.ts'), import('../flutter/meter.ts')]);
+  return { locateTone, demodulateTone, flutterFigures };
+};
 import { fixedOrDash, roundTo, sectionNumber } from './sections.ts';
 
 export interface FlutterResult extends FlutterFigures {
@@ -40,7 +43,10 @@ export const flutter: AnalysisOp<FlutterResult> = {
       min: 100, max: 20000, default: 3150,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
+    const { locateTone, demodulateTone, flutterFigures } = await algorithms();
     const toneHz = num(params, 'toneHz') ?? 3150;
     const locateCtx = { ...ctx, progress: (f: number) => ctx.progress(0.5 * f) };
     const seg = await locateTone(source, toneHz, {}, locateCtx);

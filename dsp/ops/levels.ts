@@ -8,7 +8,9 @@
 import type { AnalysisOp, Finding } from './types.ts';
 import { num } from './params.ts';
 import { clipThreshold } from './info.ts';
-import { analyzeLevels, type LevelsResult } from '../levels/analyze.ts';
+import type { LevelsResult } from '../levels/analyze.ts';
+
+const algorithms = () => import('../levels/analyze.ts');
 import { arrayOf, fixedOrDash, numberOf, objectOf, roundTo, sectionNumber, type Sections } from './sections.ts';
 
 function clippedRuns(s: Sections): number | undefined {
@@ -64,7 +66,10 @@ export const levels: AnalysisOp<LevelsResult> = {
       min: 1, max: 1000, default: 3,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
+    const { analyzeLevels } = await algorithms();
     const meta = source as { bitsPerSample?: number; sampleFormat?: 'int' | 'float' };
     return analyzeLevels(
       source,

@@ -4,10 +4,11 @@
  * reversed). Samples are moved, not computed: reversing twice returns the input exactly.
  */
 import { ParameterError } from '../errors.ts';
-import { resolveReverse, reverseBlocks } from '../reverse/reverse.ts';
 import { list, num } from './params.ts';
 import { reversedSegments } from './timing.ts';
 import type { CorrectionOp } from './types.ts';
+
+const algorithms = () => import('../reverse/reverse.ts');
 
 export const reverse: CorrectionOp = {
   kind: 'correction',
@@ -20,7 +21,10 @@ export const reverse: CorrectionOp = {
     { name: 'fromSeconds', flag: 'from', type: 'number', label: 'From', help: 'Start of the range to reverse (default: the start).', unit: 's', min: 0, quantity: 'instant' },
     { name: 'toSeconds', flag: 'to', type: 'number', label: 'To', help: 'End of the range to reverse (default: the end).', unit: 's', min: 0, quantity: 'instant' },
   ],
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params, ctx) {
+    const { resolveReverse, reverseBlocks } = await algorithms();
     const fs = source.sampleRateHz;
     const channelsGiven = list(params, 'channels');
     if (channelsGiven) {

@@ -4,7 +4,10 @@
  * A channel whose evidence is thin or contradictory gets `likely: null` and a "not determined"
  * finding with the reason and no fix.
  */
-import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD, detectReversedChannels, type ReversedResult } from '../reverse/detect.ts';
+import type { ReversedResult } from '../reverse/detect.ts';
+import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from '../reverse/limits.ts';
+
+const algorithms = () => import('../reverse/detect.ts');
 import type { AnalysisOp, Finding } from './types.ts';
 import { arrayOf, objectOf, type Sections } from './sections.ts';
 
@@ -17,7 +20,10 @@ export const reversed: AnalysisOp<ReversedResult> = {
   title: 'Reversed channels',
   summary: 'Find channels that play backwards (a quarter-track reel transferred in one pass), from how sounds start and stop.',
   params: [],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, _params, ctx) {
+    const { detectReversedChannels } = await algorithms();
     return detectReversedChannels(source, (f) => ctx.progress(f));
   },
   toJson(result) {

@@ -9,7 +9,9 @@
 import { NotFoundError } from '../errors.ts';
 import { num, str } from './params.ts';
 import type { AnalysisOp, Finding, ParamValues } from './types.ts';
-import { estimateSpeed, type SpeedOptions, type SpeedResult } from '../speed/estimate.ts';
+import type { SpeedOptions, SpeedResult } from '../speed/estimate.ts';
+
+const algorithms = () => import('../speed/estimate.ts');
 import { numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
 
 export type { SpeedResult } from '../speed/estimate.ts';
@@ -51,7 +53,10 @@ export const speed: AnalysisOp<SpeedResult> = {
     },
   ],
   applies: (facts) => facts.frames >= facts.sampleRateHz,
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
+    const { estimateSpeed } = await algorithms();
     const opts = speedOptions(params);
     const result = await estimateSpeed(source, opts, ctx);
     if (opts.mainsHz && !result.candidates.some((c) => c.method === 'hum' && c.mainsHz === opts.mainsHz && c.confidence >= 0.5)) {

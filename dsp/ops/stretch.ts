@@ -4,11 +4,15 @@
  * (dsp/stretch/phase-vocoder.ts).
  */
 import { ParameterError } from '../errors.ts';
-import { MAX_RATIO, MIN_RATIO, defaultStretchFftSize } from '../stretch/phase-vocoder.ts';
-import { stretchSource } from '../stretch/render.ts';
+import { MAX_RATIO, MIN_RATIO } from '../stretch/limits.ts';
 import { num } from './params.ts';
 import { scaledSegments } from './timing.ts';
 import type { CorrectionOp } from './types.ts';
+
+const algorithms = async () => {
+  const [{ defaultStretchFftSize }, { stretchSource }] = await Promise.all([import('../stretch/phase-vocoder.ts'), import('../stretch/render.ts')]);
+  return { defaultStretchFftSize, stretchSource };
+};
 
 export const stretch: CorrectionOp = {
   kind: 'correction',
@@ -27,7 +31,10 @@ export const stretch: CorrectionOp = {
       max: MAX_RATIO,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params) {
+    const { defaultStretchFftSize, stretchSource } = await algorithms();
     const ratio = num(params, 'ratio');
     if (ratio === undefined) throw new ParameterError('say how much: --ratio R (new duration ÷ old, 0.25 to 4)');
     if (!(ratio >= MIN_RATIO && ratio <= MAX_RATIO)) throw new ParameterError(`--ratio ${ratio}: outside ${MIN_RATIO} … ${MAX_RATIO}`);

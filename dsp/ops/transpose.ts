@@ -5,11 +5,11 @@
  * estimate, dsp/stretch/envelope.ts) so a voice keeps the size of its speaker.
  */
 import { ParameterError } from '../errors.ts';
-import { planTranspose, transposeSource } from '../stretch/render.ts';
 import { bool, num } from './params.ts';
 import type { CorrectionOp } from './types.ts';
 
 const QUALITY = 'draft' as const;
+const algorithms = () => import('../stretch/render.ts');
 
 export const transpose: CorrectionOp = {
   kind: 'correction',
@@ -21,7 +21,10 @@ export const transpose: CorrectionOp = {
     { name: 'cents', flag: 'cents', type: 'number', label: 'Cents', help: 'Raise or lower by this many cents (added to --semitones).', unit: 'cents', min: -2400, max: 2400 },
     { name: 'keepFormants', flag: 'keep-formants', type: 'boolean', label: 'Keep formants', help: 'Keep the spectral envelope, so a transposed voice still sounds like the same speaker.', default: false },
   ],
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params, ctx) {
+    const { planTranspose, transposeSource } = await algorithms();
     const semitones = num(params, 'semitones'), cents = num(params, 'cents');
     if (semitones === undefined && cents === undefined) throw new ParameterError('say how far: --semitones S or --cents C');
     const total = 100 * (semitones ?? 0) + (cents ?? 0);

@@ -87,6 +87,12 @@ interface OperationBase {
   readonly params: readonly ParamSpec[];
   /** Whether the operation can run on this input (e.g. azimuth needs two channels). */
   applies?(facts: SourceFacts): boolean;
+  /**
+   * Loads the algorithms `run`/`prepare` use. They are imported on first use, so whoever reads
+   * only the spec (the editor page) does not carry them; diagnose calls this for every analysis
+   * before starting them together, so all of them meet the shared decoding pass.
+   */
+  readonly load?: () => Promise<unknown>;
 }
 
 export interface AnalysisOp<R = unknown> extends OperationBase {
@@ -211,3 +217,17 @@ export interface StepTiming {
 }
 
 export type Operation = AnalysisOp | CorrectionOp;
+
+/**
+ * The members of an operation that do its work (and whatever only they import): everything else
+ * is its spec — name, title, summary, params, key, timing, report columns, gate metrics — which is
+ * all the editor page reads. The page's build leaves these out of every operation
+ * (renderer/operation-specs.ts); the worker, the command line and the check keep them.
+ */
+export const IMPLEMENTATION_MEMBERS = ['load', 'run', 'prepare', 'findings', 'toJson', 'render', 'compare', 'history'] as const satisfies readonly (
+  | keyof AnalysisOp
+  | keyof CorrectionOp
+)[];
+
+/** The members only the batch report and the check's gates read (the page's build leaves them out too). */
+export const REPORT_MEMBERS = ['columns', 'overview', 'metrics'] as const satisfies readonly (keyof AnalysisOp)[];

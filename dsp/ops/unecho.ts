@@ -8,14 +8,18 @@
  * is listed as left.
  * Method and memory use: dsp/echo/render.ts.
  */
-import { analyseEcho } from '../echo/detect.ts';
-import { singleEchoKernel } from '../echo/kernel.ts';
-import { MAX_CANCEL_GAIN, refineSingleEcho } from '../echo/refine.ts';
-import { type CancelPlan, renderCancellation } from '../echo/render.ts';
+import type { CancelPlan } from '../echo/render.ts';
 import { NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { num, range } from './params.ts';
 import type { CorrectionOp, OpContext, ParamValues } from './types.ts';
+
+const algorithms = async () => {
+  const [{ analyseEcho }, { singleEchoKernel }, { MAX_CANCEL_GAIN, refineSingleEcho }, { renderCancellation }] = await Promise.all([
+    import('../echo/detect.ts'), import('../echo/kernel.ts'), import('../echo/refine.ts'), import('../echo/render.ts'),
+  ]);
+  return { analyseEcho, singleEchoKernel, MAX_CANCEL_GAIN, refineSingleEcho, renderCancellation };
+};
 
 interface EchoToCancel {
   kind: 'reflection' | 'print-through';
@@ -26,7 +30,7 @@ interface EchoToCancel {
   filter?: { firstTapSamples: number; taps: number[] };
 }
 
-function clampGain(g: number, ctx: OpContext): number {
+function clampGain(g: number, ctx: OpContext, MAX_CANCEL_GAIN: number): number {
   if (Math.abs(g) > MAX_CANCEL_GAIN) {
     ctx.warn(`gain ${g.toFixed(4)} is too close to 1 for a stable inverse: cancelling with ${Math.sign(g) * MAX_CANCEL_GAIN} instead`);
     return Math.sign(g) * MAX_CANCEL_GAIN;
@@ -36,6 +40,7 @@ function clampGain(g: number, ctx: OpContext): number {
 
 /** Measures the gain of an echo at a given delay (refined around it). */
 async function measureAt(source: AudioSource, delaySeconds: number, channel: number, ctx: OpContext): Promise<number> {
+  const { analyseEcho, refineSingleEcho } = await algorithms();
   const fs = source.sampleRateHz;
   if (delaySeconds < 0) {
     const a = await analyseEcho(source, { channel, warn: (m) => ctx.warn(m), signal: ctx.signal });
@@ -102,7 +107,10 @@ export const unecho: CorrectionOp = {
       max: 64,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params: ParamValues, ctx) {
+    const { analyseEcho, singleEchoKernel, MAX_CANCEL_GAIN, renderCancellation } = await algorithms();
     const fs = source.sampleRateHz;
     const delay = num(params, 'delaySeconds');
     const gain = num(params, 'gain');
@@ -156,7 +164,7 @@ export const unecho: CorrectionOp = {
     const plan: CancelPlan = { post: null, pre: null, postAfter: null, channels: channel < 0 ? null : [channel] };
     const used: EchoToCancel[] = [];
     for (const e of echoes) {
-      const g = clampGain(e.gain, ctx);
+      const g = clampGain(e.gain, ctx, MAX_CANCEL_GAIN);
       const d = Math.abs(e.delaySeconds) * fs;
       const kernel = e.filter ? { offset: e.filter.firstTapSamples, taps: Float64Array.from(e.filter.taps) } : singleEchoKernel(d, g);
       if (e.delaySeconds > 0) {

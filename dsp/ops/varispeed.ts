@@ -8,11 +8,16 @@
  * of 1 at the same rate, or a factor equal to the rate change) the output is the input's samples.
  */
 import { NotFoundError, ParameterError } from '../errors.ts';
-import { ratioFromSpeedCurve, resampleSource, ratioForFactor, Resampler, type ResampleQuality } from '../core/resample.ts';
-import { estimateSpeed, type SpeedMethod } from '../speed/estimate.ts';
+import type { ResampleQuality, Resampler } from '../core/resample.ts';
+import type { SpeedMethod } from '../speed/estimate.ts';
 import { bool, num, str } from './params.ts';
 import { scaledSegments } from './timing.ts';
 import type { CorrectionOp, ParamValues } from './types.ts';
+
+const algorithms = async () => {
+  const [{ ratioFromSpeedCurve, resampleSource, ratioForFactor }, { estimateSpeed }] = await Promise.all([import('../core/resample.ts'), import('../speed/estimate.ts')]);
+  return { ratioFromSpeedCurve, resampleSource, ratioForFactor, estimateSpeed };
+};
 
 export const MIN_FACTOR = 0.25;
 export const MAX_FACTOR = 4;
@@ -45,7 +50,10 @@ export const varispeed: CorrectionOp = {
     { name: 'rateHz', flag: 'rate', type: 'number', label: 'Output sample rate', help: 'Sample rate of the output file (default: as the input).', unit: 'Hz', min: 4000, max: 768000 },
   ],
   measures: 'speed',
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params, ctx) {
+    const { ratioFromSpeedCurve, resampleSource, ratioForFactor, estimateSpeed } = await algorithms();
     const quality = (str(params, 'quality') ?? 'archive') as ResampleQuality;
     const inRate = source.sampleRateHz;
     const outRate = num(params, 'rateHz') ?? inRate;

@@ -51,6 +51,7 @@
  * |score| ≥ 0.3 only ever accompanies a determined direction).
  */
 import type { AudioSource } from '../source.ts';
+import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
@@ -87,10 +88,7 @@ export interface ReversedResult {
 }
 
 export const REVERSED_BLOCK_SECONDS = 0.01;
-/** |score| at or above this comes only with a determined direction (the editor's reading). */
-export const REVERSED_SCORE_THRESHOLD = 0.3;
-/** Below this much active sound the direction is not judged at all. */
-export const REVERSED_MIN_ACTIVE_SECONDS = 0.3;
+export { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
 const FLOOR_DB = 60;
 const ACTIVE_DB = 35;
 /** Hard edges: ≥ 15 dB within 2 blocks (20 ms), loud side within 30 dB of the peak. */

@@ -41,8 +41,8 @@ import { ONSET_LOOKAHEAD_FRAMES, SpectralFluxOnsets } from './onsets.ts';
 import { TimeMap } from './time-map.ts';
 import { SpectralEnvelope } from './envelope.ts';
 
-export const MIN_RATIO = 0.25;
-export const MAX_RATIO = 4;
+import { MAX_RATIO, MIN_RATIO } from './limits.ts';
+export { MAX_RATIO, MIN_RATIO };
 
 export interface TimeStretchOptions {
   readonly sampleRateHz: number;

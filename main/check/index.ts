@@ -14,6 +14,7 @@ import os from 'node:os';
 import path from 'node:path';
 import { analyses } from '../../dsp/ops/registry.ts';
 import { ParameterError } from '../../dsp/errors.ts';
+import { AUDIO_EXTENSIONS as AUDIO_FILE_EXTENSIONS } from '../../dsp/formats/file-names.ts';
 import type { ParamSpec, ParamValues } from '../../dsp/ops/types.ts';
 import { parseArgs, type ParsedArgs } from '../cli/args.ts';
 import { Progress, toJson } from '../cli/output.ts';
@@ -26,7 +27,7 @@ import { reportHtml } from './report-html.ts';
 import { checkManifestName, fileSha256, formatManifest, manifestRelative, parseManifest, payloadFiles, verifyManifest, type ManifestLine } from './fixity.ts';
 import { newCheckThread } from './thread.ts';
 
-export const AUDIO_EXTENSIONS = new Set(['.wav', '.wave', '.bwf', '.rf64', '.bw64', '.aif', '.aiff', '.aifc', '.flac']);
+export const AUDIO_EXTENSIONS: ReadonlySet<string> = new Set(AUDIO_FILE_EXTENSIONS);
 const VERSION = '0.1.0';
 
 export interface CheckOptions {
