@@ -83,7 +83,7 @@ export const echo: AnalysisOp<EchoAnalysis> = {
     const rf = r.reflection;
     if (rf.present === true && rf.delaySeconds !== null && rf.gain !== null) {
       const ms = rf.delaySeconds * 1000;
-      const db = 20 * Math.log10(Math.abs(rf.gain));
+      const db = gainToDb(rf.gain);
       out.push({
         op: 'echo',
         title: `Reflection ${ms.toFixed(1)} ms after the direct sound`,

@@ -8,6 +8,7 @@
  * is listed as left.
  * Method and memory use: dsp/echo/render.ts.
  */
+import { gainToDb } from '../units.ts';
 import type { CancelPlan } from '../echo/render.ts';
 import { NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
@@ -178,7 +179,7 @@ export const unecho: CorrectionOp = {
     const describe = (e: EchoToCancel) =>
       e.kind === 'reflection'
         ? `reflection ${(e.delaySeconds * 1000).toFixed(3)} ms, gain ${e.gain.toFixed(4)}${e.filter ? ` (${e.filter.taps.length}-tap filter)` : ''}`
-        : `print-through ${Math.abs(e.delaySeconds).toFixed(4)} s ${e.delaySeconds < 0 ? 'before' : 'after'}, ${(20 * Math.log10(Math.abs(e.gain))).toFixed(1)} dB`;
+        : `print-through ${Math.abs(e.delaySeconds).toFixed(4)} s ${e.delaySeconds < 0 ? 'before' : 'after'}, ${gainToDb(e.gain).toFixed(1)} dB`;
     const resolved: ParamValues = {};
     const [main, second] = used as [EchoToCancel, EchoToCancel | undefined];
     resolved.delaySeconds = main.delaySeconds;
