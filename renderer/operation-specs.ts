@@ -33,7 +33,9 @@ export function operationSpecs(): Plugin {
         const decl = statement.type === 'ExportNamedDeclaration' ? (statement.declaration as Node | null) : null;
         if (decl?.type !== 'VariableDeclaration') continue;
         for (const d of decl.declarations as Node[]) {
-          const init = d.init as Node | null;
+          // `{ kind: …, … }`, or the definition helpers' `defineAnalysis<R>()({ … })` / `defineCorrection({ … })`.
+          let init = d.init as Node | null;
+          if (init?.type === 'CallExpression') init = ((init.arguments as Node[])[0] ?? null) as Node | null;
           if (init?.type !== 'ObjectExpression') continue;
           const props = init.properties as Node[];
           const isOperation = props.some((p) => keyOf(p) === 'kind' && ['analysis', 'correction'].includes(String((p.value as Node).value)));

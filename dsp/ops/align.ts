@@ -4,9 +4,8 @@
  * (dsp/core/fractional-delay.ts; 64 taps, β for 100 dB). Channel 1 and any further channels pass
  * unchanged, so the file keeps its timing; the output has exactly as many frames as the input.
  */
-import type { CorrectionOp } from './types.ts';
+import { defineCorrection } from './types.ts';
 import type { Block } from '../source.ts';
-import { num } from './params.ts';
 import { ParameterError } from '../errors.ts';
 
 const algorithms = async () => {
@@ -14,7 +13,7 @@ const algorithms = async () => {
   return { FractionalDelay, crossSpectrum, estimateDelay };
 };
 
-export const align: CorrectionOp = {
+export const align = defineCorrection({
   kind: 'correction',
   name: 'align',
   title: 'Align channels',
@@ -33,7 +32,7 @@ export const align: CorrectionOp = {
   async prepare(source, params, ctx) {
     const { FractionalDelay, crossSpectrum, estimateDelay } = await algorithms();
     if (source.channelCount < 2) throw new ParameterError('align needs at least two channels');
-    let delaySeconds = num(params, 'delaySeconds');
+    let delaySeconds = params.delaySeconds;
     if (delaySeconds === undefined) delaySeconds = estimateDelay(await crossSpectrum(source, ctx)).delaySeconds;
     const delaySamples = delaySeconds * source.sampleRateHz;
     const nCh = source.channelCount;
@@ -78,4 +77,4 @@ export const align: CorrectionOp = {
   history(resolved) {
     return `reelwright align delay=${Number(resolved.delaySeconds).toPrecision(6)}s (channel 2 advanced)`;
   },
-};
+});

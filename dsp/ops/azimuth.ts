@@ -3,8 +3,7 @@
  * dsp/azimuth/delay.ts), their coherence, the first null of the mono sum, and — given the tape
  * speed and the track spacing — the equivalent head azimuth error in arc-minutes.
  */
-import type { AnalysisOp, Finding } from './types.ts';
-import { num } from './params.ts';
+import { defineAnalysis, type Finding } from './types.ts';
 import { ParameterError } from '../errors.ts';
 import type { DelayEstimate } from '../azimuth/delay.ts';
 
@@ -79,7 +78,7 @@ function verdictOf(est: DelayEstimate, limit: number): 'head' | 'programme' | nu
 
 const us = (s: number) => `${(s * 1e6).toFixed(1)} µs`;
 
-export const azimuth: AnalysisOp<AzimuthResult> = {
+export const azimuth = defineAnalysis<AzimuthResult>()({
   kind: 'analysis',
   name: 'azimuth',
   key: 'azimuth',
@@ -103,8 +102,8 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
   async run(source, params, ctx) {
     const { azimuthArcMinutes, crossSpectrum, estimateDelay, monoNullHz } = await algorithms();
     if (source.channelCount < 2) throw new ParameterError('azimuth needs at least two channels');
-    const ips = num(params, 'tapeSpeedIps') ?? null;
-    const mm = num(params, 'trackSpacingMm') ?? null;
+    const ips = params.tapeSpeedIps ?? null;
+    const mm = params.trackSpacingMm ?? null;
     const est = estimateDelay(await crossSpectrum(source, ctx));
     const limit = headLimitSeconds(ips, mm);
     return {
@@ -198,4 +197,4 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
       },
     },
   ],
-};
+});

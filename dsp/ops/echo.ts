@@ -6,14 +6,13 @@
 import type { EchoAnalysis } from '../echo/detect.ts';
 
 const algorithms = () => import('../echo/detect.ts');
-import { num, range } from './params.ts';
-import type { AnalysisOp, Finding } from './types.ts';
+import { defineAnalysis, type Finding } from './types.ts';
 import { numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
 import { gainToDb } from '../units.ts';
 
 const round = (v: number | null, digits: number): number | null => (v === null ? null : Number(v.toFixed(digits)));
 
-export const echo: AnalysisOp<EchoAnalysis> = {
+export const echo = defineAnalysis<EchoAnalysis>()({
   kind: 'analysis',
   name: 'echo',
   key: 'echo',
@@ -44,9 +43,9 @@ export const echo: AnalysisOp<EchoAnalysis> = {
   load: algorithms,
   async run(source, params, ctx) {
     const { analyseEcho } = await algorithms();
-    const ch = num(params, 'channel');
+    const ch = params.channel;
     return analyseEcho(source, {
-      rangeSeconds: range(params, 'rangeSeconds'),
+      rangeSeconds: params.rangeSeconds,
       channel: ch === undefined ? -1 : ch - 1,
       signal: ctx.signal,
       progress: (f) => ctx.progress(f),
@@ -183,4 +182,4 @@ export const echo: AnalysisOp<EchoAnalysis> = {
       defaultRule: { warnAt: -50, failAt: -35, comment: 'Level of detected print-through relative to the programme.' },
     },
   ],
-};
+});

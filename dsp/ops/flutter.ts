@@ -4,8 +4,7 @@
  * automatically (dsp/flutter/locate.ts), FM-demodulated (demodulate.ts) and measured with the
  * standard weighting and a two-sigma reading (weighting.ts, meter.ts).
  */
-import type { AnalysisOp, Finding } from './types.ts';
-import { num } from './params.ts';
+import { defineAnalysis, type Finding } from './types.ts';
 import type { FlutterFigures } from '../flutter/meter.ts';
 
 const algorithms = async () => {
@@ -30,7 +29,7 @@ export function likelyCause(rateHz: number): string {
   return 'a fast rate like this is usually scrape flutter: the tape vibrating over the heads and guides';
 }
 
-export const flutter: AnalysisOp<FlutterResult> = {
+export const flutter = defineAnalysis<FlutterResult>()({
   kind: 'analysis',
   name: 'flutter',
   key: 'flutter',
@@ -47,7 +46,7 @@ export const flutter: AnalysisOp<FlutterResult> = {
   load: algorithms,
   async run(source, params, ctx) {
     const { locateTone, demodulateTone, flutterFigures } = await algorithms();
-    const toneHz = num(params, 'toneHz') ?? 3150;
+    const toneHz = params.toneHz ?? 3150;
     const locateCtx = { ...ctx, progress: (f: number) => ctx.progress(0.5 * f) };
     const seg = await locateTone(source, toneHz, {}, locateCtx);
     const demodCtx = { ...ctx, progress: (f: number) => ctx.progress(0.5 + 0.5 * f) };
@@ -134,4 +133,4 @@ export const flutter: AnalysisOp<FlutterResult> = {
       defaultRule: { warnAt: 0.5, failAt: 2, comment: 'Test tone off its nominal frequency, absolute %.' },
     },
   ],
-};
+});

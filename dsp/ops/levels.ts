@@ -5,8 +5,7 @@
  * inside programme), level dips (listed for listening), silence at head and tail, and the effective bandwidth (in the numbers only: the `spectrum` analysis words the
  * bandwidth finding). Methods: dsp/levels/.
  */
-import type { AnalysisOp, Finding } from './types.ts';
-import { num } from './params.ts';
+import { defineAnalysis, type Finding } from './types.ts';
 import { clipThreshold } from './info.ts';
 import type { LevelsResult } from '../levels/analyze.ts';
 
@@ -43,7 +42,7 @@ export type { LevelsResult } from '../levels/analyze.ts';
 const f1 = (v: number) => (Number.isFinite(v) ? v.toFixed(1) : '−∞');
 const ms = (seconds: number) => `${(seconds * 1000).toFixed(0)} ms`;
 
-export const levels: AnalysisOp<LevelsResult> = {
+export const levels = defineAnalysis<LevelsResult>()({
   kind: 'analysis',
   name: 'levels',
   key: 'levels',
@@ -75,9 +74,9 @@ export const levels: AnalysisOp<LevelsResult> = {
       source,
       {
         clipLevel: clipThreshold(meta.bitsPerSample, meta.sampleFormat),
-        clipRunSamples: num(params, 'clipRunSamples'),
-        silenceThresholdDbfs: num(params, 'silenceThresholdDbfs'),
-        dropoutDepthDb: num(params, 'dropoutDepthDb'),
+        clipRunSamples: params.clipRunSamples,
+        silenceThresholdDbfs: params.silenceThresholdDbfs,
+        dropoutDepthDb: params.dropoutDepthDb,
       },
       ctx,
     );
@@ -193,4 +192,4 @@ export const levels: AnalysisOp<LevelsResult> = {
       defaultRule: { warnBelow: 3000, comment: 'Effective bandwidth (from the levels analysis, else from spectrum); below this the transfer sounds muffled or the wrong head or equalisation was used.' },
     },
   ],
-};
+});

@@ -6,11 +6,11 @@
 import { ParameterError } from '../errors.ts';
 import { list, num } from './params.ts';
 import { reversedSegments } from './timing.ts';
-import type { CorrectionOp } from './types.ts';
+import { defineCorrection } from './types.ts';
 
 const algorithms = () => import('../reverse/reverse.ts');
 
-export const reverse: CorrectionOp = {
+export const reverse = defineCorrection({
   kind: 'correction',
   name: 'reverse',
   title: 'Reverse',
@@ -26,15 +26,15 @@ export const reverse: CorrectionOp = {
   async prepare(source, params, ctx) {
     const { resolveReverse, reverseBlocks } = await algorithms();
     const fs = source.sampleRateHz;
-    const channelsGiven = list(params, 'channels');
+    const channelsGiven = params.channels;
     if (channelsGiven) {
       for (const c of channelsGiven) {
         if (!Number.isInteger(c)) throw new ParameterError(`--channels ${channelsGiven.join(',')}: channel numbers are whole numbers from 1`);
         if (c > source.channelCount) throw new ParameterError(`--channels ${channelsGiven.join(',')}: channel ${c} does not exist (the input has ${source.channelCount})`);
       }
     }
-    const from = num(params, 'fromSeconds') ?? 0;
-    let to = num(params, 'toSeconds');
+    const from = params.fromSeconds ?? 0;
+    let to = params.toSeconds;
     const duration = source.frames / fs;
     if (to !== undefined && to > duration) {
       ctx.warn(`--to ${to} is past the end (${duration.toFixed(3)} s); reversing up to the end`);
@@ -77,4 +77,4 @@ export const reverse: CorrectionOp = {
     const ch = (r.channels as number[]).join(',');
     return `reelwright reverse channels=${ch} frames=${String(r.startFrame)}-${String(r.endFrame)}`;
   },
-};
+});

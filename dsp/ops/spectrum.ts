@@ -10,8 +10,7 @@
  *
  * Long files are estimated from at most MAX_FRAMES evenly spaced frames (see welchSpectrum).
  */
-import type { AnalysisOp, Finding } from './types.ts';
-import { num } from './params.ts';
+import { defineAnalysis, type Finding } from './types.ts';
 const algorithms = async () => {
   const [{ welchSpectrum }, { isPowerOfTwo }, { bandwidthSpectrum, effectiveBandwidthHz }] = await Promise.all([
     import('../core/welch.ts'), import('../core/fft.ts'), import('../levels/spectrum.ts'),
@@ -49,7 +48,7 @@ function levelsAt(r: SpectrumResult, channel: number, f: readonly number[]): num
   });
 }
 
-export const spectrum: AnalysisOp<SpectrumResult> = {
+export const spectrum = defineAnalysis<SpectrumResult>()({
   kind: 'analysis',
   name: 'spectrum',
   key: 'spectrum',
@@ -72,7 +71,7 @@ export const spectrum: AnalysisOp<SpectrumResult> = {
   load: algorithms,
   async run(source, params, ctx) {
     const { welchSpectrum, isPowerOfTwo, bandwidthSpectrum, effectiveBandwidthHz } = await algorithms();
-    const fftSize = num(params, 'fftSize') ?? 8192;
+    const fftSize = params.fftSize ?? 8192;
     if (!isPowerOfTwo(fftSize)) throw new ParameterError(`--fft-size ${fftSize}: must be a power of two`);
     const r = await welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => ctx.progress(0.5 * f));
     const sparse = bandwidthSpectrum(source.sampleRateHz, source.channelCount, source.frames);
@@ -166,4 +165,4 @@ export const spectrum: AnalysisOp<SpectrumResult> = {
       `<g>${strip(top)}</g><g transform="translate(0 280)">${strip(diff)}</g></svg>`
     );
   },
-};
+});

@@ -218,6 +218,52 @@ export interface StepTiming {
 
 export type Operation = AnalysisOp | CorrectionOp;
 
+/** The value a parameter of this spec has inside `run`/`prepare` (after validateParams). */
+export type ParamValueOf<S> = S extends { readonly type: 'number' | 'integer' }
+  ? number
+  : S extends { readonly type: 'boolean' }
+    ? boolean
+    : S extends { readonly type: 'enum'; readonly choices: readonly (infer C)[] }
+      ? C
+      : S extends { readonly type: 'string' | 'enum' }
+        ? string
+        : S extends { readonly type: 'range' }
+          ? RangeValue
+          : S extends { readonly type: 'list' }
+            ? readonly number[]
+            : never;
+
+/**
+ * The parameters of a spec list, typed: `params.toneHz` is a number, a misspelt name does not
+ * compile. Each may be absent (validateParams fills defaults, but a direct caller may leave one out).
+ */
+export type ParamsOf<P extends readonly ParamSpec[]> = { readonly [S in P[number] as S['name']]?: ParamValueOf<S> };
+
+/** An analysis as written in its module: `run` receives its parameters typed by its `params`. */
+export interface AnalysisDefinition<R, P extends readonly ParamSpec[]> extends Omit<AnalysisOp<R>, 'params' | 'run'> {
+  readonly params: P;
+  run(source: AudioSource, params: ParamsOf<P>, ctx: OpContext): Promise<R>;
+}
+
+/** A correction as written in its module: `prepare` receives its parameters typed by its `params`. */
+export interface CorrectionDefinition<P extends readonly ParamSpec[]> extends Omit<CorrectionOp, 'params' | 'prepare'> {
+  readonly params: P;
+  prepare(source: AudioSource, params: ParamsOf<P>, ctx: OpContext): Promise<Rendering>;
+}
+
+/**
+ * `export const speed = defineAnalysis<SpeedResult>()({ kind: 'analysis', name: 'speed', params: […], run(source, params, ctx) {…} })`:
+ * the parameter names and types of `params` type `run`'s parameters (the result type is given,
+ * the parameters are inferred). The registry holds it as a plain AnalysisOp.
+ */
+export const defineAnalysis =
+  <R>() =>
+  <const P extends readonly ParamSpec[]>(op: AnalysisDefinition<R, P>): AnalysisOp<R> =>
+    op as unknown as AnalysisOp<R>;
+
+/** As defineAnalysis, for a correction. */
+export const defineCorrection = <const P extends readonly ParamSpec[]>(op: CorrectionDefinition<P>): CorrectionOp => op as unknown as CorrectionOp;
+
 /**
  * The members of an operation that do its work (and whatever only they import): everything else
  * is its spec — name, title, summary, params, key, timing, report columns, gate metrics — which is

@@ -12,8 +12,7 @@ import { gainToDb } from '../units.ts';
 import type { CancelPlan } from '../echo/render.ts';
 import { NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
-import { num, range } from './params.ts';
-import type { CorrectionOp, OpContext, ParamValues } from './types.ts';
+import { defineCorrection, type OpContext, type ParamValues } from './types.ts';
 
 const algorithms = async () => {
   const [{ analyseEcho }, { singleEchoKernel }, { MAX_CANCEL_GAIN, refineSingleEcho }, { renderCancellation }] = await Promise.all([
@@ -58,7 +57,7 @@ async function measureAt(source: AudioSource, delaySeconds: number, channel: num
   return r.fit.gain;
 }
 
-export const unecho: CorrectionOp = {
+export const unecho = defineCorrection({
   kind: 'correction',
   name: 'unecho',
   title: 'Remove echo',
@@ -110,12 +109,12 @@ export const unecho: CorrectionOp = {
   ],
   // The algorithms load on first use (the editor page reads only this spec).
   load: algorithms,
-  async prepare(source, params: ParamValues, ctx) {
+  async prepare(source, params, ctx) {
     const { analyseEcho, singleEchoKernel, MAX_CANCEL_GAIN, renderCancellation } = await algorithms();
     const fs = source.sampleRateHz;
-    const delay = num(params, 'delaySeconds');
-    const gain = num(params, 'gain');
-    const ch = num(params, 'channel');
+    const delay = params.delaySeconds;
+    const gain = params.gain;
+    const ch = params.channel;
     if (ch !== undefined && ch > source.channelCount) {
       throw new ParameterError(`--channel ${ch}: the file has ${source.channelCount} channel${source.channelCount === 1 ? '' : 's'}`);
     }
@@ -136,7 +135,7 @@ export const unecho: CorrectionOp = {
       echoes.push({ kind: Math.abs(delay) >= 0.3 ? 'print-through' : 'reflection', delaySeconds: delay, gain: g, source: gain === undefined ? 'measured' : 'given' });
     } else {
       const a = await analyseEcho(source, {
-        rangeSeconds: range(params, 'rangeSeconds'),
+        rangeSeconds: params.rangeSeconds,
         channel,
         signal: ctx.signal,
         progress: (f) => ctx.progress(0.5 * f),
@@ -211,4 +210,4 @@ export const unecho: CorrectionOp = {
     if (resolved.filterTaps !== undefined) parts.push(`filter=${resolved.filterTaps}taps`);
     return parts.join(' ');
   },
-};
+});

@@ -10,9 +10,9 @@
 import { NotFoundError, ParameterError } from '../errors.ts';
 import type { ResampleQuality, Resampler } from '../core/resample.ts';
 import type { SpeedMethod } from '../speed/estimate.ts';
-import { bool, num, str } from './params.ts';
+import { num } from './params.ts';
 import { scaledSegments } from './timing.ts';
-import type { CorrectionOp, ParamValues } from './types.ts';
+import { defineCorrection, type ParamValues } from './types.ts';
 
 const algorithms = async () => {
   const [{ ratioFromSpeedCurve, resampleSource, ratioForFactor }, { estimateSpeed }] = await Promise.all([import('../core/resample.ts'), import('../speed/estimate.ts')]);
@@ -33,7 +33,7 @@ export function explicitFactor(p: ParamValues): number | null {
   return f;
 }
 
-export const varispeed: CorrectionOp = {
+export const varispeed = defineCorrection({
   kind: 'correction',
   name: 'varispeed',
   title: 'Varispeed',
@@ -54,13 +54,13 @@ export const varispeed: CorrectionOp = {
   load: algorithms,
   async prepare(source, params, ctx) {
     const { ratioFromSpeedCurve, resampleSource, ratioForFactor, estimateSpeed } = await algorithms();
-    const quality = (str(params, 'quality') ?? 'archive') as ResampleQuality;
+    const quality: ResampleQuality = params.quality ?? 'archive';
     const inRate = source.sampleRateHz;
-    const outRate = num(params, 'rateHz') ?? inRate;
+    const outRate = params.rateHz ?? inRate;
     const explicit = explicitFactor(params);
-    const fromHum = str(params, 'fromHum');
-    const fromTone = num(params, 'fromTone');
-    const follow = bool(params, 'followCurve');
+    const fromHum = params.fromHum;
+    const fromTone = params.fromTone;
+    const follow = params.followCurve === true;
     const measured = fromHum !== undefined || fromTone !== undefined || follow;
     if (explicit !== null && measured) {
       throw new ParameterError('--factor/--undo/--semitones/--cents set the speed; --from-hum/--from-tone/--follow-curve measure it: use one or the other');
@@ -169,4 +169,4 @@ export const varispeed: CorrectionOp = {
     parts.push(`quality=${String(r.quality)}`, `rate=${String(r.rateHz)}`);
     return parts.join(' ');
   },
-};
+});
