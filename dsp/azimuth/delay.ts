@@ -15,7 +15,7 @@
  * Positive delay: channel 2 lags channel 1 (ARCHITECTURE.md).
  */
 import type { AudioSource } from '../source.ts';
-import type { OpContext } from '../ops/types.ts';
+import type { OpContext } from '../context.ts';
 import { CancelledError, NotFoundError } from '../errors.ts';
 import { FftPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';

@@ -3,6 +3,7 @@
  * biquad filter coefficients" (bilinear transform of the analogue prototypes, frequency
  * pre-warped). Filtering is transposed direct form II, state kept across blocks.
  */
+import { powerToDb } from '../units.ts';
 import { ParameterError } from '../errors.ts';
 
 /** Normalised coefficients (a0 = 1): y = b0 x + b1 x1 + b2 x2 − a1 y1 − a2 y2. */
@@ -95,7 +96,7 @@ export function biquadResponse(c: BiquadCoefficients, frequencyHz: number, sampl
   const dr = 1 + c.a1 * c1 + c.a2 * c2, di = -(c.a1 * s1 + c.a2 * s2);
   const den = dr * dr + di * di;
   const hr = (nr * dr + ni * di) / den, hi = (ni * dr - nr * di) / den;
-  return { magnitudeDb: 10 * Math.log10(hr * hr + hi * hi), phaseRad: Math.atan2(hi, hr) };
+  return { magnitudeDb: powerToDb(hr * hr + hi * hi), phaseRad: Math.atan2(hi, hr) };
 }
 
 /** A cascade of biquads filtering one channel, transposed direct form II, state across blocks. */

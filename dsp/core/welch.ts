@@ -9,6 +9,7 @@
  * Frames are taken wholly inside the signal; a signal shorter than one segment is zero-padded
  * into a single frame.
  */
+import { gainToDb, powerToDb } from '../units.ts';
 import { ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { FftPlan } from './fft.ts';
@@ -132,13 +133,13 @@ export class WelchAccumulator {
         mean.map((p, k) => {
           const edge = k === 0 || k === half;
           const amp = (edge ? 1 : 2) * Math.sqrt(p) / sw;
-          return 20 * Math.log10(Math.max(amp, 1e-30));
+          return gainToDb(Math.max(amp, 1e-30));
         }),
       );
       psdDbPerHz.push(
         mean.map((p, k) => {
           const edge = k === 0 || k === half;
-          return 10 * Math.log10(Math.max(((edge ? 1 : 2) * p) / (this.sampleRateHz * sw2), 1e-300));
+          return powerToDb(Math.max(((edge ? 1 : 2) * p) / (this.sampleRateHz * sw2), 1e-300));
         }),
       );
     }

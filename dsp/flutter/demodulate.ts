@@ -13,7 +13,7 @@
  * Linear-phase FIR: the track is delayed by (L−1)/2 input samples, which `startSeconds` accounts for.
  */
 import type { AudioSource } from '../source.ts';
-import type { OpContext } from '../ops/types.ts';
+import type { OpContext } from '../context.ts';
 import { CancelledError } from '../errors.ts';
 import { besselI0, kaiserBeta, kaiserLength } from '../core/windows.ts';
 

@@ -8,8 +8,9 @@
  * are trimmed by 0.25 s to skip the tone's start and stop. The channel to demodulate is the one
  * with the stronger tone in the middle of the segment.
  */
+import { powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
-import type { OpContext } from '../ops/types.ts';
+import type { OpContext } from '../context.ts';
 import { CancelledError, NotFoundError } from '../errors.ts';
 import { FftPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';
@@ -70,7 +71,7 @@ export async function locateTone(source: AudioSource, toneHz: number, options: L
     }
     let tone = 0;
     for (let k = kp - 3; k <= kp + 3; k++) tone += spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2;
-    const levelDbfs = 10 * Math.log10(Math.max((4 * tone) / (n * sw2), 1e-30));
+    const levelDbfs = powerToDb(Math.max((4 * tone) / (n * sw2), 1e-30));
     if (!(total > 0 && tone / total >= TONAL_FRACTION && levelDbfs > MIN_LEVEL_DBFS)) return null;
     // Parabolic interpolation of the log magnitude around the peak bin.
     const lm = (k: number) => 0.5 * Math.log(spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + 1e-300);

@@ -10,6 +10,7 @@
  * CodingHistory (EBU R98-1999): one line per processing stage, comma-separated `key=value` fields
  * `A=` algorithm, `F=` sample rate, `W=` word length, `M=` mode, `T=` free text; each line ends CR/LF.
  */
+import { BugError } from '../errors.ts';
 import { i16le, latin1Bytes, putU16le, putU32le, readAsciiField, u16le, u32le, writeAsciiField } from './bytes.ts';
 
 export const BEXT_FIXED_BYTES = 602;
@@ -102,7 +103,7 @@ export function setTimeReference(fixed: Uint8Array, samples: number): void {
 
 /** A bext payload: the 602-byte fixed part followed by the CodingHistory text. */
 export function buildBext(fixed: Uint8Array, codingHistory: string): Uint8Array {
-  if (fixed.length !== BEXT_FIXED_BYTES) throw new RangeError(`bext fixed part must be ${BEXT_FIXED_BYTES} bytes`);
+  if (fixed.length !== BEXT_FIXED_BYTES) throw new BugError(`bext fixed part must be ${BEXT_FIXED_BYTES} bytes`);
   const history = latin1Bytes(codingHistory);
   const out = new Uint8Array(BEXT_FIXED_BYTES + history.length);
   out.set(fixed);

@@ -3,6 +3,7 @@
  * integers in either byte order, 64-bit sizes as plain numbers (exact up to 2^53), and the
  * 80-bit IEEE 754 extended float that AIFF uses for its sample rate. Pure: Uint8Array in and out.
  */
+import { BugError } from '../errors.ts';
 
 /** Reads a four-character code (chunk id) as a string of 4 Latin-1 characters. */
 export function fourcc(b: Uint8Array, at: number): string {
@@ -11,10 +12,10 @@ export function fourcc(b: Uint8Array, at: number): string {
 
 /** Writes a four-character code; throws on ids that are not exactly 4 Latin-1 characters. */
 export function putFourcc(b: Uint8Array, at: number, id: string): void {
-  if (id.length !== 4) throw new RangeError(`chunk id ${JSON.stringify(id)} must be 4 characters`);
+  if (id.length !== 4) throw new BugError(`chunk id ${JSON.stringify(id)} must be 4 characters`);
   for (let i = 0; i < 4; i++) {
     const c = id.charCodeAt(i);
-    if (c > 255) throw new RangeError(`chunk id ${JSON.stringify(id)} must be Latin-1`);
+    if (c > 255) throw new BugError(`chunk id ${JSON.stringify(id)} must be Latin-1`);
     b[at + i] = c;
   }
 }
@@ -59,7 +60,7 @@ export function putU32be(b: Uint8Array, at: number, v: number): void {
 }
 /** 64-bit little-endian unsigned from a non-negative integer number ≤ 2^53. */
 export function putU64le(b: Uint8Array, at: number, v: number): void {
-  if (!Number.isSafeInteger(v) || v < 0) throw new RangeError(`64-bit size ${v} is not a non-negative safe integer`);
+  if (!Number.isSafeInteger(v) || v < 0) throw new BugError(`64-bit size ${v} is not a non-negative safe integer`);
   putU32le(b, at, v % 0x1_0000_0000);
   putU32le(b, at + 4, Math.floor(v / 0x1_0000_0000));
 }
@@ -83,7 +84,7 @@ export function readExtended80(b: Uint8Array, at: number): number {
 
 /** Writes a finite number ≥ 0 as an 80-bit extended float, big-endian (exact for any double). */
 export function writeExtended80(b: Uint8Array, at: number, value: number): void {
-  if (!Number.isFinite(value) || value < 0) throw new RangeError(`cannot store ${value} as an AIFF sample rate`);
+  if (!Number.isFinite(value) || value < 0) throw new BugError(`cannot store ${value} as an AIFF sample rate`);
   b.fill(0, at, at + 10);
   if (value === 0) return;
   let e = Math.floor(Math.log2(value));

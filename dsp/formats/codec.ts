@@ -10,6 +10,7 @@
  * Hot loops use Int16Array/Int32Array/Float32Array/Float64Array views when the bytes are aligned
  * and the order matches the (little-endian) host, and byte arithmetic otherwise.
  */
+import { BugError } from '../errors.ts';
 import { HOST_LITTLE_ENDIAN } from './bytes.ts';
 
 export type SampleFormat = 'int' | 'float';
@@ -63,7 +64,7 @@ export function decodeSamples(
   const bps = enc.bytesPerSample;
   const stride = bps * channels;
   if (srcOffset + frames * stride > src.length) {
-    throw new RangeError(`decodeSamples: ${frames} frames at ${srcOffset} overrun ${src.length} bytes`);
+    throw new BugError(`decodeSamples: ${frames} frames at ${srcOffset} overrun ${src.length} bytes`);
   }
   const le = !enc.bigEndian;
   if (enc.sampleFormat === 'int') {
@@ -180,7 +181,7 @@ export function decodeSamples(
     }
     return bad;
   }
-  throw new RangeError(encodingProblem(enc) ?? 'unsupported sample encoding');
+  throw new BugError(encodingProblem(enc) ?? 'unsupported sample encoding');
 }
 
 /** Counts NaN/±Inf samples in stored float data without decoding (fixity/validation pass). */
@@ -229,11 +230,11 @@ export function encodeSamples(
   const bps = enc.bytesPerSample;
   const stride = bps * channels;
   if (dstOffset + frames * stride > dst.length) {
-    throw new RangeError(`encodeSamples: ${frames} frames at ${dstOffset} overrun ${dst.length} bytes`);
+    throw new BugError(`encodeSamples: ${frames} frames at ${dstOffset} overrun ${dst.length} bytes`);
   }
   const le = !enc.bigEndian;
   if (enc.sampleFormat === 'int') {
-    if (bps < 1 || bps > 4) throw new RangeError(encodingProblem(enc));
+    if (bps < 1 || bps > 4) throw new BugError(encodingProblem(enc));
     const scale = Math.pow(2, 8 * bps - 1);
     const max = scale - 1, min = -scale;
     if (le && HOST_LITTLE_ENDIAN && (bps === 2 || bps === 4) && aligned(dst, dstOffset, bps)) {
@@ -279,7 +280,7 @@ export function encodeSamples(
     }
     return;
   }
-  if (bps !== 4 && bps !== 8) throw new RangeError(encodingProblem(enc));
+  if (bps !== 4 && bps !== 8) throw new BugError(encodingProblem(enc));
   if (le && HOST_LITTLE_ENDIAN && aligned(dst, dstOffset, bps)) {
     const v = bps === 4
       ? new Float32Array(dst.buffer, dst.byteOffset + dstOffset, frames * channels)

@@ -6,7 +6,7 @@
  * "assoc-data-list"; EBU Tech 3285 (BWF) carries them unchanged. Labels are Latin-1, as the bext
  * fields are (a character outside it is written as '?'). Pure byte code.
  */
-import { InputError } from '../errors.ts';
+import { InputError, ParameterError } from '../errors.ts';
 import { latin1Bytes, readAsciiField } from './bytes.ts';
 
 export interface CuePoint {
@@ -28,7 +28,7 @@ export function buildCueChunk(points: readonly CuePoint[]): Uint8Array {
   put32(b, 0, points.length);
   points.forEach((p, i) => {
     const at = 4 + 24 * i;
-    if (!(Number.isInteger(p.frame) && p.frame >= 0 && p.frame <= 0xffffffff)) throw new RangeError(`cue point ${p.id}: frame ${p.frame} does not fit a cue chunk`);
+    if (!(Number.isInteger(p.frame) && p.frame >= 0 && p.frame <= 0xffffffff)) throw new ParameterError(`cue point ${p.id}: frame ${p.frame} does not fit a cue chunk`);
     put32(b, at, p.id);
     put32(b, at + 4, p.frame); // dwPosition: the play-order position; with no playlist, the frame
     putFourcc(b, at + 8, 'data');

@@ -12,6 +12,7 @@
  * Usable from Node (main/io/writer.ts) and from the browser editor, which can collect
  * [finish().header, …encode() parts, finish().trailer] into a Blob.
  */
+import { BugError, ParameterError } from '../errors.ts';
 import { putFourcc, putU16le, putU32le, putU64le } from './bytes.ts';
 import { encodeSamples, wavEncoding, type SampleEncoding, type SampleFormat } from './codec.ts';
 
@@ -61,10 +62,10 @@ const chunkBytes = (size: number) => 8 + size + (size & 1);
 
 function checkFormat(f: WavFormatSpec): void {
   const ok = f.sampleFormat === 'int' ? [8, 16, 24, 32].includes(f.bitsPerSample) : [32, 64].includes(f.bitsPerSample);
-  if (!ok) throw new RangeError(`cannot write ${f.bitsPerSample}-bit ${f.sampleFormat} samples (int 8/16/24/32, float 32/64)`);
-  if (!Number.isInteger(f.channels) || f.channels < 1 || f.channels > 65535) throw new RangeError(`cannot write ${f.channels} channels`);
+  if (!ok) throw new ParameterError(`cannot write ${f.bitsPerSample}-bit ${f.sampleFormat} samples (int 8/16/24/32, float 32/64)`);
+  if (!Number.isInteger(f.channels) || f.channels < 1 || f.channels > 65535) throw new ParameterError(`cannot write ${f.channels} channels`);
   const rate = Math.round(f.sampleRateHz);
-  if (!(rate >= 1 && rate <= MAX_U32)) throw new RangeError(`cannot write a sample rate of ${f.sampleRateHz} Hz`);
+  if (!(rate >= 1 && rate <= MAX_U32)) throw new ParameterError(`cannot write a sample rate of ${f.sampleRateHz} Hz`);
 }
 
 function useExtensible(f: WavFormatSpec): boolean {
@@ -95,7 +96,7 @@ export function wavTrailerBytes(spec: WavLayoutSpec, dataBytes: number): number 
 
 function putChunk(b: Uint8Array, at: number, id: string, payload: Uint8Array): number {
   putFourcc(b, at, id);
-  if (payload.length > MAX_U32) throw new RangeError(`chunk '${id}' of ${payload.length} bytes is too large to copy`);
+  if (payload.length > MAX_U32) throw new ParameterError(`chunk '${id}' of ${payload.length} bytes is too large to copy`);
   putU32le(b, at + 4, payload.length);
   b.set(payload, at + 8);
   if (payload.length & 1) b[at + 8 + payload.length] = 0;
@@ -217,10 +218,10 @@ export class WavStreamEncoder {
   /** Encodes one planar block into `dst` at `dstOffset`; returns the bytes written. */
   encodeInto(block: readonly ArrayLike<number>[], dst: Uint8Array, dstOffset = 0): number {
     if (block.length !== this.spec.format.channels) {
-      throw new RangeError(`block has ${block.length} channels; ${this.spec.format.channels} expected`);
+      throw new BugError(`block has ${block.length} channels; ${this.spec.format.channels} expected`);
     }
     const frames = block[0]?.length ?? 0;
-    for (const ch of block) if (ch.length !== frames) throw new RangeError('block channels differ in length');
+    for (const ch of block) if (ch.length !== frames) throw new BugError('block channels differ in length');
     encodeSamples(block, 0, frames, this.encoding, dst, dstOffset, this.rng);
     this.framesDone += frames;
     return frames * this.bytesPerFrame;

@@ -4,8 +4,9 @@
  * one float per channel per millisecond) for dropouts, level dips and head/tail silence, and a sparse long-term spectrum for the
  * effective bandwidth.
  */
+import { gainToDb, powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
-import type { OpContext } from '../ops/types.ts';
+import type { OpContext } from '../context.ts';
 import { CancelledError } from '../errors.ts';
 import { LoudnessMeter } from './loudness.ts';
 import { TruePeakMeter } from './true-peak.ts';
@@ -222,9 +223,9 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
   for (let c = 0; c < nCh; c++) {
     channels.push({
       channel: c + 1,
-      peakDbfs: 20 * Math.log10(peak[c]!),
-      truePeakDbtp: 20 * Math.log10(tp[c]!),
-      rmsDbfs: 10 * Math.log10(sumSq[c]! / frames),
+      peakDbfs: gainToDb(peak[c]!),
+      truePeakDbtp: gainToDb(tp[c]!),
+      rmsDbfs: powerToDb(sumSq[c]! / frames),
       dcOffset: sum[c]! / frames,
       clippedSamples: clipped[c]!,
       clippedRunCount: runCount[c]!,
@@ -335,8 +336,8 @@ function envelope(power: Float32Array[], n: number, frameSeconds: number, points
     }
     const count = Math.max(1, (Math.min(e, n) - a) * power.length);
     timesSeconds.push(round(a * frameSeconds, 3));
-    rmsDbfs.push(round(10 * Math.log10(Math.max(s / count, 1e-15)), 1));
-    maxDbfs.push(round(10 * Math.log10(Math.max(m, 1e-15)), 1));
+    rmsDbfs.push(round(powerToDb(Math.max(s / count, 1e-15)), 1));
+    maxDbfs.push(round(powerToDb(Math.max(m, 1e-15)), 1));
   }
   return { timesSeconds, rmsDbfs, maxDbfs };
 }

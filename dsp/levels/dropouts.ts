@@ -16,6 +16,7 @@
  * about one frame. Depth is the reference minus the mean power of the frames below the threshold.
  * This is our own rule (common practice in transfer QC has no single published detector).
  */
+import { powerToDb } from '../units.ts';
 
 export interface DropoutOptions {
   /** Frame length of the level track, seconds (about 0.001). */
@@ -123,7 +124,7 @@ export function findDropouts(power: ArrayLike<number>, options: DropoutOptions):
       }
     }
     const inside = core / coreN;
-    const depth = inside > 0 ? 10 * Math.log10(ref / inside) : 200;
+    const depth = inside > 0 ? powerToDb(ref / inside) : 200;
     return {
       dropout: { startSeconds: s * fr, durationSeconds: (e - s) * fr, depthDb: Math.min(200, depth) },
       resume: e,
@@ -195,7 +196,7 @@ export function zeroRunDropouts(runs: readonly ZeroRun[], power: readonly Float3
     const ref = programme[r.channel]!;
     const floor = Math.max(ZERO_FLOOR, ref * 10 ** (-ZERO_PROGRAMME_DB / 10));
     if (before < floor || after < floor) continue;
-    if (Math.abs(10 * Math.log10(before / after)) > ZERO_CONTINUITY_DB) continue;
+    if (Math.abs(powerToDb(before / after)) > ZERO_CONTINUITY_DB) continue;
     // Cut, not faded: the samples right next to the run are of the size of the programme around
     // them (a sound that dies away into digital silence, or starts from it, passes through
     // values a few bits high; a waveform cut by a fault does not).

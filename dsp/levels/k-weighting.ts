@@ -7,6 +7,7 @@
  * high-pass f0, Q). These parameter values are the ones published with libebur128 (ebur128.c),
  * which reproduce the 48 kHz table to 8 digits; test/levels checks that.
  */
+import { gainToDb } from '../units.ts';
 
 export interface BiquadCoefficients {
   /** Numerator b0, b1, b2. */
@@ -58,7 +59,7 @@ export function biquadGain(c: BiquadCoefficients, frequencyHz: number, sampleRat
 /** Gain of the complete K-weighting in dB at one frequency (+0.691 dB at 997 Hz at 48 kHz). */
 export function kWeightingGainDb(frequencyHz: number, sampleRateHz: number): number {
   const [s, h] = kWeightingCoefficients(sampleRateHz);
-  return 20 * Math.log10(biquadGain(s, frequencyHz, sampleRateHz) * biquadGain(h, frequencyHz, sampleRateHz));
+  return gainToDb(biquadGain(s, frequencyHz, sampleRateHz) * biquadGain(h, frequencyHz, sampleRateHz));
 }
 
 /**

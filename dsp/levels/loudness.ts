@@ -17,6 +17,7 @@
  * is left out. Channel order is taken as the WAV/SMPTE order L R C LFE Ls Rs for 6 channels and
  * L R C Ls Rs for 5; any other count weighs every channel 1.0.
  */
+import { powerToDb } from '../units.ts';
 import { KWeightingFilter } from './k-weighting.ts';
 
 export const ABSOLUTE_GATE_LUFS = -70;
@@ -40,7 +41,7 @@ export interface LoudnessResult {
   loudnessRangeLu: number;
 }
 
-const toLufs = (weightedMeanSquare: number): number => -0.691 + 10 * Math.log10(weightedMeanSquare);
+const toLufs = (weightedMeanSquare: number): number => -0.691 + powerToDb(weightedMeanSquare);
 
 export class LoudnessMeter {
   readonly #filters: (KWeightingFilter | null)[];

@@ -4,6 +4,7 @@
  * hop ≥ frame length, so an hour of audio costs a few thousand FFTs, not hundreds of thousands;
  * for a long-term average that is plenty. Scaling: a full-scale sine reads 0 dB at its bin.
  */
+import { powerToDb } from '../units.ts';
 import { FftPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';
 
@@ -72,7 +73,7 @@ export class SparseSpectrum {
     for (const v of this.#window) sw += v;
     const fullScale = (sw / 2) ** 2; // |X|² of a unit sine at its bin
     const norm = 1 / (this.#frames * this.channelCount * fullScale);
-    for (let k = 0; k < out.length; k++) out[k] = 10 * Math.log10(Math.max(this.#power[k]! * norm, 1e-30));
+    for (let k = 0; k < out.length; k++) out[k] = powerToDb(Math.max(this.#power[k]! * norm, 1e-30));
     return out;
   }
 }
@@ -87,7 +88,7 @@ export function smoothSpectrumDb(levelsDb: Float64Array, fraction: number): Floa
   for (let k = 0; k < n; k++) {
     const half = Math.max(1, Math.round(k * fraction));
     const a = Math.max(0, k - half), b = Math.min(n, k + half + 1);
-    out[k] = 10 * Math.log10(Math.max((prefix[b]! - prefix[a]!) / (b - a), 1e-30));
+    out[k] = powerToDb(Math.max((prefix[b]! - prefix[a]!) / (b - a), 1e-30));
   }
   return out;
 }
@@ -177,7 +178,7 @@ export function compactSpectrum(levelsDb: Float64Array, sampleRateHz: number): {
     let s = 0;
     for (let k = a; k <= b; k++) s += Math.pow(10, levelsDb[k]! / 10);
     frequenciesHz.push(Math.round(f * 10) / 10);
-    out.push(Math.round(10 * Math.log10(Math.max(s / (b - a + 1), 1e-30)) * 10) / 10);
+    out.push(Math.round(powerToDb(Math.max(s / (b - a + 1), 1e-30)) * 10) / 10);
   }
   return { frequenciesHz, levelsDb: out };
 }

@@ -4,14 +4,16 @@
  * (dsp/core/fractional-delay.ts; 64 taps, β for 100 dB). Channel 1 and any further channels pass
  * unchanged, so the file keeps its timing; the output has exactly as many frames as the input.
  */
-import type { CorrectionOp } from './types.ts';
+import { defineCorrection } from './types.ts';
 import type { Block } from '../source.ts';
-import { num } from './params.ts';
 import { ParameterError } from '../errors.ts';
-import { FractionalDelay } from '../core/fractional-delay.ts';
-import { crossSpectrum, estimateDelay } from '../azimuth/delay.ts';
 
-export const align: CorrectionOp = {
+const algorithms = async () => {
+  const [{ FractionalDelay }, { crossSpectrum, estimateDelay }] = await Promise.all([import('../core/fractional-delay.ts'), import('../azimuth/delay.ts')]);
+  return { FractionalDelay, crossSpectrum, estimateDelay };
+};
+
+export const align = defineCorrection({
   kind: 'correction',
   name: 'align',
   title: 'Align channels',
@@ -25,9 +27,12 @@ export const align: CorrectionOp = {
   ],
   measures: 'azimuth',
   applies: (facts) => facts.channelCount >= 2,
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params, ctx) {
+    const { FractionalDelay, crossSpectrum, estimateDelay } = await algorithms();
     if (source.channelCount < 2) throw new ParameterError('align needs at least two channels');
-    let delaySeconds = num(params, 'delaySeconds');
+    let delaySeconds = params.delaySeconds;
     if (delaySeconds === undefined) delaySeconds = estimateDelay(await crossSpectrum(source, ctx)).delaySeconds;
     const delaySamples = delaySeconds * source.sampleRateHz;
     const nCh = source.channelCount;
@@ -72,4 +77,4 @@ export const align: CorrectionOp = {
   history(resolved) {
     return `reelwright align delay=${Number(resolved.delaySeconds).toPrecision(6)}s (channel 2 advanced)`;
   },
-};
+});

@@ -3,10 +3,14 @@
  * dsp/azimuth/delay.ts), their coherence, the first null of the mono sum, and — given the tape
  * speed and the track spacing — the equivalent head azimuth error in arc-minutes.
  */
-import type { AnalysisOp, Finding } from './types.ts';
-import { num } from './params.ts';
+import { defineAnalysis, type Finding } from './types.ts';
 import { ParameterError } from '../errors.ts';
-import { azimuthArcMinutes, crossSpectrum, estimateDelay, monoNullHz, type DelayEstimate } from '../azimuth/delay.ts';
+import type { DelayEstimate } from '../azimuth/delay.ts';
+
+const algorithms = () => import('../azimuth/delay.ts');
+import { fixedOrDash, numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
+
+const micro = (v: number | undefined) => (v === undefined ? undefined : v * 1e6);
 
 export interface AzimuthResult {
   /** Positive when channel 2 lags channel 1. */
@@ -74,7 +78,7 @@ function verdictOf(est: DelayEstimate, limit: number): 'head' | 'programme' | nu
 
 const us = (s: number) => `${(s * 1e6).toFixed(1)} µs`;
 
-export const azimuth: AnalysisOp<AzimuthResult> = {
+export const azimuth = defineAnalysis<AzimuthResult>()({
   kind: 'analysis',
   name: 'azimuth',
   key: 'azimuth',
@@ -93,10 +97,13 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
     },
   ],
   applies: (facts) => facts.channelCount >= 2,
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
+    const { azimuthArcMinutes, crossSpectrum, estimateDelay, monoNullHz } = await algorithms();
     if (source.channelCount < 2) throw new ParameterError('azimuth needs at least two channels');
-    const ips = num(params, 'tapeSpeedIps') ?? null;
-    const mm = num(params, 'trackSpacingMm') ?? null;
+    const ips = params.tapeSpeedIps ?? null;
+    const mm = params.trackSpacingMm ?? null;
     const est = estimateDelay(await crossSpectrum(source, ctx));
     const limit = headLimitSeconds(ips, mm);
     return {
@@ -166,4 +173,28 @@ export const azimuth: AnalysisOp<AzimuthResult> = {
     });
     return out;
   },
-};
+
+  // The batch report's columns and the check's gates.
+  columns: [
+    { header: 'azimuthDelayMicroseconds', get: (s) => roundTo(micro(sectionNumber(s, 'azimuth', 'delaySeconds')), 2) },
+    { header: 'azimuthCoherence', get: (s) => roundTo(sectionNumber(s, 'azimuth', 'coherence'), 3) },
+    { header: 'azimuthMonoNullHz', get: (s) => roundTo(sectionNumber(s, 'azimuth', 'monoNullHz'), 0) },
+  ],
+  overview: [{ heading: 'Azimuth µs', text: (s) => fixedOrDash(micro(sectionNumber(s, 'azimuth', 'delaySeconds')), 1) }],
+  metrics: [
+    {
+      id: 'azimuth.delayMicroseconds', label: 'inter-channel delay', unit: 'µs', digits: 1,
+      get: (s) => {
+        const a = objectOf(s.azimuth);
+        // Judged only where the delay is evidence of the head (the azimuth analysis's verdict):
+        // stereo programme's own inter-channel timing is not a transfer fault.
+        const d = numberOf(a?.delaySeconds);
+        return d === undefined || a?.verdict !== 'head' ? undefined : Math.abs(d) * 1e6;
+      },
+      defaultRule: {
+        warnAt: 10, failAt: 25,
+        comment: 'Absolute delay between channels 1 and 2 (only judged when it is a head\'s delay: the same programme on both tracks, one delay at every frequency). 25 us puts the first mono-sum null at 20 kHz.',
+      },
+    },
+  ],
+});

@@ -71,6 +71,8 @@ export async function diagnose(source: AudioSource, ctx: OpContext, options: Dia
     report(i, 1);
     return part;
   };
+  // Every algorithm loaded first, so the analyses started together all meet the shared pass.
+  await Promise.all(ops.map((op) => op.load?.()));
   let parts: DiagnoseResult[];
   if (options.sequential) {
     parts = [];

@@ -3,13 +3,16 @@
  * desk) and print-through (a faint copy of loud passages 0.3–4 s before or after them), with
  * delay, strength and confidence. Method: dsp/echo/detect.ts.
  */
-import { analyseEcho, type EchoAnalysis } from '../echo/detect.ts';
-import { num, range } from './params.ts';
-import type { AnalysisOp, Finding } from './types.ts';
+import type { EchoAnalysis } from '../echo/detect.ts';
+
+const algorithms = () => import('../echo/detect.ts');
+import { defineAnalysis, type Finding } from './types.ts';
+import { numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
+import { gainToDb } from '../units.ts';
 
 const round = (v: number | null, digits: number): number | null => (v === null ? null : Number(v.toFixed(digits)));
 
-export const echo: AnalysisOp<EchoAnalysis> = {
+export const echo = defineAnalysis<EchoAnalysis>()({
   kind: 'analysis',
   name: 'echo',
   key: 'echo',
@@ -36,10 +39,13 @@ export const echo: AnalysisOp<EchoAnalysis> = {
       max: 64,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
-    const ch = num(params, 'channel');
+    const { analyseEcho } = await algorithms();
+    const ch = params.channel;
     return analyseEcho(source, {
-      rangeSeconds: range(params, 'rangeSeconds'),
+      rangeSeconds: params.rangeSeconds,
       channel: ch === undefined ? -1 : ch - 1,
       signal: ctx.signal,
       progress: (f) => ctx.progress(f),
@@ -76,7 +82,7 @@ export const echo: AnalysisOp<EchoAnalysis> = {
     const rf = r.reflection;
     if (rf.present === true && rf.delaySeconds !== null && rf.gain !== null) {
       const ms = rf.delaySeconds * 1000;
-      const db = 20 * Math.log10(Math.abs(rf.gain));
+      const db = gainToDb(rf.gain);
       out.push({
         op: 'echo',
         title: `Reflection ${ms.toFixed(1)} ms after the direct sound`,
@@ -147,4 +153,33 @@ export const echo: AnalysisOp<EchoAnalysis> = {
     }
     return out;
   },
-};
+
+  // The batch report's columns and the check's gates (delay and strength only for what is present).
+  columns: [
+    { header: 'echoPresent', get: (s) => objectOf(s.echo)?.present as boolean | undefined },
+    { header: 'echoDelaySeconds', get: (s) => (objectOf(s.echo)?.present === true ? roundTo(sectionNumber(s, 'echo', 'delaySeconds'), 6) : undefined) },
+    { header: 'echoGain', get: (s) => (objectOf(s.echo)?.present === true ? roundTo(sectionNumber(s, 'echo', 'gain'), 4) : undefined) },
+    { header: 'printThroughPresent', get: (s) => objectOf(s.printThrough)?.present as boolean | undefined },
+    { header: 'printThroughDelaySeconds', get: (s) => (objectOf(s.printThrough)?.present === true ? roundTo(sectionNumber(s, 'printThrough', 'delaySeconds'), 4) : undefined) },
+    { header: 'printThroughLevelDb', get: (s) => (objectOf(s.printThrough)?.present === true ? roundTo(sectionNumber(s, 'printThrough', 'levelDb'), 1) : undefined) },
+  ],
+  metrics: [
+    {
+      id: 'echo.gainDb', label: 'echo level', unit: 'dB', digits: 1,
+      get: (s) => {
+        const e = objectOf(s.echo);
+        const g = numberOf(e?.gain);
+        return e?.present === true && g !== undefined && g !== 0 ? gainToDb(g) : undefined;
+      },
+      defaultRule: { warnAt: -30, failAt: -15, comment: 'Level of a detected echo relative to the direct sound.' },
+    },
+    {
+      id: 'printThrough.levelDb', label: 'print-through level', unit: 'dB', digits: 1,
+      get: (s) => {
+        const p = objectOf(s.printThrough);
+        return p?.present === true ? numberOf(p.levelDb) : undefined;
+      },
+      defaultRule: { warnAt: -50, failAt: -35, comment: 'Level of detected print-through relative to the programme.' },
+    },
+  ],
+});

@@ -4,11 +4,14 @@
  * automatically (dsp/flutter/locate.ts), FM-demodulated (demodulate.ts) and measured with the
  * standard weighting and a two-sigma reading (weighting.ts, meter.ts).
  */
-import type { AnalysisOp, Finding } from './types.ts';
-import { num } from './params.ts';
-import { locateTone } from '../flutter/locate.ts';
-import { demodulateTone } from '../flutter/demodulate.ts';
-import { flutterFigures, type FlutterFigures } from '../flutter/meter.ts';
+import { defineAnalysis, type Finding } from './types.ts';
+import type { FlutterFigures } from '../flutter/meter.ts';
+
+const algorithms = async () => {
+  const [{ locateTone }, { demodulateTone }, { flutterFigures }] = await Promise.all([import('../flutter/locate.ts'), import('../flutter/demodulate.ts'), import('../flutter/meter.ts')]);
+  return { locateTone, demodulateTone, flutterFigures };
+};
+import { fixedOrDash, roundTo, sectionNumber } from './sections.ts';
 
 export interface FlutterResult extends FlutterFigures {
   /** Nominal tone, Hz. */
@@ -26,7 +29,7 @@ export function likelyCause(rateHz: number): string {
   return 'a fast rate like this is usually scrape flutter: the tape vibrating over the heads and guides';
 }
 
-export const flutter: AnalysisOp<FlutterResult> = {
+export const flutter = defineAnalysis<FlutterResult>()({
   kind: 'analysis',
   name: 'flutter',
   key: 'flutter',
@@ -39,8 +42,11 @@ export const flutter: AnalysisOp<FlutterResult> = {
       min: 100, max: 20000, default: 3150,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
-    const toneHz = num(params, 'toneHz') ?? 3150;
+    const { locateTone, demodulateTone, flutterFigures } = await algorithms();
+    const toneHz = params.toneHz ?? 3150;
     const locateCtx = { ...ctx, progress: (f: number) => ctx.progress(0.5 * f) };
     const seg = await locateTone(source, toneHz, {}, locateCtx);
     const demodCtx = { ...ctx, progress: (f: number) => ctx.progress(0.5 + 0.5 * f) };
@@ -98,4 +104,33 @@ export const flutter: AnalysisOp<FlutterResult> = {
     }
     return out;
   },
-};
+
+  // The batch report's columns and the check's gates (only when a test tone was found).
+  columns: [
+    { header: 'flutterToneHz', get: (s) => sectionNumber(s, 'flutter', 'toneHz') },
+    { header: 'flutterWeightedPeakPercent', get: (s) => roundTo(sectionNumber(s, 'flutter', 'weightedPeakPercent'), 4) },
+    { header: 'flutterUnweightedPeakPercent', get: (s) => roundTo(sectionNumber(s, 'flutter', 'unweightedPeakPercent'), 4) },
+    { header: 'flutterWeightedRmsPercent', get: (s) => roundTo(sectionNumber(s, 'flutter', 'weightedRmsPercent'), 4) },
+    { header: 'flutterDriftPercent', get: (s) => roundTo(sectionNumber(s, 'flutter', 'driftPercent'), 4) },
+    { header: 'flutterDominantRateHz', get: (s) => roundTo(sectionNumber(s, 'flutter', 'dominantRateHz'), 3) },
+  ],
+  overview: [{ heading: 'Flutter % (wtd)', text: (s) => fixedOrDash(sectionNumber(s, 'flutter', 'weightedPeakPercent'), 3) }],
+  metrics: [
+    {
+      id: 'flutter.weightedPeakPercent', label: 'wow and flutter (weighted)', unit: '%', digits: 3, get: (s) => sectionNumber(s, 'flutter', 'weightedPeakPercent'),
+      defaultRule: { warnAt: 0.1, failAt: 0.25, comment: 'Wow and flutter, IEC 60386 weighted, two-sigma peak (only when a test tone is found).' },
+    },
+    {
+      id: 'flutter.driftPercent', label: 'speed drift', unit: '%', digits: 2, get: (s) => sectionNumber(s, 'flutter', 'driftPercent'),
+      defaultRule: { warnAt: 0.2, failAt: 1, comment: 'Slow speed drift over the test tone, +/- %.' },
+    },
+    {
+      id: 'flutter.meanSpeedErrorPercent', label: 'test tone off nominal', unit: '%', digits: 2,
+      get: (s) => {
+        const v = sectionNumber(s, 'flutter', 'meanSpeedErrorPercent');
+        return v === undefined ? undefined : Math.abs(v);
+      },
+      defaultRule: { warnAt: 0.5, failAt: 2, comment: 'Test tone off its nominal frequency, absolute %.' },
+    },
+  ],
+});

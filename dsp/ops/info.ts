@@ -4,7 +4,7 @@
  * so its RMS reads −3.01 dBFS (AES17 convention).
  */
 import type { AnalysisOp, Finding } from './types.ts';
-import { gainToDb } from '../units.ts';
+import { gainToDb, powerToDb } from '../units.ts';
 
 export interface ChannelStats {
   channel: number;
@@ -71,7 +71,7 @@ export const info: AnalysisOp<InfoResult> = {
         channel: c + 1,
         peakDbfs: gainToDb(peak[c]!),
         // Plain RMS re full scale: a full-scale sine reads −3.01 dBFS.
-        rmsDbfs: 10 * Math.log10(sumSq[c]! / frames),
+        rmsDbfs: powerToDb(sumSq[c]! / frames),
         dcOffset: sum[c]! / frames,
         clippedSamples: clipped[c]!,
       });

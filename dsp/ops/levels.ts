@@ -5,17 +5,44 @@
  * inside programme), level dips (listed for listening), silence at head and tail, and the effective bandwidth (in the numbers only: the `spectrum` analysis words the
  * bandwidth finding). Methods: dsp/levels/.
  */
-import type { AnalysisOp, Finding } from './types.ts';
-import { num } from './params.ts';
+import { defineAnalysis, type Finding } from './types.ts';
 import { clipThreshold } from './info.ts';
-import { analyzeLevels, type LevelsResult } from '../levels/analyze.ts';
+import type { LevelsResult } from '../levels/analyze.ts';
+
+const algorithms = () => import('../levels/analyze.ts');
+import { arrayOf, fixedOrDash, numberOf, objectOf, roundTo, sectionNumber, type Sections } from './sections.ts';
+
+function clippedRuns(s: Sections): number | undefined {
+  const ch = arrayOf(objectOf(s.levels)?.channels);
+  return ch ? ch.reduce<number>((a, c) => a + (numberOf(objectOf(c)?.clippedRunCount) ?? 0), 0) : undefined;
+}
+
+function dcOffsetPercent(s: Sections): number | undefined {
+  const ch = arrayOf(objectOf(s.levels)?.channels);
+  return ch ? Math.max(0, ...ch.map((c) => Math.abs(numberOf(objectOf(c)?.dcOffset) ?? 0) * 100)) : undefined;
+}
+
+const dropouts = (s: Sections): number | undefined => arrayOf(objectOf(s.levels)?.dropouts)?.length;
+
+function silence(s: Sections, key: 'headSeconds' | 'tailSeconds'): number | undefined {
+  const si = objectOf(objectOf(s.levels)?.silence);
+  if (!si || si.allSilent === true) return undefined;
+  return numberOf(si[key]);
+}
+
+/**
+ * The levels analysis's figure (its rule finds band edges and reads full-band pink-ish programme
+ * as full band), else the spectrum analysis's.
+ */
+const bandwidthHz = (s: Sections): number | undefined =>
+  objectOf(objectOf(s.levels)?.silence)?.allSilent === true ? undefined : sectionNumber(s, 'levels', 'bandwidthHz') ?? sectionNumber(s, 'spectrum', 'bandwidthHz');
 
 export type { LevelsResult } from '../levels/analyze.ts';
 
 const f1 = (v: number) => (Number.isFinite(v) ? v.toFixed(1) : '−∞');
 const ms = (seconds: number) => `${(seconds * 1000).toFixed(0)} ms`;
 
-export const levels: AnalysisOp<LevelsResult> = {
+export const levels = defineAnalysis<LevelsResult>()({
   kind: 'analysis',
   name: 'levels',
   key: 'levels',
@@ -38,15 +65,18 @@ export const levels: AnalysisOp<LevelsResult> = {
       min: 1, max: 1000, default: 3,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
+    const { analyzeLevels } = await algorithms();
     const meta = source as { bitsPerSample?: number; sampleFormat?: 'int' | 'float' };
     return analyzeLevels(
       source,
       {
         clipLevel: clipThreshold(meta.bitsPerSample, meta.sampleFormat),
-        clipRunSamples: num(params, 'clipRunSamples'),
-        silenceThresholdDbfs: num(params, 'silenceThresholdDbfs'),
-        dropoutDepthDb: num(params, 'dropoutDepthDb'),
+        clipRunSamples: params.clipRunSamples,
+        silenceThresholdDbfs: params.silenceThresholdDbfs,
+        dropoutDepthDb: params.dropoutDepthDb,
       },
       ctx,
     );
@@ -103,4 +133,64 @@ export const levels: AnalysisOp<LevelsResult> = {
     }
     return out;
   },
-};
+
+  // The batch report's columns and the check's gates (dsp/ops/sections.ts reads the JSON sections).
+  columns: [
+    { header: 'loudnessLufs', get: (s) => roundTo(sectionNumber(s, 'levels', 'loudnessLufs'), 2) },
+    { header: 'truePeakDbtp', get: (s) => roundTo(sectionNumber(s, 'levels', 'truePeakDbtp'), 2) },
+    { header: 'loudnessRangeLu', get: (s) => roundTo(sectionNumber(s, 'levels', 'loudnessRangeLu'), 1) },
+    { header: 'clippedRuns', get: clippedRuns },
+    { header: 'dcOffsetPercent', get: (s) => roundTo(dcOffsetPercent(s), 3) },
+    { header: 'dropouts', get: dropouts },
+    { header: 'headSilenceSeconds', get: (s) => silence(s, 'headSeconds') },
+    { header: 'tailSilenceSeconds', get: (s) => silence(s, 'tailSeconds') },
+    { header: 'bandwidthHz', get: bandwidthHz },
+  ],
+  overview: [
+    { heading: 'Loudness LUFS', text: (s) => fixedOrDash(sectionNumber(s, 'levels', 'loudnessLufs'), 1) },
+    { heading: 'True peak dBTP', text: (s) => fixedOrDash(sectionNumber(s, 'levels', 'truePeakDbtp'), 1) },
+  ],
+  metrics: [
+    {
+      id: 'levels.clippedRuns', label: 'clipped runs', unit: '', digits: 0, get: clippedRuns,
+      defaultRule: { warnAt: 1, failAt: 10, comment: 'Runs of 3 or more consecutive samples at full scale, all channels.' },
+    },
+    {
+      id: 'levels.truePeakDbtp', label: 'true peak', unit: 'dBTP', digits: 1, get: (s) => sectionNumber(s, 'levels', 'truePeakDbtp'),
+      defaultRule: { warnAt: -0.5, failAt: 0.5, comment: 'Highest true peak (BS.1770, 4x oversampled).' },
+    },
+    {
+      id: 'levels.loudnessLufs', label: 'loudness', unit: 'LUFS', digits: 1, get: (s) => sectionNumber(s, 'levels', 'loudnessLufs'),
+      defaultRule: { warnBelow: -40, comment: "Integrated loudness; very quiet transfers waste the converter's range." },
+    },
+    {
+      id: 'levels.silentChannels', label: 'silent channels', unit: '', digits: 0,
+      get: (s) => {
+        const ch = arrayOf(objectOf(s.levels)?.channels);
+        // A null/−∞ peak (digital silence) counts as silent.
+        return ch ? ch.filter((c) => !((numberOf(objectOf(c)?.peakDbfs) ?? -Infinity) > -60)).length : undefined;
+      },
+      defaultRule: { failAt: 1, comment: 'Channels that never rise above -60 dBFS (dead channel or no signal).' },
+    },
+    {
+      id: 'levels.dcOffsetPercent', label: 'DC offset', unit: '%', digits: 2, get: dcOffsetPercent,
+      defaultRule: { warnAt: 0.5, failAt: 2, comment: 'Largest DC offset of any channel, % of full scale.' },
+    },
+    {
+      id: 'levels.dropouts', label: 'dropouts', unit: '', digits: 0, get: dropouts,
+      defaultRule: { warnAt: 1, failAt: 5, comment: 'Runs of exact digital zeros (2-500 ms) inside running programme: a transfer fault.' },
+    },
+    {
+      id: 'levels.headSilenceSeconds', label: 'silence at the head', unit: 's', digits: 1, get: (s) => silence(s, 'headSeconds'),
+      defaultRule: { warnAt: 30, comment: 'Silence (below -60 dBFS) before the programme starts.' },
+    },
+    {
+      id: 'levels.tailSilenceSeconds', label: 'silence at the tail', unit: 's', digits: 1, get: (s) => silence(s, 'tailSeconds'),
+      defaultRule: { warnAt: 60, comment: 'Silence after the programme ends.' },
+    },
+    {
+      id: 'levels.bandwidthHz', label: 'effective bandwidth', unit: 'Hz', digits: 0, get: bandwidthHz,
+      defaultRule: { warnBelow: 3000, comment: 'Effective bandwidth (from the levels analysis, else from spectrum); below this the transfer sounds muffled or the wrong head or equalisation was used.' },
+    },
+  ],
+});

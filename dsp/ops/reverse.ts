@@ -4,12 +4,13 @@
  * reversed). Samples are moved, not computed: reversing twice returns the input exactly.
  */
 import { ParameterError } from '../errors.ts';
-import { resolveReverse, reverseBlocks } from '../reverse/reverse.ts';
 import { list, num } from './params.ts';
 import { reversedSegments } from './timing.ts';
-import type { CorrectionOp } from './types.ts';
+import { defineCorrection } from './types.ts';
 
-export const reverse: CorrectionOp = {
+const algorithms = () => import('../reverse/reverse.ts');
+
+export const reverse = defineCorrection({
   kind: 'correction',
   name: 'reverse',
   title: 'Reverse',
@@ -20,17 +21,20 @@ export const reverse: CorrectionOp = {
     { name: 'fromSeconds', flag: 'from', type: 'number', label: 'From', help: 'Start of the range to reverse (default: the start).', unit: 's', min: 0, quantity: 'instant' },
     { name: 'toSeconds', flag: 'to', type: 'number', label: 'To', help: 'End of the range to reverse (default: the end).', unit: 's', min: 0, quantity: 'instant' },
   ],
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params, ctx) {
+    const { resolveReverse, reverseBlocks } = await algorithms();
     const fs = source.sampleRateHz;
-    const channelsGiven = list(params, 'channels');
+    const channelsGiven = params.channels;
     if (channelsGiven) {
       for (const c of channelsGiven) {
         if (!Number.isInteger(c)) throw new ParameterError(`--channels ${channelsGiven.join(',')}: channel numbers are whole numbers from 1`);
         if (c > source.channelCount) throw new ParameterError(`--channels ${channelsGiven.join(',')}: channel ${c} does not exist (the input has ${source.channelCount})`);
       }
     }
-    const from = num(params, 'fromSeconds') ?? 0;
-    let to = num(params, 'toSeconds');
+    const from = params.fromSeconds ?? 0;
+    let to = params.toSeconds;
     const duration = source.frames / fs;
     if (to !== undefined && to > duration) {
       ctx.warn(`--to ${to} is past the end (${duration.toFixed(3)} s); reversing up to the end`);
@@ -73,4 +77,4 @@ export const reverse: CorrectionOp = {
     const ch = (r.channels as number[]).join(',');
     return `reelwright reverse channels=${ch} frames=${String(r.startFrame)}-${String(r.endFrame)}`;
   },
-};
+});

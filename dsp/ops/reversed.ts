@@ -4,8 +4,14 @@
  * A channel whose evidence is thin or contradictory gets `likely: null` and a "not determined"
  * finding with the reason and no fix.
  */
-import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD, detectReversedChannels, type ReversedResult } from '../reverse/detect.ts';
+import type { ReversedResult } from '../reverse/detect.ts';
+import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from '../reverse/limits.ts';
+
+const algorithms = () => import('../reverse/detect.ts');
 import type { AnalysisOp, Finding } from './types.ts';
+import { arrayOf, objectOf, type Sections } from './sections.ts';
+
+const reversedChannels = (s: Sections): number | undefined => arrayOf(objectOf(s.reversed)?.channels)?.filter((c) => objectOf(c)?.likely === true).length;
 
 export const reversed: AnalysisOp<ReversedResult> = {
   kind: 'analysis',
@@ -14,7 +20,10 @@ export const reversed: AnalysisOp<ReversedResult> = {
   title: 'Reversed channels',
   summary: 'Find channels that play backwards (a quarter-track reel transferred in one pass), from how sounds start and stop.',
   params: [],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, _params, ctx) {
+    const { detectReversedChannels } = await algorithms();
     return detectReversedChannels(source, (f) => ctx.progress(f));
   },
   toJson(result) {
@@ -71,4 +80,13 @@ export const reversed: AnalysisOp<ReversedResult> = {
     }
     return out;
   },
+
+  // The batch report's column and the check's gate.
+  columns: [{ header: 'reversedChannels', get: reversedChannels }],
+  metrics: [
+    {
+      id: 'reversed.channels', label: 'reversed channels', unit: '', digits: 0, get: reversedChannels,
+      defaultRule: { failAt: 1, comment: 'Channels that are likely recorded in the other direction.' },
+    },
+  ],
 };

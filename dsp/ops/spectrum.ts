@@ -10,13 +10,15 @@
  *
  * Long files are estimated from at most MAX_FRAMES evenly spaced frames (see welchSpectrum).
  */
-import type { AnalysisOp, Finding } from './types.ts';
-import { num } from './params.ts';
-import { welchSpectrum } from '../core/welch.ts';
-import { isPowerOfTwo } from '../core/fft.ts';
+import { defineAnalysis, type Finding } from './types.ts';
+const algorithms = async () => {
+  const [{ welchSpectrum }, { isPowerOfTwo }, { bandwidthSpectrum, effectiveBandwidthHz }] = await Promise.all([
+    import('../core/welch.ts'), import('../core/fft.ts'), import('../levels/spectrum.ts'),
+  ]);
+  return { welchSpectrum, isPowerOfTwo, bandwidthSpectrum, effectiveBandwidthHz };
+};
 import { CancelledError, ParameterError } from '../errors.ts';
 import { lineChartSvg } from '../plot/svg.ts';
-import { bandwidthSpectrum, effectiveBandwidthHz } from '../levels/spectrum.ts';
 
 /** Frames analysed at most; beyond that, evenly spaced frames stand for the whole file. */
 export const MAX_FRAMES = 4000;
@@ -46,7 +48,7 @@ function levelsAt(r: SpectrumResult, channel: number, f: readonly number[]): num
   });
 }
 
-export const spectrum: AnalysisOp<SpectrumResult> = {
+export const spectrum = defineAnalysis<SpectrumResult>()({
   kind: 'analysis',
   name: 'spectrum',
   key: 'spectrum',
@@ -65,8 +67,11 @@ export const spectrum: AnalysisOp<SpectrumResult> = {
       default: 8192,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
-    const fftSize = num(params, 'fftSize') ?? 8192;
+    const { welchSpectrum, isPowerOfTwo, bandwidthSpectrum, effectiveBandwidthHz } = await algorithms();
+    const fftSize = params.fftSize ?? 8192;
     if (!isPowerOfTwo(fftSize)) throw new ParameterError(`--fft-size ${fftSize}: must be a power of two`);
     const r = await welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => ctx.progress(0.5 * f));
     const sparse = bandwidthSpectrum(source.sampleRateHz, source.channelCount, source.frames);
@@ -160,4 +165,4 @@ export const spectrum: AnalysisOp<SpectrumResult> = {
       `<g>${strip(top)}</g><g transform="translate(0 280)">${strip(diff)}</g></svg>`
     );
   },
-};
+});

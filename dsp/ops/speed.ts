@@ -9,7 +9,10 @@
 import { NotFoundError } from '../errors.ts';
 import { num, str } from './params.ts';
 import type { AnalysisOp, Finding, ParamValues } from './types.ts';
-import { estimateSpeed, type SpeedOptions, type SpeedResult } from '../speed/estimate.ts';
+import type { SpeedOptions, SpeedResult } from '../speed/estimate.ts';
+
+const algorithms = () => import('../speed/estimate.ts');
+import { numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
 
 export type { SpeedResult } from '../speed/estimate.ts';
 
@@ -50,7 +53,10 @@ export const speed: AnalysisOp<SpeedResult> = {
     },
   ],
   applies: (facts) => facts.frames >= facts.sampleRateHz,
+  // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
+  load: algorithms,
   async run(source, params, ctx) {
+    const { estimateSpeed } = await algorithms();
     const opts = speedOptions(params);
     const result = await estimateSpeed(source, opts, ctx);
     if (opts.mainsHz && !result.candidates.some((c) => c.method === 'hum' && c.mainsHz === opts.mainsHz && c.confidence >= 0.5)) {
@@ -126,4 +132,31 @@ export const speed: AnalysisOp<SpeedResult> = {
     }
     return out;
   },
+
+  // The batch report's columns and the check's gates.
+  columns: [
+    { header: 'speedFactor', get: (s) => roundTo(sectionNumber(s, 'speed', 'factor'), 6) },
+    { header: 'speedCents', get: (s) => roundTo(sectionNumber(s, 'speed', 'cents'), 2) },
+    { header: 'speedMethod', get: (s) => objectOf(s.speed)?.method as string | undefined },
+  ],
+  overview: [
+    {
+      heading: 'Speed cents',
+      text: (s) => {
+        const cents = sectionNumber(s, 'speed', 'cents');
+        return cents === undefined ? '—' : `${cents >= 0 ? '+' : ''}${cents.toFixed(1)}`;
+      },
+    },
+  ],
+  metrics: [
+    {
+      id: 'speed.absCents', label: 'speed error', unit: 'cents', digits: 1,
+      get: (s) => {
+        const sp = objectOf(s.speed);
+        const cents = numberOf(sp?.cents), conf = numberOf(sp?.confidence);
+        return cents === undefined || (conf !== undefined && conf < 0.5) ? undefined : Math.abs(cents);
+      },
+      defaultRule: { warnAt: 10, failAt: 30, comment: 'Speed error of the transfer in cents (only when the speed analysis is at least 50 % confident).' },
+    },
+  ],
 };

@@ -4,13 +4,17 @@
  * (dsp/stretch/phase-vocoder.ts).
  */
 import { ParameterError } from '../errors.ts';
-import { MAX_RATIO, MIN_RATIO, defaultStretchFftSize } from '../stretch/phase-vocoder.ts';
-import { stretchSource } from '../stretch/render.ts';
+import { MAX_RATIO, MIN_RATIO } from '../stretch/limits.ts';
 import { num } from './params.ts';
 import { scaledSegments } from './timing.ts';
-import type { CorrectionOp } from './types.ts';
+import { defineCorrection } from './types.ts';
 
-export const stretch: CorrectionOp = {
+const algorithms = async () => {
+  const [{ defaultStretchFftSize }, { stretchSource }] = await Promise.all([import('../stretch/phase-vocoder.ts'), import('../stretch/render.ts')]);
+  return { defaultStretchFftSize, stretchSource };
+};
+
+export const stretch = defineCorrection({
   kind: 'correction',
   name: 'stretch',
   title: 'Time-stretch',
@@ -27,8 +31,11 @@ export const stretch: CorrectionOp = {
       max: MAX_RATIO,
     },
   ],
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params) {
-    const ratio = num(params, 'ratio');
+    const { defaultStretchFftSize, stretchSource } = await algorithms();
+    const ratio = params.ratio;
     if (ratio === undefined) throw new ParameterError('say how much: --ratio R (new duration ÷ old, 0.25 to 4)');
     if (!(ratio >= MIN_RATIO && ratio <= MAX_RATIO)) throw new ParameterError(`--ratio ${ratio}: outside ${MIN_RATIO} … ${MAX_RATIO}`);
     return {
@@ -49,4 +56,4 @@ export const stretch: CorrectionOp = {
   history(r) {
     return `reelwright stretch ratio=${Number(r.ratio).toPrecision(8)} phase vocoder, identity phase locking, fft=${String(r.fftSize)}`;
   },
-};
+});

@@ -5,13 +5,13 @@
  * estimate, dsp/stretch/envelope.ts) so a voice keeps the size of its speaker.
  */
 import { ParameterError } from '../errors.ts';
-import { planTranspose, transposeSource } from '../stretch/render.ts';
-import { bool, num } from './params.ts';
-import type { CorrectionOp } from './types.ts';
+import { num } from './params.ts';
+import { defineCorrection } from './types.ts';
 
 const QUALITY = 'draft' as const;
+const algorithms = () => import('../stretch/render.ts');
 
-export const transpose: CorrectionOp = {
+export const transpose = defineCorrection({
   kind: 'correction',
   name: 'transpose',
   title: 'Transpose',
@@ -21,11 +21,14 @@ export const transpose: CorrectionOp = {
     { name: 'cents', flag: 'cents', type: 'number', label: 'Cents', help: 'Raise or lower by this many cents (added to --semitones).', unit: 'cents', min: -2400, max: 2400 },
     { name: 'keepFormants', flag: 'keep-formants', type: 'boolean', label: 'Keep formants', help: 'Keep the spectral envelope, so a transposed voice still sounds like the same speaker.', default: false },
   ],
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params, ctx) {
-    const semitones = num(params, 'semitones'), cents = num(params, 'cents');
+    const { planTranspose, transposeSource } = await algorithms();
+    const semitones = params.semitones, cents = params.cents;
     if (semitones === undefined && cents === undefined) throw new ParameterError('say how far: --semitones S or --cents C');
     const total = 100 * (semitones ?? 0) + (cents ?? 0);
-    const keepFormants = bool(params, 'keepFormants');
+    const keepFormants = params.keepFormants === true;
     const plan = planTranspose(total, QUALITY); // throws ParameterError beyond ±2400 cents
     if (total === 0) {
       ctx.warn('a transposition of 0 cents changes nothing; the output is an exact copy');
@@ -62,4 +65,4 @@ export const transpose: CorrectionOp = {
   history(r) {
     return `reelwright transpose cents=${Number(r.cents).toPrecision(8)} factor=${Number(r.factor).toPrecision(8)}${r.keepFormants ? ' keep-formants' : ''} phase vocoder + resampler quality=${String(r.quality)}`;
   },
-};
+});

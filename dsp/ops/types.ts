@@ -5,6 +5,12 @@
  */
 import type { AudioSource, Block } from '../source.ts';
 import type { Frames, Hertz } from '../units.ts';
+import type { OpContext } from '../context.ts';
+import type { Sections } from './sections.ts';
+
+export type { OpContext } from '../context.ts';
+export { silentContext } from '../context.ts';
+export type { Sections } from './sections.ts';
 
 export type ParamType = 'number' | 'integer' | 'boolean' | 'string' | 'enum' | 'range' | 'list';
 
@@ -46,17 +52,6 @@ export type RangeValue = readonly [number, number];
 export type ParamValue = number | boolean | string | RangeValue | readonly number[] | undefined;
 export type ParamValues = Record<string, ParamValue>;
 
-export interface OpContext {
-  /** Fraction done 0–1 for this operation's whole run. */
-  progress(fraction: number): void;
-  /** A non-fatal problem worth telling the user (clamped gain, short material…). */
-  warn(message: string): void;
-  /** Set by the caller to stop work early (an AbortSignal fits this shape). */
-  readonly signal?: { readonly aborted: boolean };
-}
-
-export const silentContext: OpContext = { progress() {}, warn() {} };
-
 /** Static facts about the input that decide whether an operation applies. */
 export interface SourceFacts {
   readonly sampleRateHz: Hertz;
@@ -92,6 +87,12 @@ interface OperationBase {
   readonly params: readonly ParamSpec[];
   /** Whether the operation can run on this input (e.g. azimuth needs two channels). */
   applies?(facts: SourceFacts): boolean;
+  /**
+   * Loads the algorithms `run`/`prepare` use. They are imported on first use, so whoever reads
+   * only the spec (the editor page) does not carry them; diagnose calls this for every analysis
+   * before starting them together, so all of them meet the shared decoding pass.
+   */
+  readonly load?: () => Promise<unknown>;
 }
 
 export interface AnalysisOp<R = unknown> extends OperationBase {
@@ -112,6 +113,58 @@ export interface AnalysisOp<R = unknown> extends OperationBase {
   render?(result: R, format: 'svg' | 'csv', compareWith?: R): string;
   /** Before/after comparison for `--compare OTHER` and the editor's compare view. */
   compare?(before: R, after: R): Record<string, unknown>;
+  /** Columns this analysis adds to the batch report (CSV, and the HTML "Numbers" of each file), in order. */
+  readonly columns?: readonly ReportColumn[];
+  /** Cells this analysis adds to the HTML report's overview table (one row per file). */
+  readonly overview?: readonly OverviewCell[];
+  /** Numbers the check's pass/warn/fail rules can name, each with its default rule if it has one. */
+  readonly metrics?: readonly GateMetric[];
+}
+
+/**
+ * One column of the batch report, read from a file's sections (`{ file, levels, speed, … }` as
+ * `--json` prints them): undefined when the analysis did not run or has no such number.
+ */
+export interface ReportColumn {
+  /** CSV header and the label in the HTML numbers, camelCase with the unit (`loudnessLufs`). */
+  readonly header: string;
+  get(s: Sections): string | number | boolean | undefined;
+}
+
+/** One cell of the HTML report's overview table. */
+export interface OverviewCell {
+  /** Column heading with its unit ("Loudness LUFS"). */
+  readonly heading: string;
+  /** The cell's text ("—" when there is nothing to show). */
+  text(s: Sections): string;
+}
+
+/** A pass/warn/fail rule: at or above `…At`, below `…Below`. */
+export interface GateRule {
+  warnAt?: number;
+  failAt?: number;
+  warnBelow?: number;
+  failBelow?: number;
+}
+
+/** A number the check can gate on (`--thresholds` names it by `id`). */
+export interface GateMetric {
+  /** `section.name` as a thresholds file names it (`levels.truePeakDbtp`). */
+  readonly id: string;
+  /** What a reason calls it ("true peak"), its unit and the decimals shown. */
+  readonly label: string;
+  readonly unit: string;
+  readonly digits: number;
+  /** A yes/no metric (1 or 0): a crossed rule's reason is the label alone. */
+  readonly flag?: boolean;
+  /**
+   * The value; undefined when the analysis did not run, does not apply or found nothing to
+   * judge. Reading a field the result does not have is a defect the resolution test catches
+   * (main/check/thresholds.ts `resolveMetric`).
+   */
+  get(s: Sections): number | undefined;
+  /** The rule `check` applies unless a thresholds file replaces it, with one sentence saying what it flags. */
+  readonly defaultRule?: Readonly<GateRule> & { readonly comment: string };
 }
 
 /** What a correction produces: the output's shape and its blocks. */
@@ -164,3 +217,63 @@ export interface StepTiming {
 }
 
 export type Operation = AnalysisOp | CorrectionOp;
+
+/** The value a parameter of this spec has inside `run`/`prepare` (after validateParams). */
+export type ParamValueOf<S> = S extends { readonly type: 'number' | 'integer' }
+  ? number
+  : S extends { readonly type: 'boolean' }
+    ? boolean
+    : S extends { readonly type: 'enum'; readonly choices: readonly (infer C)[] }
+      ? C
+      : S extends { readonly type: 'string' | 'enum' }
+        ? string
+        : S extends { readonly type: 'range' }
+          ? RangeValue
+          : S extends { readonly type: 'list' }
+            ? readonly number[]
+            : never;
+
+/**
+ * The parameters of a spec list, typed: `params.toneHz` is a number, a misspelt name does not
+ * compile. Each may be absent (validateParams fills defaults, but a direct caller may leave one out).
+ */
+export type ParamsOf<P extends readonly ParamSpec[]> = { readonly [S in P[number] as S['name']]?: ParamValueOf<S> };
+
+/** An analysis as written in its module: `run` receives its parameters typed by its `params`. */
+export interface AnalysisDefinition<R, P extends readonly ParamSpec[]> extends Omit<AnalysisOp<R>, 'params' | 'run'> {
+  readonly params: P;
+  run(source: AudioSource, params: ParamsOf<P>, ctx: OpContext): Promise<R>;
+}
+
+/** A correction as written in its module: `prepare` receives its parameters typed by its `params`. */
+export interface CorrectionDefinition<P extends readonly ParamSpec[]> extends Omit<CorrectionOp, 'params' | 'prepare'> {
+  readonly params: P;
+  prepare(source: AudioSource, params: ParamsOf<P>, ctx: OpContext): Promise<Rendering>;
+}
+
+/**
+ * `export const speed = defineAnalysis<SpeedResult>()({ kind: 'analysis', name: 'speed', params: […], run(source, params, ctx) {…} })`:
+ * the parameter names and types of `params` type `run`'s parameters (the result type is given,
+ * the parameters are inferred). The registry holds it as a plain AnalysisOp.
+ */
+export const defineAnalysis =
+  <R>() =>
+  <const P extends readonly ParamSpec[]>(op: AnalysisDefinition<R, P>): AnalysisOp<R> =>
+    op as unknown as AnalysisOp<R>;
+
+/** As defineAnalysis, for a correction. */
+export const defineCorrection = <const P extends readonly ParamSpec[]>(op: CorrectionDefinition<P>): CorrectionOp => op as unknown as CorrectionOp;
+
+/**
+ * The members of an operation that do its work (and whatever only they import): everything else
+ * is its spec — name, title, summary, params, key, timing, report columns, gate metrics — which is
+ * all the editor page reads. The page's build leaves these out of every operation
+ * (renderer/operation-specs.ts); the worker, the command line and the check keep them.
+ */
+export const IMPLEMENTATION_MEMBERS = ['load', 'run', 'prepare', 'findings', 'toJson', 'render', 'compare', 'history'] as const satisfies readonly (
+  | keyof AnalysisOp
+  | keyof CorrectionOp
+)[];
+
+/** The members only the batch report and the check's gates read (the page's build leaves them out too). */
+export const REPORT_MEMBERS = ['columns', 'overview', 'metrics'] as const satisfies readonly (keyof AnalysisOp)[];

@@ -8,14 +8,18 @@
  * is listed as left.
  * Method and memory use: dsp/echo/render.ts.
  */
-import { analyseEcho } from '../echo/detect.ts';
-import { singleEchoKernel } from '../echo/kernel.ts';
-import { MAX_CANCEL_GAIN, refineSingleEcho } from '../echo/refine.ts';
-import { type CancelPlan, renderCancellation } from '../echo/render.ts';
+import { gainToDb } from '../units.ts';
+import type { CancelPlan } from '../echo/render.ts';
 import { NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
-import { num, range } from './params.ts';
-import type { CorrectionOp, OpContext, ParamValues } from './types.ts';
+import { defineCorrection, type OpContext, type ParamValues } from './types.ts';
+
+const algorithms = async () => {
+  const [{ analyseEcho }, { singleEchoKernel }, { MAX_CANCEL_GAIN, refineSingleEcho }, { renderCancellation }] = await Promise.all([
+    import('../echo/detect.ts'), import('../echo/kernel.ts'), import('../echo/refine.ts'), import('../echo/render.ts'),
+  ]);
+  return { analyseEcho, singleEchoKernel, MAX_CANCEL_GAIN, refineSingleEcho, renderCancellation };
+};
 
 interface EchoToCancel {
   kind: 'reflection' | 'print-through';
@@ -26,7 +30,7 @@ interface EchoToCancel {
   filter?: { firstTapSamples: number; taps: number[] };
 }
 
-function clampGain(g: number, ctx: OpContext): number {
+function clampGain(g: number, ctx: OpContext, MAX_CANCEL_GAIN: number): number {
   if (Math.abs(g) > MAX_CANCEL_GAIN) {
     ctx.warn(`gain ${g.toFixed(4)} is too close to 1 for a stable inverse: cancelling with ${Math.sign(g) * MAX_CANCEL_GAIN} instead`);
     return Math.sign(g) * MAX_CANCEL_GAIN;
@@ -36,6 +40,7 @@ function clampGain(g: number, ctx: OpContext): number {
 
 /** Measures the gain of an echo at a given delay (refined around it). */
 async function measureAt(source: AudioSource, delaySeconds: number, channel: number, ctx: OpContext): Promise<number> {
+  const { analyseEcho, refineSingleEcho } = await algorithms();
   const fs = source.sampleRateHz;
   if (delaySeconds < 0) {
     const a = await analyseEcho(source, { channel, warn: (m) => ctx.warn(m), signal: ctx.signal });
@@ -52,7 +57,7 @@ async function measureAt(source: AudioSource, delaySeconds: number, channel: num
   return r.fit.gain;
 }
 
-export const unecho: CorrectionOp = {
+export const unecho = defineCorrection({
   kind: 'correction',
   name: 'unecho',
   title: 'Remove echo',
@@ -102,11 +107,14 @@ export const unecho: CorrectionOp = {
       max: 64,
     },
   ],
-  async prepare(source, params: ParamValues, ctx) {
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
+  async prepare(source, params, ctx) {
+    const { analyseEcho, singleEchoKernel, MAX_CANCEL_GAIN, renderCancellation } = await algorithms();
     const fs = source.sampleRateHz;
-    const delay = num(params, 'delaySeconds');
-    const gain = num(params, 'gain');
-    const ch = num(params, 'channel');
+    const delay = params.delaySeconds;
+    const gain = params.gain;
+    const ch = params.channel;
     if (ch !== undefined && ch > source.channelCount) {
       throw new ParameterError(`--channel ${ch}: the file has ${source.channelCount} channel${source.channelCount === 1 ? '' : 's'}`);
     }
@@ -127,7 +135,7 @@ export const unecho: CorrectionOp = {
       echoes.push({ kind: Math.abs(delay) >= 0.3 ? 'print-through' : 'reflection', delaySeconds: delay, gain: g, source: gain === undefined ? 'measured' : 'given' });
     } else {
       const a = await analyseEcho(source, {
-        rangeSeconds: range(params, 'rangeSeconds'),
+        rangeSeconds: params.rangeSeconds,
         channel,
         signal: ctx.signal,
         progress: (f) => ctx.progress(0.5 * f),
@@ -156,7 +164,7 @@ export const unecho: CorrectionOp = {
     const plan: CancelPlan = { post: null, pre: null, postAfter: null, channels: channel < 0 ? null : [channel] };
     const used: EchoToCancel[] = [];
     for (const e of echoes) {
-      const g = clampGain(e.gain, ctx);
+      const g = clampGain(e.gain, ctx, MAX_CANCEL_GAIN);
       const d = Math.abs(e.delaySeconds) * fs;
       const kernel = e.filter ? { offset: e.filter.firstTapSamples, taps: Float64Array.from(e.filter.taps) } : singleEchoKernel(d, g);
       if (e.delaySeconds > 0) {
@@ -170,7 +178,7 @@ export const unecho: CorrectionOp = {
     const describe = (e: EchoToCancel) =>
       e.kind === 'reflection'
         ? `reflection ${(e.delaySeconds * 1000).toFixed(3)} ms, gain ${e.gain.toFixed(4)}${e.filter ? ` (${e.filter.taps.length}-tap filter)` : ''}`
-        : `print-through ${Math.abs(e.delaySeconds).toFixed(4)} s ${e.delaySeconds < 0 ? 'before' : 'after'}, ${(20 * Math.log10(Math.abs(e.gain))).toFixed(1)} dB`;
+        : `print-through ${Math.abs(e.delaySeconds).toFixed(4)} s ${e.delaySeconds < 0 ? 'before' : 'after'}, ${gainToDb(e.gain).toFixed(1)} dB`;
     const resolved: ParamValues = {};
     const [main, second] = used as [EchoToCancel, EchoToCancel | undefined];
     resolved.delaySeconds = main.delaySeconds;
@@ -202,4 +210,4 @@ export const unecho: CorrectionOp = {
     if (resolved.filterTaps !== undefined) parts.push(`filter=${resolved.filterTaps}taps`);
     return parts.join(' ');
   },
-};
+});

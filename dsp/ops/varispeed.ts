@@ -8,11 +8,16 @@
  * of 1 at the same rate, or a factor equal to the rate change) the output is the input's samples.
  */
 import { NotFoundError, ParameterError } from '../errors.ts';
-import { ratioFromSpeedCurve, resampleSource, ratioForFactor, Resampler, type ResampleQuality } from '../core/resample.ts';
-import { estimateSpeed, type SpeedMethod } from '../speed/estimate.ts';
-import { bool, num, str } from './params.ts';
+import type { ResampleQuality, Resampler } from '../core/resample.ts';
+import type { SpeedMethod } from '../speed/estimate.ts';
+import { num } from './params.ts';
 import { scaledSegments } from './timing.ts';
-import type { CorrectionOp, ParamValues } from './types.ts';
+import { defineCorrection, type ParamValues } from './types.ts';
+
+const algorithms = async () => {
+  const [{ ratioFromSpeedCurve, resampleSource, ratioForFactor }, { estimateSpeed }] = await Promise.all([import('../core/resample.ts'), import('../speed/estimate.ts')]);
+  return { ratioFromSpeedCurve, resampleSource, ratioForFactor, estimateSpeed };
+};
 
 export const MIN_FACTOR = 0.25;
 export const MAX_FACTOR = 4;
@@ -28,7 +33,7 @@ export function explicitFactor(p: ParamValues): number | null {
   return f;
 }
 
-export const varispeed: CorrectionOp = {
+export const varispeed = defineCorrection({
   kind: 'correction',
   name: 'varispeed',
   title: 'Varispeed',
@@ -45,14 +50,17 @@ export const varispeed: CorrectionOp = {
     { name: 'rateHz', flag: 'rate', type: 'number', label: 'Output sample rate', help: 'Sample rate of the output file (default: as the input).', unit: 'Hz', min: 4000, max: 768000 },
   ],
   measures: 'speed',
+  // The algorithms load on first use (the editor page reads only this spec).
+  load: algorithms,
   async prepare(source, params, ctx) {
-    const quality = (str(params, 'quality') ?? 'archive') as ResampleQuality;
+    const { ratioFromSpeedCurve, resampleSource, ratioForFactor, estimateSpeed } = await algorithms();
+    const quality: ResampleQuality = params.quality ?? 'archive';
     const inRate = source.sampleRateHz;
-    const outRate = num(params, 'rateHz') ?? inRate;
+    const outRate = params.rateHz ?? inRate;
     const explicit = explicitFactor(params);
-    const fromHum = str(params, 'fromHum');
-    const fromTone = num(params, 'fromTone');
-    const follow = bool(params, 'followCurve');
+    const fromHum = params.fromHum;
+    const fromTone = params.fromTone;
+    const follow = params.followCurve === true;
     const measured = fromHum !== undefined || fromTone !== undefined || follow;
     if (explicit !== null && measured) {
       throw new ParameterError('--factor/--undo/--semitones/--cents set the speed; --from-hum/--from-tone/--follow-curve measure it: use one or the other');
@@ -161,4 +169,4 @@ export const varispeed: CorrectionOp = {
     parts.push(`quality=${String(r.quality)}`, `rate=${String(r.rateHz)}`);
     return parts.join(' ');
   },
-};
+});

@@ -50,7 +50,9 @@
  * The reported `score` is S when the direction is determined, and S/4 when it is not (so that
  * |score| ≥ 0.3 only ever accompanies a determined direction).
  */
+import { powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
+import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
@@ -87,10 +89,7 @@ export interface ReversedResult {
 }
 
 export const REVERSED_BLOCK_SECONDS = 0.01;
-/** |score| at or above this comes only with a determined direction (the editor's reading). */
-export const REVERSED_SCORE_THRESHOLD = 0.3;
-/** Below this much active sound the direction is not judged at all. */
-export const REVERSED_MIN_ACTIVE_SECONDS = 0.3;
+export { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
 const FLOOR_DB = 60;
 const ACTIVE_DB = 35;
 /** Hard edges: ≥ 15 dB within 2 blocks (20 ms), loud side within 30 dB of the peak. */
@@ -242,7 +241,7 @@ export function asymmetryScore(power: Float32Array): Asymmetry {
   const none = { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0, hardStarts: 0, hardStops: 0, openStarts: 0, openStops: 0, gatedNotes: 0, swells: [], decays: [], segmentT: 0 };
   if (n < 2) return none;
   const db = new Float64Array(n);
-  for (let i = 0; i < n; i++) db[i] = 10 * Math.log10(power[i]! + 1e-30);
+  for (let i = 0; i < n; i++) db[i] = powerToDb(power[i]! + 1e-30);
   const sorted = Float64Array.from(db).sort();
   const peak = sorted[Math.min(n - 1, Math.floor(0.99 * (n - 1)))]!;
   // Relative to the peak, floored: silences give no infinite steps.
@@ -282,7 +281,7 @@ export function asymmetryScore(power: Float32Array): Asymmetry {
   for (let i = 0; i < n; i++) {
     let p = 0;
     for (let k = i - 2; k <= i + 2; k++) if (k >= 0 && k < n) p += 10 ** (db[k]! / 10);
-    smooth[i] = 10 * Math.log10(p / 5 + 1e-30);
+    smooth[i] = powerToDb(p / 5 + 1e-30);
   }
   // Gated notes: a hard start and the next hard stop with the level held in between (never 10 dB
   // below the quieter edge). A wind or organ note, or a tone burst, starts and stops abruptly

@@ -12,7 +12,7 @@
  */
 import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
-import type { OpContext } from '../ops/types.ts';
+import type { OpContext } from '../context.ts';
 import { HumSearch, HumTracker, humHypotheses, type HumMeasurement } from './hum.ts';
 import { ToneRefiner, ToneScanner, toneHypotheses, type ToneMeasurement } from './tone.ts';
 import { TuningScanner, type TuningMeasurement } from './tuning.ts';

@@ -33,8 +33,8 @@ import { PhaseLocker } from './phase-lock.ts';
 import { TransientTracker } from './transients.ts';
 import { LowBand, lowBandWeight, LOW_BAND_F2_HZ } from './low-band.ts';
 
-export const MIN_RATIO = 0.25;
-export const MAX_RATIO = 4;
+import { MAX_RATIO, MIN_RATIO } from './limits.ts';
+export { MAX_RATIO, MIN_RATIO };
 
 export interface TimeStretchOptions {
   readonly sampleRateHz: number;

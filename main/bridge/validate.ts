@@ -4,6 +4,9 @@
  * argument list and returns it typed, or throws BridgeArgumentError with a one-line message.
  */
 import type { BridgeArgs, BridgeCall, BridgeChannel } from './contract.ts';
+import { AUDIO_EXTENSIONS, fileNameProblem } from '../../dsp/formats/file-names.ts';
+
+export { AUDIO_EXTENSIONS } from '../../dsp/formats/file-names.ts';
 
 export class BridgeArgumentError extends Error {
   override name = 'BridgeArgumentError';
@@ -44,14 +47,9 @@ function integer(call: string, what: string, v: unknown, min: number, max: numbe
  * with one of the allowed extensions.
  */
 export function fileName(call: string, v: unknown, extensions: readonly string[]): string {
-  if (typeof v !== 'string') return fail(call, 'file name must be text');
-  const s = v as string;
-  if (s.length === 0 || s.length > 200) fail(call, 'file name must have 1 to 200 characters');
-  // eslint-disable-next-line no-control-regex
-  if (/[\u0000-\u001f\u007f/\\:*?"<>|]/.test(s)) fail(call, `file name has a forbidden character: ${JSON.stringify(s)}`);
-  if (s.startsWith('.') || s.trim() !== s) fail(call, `file name must not start with a dot or a space: ${JSON.stringify(s)}`);
-  if (!extensions.some((e) => s.toLowerCase().endsWith(e))) fail(call, `file name must end with ${extensions.join(' or ')}`);
-  return s;
+  const why = fileNameProblem(v, extensions);
+  if (why !== undefined) fail(call, why);
+  return v as string;
 }
 
 function bytes(call: string, v: unknown): ArrayBuffer {
@@ -113,7 +111,6 @@ export const validators: Validators = {
   launched: (a) => (count('launched', a, 0), []),
 };
 
-export const AUDIO_EXTENSIONS = ['.wav', '.bwf', '.rf64', '.aif', '.aiff', '.aifc', '.flac'] as const;
 
 export const bridgeCalls = Object.keys(validators) as BridgeCall[];
 

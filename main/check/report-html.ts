@@ -9,16 +9,13 @@ import { lineChartSvg } from '../../dsp/plot/svg.ts';
 import type { Finding, ParamValues } from '../../dsp/ops/types.ts';
 import type { FileEntry } from './check-file.ts';
 import { COLUMNS, type CheckReport } from './report.ts';
+import { analyses } from '../../dsp/ops/registry.ts';
+import { numberOf, numbersOf, objectOf } from '../../dsp/ops/sections.ts';
 
 export type CommandFor = (filePath: string, suggestion: { op: string; params: ParamValues }) => string;
 
 const esc = (s: string) => s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
-const obj = (v: unknown): Record<string, unknown> | undefined =>
-  v !== null && typeof v === 'object' && !Array.isArray(v) ? (v as Record<string, unknown>) : undefined;
-const num = (v: unknown): number | undefined => (typeof v === 'number' && Number.isFinite(v) ? v : undefined);
-const nums = (v: unknown): number[] | undefined =>
-  Array.isArray(v) || ArrayBuffer.isView(v) ? Array.from(v as ArrayLike<unknown>, (x) => (typeof x === 'number' ? x : NaN)) : undefined;
-const fx = (v: number | undefined, digits: number, unit = '') => (v === undefined ? '—' : `${v.toFixed(digits)}${unit}`);
+const obj = objectOf, num = numberOf, nums = numbersOf;
 
 const CSS = `
 body{margin:0;padding:24px 32px;background:#16181c;color:#efe6d2;font:14px/1.45 system-ui,sans-serif}
@@ -82,22 +79,19 @@ function duration(sec: number | undefined): string {
 }
 
 function overview(report: CheckReport): string {
+  const cells = analyses().flatMap((op) => op.overview ?? []);
   const rows = report.files.map((e, i) => {
-    const lv = obj(e.levels), fl = obj(e.flutter), az = obj(e.azimuth), sp = obj(e.speed);
-    const azUs = num(az?.delaySeconds);
-    const cents = num(sp?.cents);
     return (
       `<tr><td class="n">${i + 1}</td><td><a href="#file-${i + 1}">${esc(e.file.path)}</a></td><td>${badge(e.status)}</td>` +
       `<td class="n">${duration(e.file.durationSeconds)}</td><td>${esc(formatText(e))}</td>` +
-      `<td class="n">${fx(num(lv?.loudnessLufs), 1)}</td><td class="n">${fx(num(lv?.truePeakDbtp), 1)}</td>` +
-      `<td class="n">${fx(num(fl?.weightedPeakPercent), 3)}</td><td class="n">${fx(azUs === undefined ? undefined : azUs * 1e6, 1)}</td>` +
-      `<td class="n">${cents === undefined ? '—' : `${cents >= 0 ? '+' : ''}${cents.toFixed(1)}`}</td>` +
+      cells.map((c) => `<td class="n">${esc(c.text(e))}</td>`).join('') +
       `<td class="reasons">${esc(e.error ? `unreadable: ${e.error}` : (e.reasons ?? []).map((r) => r.replace(/^(fail|warn): /, '')).join('; '))}</td></tr>`
     );
   });
   return (
     '<h3>Overview</h3><table><thead><tr><th>#</th><th>File</th><th>Status</th><th>Length</th><th>Format</th>' +
-    '<th>Loudness LUFS</th><th>True peak dBTP</th><th>Flutter % (wtd)</th><th>Azimuth µs</th><th>Speed cents</th><th>Problems</th></tr></thead><tbody>' +
+    cells.map((c) => `<th>${esc(c.heading)}</th>`).join('') +
+    '<th>Problems</th></tr></thead><tbody>' +
     rows.join('') +
     '</tbody></table>'
   );

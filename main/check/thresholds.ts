@@ -1,20 +1,17 @@
 /**
  * Pass/warn/fail rules of `reelwright check`: named metrics pulled from a file's analysis sections,
- * compared with thresholds from a small JSON file (defaults: default-thresholds.json, documented
- * there rule by rule). Pure: no file system here.
+ * compared with thresholds. The metrics and their default rules (each with a plain-words comment)
+ * come from the operation registry (each analysis's `metrics`) beside the check's own file and
+ * fixity metrics below; `--thresholds FILE` replaces rules one by one. Pure: no file system here.
  */
-import { readFileSync } from 'node:fs';
-import { fileURLToPath } from 'node:url';
-import { ParameterError } from '../../dsp/errors.ts';
+import { ParameterError, BugError } from '../../dsp/errors.ts';
+import { analyses, onRegistryChange } from '../../dsp/ops/registry.ts';
+import { numberOf, objectOf, type Sections as OpSections } from '../../dsp/ops/sections.ts';
+import type { GateMetric, GateRule } from '../../dsp/ops/types.ts';
 
 export type Status = 'pass' | 'warn' | 'fail';
 
-export interface Rule {
-  warnAt?: number;
-  failAt?: number;
-  warnBelow?: number;
-  failBelow?: number;
-}
+export type Rule = GateRule;
 export type Thresholds = Record<string, Rule>;
 
 export interface Judgement {
@@ -23,130 +20,135 @@ export interface Judgement {
   reasons: string[];
 }
 
-/** What a metric is called in reasons, and its unit. */
-interface Metric {
-  label: string;
-  unit: string;
-  digits: number;
-  /** A yes/no metric (1 or 0): a crossed rule's reason is the label alone. */
-  flag?: boolean;
-  /** The value, or undefined when the analysis did not run / does not apply. */
-  get(s: Sections): number | undefined;
-}
+/** What a metric is called in reasons, its unit, and how it is read. */
+export type Metric = GateMetric;
 
 /** The analysis sections of one file, keyed as in the JSON contract (levels, speed, echo…). */
-export type Sections = Record<string, unknown> & { error?: string };
+export type Sections = OpSections & { error?: string };
 
-const obj = (v: unknown): Record<string, unknown> | undefined =>
-  v !== null && typeof v === 'object' && !Array.isArray(v) ? (v as Record<string, unknown>) : undefined;
-const numOf = (v: unknown): number | undefined => (typeof v === 'number' && Number.isFinite(v) ? v : undefined);
-const arr = (v: unknown): unknown[] | undefined => (Array.isArray(v) ? v : undefined);
+/** The check's own metrics (the file entry and the fixity manifest), before the analyses' ones. */
+const CHECK_METRICS: readonly GateMetric[] = [
+  {
+    id: 'file.unreadable', label: 'unreadable file', unit: '', digits: 0, get: (s) => (s.error !== undefined ? 1 : 0),
+    defaultRule: { failAt: 1, comment: 'The file could not be opened or read to the end.' },
+  },
+  {
+    id: 'file.nonFiniteSamples', label: 'NaN or infinite samples', unit: '', digits: 0, get: (s) => (s.error !== undefined ? undefined : numberOf(s.nonFiniteSamples) ?? 0),
+    defaultRule: { failAt: 1, comment: 'Float samples that are NaN or infinite: a damaged file (they are analysed as 0).' },
+  },
+  {
+    id: 'fixity.manifestChanged', label: 'SHA-256 differs from the manifest', unit: '', digits: 0, flag: true,
+    // Only with --manifest (the entry has no `manifest` otherwise).
+    get: (s) => (!('manifest' in s) || s.manifest === undefined ? undefined : s.manifest === 'changed' ? 1 : 0),
+    defaultRule: { failAt: 1, comment: "With --manifest: the file's SHA-256 is not the one the manifest lists (the bytes changed since it was written)." },
+  },
+  {
+    id: 'fixity.notInManifest', label: 'not listed in the manifest', unit: '', digits: 0, flag: true,
+    get: (s) => (!('manifest' in s) || s.manifest === undefined ? undefined : s.manifest === 'unlisted' ? 1 : 0),
+    defaultRule: { warnAt: 1, comment: 'With --manifest: an audio file the manifest does not list.' },
+  },
+  {
+    id: 'file.sampleRateHz', label: 'sample rate', unit: 'Hz', digits: 0, get: (s) => numberOf(objectOf(s.file)?.sampleRateHz),
+    defaultRule: { warnBelow: 48000, comment: 'Archive transfers are usually made at 48 kHz or more (96 kHz preferred), per common archive practice (IASA TC-04).' },
+  },
+  {
+    id: 'file.bitsPerSample', label: 'word length', unit: 'bits', digits: 0, get: (s) => numberOf(objectOf(s.file)?.bitsPerSample),
+    defaultRule: { warnBelow: 24, comment: 'Archive transfers are usually made at 24 bits.' },
+  },
+];
 
-export const METRICS: Record<string, Metric> = {
-  'file.unreadable': { label: 'unreadable file', unit: '', digits: 0, get: (s) => (s.error !== undefined ? 1 : 0) },
-  'file.nonFiniteSamples': { label: 'NaN or infinite samples', unit: '', digits: 0, get: (s) => (s.error !== undefined ? undefined : numOf(s.nonFiniteSamples) ?? 0) },
-  'fixity.manifestChanged': {
-    label: 'SHA-256 differs from the manifest', unit: '', digits: 0, flag: true,
-    get: (s) => (s.manifest === undefined ? undefined : s.manifest === 'changed' ? 1 : 0),
-  },
-  'fixity.notInManifest': {
-    label: 'not listed in the manifest', unit: '', digits: 0, flag: true,
-    get: (s) => (s.manifest === undefined ? undefined : s.manifest === 'unlisted' ? 1 : 0),
-  },
-  'file.sampleRateHz': { label: 'sample rate', unit: 'Hz', digits: 0, get: (s) => numOf(obj(s.file)?.sampleRateHz) },
-  'file.bitsPerSample': { label: 'word length', unit: 'bits', digits: 0, get: (s) => numOf(obj(s.file)?.bitsPerSample) },
-  'levels.clippedRuns': {
-    label: 'clipped runs', unit: '', digits: 0,
-    get: (s) => {
-      const ch = arr(obj(s.levels)?.channels);
-      return ch ? ch.reduce<number>((a, c) => a + (numOf(obj(c)?.clippedRunCount) ?? 0), 0) : undefined;
-    },
-  },
-  'levels.truePeakDbtp': { label: 'true peak', unit: 'dBTP', digits: 1, get: (s) => numOf(obj(s.levels)?.truePeakDbtp) },
-  'levels.loudnessLufs': { label: 'loudness', unit: 'LUFS', digits: 1, get: (s) => numOf(obj(s.levels)?.loudnessLufs) },
-  'levels.silentChannels': {
-    label: 'silent channels', unit: '', digits: 0,
-    get: (s) => {
-      const ch = arr(obj(s.levels)?.channels);
-      // A null/−∞ peak (digital silence) counts as silent.
-      return ch ? ch.filter((c) => !((numOf(obj(c)?.peakDbfs) ?? -Infinity) > -60)).length : undefined;
-    },
-  },
-  'levels.dcOffsetPercent': {
-    label: 'DC offset', unit: '%', digits: 2,
-    get: (s) => {
-      const ch = arr(obj(s.levels)?.channels);
-      return ch ? Math.max(0, ...ch.map((c) => Math.abs(numOf(obj(c)?.dcOffset) ?? 0) * 100)) : undefined;
-    },
-  },
-  'levels.dropouts': { label: 'dropouts', unit: '', digits: 0, get: (s) => arr(obj(s.levels)?.dropouts)?.length },
-  'levels.headSilenceSeconds': { label: 'silence at the head', unit: 's', digits: 1, get: (s) => silence(s, 'headSeconds') },
-  'levels.tailSilenceSeconds': { label: 'silence at the tail', unit: 's', digits: 1, get: (s) => silence(s, 'tailSeconds') },
-  'levels.bandwidthHz': {
-    // The levels analysis's figure (its rule finds band edges and reads full-band pink-ish
-    // programme as full band), else the spectrum analysis's.
-    label: 'effective bandwidth', unit: 'Hz', digits: 0,
-    get: (s) => (obj(obj(s.levels)?.silence)?.allSilent === true ? undefined : numOf(obj(s.levels)?.bandwidthHz) ?? numOf(obj(s.spectrum)?.bandwidthHz)),
-  },
-  'flutter.weightedPeakPercent': { label: 'wow and flutter (weighted)', unit: '%', digits: 3, get: (s) => numOf(obj(s.flutter)?.weightedPeakPercent) },
-  'flutter.driftPercent': { label: 'speed drift', unit: '%', digits: 2, get: (s) => numOf(obj(s.flutter)?.driftPercent) },
-  'flutter.meanSpeedErrorPercent': {
-    label: 'test tone off nominal', unit: '%', digits: 2,
-    get: (s) => {
-      const v = numOf(obj(s.flutter)?.meanSpeedErrorPercent);
-      return v === undefined ? undefined : Math.abs(v);
-    },
-  },
-  'azimuth.delayMicroseconds': {
-    label: 'inter-channel delay', unit: 'µs', digits: 1,
-    get: (s) => {
-      const a = obj(s.azimuth);
-      // Judged only where the delay is evidence of the head (the azimuth analysis's verdict):
-      // stereo programme's own inter-channel timing is not a transfer fault.
-      const d = numOf(a?.delaySeconds);
-      return d === undefined || a?.verdict !== 'head' ? undefined : Math.abs(d) * 1e6;
-    },
-  },
-  'speed.absCents': {
-    label: 'speed error', unit: 'cents', digits: 1,
-    get: (s) => {
-      const sp = obj(s.speed);
-      const cents = numOf(sp?.cents), conf = numOf(sp?.confidence);
-      return cents === undefined || (conf !== undefined && conf < 0.5) ? undefined : Math.abs(cents);
-    },
-  },
-  'echo.gainDb': {
-    label: 'echo level', unit: 'dB', digits: 1,
-    get: (s) => {
-      const e = obj(s.echo);
-      const g = numOf(e?.gain);
-      return e?.present === true && g !== undefined && g !== 0 ? 20 * Math.log10(Math.abs(g)) : undefined;
-    },
-  },
-  'printThrough.levelDb': {
-    label: 'print-through level', unit: 'dB', digits: 1,
-    get: (s) => {
-      const p = obj(s.printThrough);
-      return p?.present === true ? numOf(p.levelDb) : undefined;
-    },
-  },
-  'reversed.channels': {
-    label: 'reversed channels', unit: '', digits: 0,
-    get: (s) => arr(obj(s.reversed)?.channels)?.filter((c) => obj(c)?.likely === true).length,
-  },
-};
-
-function silence(s: Sections, key: 'headSeconds' | 'tailSeconds'): number | undefined {
-  const si = obj(obj(s.levels)?.silence);
-  if (!si || si.allSilent === true) return undefined;
-  return numOf(si[key]);
+/** Every metric a rule can name: the check's own, then each analysis's in registry order. */
+export function gateMetrics(): GateMetric[] {
+  const all = [...CHECK_METRICS, ...analyses().flatMap((op) => op.metrics ?? [])];
+  const seen = new Set<string>();
+  for (const m of all) {
+    if (seen.has(m.id)) throw new BugError(`gate metric "${m.id}" is defined twice`);
+    seen.add(m.id);
+  }
+  return all;
 }
 
-const DEFAULTS_URL = new URL('./default-thresholds.json', import.meta.url);
+/** The metrics by id (kept up to date with the registry). */
+export const METRICS: Record<string, Metric> = {};
+function refreshMetrics(): void {
+  for (const k of Object.keys(METRICS)) delete METRICS[k];
+  for (const m of gateMetrics()) METRICS[m.id] = m;
+}
+refreshMetrics();
+onRegistryChange(refreshMetrics);
 
-/** The documented defaults (default-thresholds.json), without its comments. */
+/** The default rules with their comments, in metric order (what `check --help` lists). */
+export function documentedDefaults(): { id: string; rule: Rule; comment: string }[] {
+  return gateMetrics().flatMap((m) => {
+    if (!m.defaultRule) return [];
+    const { comment, ...rule } = m.defaultRule;
+    return [{ id: m.id, rule, comment }];
+  });
+}
+
+/** The default rules, without their comments. */
 export function defaultThresholds(): Thresholds {
-  return cleanRules(JSON.parse(readFileSync(fileURLToPath(DEFAULTS_URL), 'utf8')) as Record<string, unknown>, 'default-thresholds.json');
+  return Object.fromEntries(documentedDefaults().map((d) => [d.id, { ...d.rule }]));
+}
+
+/**
+ * How one metric reads on one file's sections: `value` (a number to judge), `absent` (the file
+ * could not be read, or the analysis did not run, does not apply or found nothing to judge, and
+ * its result or note says so), or `missing`: the metric reads fields the result does not have (a
+ * renamed or misspelt field), which would switch its gate off silently. `unknown`: no such metric.
+ * A getter that reads a field which may legitimately be absent tests it with `in` first.
+ */
+export type Resolution =
+  | { kind: 'value'; value: number }
+  | { kind: 'absent' }
+  | { kind: 'missing'; fields: string[] }
+  | { kind: 'unknown' };
+
+export function resolveMetric(id: string, sections: Sections): Resolution {
+  const m = METRICS[id];
+  if (!m) return { kind: 'unknown' };
+  const missing: string[] = [];
+  const value = m.get(recording(sections, '', missing) as Sections);
+  if (value !== undefined) return { kind: 'value', value };
+  if (sections.error !== undefined) return { kind: 'absent' };
+  // An analysis that did not run (does not apply, found nothing) leaves a note instead of its section.
+  const owner = analyses().find((op) => op.metrics?.includes(m));
+  const notes = Array.isArray(sections.notes) ? (sections.notes as { op?: unknown }[]) : [];
+  if (owner && notes.some((n) => n.op === owner.name)) return { kind: 'absent' };
+  return missing.length ? { kind: 'missing', fields: [...new Set(missing)] } : { kind: 'absent' };
+}
+
+/**
+ * One line per rule that could not be applied to some readable file because its metric reads a
+ * field the results do not have: such a gate would otherwise be off without anyone knowing.
+ */
+export function unresolvedGates(entries: readonly Sections[], thresholds: Thresholds): string[] {
+  const lines: string[] = [];
+  for (const id of Object.keys(thresholds)) {
+    const fields = new Set<string>();
+    let files = 0;
+    for (const e of entries) {
+      const r = resolveMetric(id, e);
+      if (r.kind !== 'missing') continue;
+      files++;
+      r.fields.forEach((f) => fields.add(f));
+    }
+    if (files) lines.push(`warning: rule "${id}" was not applied to ${files} file${files === 1 ? '' : 's'}: the results have no ${[...fields].join(', ')}`);
+  }
+  return lines;
+}
+
+/** A read-only view of `v` that notes every property read that the object does not have. */
+function recording(v: unknown, path: string, missing: string[]): unknown {
+  if (v === null || typeof v !== 'object') return v;
+  return new Proxy(v as object, {
+    get(target, prop, receiver) {
+      const x = Reflect.get(target, prop, receiver) as unknown;
+      if (typeof prop !== 'string') return x;
+      if (!(prop in target)) missing.push(path ? `${path}.${prop}` : prop);
+      return typeof x === 'function' ? x : recording(x, path ? `${path}.${prop}` : prop, missing);
+    },
+  });
 }
 
 /** Defaults overlaid with a user's rules (`null` switches a rule off). Throws ParameterError on unknown metrics or bad values. */
@@ -169,7 +171,7 @@ function cleanRules(raw: Record<string, unknown>, where: string): Thresholds {
   for (const [k, v] of Object.entries(raw)) {
     if (k.startsWith('$')) continue;
     if (!(k in METRICS)) throw new ParameterError(`${where}: unknown metric "${k}" (known: ${Object.keys(METRICS).join(', ')})`);
-    const r = obj(v);
+    const r = objectOf(v);
     if (!r) throw new ParameterError(`${where}: "${k}" must be an object like {"warnAt": 1, "failAt": 5}`);
     const rule: Rule = {};
     for (const [f, x] of Object.entries(r)) {

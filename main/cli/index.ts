@@ -6,17 +6,20 @@
 import path from 'node:path';
 import { existsSync, writeFileSync } from 'node:fs';
 import { operations, findOperation } from '../../dsp/ops/registry.ts';
-import { parseParam, validateParams } from '../../dsp/ops/params.ts';
+import { validateParams } from '../../dsp/ops/params.ts';
 import { analysisJson, diagnose, factsOf } from '../../dsp/ops/diagnose.ts';
-import type { AnalysisOp, CorrectionOp, Finding, OpContext, Operation, ParamSpec, ParamValues } from '../../dsp/ops/types.ts';
-import { BugError, CancelledError, InputError, NotFoundError, ParameterError } from '../../dsp/errors.ts';
+import type { AnalysisOp, CorrectionOp, Finding, OpContext, Operation, ParamSpec } from '../../dsp/ops/types.ts';
+import { CancelledError, InputError, NotFoundError, ParameterError } from '../../dsp/errors.ts';
 import { openAudio } from '../io/reader.ts';
 import { writeAudio } from '../io/writer.ts';
 import type { FileInfo, OpenedAudio, WriteOptions } from '../io/types.ts';
 import { parseArgs, type FlagShape } from './args.ts';
 import { humanize, Progress, toJson } from './output.ts';
-import { interruptExitCode, interruption, whileWriting } from './interrupt.ts';
+import { interruption, whileWriting } from './interrupt.ts';
 import { InternalFailure, WarningHold } from './failures.ts';
+import { io, paramsFromFlags, reportError, suggestionCommand } from './shared.ts';
+
+export { io, paramsFromFlags, reportError, suggestionCommand } from './shared.ts';
 
 const COMMON_BOOLEANS = ['json', 'quiet', 'help'];
 const OUTPUT_FLAGS: ParamSpec[] = [
@@ -36,11 +39,6 @@ const BUILTINS: Record<string, { summary: string; run: Builtin }> = {
   report: { summary: 'Write the HTML/JSON/CSV reports of a queued batch (same gate as check).', run: async (argv) => (await import('../check/queue/report.ts')).runQueueReport(argv) },
 };
 
-/** Writes to stdout/stderr; replaceable in tests. */
-export const io = {
-  out: (s: string) => void process.stdout.write(s.endsWith('\n') ? s : s + '\n'),
-  err: (s: string) => void process.stderr.write(s.endsWith('\n') ? s : s + '\n'),
-};
 /** Warnings of the command under way wait for its result, so a refusal stays one line. */
 const warnings = new WarningHold((m) => io.err(`warning: ${m}`));
 
@@ -101,43 +99,11 @@ async function usingFile<T>(filePath: string, progress: Progress, body: (file: O
   }
 }
 
-/** Turns an expected failure into one line on stderr and exit 2; anything else is a bug. */
-export function reportError(verb: string, e: unknown): number {
-  if (e instanceof InputError) {
-    io.err(`reelwright ${verb}: ${e.oneLine()}`);
-    return 2;
-  }
-  if (e instanceof ParameterError || e instanceof NotFoundError) {
-    io.err(`reelwright ${verb}: ${e.message}`);
-    return 2;
-  }
-  if (e instanceof CancelledError) {
-    io.err(`reelwright ${verb}: ${e.message}`);
-    return interruptExitCode() ?? 130;
-  }
-  const file = e instanceof InternalFailure ? e.file : undefined;
-  const err = (e instanceof InternalFailure ? e.failure : e) as Error;
-  const kind = err instanceof BugError ? 'internal error (please report)' : 'internal error';
-  const message = (err?.message ?? String(err)).replace(/\s*\n\s*/g, ' ');
-  io.err(`reelwright ${verb}: ${file ? `${file}: ` : ''}${kind}: ${message}${process.env.REELWRIGHT_DEBUG ? '\n' + err?.stack : ''}`);
-  return 3;
-}
-
 function shapeFor(specs: readonly ParamSpec[], extraValues: string[] = [], extraBooleans: string[] = []): FlagShape {
   return {
     booleans: new Set([...COMMON_BOOLEANS, ...extraBooleans, ...specs.filter((s) => s.type === 'boolean').map((s) => s.flag)]),
     values: new Set([...extraValues, ...specs.filter((s) => s.type !== 'boolean').map((s) => s.flag)]),
   };
-}
-
-/** Raw flags → typed, validated params of an operation (ParameterError names the flag). */
-export function paramsFromFlags(specs: readonly ParamSpec[], flags: Map<string, string | boolean>): ParamValues {
-  const values: ParamValues = {};
-  for (const spec of specs) {
-    const raw = flags.get(spec.flag);
-    if (raw !== undefined) values[spec.name] = parseParam(spec, raw);
-  }
-  return validateParams(specs, values);
 }
 
 function context(progress: Progress): OpContext {
@@ -329,24 +295,6 @@ function describe(heading: string, findings: readonly Finding[], numbers: Record
   }
   const body = humanize(Object.fromEntries(Object.entries(numbers).filter(([, v]) => v !== undefined)));
   return body ? `${lines.join('\n')}\n${body}` : lines.join('\n');
-}
-
-/** A ready command line for a suggested correction. */
-export function suggestionCommand(filePath: string, s: { op: string; params: ParamValues }): string {
-  const op = findOperation(s.op);
-  const parsed = path.parse(filePath);
-  const out = path.join(parsed.dir, `${parsed.name}.${s.op}${parsed.ext === '.wav' ? '.wav' : '.wav'}`);
-  const flags: string[] = [];
-  for (const [k, v] of Object.entries(s.params)) {
-    const spec = op?.params.find((p) => p.name === k);
-    const flag = spec?.flag ?? k;
-    if (v === true) flags.push(`--${flag}`);
-    else if (v === false || v === undefined) continue;
-    else if (Array.isArray(v)) flags.push(`--${flag} ${v.join(spec?.type === 'range' ? ':' : ',')}`);
-    else flags.push(`--${flag} ${typeof v === 'number' ? +v.toPrecision(8) : v}`);
-  }
-  const q = (p: string) => (/[\s'"$]/.test(p) ? `'${p.replace(/'/g, `'\\''`)}'` : p);
-  return ['reelwright', s.op, q(filePath), q(out), ...flags].join(' ');
 }
 
 function paramLines(specs: readonly ParamSpec[]): string[] {

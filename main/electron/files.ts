@@ -10,6 +10,7 @@ import path from 'node:path';
 import { randomBytes } from 'node:crypto';
 import type { ExportDone, ExportTarget, OpenedFile } from '../bridge/contract.ts';
 import { AUDIO_EXTENSIONS } from '../bridge/validate.ts';
+import { ParameterError } from '../../dsp/errors.ts';
 
 const id = (prefix: 'f' | 'x') => `${prefix}-${randomBytes(9).toString('hex')}`;
 
@@ -24,7 +25,8 @@ function canonical(p: string): string {
   }
 }
 
-export class SourceRefusedError extends Error {
+/** Refusing to write onto a source recording: a bad target, so a ParameterError (exit 2 on the command line). */
+export class SourceRefusedError extends ParameterError {
   override name = 'SourceRefusedError';
 }
 
@@ -81,7 +83,7 @@ export class FileTable {
 
   async read(handle: string, offset: number, length: number): Promise<Uint8Array> {
     const s = this.#sources.get(handle);
-    if (!s) throw new Error(`no open file ${handle}`);
+    if (!s) throw new ParameterError(`no open file ${handle}`);
     const n = Math.max(0, Math.min(length, s.size - offset));
     const buf = Buffer.alloc(n);
     let got = 0;
@@ -101,7 +103,7 @@ export class FileTable {
 
   sourcePath(handle: string): string {
     const s = this.#sources.get(handle);
-    if (!s) throw new Error(`no open file ${handle}`);
+    if (!s) throw new ParameterError(`no open file ${handle}`);
     return s.path;
   }
 
@@ -144,8 +146,8 @@ export class FileTable {
 
   async write(handle: string, bytes: Uint8Array, atOffset: number | null): Promise<void> {
     const x = this.#exports.get(handle);
-    if (!x) throw new Error(`no export ${handle}`);
-    if (atOffset !== null && atOffset + bytes.length > x.written) throw new Error('a patch must fall inside what was already written');
+    if (!x) throw new ParameterError(`no export ${handle}`);
+    if (atOffset !== null && atOffset + bytes.length > x.written) throw new ParameterError('a patch must fall inside what was already written');
     const at = atOffset ?? x.written;
     let done = 0;
     while (done < bytes.length) done += (await x.fh.write(bytes, done, bytes.length - done, at + done)).bytesWritten;
@@ -154,7 +156,7 @@ export class FileTable {
 
   async finish(handle: string): Promise<ExportDone> {
     const x = this.#exports.get(handle);
-    if (!x) throw new Error(`no export ${handle}`);
+    if (!x) throw new ParameterError(`no export ${handle}`);
     this.#exports.delete(handle);
     await x.fh.sync();
     await x.fh.close();

@@ -13,6 +13,7 @@ import type { Bridge, BridgeCall } from '../bridge/contract.ts';
 import { SECURITY_HEADERS } from '../bridge/security.ts';
 import { AUDIO_EXTENSIONS, bridgeCalls, channelOf, isTrustedSenderUrl, validateCall } from '../bridge/validate.ts';
 import { FileTable } from './files.ts';
+import { InputError, ParameterError } from '../../dsp/errors.ts';
 import { launchKind, launchPath } from './launch.ts';
 
 const root = path.resolve(__dirname, '../../..');
@@ -40,7 +41,7 @@ app.on('open-file', (e, p) => {
 });
 
 async function readSession(p: string): Promise<{ name: string; path: string; text: string }> {
-  if ((await fs.promises.stat(p)).size > 8 * 1024 * 1024) throw new Error('that file is too large to be a session');
+  if ((await fs.promises.stat(p)).size > 8 * 1024 * 1024) throw new InputError('that file is too large to be a session', p);
   const text = await fs.promises.readFile(p, 'utf8');
   files.allowSessionSource(text);
   return { name: path.basename(p), path: p, text };
@@ -110,7 +111,7 @@ const handlers: Handlers = {
 function checkSender(e: IpcMainInvokeEvent): void {
   const frame = e.senderFrame;
   if (!win || e.sender !== win.webContents || !frame || frame !== e.sender.mainFrame || !isTrustedSenderUrl(frame.url, trusted)) {
-    throw new Error('refused: the request did not come from the editor page');
+    throw new ParameterError('refused: the request did not come from the editor page');
   }
 }
 

@@ -3,7 +3,7 @@
  * behind openAudio(). Reads return exactly the requested bytes unless the file ends first.
  */
 import fs from 'node:fs';
-import { InputError } from '../../dsp/errors.ts';
+import { BugError, InputError } from '../../dsp/errors.ts';
 
 export class FileBytes {
   private fd: number | undefined;
@@ -42,7 +42,7 @@ export class FileBytes {
   }
 
   private handle(): number {
-    if (this.fd === undefined) throw new Error(`${this.path} has been closed`);
+    if (this.fd === undefined) throw new BugError(`${this.path} has been closed`);
     return this.fd;
   }
 

@@ -326,7 +326,6 @@ export async function writeAudio(outPath: string, rendering: RenderingLike, opti
       // never created
     }
     active.delete(tmp);
-    if (e instanceof RangeError) throw new ParameterError(e.message);
     throw e;
   }
 }

@@ -13,7 +13,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { Queue } from 'bullmq';
 import { ParameterError } from '../../../dsp/errors.ts';
-import { AUDIO_EXTENSIONS, collectAudioFiles, finishCheck, outsideManifest, type CheckSetup } from '../index.ts';
+import { AUDIO_EXTENSIONS, collectAudioFiles, finishCheck, outsideManifest, type CheckSetup } from '../common.ts';
 import { connect, hideCommandLine, parseQueueUrl, scrub, type QueueTarget } from './connection.ts';
 import { batchKeys, checkBatchName, PREFIX, QUEUE_NAME, readMeta, type BatchMeta, type DoneRecord, type FileRecord, type QueueJobData } from './store.ts';
 import { batchEntries, followBatch } from './batch.ts';

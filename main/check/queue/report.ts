@@ -7,8 +7,8 @@
  */
 import { Queue } from 'bullmq';
 import { ParameterError } from '../../../dsp/errors.ts';
-import { reportError } from '../../cli/index.ts';
-import { finishCheck, parseCheckSetup } from '../index.ts';
+import { reportError } from '../../cli/shared.ts';
+import { finishCheck, parseCheckSetup } from '../common.ts';
 import { connect, hideCommandLine, parseQueueUrl, scrub, type QueueTarget } from './connection.ts';
 import { checkBatchName, PREFIX, QUEUE_NAME, readMeta } from './store.ts';
 import { batchEntries } from './batch.ts';

@@ -19,7 +19,7 @@ import { ParameterError } from '../../../dsp/errors.ts';
 import { findOperation } from '../../../dsp/ops/registry.ts';
 import { validateParams } from '../../../dsp/ops/params.ts';
 import { parseArgs } from '../../cli/args.ts';
-import { reportError } from '../../cli/index.ts';
+import { reportError } from '../../cli/shared.ts';
 import type { FileEntry, JobResult } from '../check-file.ts';
 import { judge, type Thresholds } from '../thresholds.ts';
 import { CheckThreadPool } from '../thread.ts';

@@ -3,7 +3,15 @@
  * interface as the Electron preload, so the editor cannot tell them apart except by `mode`.
  */
 import type { Bridge, ExportTarget, OpenedFile } from '../../../main/bridge/contract.ts';
-import { AUDIO_EXTENSIONS, fileName } from '../../../main/bridge/validate.ts';
+import { AUDIO_EXTENSIONS, fileNameProblem } from '../../../dsp/formats/file-names.ts';
+import { ParameterError } from '../../../dsp/errors.ts';
+
+/** The bridge's rule for a file name to save (main/bridge/validate.ts applies the same one). */
+function fileName(call: string, v: unknown, extensions: readonly string[]): string {
+  const why = fileNameProblem(v, extensions);
+  if (why !== undefined) throw new ParameterError(`${call}: ${why}`);
+  return v as string;
+}
 
 let counter = 0;
 const newId = (prefix: 'f' | 'x') => `${prefix}-${(++counter).toString(36)}${Math.random().toString(36).slice(2, 8)}`;

@@ -10,7 +10,7 @@ import type { SpeedResult } from '../../../dsp/speed/estimate.ts';
 import type { EchoAnalysis } from '../../../dsp/echo/detect.ts';
 import type { AzimuthResult } from '../../../dsp/ops/azimuth.ts';
 import type { ReversedResult } from '../../../dsp/reverse/detect.ts';
-import { REVERSED_SCORE_THRESHOLD } from '../../../dsp/reverse/detect.ts';
+import { REVERSED_SCORE_THRESHOLD } from '../../../dsp/reverse/limits.ts';
 
 export type Outcome = 'fixed' | 'partly fixed' | 'not fixed' | 'made worse' | 'as set' | 'not as set' | 'not determined';
 

@@ -4,7 +4,8 @@
  */
 import { getContext, setContext } from 'svelte';
 import type { Bridge, OpenedFile } from '../../../main/bridge/contract.ts';
-import { findOperation, corrections } from '../../../dsp/ops/registry.ts';
+import { findOperation } from '../../../dsp/ops/registry.ts';
+import { correctionChoices } from '../lib/operation-lists.ts';
 import type { Finding, ParamValue, ParamValues } from '../../../dsp/ops/types.ts';
 import { Engine, JobError, type Task } from '../lib/engine.ts';
 import { rememberRecent, type RecentItem } from '../lib/recent.ts';
@@ -229,7 +230,7 @@ export class Editor {
 
   get sampleRateHz(): number { return this.opened?.layout.sampleRateHz ?? 48000; }
   get channelCount(): number { return this.opened?.layout.channels ?? 1; }
-  get correctionOps() { return corrections(); }
+  get correctionOps() { return correctionChoices(); }
   /** The corrected preview no longer matches the steps. */
   get stale(): boolean { return this.corrected !== null && this.corrected.version !== this.steps.version; }
   get correctedMatchDb(): number {
@@ -297,7 +298,7 @@ export class Editor {
   #fail = (what: string) => (err: unknown) => {
     if (err instanceof JobError && err.superseded) return;
     if (err instanceof JobError && err.cancelled) { this.note(`${what}: cancelled`); return; }
-    this.note(`${what}: ${editorWords(err instanceof Error ? err.message : String(err), corrections().flatMap((o) => o.params))}`, 'error');
+    this.note(`${what}: ${editorWords(err instanceof Error ? err.message : String(err), correctionChoices().flatMap((o) => o.params))}`, 'error');
   };
 
   /** At start: the recording or session the app was started with, else (unless told not to) the demo. */
