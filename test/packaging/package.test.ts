@@ -88,6 +88,8 @@ describe('npm run dist -- --dir (Linux, stand-in Electron runtime)', () => {
       /^\/renderer\/dist\/assets\/index-[\w-]+\.js$/,
       /^\/renderer\/dist\/assets\/index-[\w-]+\.css$/,
       /^\/renderer\/dist\/assets\/engine\.worker-[\w-]+\.js$/,
+      // The FLAC decoder, loaded by the worker only when a FLAC opens.
+      /^\/renderer\/dist\/assets\/flac-source-[\w-]+\.js$/,
       /^\/assets\/demo\/thornbury-reel7\.wav$/,
     ];
     console.log(`[dist] app.asar: ${files.join(', ')}`);
