@@ -160,6 +160,15 @@ const notMeasured = (): ReflectionResult => ({ present: false, reason: null, evi
  */
 export const floorDisagrees = (q: number, g: number): boolean => Math.abs(q - g) > Math.max(0.3 * Math.max(Math.abs(q), Math.abs(g)), 0.05);
 
+/**
+ * Range of the frames' share of the peak at τ that a cancellation takes away (evidence.ts,
+ * `share`) for a reflection. On the real-material corpus, true reflections of 0.1–0.45 at
+ * 61–304 ms on guitar, piano, pads and a music box read 0.96–1.05; peaks of the programme's own
+ * (sustained chords at 450–500 ms, a melody at 30 ms) 0.32–0.55, and band loops at their beat
+ * (250, 300 ms) 1.5–1.8.
+ */
+export const SHARE_RANGE: readonly [number, number] = [0.7, 1.4];
+
 const noPrintThrough = (): PrintThroughResult => ({ present: false, reason: null, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
 
 /**
@@ -310,10 +319,19 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
               present: null,
               reason: `${ms} ms is a whole number of periods of the note${evidence.locked > 1 ? 's' : ''} played in ${Math.round((100 * evidence.locked) / evidence.frames)} % of the frames; a pitch period is not evidence of a reflection, and too little else is played to tell`,
             };
-          } else if (spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : 0.35) * Math.abs(gain)) {
+          } else if (
+            spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : gateNoise ? 0.35 : 0.2) * Math.abs(gain) ||
+            (!gateNoise && (evidence.share === null || !(evidence.share >= SHARE_RANGE[0] && evidence.share <= SHARE_RANGE[1])))
+          ) {
+            // A reflection is in every frame, so cancelling it leaves the frames without a peak
+            // at τ (share ≈ 1); a repeat is in a few, and cancelling puts an inverse echo into
+            // the others (share ≈ 0); a rhythm at τ is still there after cancelling (share > 1).
+            // Not where noise was added after the reflection (gateNoise): the cancellation puts
+            // the inverse echo into the bins the hiss holds in every frame (the demo reel read
+            // 0.55), so there the older rule, the median's size against ĝ, decides.
             // (Where most frames are locked the few others must show the echo more clearly.)
             verdict = { present: false, reason: `the peak at ${ms} ms comes from a few moments (a repeated note, hit or phrase), not from the whole programme as a reflection would` };
-          } else if (pair !== null && (Math.sign(pair) !== Math.sign(gain) || Math.abs(pair) < 0.4 * Math.abs(gain) || Math.abs(pair) > 2 * Math.abs(gain) + 0.05)) {
+          } else if (pair !== null && (Math.sign(pair) === Math.sign(gain) ? Math.abs(pair) > 2 * Math.abs(gain) + 0.05 : Math.abs(pair) > 0.5 * Math.abs(gain) + 0.05)) {
             verdict = { present: false, reason: `sounds ${ms} ms apart are alike only in some places (a rhythm or repeated phrase), not throughout as with a reflection` };
           }
           z *= Math.sqrt(unlocked / Math.max(1, evidence.frames));
@@ -340,9 +358,21 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     };
   };
   let reflection = notMeasured();
-  for (let i = 0; i < Math.min(order.length, 3); i++) {
+  // A candidate at a whole multiple k·τ (k = 2…8) of one already looked at is that peak's
+  // rahmonic (an echo's cepstrum has (−1)^{k+1}·g^k/k there) or the same note's period again:
+  // it is skipped (a 61.7 ms / 0.35 reflection set aside on a music box came back as one at
+  // 185.2 ms with g = 0.015 = g³/3).
+  const seen: number[] = [];
+  const isMultiple = (q: number) => seen.some((t) => {
+    const k = Math.round(q / t);
+    return k >= 2 && k <= 8 && Math.abs(q - k * t) <= Math.max(2, 0.01 * q);
+  });
+  for (let i = 0, looked = 0; i < order.length && looked < 3; i++) {
+    if (isMultiple(order[i]!.quefrency)) continue;
+    seen.push(order[i]!.quefrency);
+    looked++;
     const r = await measure(order[i]!);
-    if (i === 0) reflection = r;
+    if (looked === 1) reflection = r;
     if (r.present === true) {
       reflection = r;
       break;
