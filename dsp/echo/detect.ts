@@ -319,6 +319,14 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
               present: null,
               reason: `${ms} ms is a whole number of periods of the note${evidence.locked > 1 ? 's' : ''} played in ${Math.round((100 * evidence.locked) / evidence.frames)} % of the frames; a pitch period is not evidence of a reflection, and too little else is played to tell`,
             };
+          } else if (!gateNoise && spread !== null && Math.sign(spread) === Math.sign(gain) && evidence.share !== null && evidence.share > SHARE_RANGE[1]) {
+            // Cancelling at ĝ leaves the frames' peak at τ in place: a rhythm or repeat at τ, or a
+            // reflection stronger than measured (Festival speech with 61.8 ms / 0.2 measured
+            // 0.11 reads 1.76; a band loop at its beat 1.5–1.8). Either way nothing to act on.
+            verdict = {
+              present: null,
+              reason: `the peak at ${ms} ms is still there after cancelling it at ${gain.toFixed(3)}: a rhythm or repeat at that interval, or a reflection stronger than measured; not determined`,
+            };
           } else if (
             spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : gateNoise ? 0.35 : 0.2) * Math.abs(gain) ||
             (!gateNoise && (evidence.share === null || !(evidence.share >= SHARE_RANGE[0] && evidence.share <= SHARE_RANGE[1])))
