@@ -29,7 +29,7 @@
 import { WelchAccumulator } from '../core/welch.ts';
 import { Decimator, HeterodyneTrack } from './decimate.ts';
 import { speedPrior } from './standard.ts';
-import { measureSeries, trackNoiseCorrelation, type SeriesMeasurement } from './harmonic-track.ts';
+import { linePersistence, measureSeries, trackNoiseCorrelation, type LinePersistence, type SeriesMeasurement } from './harmonic-track.ts';
 
 interface TrackGroup {
   candidate: HumCandidate;
@@ -75,6 +75,8 @@ export interface HumMeasurement extends SeriesMeasurement {
   harmonics: number[];
   /** Comb score from the search. */
   score: number;
+  /** How the line keeps its level through the file (hum persists; a note comes and goes). */
+  persistence: LinePersistence;
 }
 
 export function humDecimation(sampleRateHz: number): number {
@@ -103,7 +105,7 @@ export class HumSearch {
   }
 
   /** Candidates, best first. `mainsHz` restricts the fundamental range. */
-  candidates(mainsHz?: 50 | 60, maxCount = 3): { candidates: HumCandidate[]; floorAt: (hz: number) => number } {
+  candidates(mainsHz?: 50 | 60, maxCount = 8): { candidates: HumCandidate[]; floorAt: (hz: number) => number } {
     const w = this.#welch.result();
     const p = w.meanPower[0]!;
     const bw = w.binWidthHz;
@@ -167,15 +169,23 @@ export class HumSearch {
       found.push({ fundamentalHz: f0, score, harmonicSnrDb });
     }
     found.sort((a, b) => b.score - a.score);
-    // Keep distinct fundamentals; drop exact multiples of a better candidate (same series).
+    // Keep distinct fundamentals. Multiples and sub-multiples of a better candidate stay: the
+    // measurement decides which of them is the series that persists (hum at half speed puts its
+    // fundamental under what looks like a sub-harmonic of its second harmonic, and vice versa).
     const kept: HumCandidate[] = [];
     for (const c of found) {
-      const dup = kept.some((k) => {
-        const r = c.fundamentalHz / k.fundamentalHz;
-        return Math.abs(r - Math.round(r)) < 0.003 * Math.round(r) && Math.round(r) >= 1;
-      });
+      const dup = kept.some((k) => Math.abs(c.fundamentalHz / k.fundamentalHz - 1) < 0.003);
       if (!dup) kept.push(c);
       if (kept.length >= maxCount) break;
+    }
+    // A series that looks strong may be the sub-harmonic of the real one (hum at 50 Hz read as a
+    // 25 Hz series whose even harmonics it is), or one of its harmonics (180 Hz of 60 Hz hum):
+    // keep the multiples and sub-multiples of the best few as well.
+    for (const b of kept.slice(0, 4)) {
+      for (const k of [2, 3, 1 / 2, 1 / 3]) {
+        const m = found.find((c) => Math.abs(c.fundamentalHz / (k * b.fundamentalHz) - 1) < 0.003);
+        if (m && !kept.includes(m)) kept.push(m);
+      }
     }
     const floorAt = (hz: number) => floorBin(Math.max(kLo, Math.min(kHi, Math.round(hz / bw))));
     return { candidates: kept, floorAt };
@@ -239,15 +249,39 @@ export class HumTracker {
     const D2 = this.#trackDecim;
     const delay2 = g.tracks[0]!.delaySamples;
     const D1 = sampleRateHz / this.decimatedRateHz;
-    const m = measureSeries(
-      { fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, weights: g.weights, tracks: g.tracks },
-      {
-        trackRateHz: this.trackRateHz,
-        timeOf: (k) => ((k * D2 - delay2) * D1 - this.#dec.delaySamples) / sampleRateHz,
-        firstValid: Math.ceil((2 * delay2) / D2) + 1,
-        correlation: trackNoiseCorrelation(D2, TRACK_ORDER),
-      },
+    const set = { fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, weights: g.weights, tracks: g.tracks };
+    const layout = {
+      trackRateHz: this.trackRateHz,
+      timeOf: (k: number) => ((k * D2 - delay2) * D1 - this.#dec.delaySamples) / sampleRateHz,
+      firstValid: Math.ceil((2 * delay2) / D2) + 1,
+      correlation: trackNoiseCorrelation(D2, TRACK_ORDER),
+    };
+    const m = measureSeries(set, layout);
+    if (!m) return null;
+    // Persistence over the harmonics the measurement kept, demodulated along its curve.
+    const used = m.harmonicsUsed.map((h) => g.harmonics.indexOf(h));
+    const times = m.timesSeconds, f0s = m.fundamentalsHz;
+    const f0At = (t: number) => (m.drifting && times.length >= 2 ? interpolateHeld(times, f0s, t) : m.meanFundamentalHz);
+    const persistence = linePersistence(
+      { ...set, harmonics: used.map((j) => g.harmonics[j]!), weights: used.map((j) => g.weights[j]!), tracks: used.map((j) => g.tracks[j]!) },
+      layout,
+      f0At,
     );
-    return m ? { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score } : null;
+    return { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score, persistence };
   }
+}
+
+/** Piecewise-linear interpolation through (t, y), holding the end values outside. */
+function interpolateHeld(t: readonly number[], y: readonly number[], x: number): number {
+  if (x <= t[0]!) return y[0]!;
+  const n = t.length;
+  if (x >= t[n - 1]!) return y[n - 1]!;
+  let lo = 0, hi = n - 1;
+  while (hi - lo > 1) {
+    const mid = (lo + hi) >> 1;
+    if (t[mid]! <= x) lo = mid;
+    else hi = mid;
+  }
+  const u = (x - t[lo]!) / (t[hi]! - t[lo]!);
+  return y[lo]! + u * (y[hi]! - y[lo]!);
 }
