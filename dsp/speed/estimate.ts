@@ -392,7 +392,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
   let curve: { timesSeconds: number[]; factors: number[] } = { timesSeconds: [], factors: [] };
   if (best.method === 'hum' && hb) {
     const m = hb.m;
-    curve = { timesSeconds: m.timesSeconds, factors: m.fundamentalsHz.map((f) => f / best!.mainsHz!) };
+    curve = extendToEdges({ timesSeconds: m.timesSeconds, factors: m.fundamentalsHz.map((f) => f / best!.mainsHz!) }, N / fs);
   } else if (best.method === 'tone' && tb) {
     curve = { timesSeconds: tb.m.timesSeconds, factors: tb.m.frequenciesHz.map((f) => f / best!.toneHz!) };
   }
@@ -408,6 +408,42 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
     mainsHz: best.method === 'hum' ? best.mainsHz ?? null : null,
     toneHz: best.method === 'tone' ? best.toneHz ?? null : null,
   };
+}
+
+/**
+ * The hum curve's windows are centred from about 2 s after the start to 2 s before the end; a
+ * correction that held the end values would leave the drift in the first and last seconds. Carry
+ * the measured trend to the edges: a straight line through the first (last) five points, read at
+ * 0 s (at the end).
+ */
+function extendToEdges(c: { timesSeconds: number[]; factors: number[] }, durationSeconds: number): { timesSeconds: number[]; factors: number[] } {
+  const n = c.timesSeconds.length;
+  if (n < 2) return c;
+  const lineAt = (from: number, to: number, t: number) => {
+    let st = 0, sy = 0;
+    for (let i = from; i < to; i++) {
+      st += c.timesSeconds[i]!;
+      sy += c.factors[i]!;
+    }
+    const k = to - from, tm = st / k, ym = sy / k;
+    let sxy = 0, sxx = 0;
+    for (let i = from; i < to; i++) {
+      sxy += (c.timesSeconds[i]! - tm) * (c.factors[i]! - ym);
+      sxx += (c.timesSeconds[i]! - tm) ** 2;
+    }
+    return sxx > 0 ? ym + (sxy / sxx) * (t - tm) : ym;
+  };
+  const k = Math.min(5, n);
+  const times = [...c.timesSeconds], factors = [...c.factors];
+  if (times[0]! > 0) {
+    times.unshift(0);
+    factors.unshift(lineAt(0, k, 0));
+  }
+  if (times[times.length - 1]! < durationSeconds) {
+    times.push(durationSeconds);
+    factors.push(lineAt(n - k, n, durationSeconds));
+  }
+  return { timesSeconds: times, factors };
 }
 
 /** Why the speed is not determined, in one sentence (the finding says it). */

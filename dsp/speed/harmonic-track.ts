@@ -68,6 +68,9 @@ export interface SeriesMeasurement {
 const WINDOW_SECONDS = 4;
 const HOP_SECONDS = 1;
 const MAX_DRIFT_PER_SECOND = 0.004;
+const CURVE_HALF_WINDOWS = 4;
+/** A playback machine's drift is slow: the curve is a local straight line over ±15 s. */
+const CURVE_HALF_SECONDS = 15;
 
 /** Noise correlation between track samples ℓ apart for a boxcar(D)^R decimator. */
 export function trackNoiseCorrelation(factor: number, order: number): Float64Array {
@@ -139,8 +142,11 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   const hMax = Math.max(...set.harmonics);
   const T = usable / fb;
   const dft = new Float64Array(2);
-  let winLen = Math.round(WINDOW_SECONDS * fb);
-  let hop = Math.round(HOP_SECONDS * fb);
+  // Shorter clips get shorter windows (down to 1.5 s, hop a quarter of it), so a drift through a
+  // few seconds still has windows enough to show it.
+  const winSeconds = Math.min(WINDOW_SECONDS, Math.max(1.5, T / 4));
+  let winLen = Math.round(winSeconds * fb);
+  let hop = Math.max(1, Math.round(winSeconds * (HOP_SECONDS / WINDOW_SECONDS) * fb));
   if (usable < winLen + 2 * hop) {
     winLen = usable;
     hop = usable;
@@ -386,7 +392,15 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
     uncertaintyHz: uncertainty,
     windowScatterHz: scatter,
     timesSeconds: curveReliable ? times : [],
-    fundamentalsHz: curveReliable ? smoothLinear(times, f0s, 2) : [],
+    // The curve is what the windows show beyond their own scatter: a drift significant against
+    // it is followed (local straight lines over ±15 s: a ramp passes unchanged and the scatter of
+    // the windows averages out), and without one the curve is the steady mean (a window estimate
+    // wandering with the speech is measurement noise, not the machine).
+    fundamentalsHz: curveReliable
+      ? drifting
+        ? smoothLinear(times, f0s, Math.max(CURVE_HALF_WINDOWS, Math.round((CURVE_HALF_SECONDS * fb) / hop)))
+        : times.map(() => mean)
+      : [],
     detectionDb,
     noiseDetectionDb: 10 * Math.log10(1 + Math.log(cells) / H),
     harmonicSnrDb,

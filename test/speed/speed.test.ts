@@ -142,9 +142,14 @@ describe('drift', () => {
   it('the speed curve follows the ramp within ±0.05 % every second; follow-curve removes it', async () => {
     const r = await runSpeed([x], fs, { mainsHz: '50' });
     expect(r.curve.timesSeconds.length).toBeGreaterThanOrEqual(50);
-    for (let i = 0; i < r.curve.timesSeconds.length; i++) {
-      const t = r.curve.timesSeconds[i]!;
-      if (i > 0) expect(t - r.curve.timesSeconds[i - 1]!).toBeCloseTo(1, 6);
+    // The curve runs from the first to the last second, edges included (the trend carried there);
+    // inside, one point a second.
+    const ts = r.curve.timesSeconds;
+    expect(ts[0]).toBe(0);
+    expect(ts.at(-1)).toBeCloseTo(60, 9);
+    for (let i = 0; i < ts.length; i++) {
+      const t = ts[i]!;
+      if (i > 1 && i < ts.length - 1) expect(t - ts[i - 1]!).toBeCloseTo(1, 6);
       expect(Math.abs((r.curve.factors[i]! / (1 + slope * t) - 1) * 100)).toBeLessThan(0.05);
     }
     expect(Math.abs(r.factor - 1.005)).toBeLessThan(5e-4);
