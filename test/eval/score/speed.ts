@@ -44,7 +44,15 @@ export const driftScorer: Scorer = {
     if (!r.sections.speed) return null;
     const claim = r.findings.find((f) => f.op === 'speed' && /drift/i.test(f.title) && f.severity !== 'ok' && f.severity !== 'info');
     const present = clip.truth.speedCurve !== null;
-    return { present, claimed: claim !== undefined, found: present ? claim !== undefined : undefined, claimSize: claim ? Number(claim.value) : undefined, note: claim?.title };
+    return {
+      present,
+      claimed: claim !== undefined,
+      found: present ? claim !== undefined : undefined,
+      claimSize: claim ? Number(claim.value) : undefined,
+      // A drift claim is true when the clip's speed does change along it.
+      calibration: claim && claim.confidence !== undefined ? [{ confidence: claim.confidence, true: present }] : undefined,
+      note: claim?.title,
+    };
   },
 };
 
