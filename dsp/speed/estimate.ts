@@ -13,7 +13,7 @@
 import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import type { OpContext } from '../ops/types.ts';
-import { HumSearch, HumTracker, humHypotheses, type HumMeasurement } from './hum.ts';
+import { HumSearch, HumTracker, humHypotheses, persistenceEvidence, type HumMeasurement } from './hum.ts';
 import { ToneRefiner, ToneScanner, toneHypotheses, type ToneMeasurement } from './tone.ts';
 import { TuningScanner, type TuningMeasurement } from './tuning.ts';
 import { standardPairText } from './standard.ts';
@@ -72,7 +72,7 @@ const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
 function humEvidence(m: HumMeasurement): number {
   const detection = clamp01((m.detectionDb - m.noiseDetectionDb - 1) / 5);
   const steady = clamp01((m.steadiness - 0.6) / 0.3);
-  return detection * steady * persistenceEvidence(m);
+  return detection * steady * persistenceEvidence(m.harmonicsUsed, m.persistence);
 }
 
 /**
@@ -81,37 +81,6 @@ function humEvidence(m: HumMeasurement): number {
  */
 function plausibleFactor(factor: number): boolean {
   return Math.abs(1200 * Math.log2(factor)) <= 300 || standardPairText(factor) !== null;
-}
-
-const gcd = (a: number, b: number): number => (b === 0 ? a : gcd(b, a % b));
-
-/**
- * Hum persists at one level through pauses and under the programme; a note starts, decays and
- * stops (REAL-MATERIAL.md). From the segment-by-segment check (`linePersistence`): a harmonic is
- * established when it was judged in ≥ 30 % of the segments and kept its level in ≥ 85 % of them,
- * contradicted when judged as often and off its level in > 30 %. The series must show itself as
- * this series: its fundamental established, or (fundamental masked) established harmonics with no
- * common factor (3 and 5 imply the fundamental; 2, 4, 6 are another series at twice the
- * frequency). A contradicted fundamental, or fewer than 6 judged segments, is no hum evidence.
- */
-function persistenceEvidence(m: HumMeasurement): number {
-  const p = m.persistence;
-  const per = p.perHarmonic;
-  const est: number[] = [];
-  let judgedCells = 0, badCells = 0;
-  m.harmonicsUsed.forEach((h, j) => {
-    const x = per[j]!;
-    if (x.coverage < 0.3) return;
-    judgedCells += x.coverage;
-    badCells += x.coverage * x.inconsistentShare;
-    if (x.inconsistentShare <= 0.15) est.push(h);
-  });
-  const fundamental = per[m.harmonicsUsed.indexOf(1)];
-  if (fundamental && fundamental.coverage >= 0.3 && fundamental.inconsistentShare > 0.15) return 0;
-  if (!est.includes(1) && (est.length === 0 || est.reduce(gcd) !== 1)) return 0;
-  if (p.coverage * p.segments < 6) return 0;
-  const badShare = judgedCells > 0 ? badCells / judgedCells : 1;
-  return clamp01((0.25 - badShare) / 0.1) * clamp01((p.coverage - 0.3) / 0.3);
 }
 
 /** Share of a's harmonic power (linear SNR) that falls on harmonics of b (within 0.05 %). */
@@ -454,7 +423,7 @@ function notDeterminedReason(candidates: SpeedCandidate[], tuning: SpeedCandidat
     const why =
       !plausibleFactor(line.factor)
         ? `it would mean a speed factor of ${line.factor.toFixed(4)}, which no pair of standard speeds explains`
-        : line.method === 'hum' && hum && persistenceEvidence(hum) < 0.5
+        : line.method === 'hum' && hum && persistenceEvidence(hum.harmonicsUsed, hum.persistence) < 0.5
           ? 'it does not hold one level through the file (it comes and goes with the playing, as a note does)'
           : line.method === 'tone'
             ? 'it is not a steady sine, alone, for seconds'
