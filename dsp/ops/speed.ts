@@ -74,11 +74,12 @@ export const speed: AnalysisOp<SpeedResult> = {
   findings(r) {
     const out: Finding[] = [];
     if (r.method === null) {
+      // The reason is the estimator's last note; no correction is offered.
+      const why = r.notes[r.notes.length - 1] ?? 'no evidence strong enough to measure the playing speed';
       out.push({
         op: 'speed',
         title: 'Speed not determined',
-        sentence:
-          'No mains hum, reference tone or musical tuning gave evidence strong enough to measure the playing speed, so none is reported.',
+        sentence: why.charAt(0).toUpperCase() + why.slice(1) + '.',
         confidence: r.confidence,
         severity: 'info',
       });

@@ -13,7 +13,7 @@
 import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import type { OpContext } from '../context.ts';
-import { HumSearch, HumTracker, humHypotheses, type HumMeasurement } from './hum.ts';
+import { HumSearch, HumTracker, humHypotheses, persistenceEvidence, type HumMeasurement } from './hum.ts';
 import { ToneRefiner, ToneScanner, toneHypotheses, type ToneMeasurement } from './tone.ts';
 import { TuningScanner, type TuningMeasurement } from './tuning.ts';
 import { standardPairText } from './standard.ts';
@@ -65,13 +65,22 @@ const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
 
 /**
  * Evidence (0–1) that a measured series is mains hum: it must stand clearly above noise (coherent
- * harmonic-sum statistic: from 1 dB above what noise alone reaches in the search, to 6 dB above it)
- * and be there all the time (steadiness: music partials come and go).
+ * harmonic-sum statistic: from 1 dB above what noise alone reaches in the search, to 6 dB above it),
+ * be there all the time (steadiness: music partials come and go) and persist at one level through
+ * the file (`persistenceEvidence`).
  */
 function humEvidence(m: HumMeasurement): number {
   const detection = clamp01((m.detectionDb - m.noiseDetectionDb - 1) / 5);
   const steady = clamp01((m.steadiness - 0.6) / 0.3);
-  return detection * steady;
+  return detection * steady * persistenceEvidence(m.harmonicsUsed, m.persistence);
+}
+
+/**
+ * A speed a transfer can plausibly have: within ±3 semitones of right (a machine or disc off its
+ * speed, common practice), or within 0.5 % of a ratio of standard speeds (standard.ts).
+ */
+function plausibleFactor(factor: number): boolean {
+  return Math.abs(1200 * Math.log2(factor)) <= 300 || standardPairText(factor) !== null;
 }
 
 /** Share of a's harmonic power (linear SNR) that falls on harmonics of b (within 0.05 %). */
@@ -139,6 +148,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
   // Holders (objects, so TypeScript keeps their types through the loops below).
   const found: { hum?: { m: HumMeasurement; cand: SpeedCandidate }; tone?: { m: ToneMeasurement; cand: SpeedCandidate } } = {};
   let tuningM: TuningMeasurement | null = null;
+  const humOf = new Map<SpeedCandidate, HumMeasurement>();
 
   // Pass 2: hum tracks for the best candidates.
   if (hum) {
@@ -160,12 +170,13 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
         // Hum shows its fundamental: a series measured without it is a harmonic of something else.
         .filter((x) => x.m.harmonicsUsed.includes(1))
         .map((x) => ({ ...x, evidence: humEvidence(x.m), total: x.m.detectionDb + 10 * Math.log10(x.m.harmonicsUsed.length) }))
-        .sort((a, b) => b.total - a.total);
-      // A candidate whose strength comes mostly from harmonics of a stronger series (a sub-multiple
-      // such as 100/3 Hz, or 60 Hz beside 100 Hz buzz) is that series seen again: drop it.
+        .sort((a, b) => Math.min(b.evidence, 0.5) - Math.min(a.evidence, 0.5) || b.total - a.total);
+      // A candidate whose strength comes mostly from harmonics of a stronger series that is hum
+      // (a sub-multiple such as 100/3 Hz, or 60 Hz beside 100 Hz buzz) is that series seen again:
+      // drop it. A series that is not hum itself drops nothing.
       const kept: typeof usable = [];
       for (const c of usable) {
-        if (!kept.some((b) => sharedShare(c.m, b.m) >= 0.5)) kept.push(c);
+        if (!kept.some((b) => b.evidence >= 0.5 && sharedShare(c.m, b.m) >= 0.5)) kept.push(c);
       }
       // Several steady lines can each look like hum (a pure test tone, an electronic whine): rank
       // them by evidence × the plausibility of the speed they imply, and let the winner keep only
@@ -188,12 +199,17 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
             method: 'hum',
             factor: m.meanFundamentalHz / h.mainsHz,
             // Unforced mains: both 50 and 60 Hz explain the line; the less plausible speed keeps less.
-            confidence: evidence * lineShare * (options.mainsHz ? 1 : Math.min(1, 0.3 + share)),
+            // A speed far from 1 that no pair of standard speeds explains is not believed on a
+            // line alone (it is more likely a harmonic of hum, or a note): capped below 0.5.
+            confidence:
+              evidence * lineShare * (options.mainsHz ? 1 : Math.min(1, 0.3 + share)) *
+              (plausibleFactor(m.meanFundamentalHz / h.mainsHz) ? 1 : 0.45),
             mainsHz: h.mainsHz,
             observedHz: m.meanFundamentalHz,
             uncertaintyPercent: (100 * m.uncertaintyHz) / m.meanFundamentalHz,
           };
           candidates.push(cand);
+          humOf.set(cand, m);
           if (!found.hum && h === hyps[0]) found.hum = { m, cand };
         }
         if (rank === 0 && hyps.length > 1 && evidence >= 0.5) {
@@ -228,14 +244,19 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
         const hyps = toneHypotheses(m.frequencyHz, options.toneHz);
         const priorSum = hyps.reduce((s, h) => s + h.prior, 0);
         const seconds = m.endSeconds - m.startSeconds;
-        const detection = clamp01((m.tonality - 0.4) / 0.4) * clamp01(seconds / 2);
+        // A line-up tone is a steady sine, alone, for seconds (REAL-MATERIAL.md): nearly all the
+        // power in the one line (a note's harmonics hold much of it), its level held within a dB
+        // or so (a note decays), for two seconds or more.
+        const detection =
+          clamp01((m.tonality - 0.85) / 0.1) * clamp01((seconds - 1) / 1.5) * clamp01((3 - m.levelSpreadDb) / 1.5);
         hyps.forEach((h, j) => {
           const share = priorSum > 0 ? h.prior / priorSum : 0;
           const cand: SpeedCandidate = {
             method: 'tone',
             factor: m.frequencyHz / h.toneHz,
-            // Without --tone the nominal frequency is a guess: cap the confidence by its share.
-            confidence: detection * (options.toneHz ? 1 : Math.min(0.95, share)),
+            // Without --tone the nominal frequency is a guess: cap the confidence by its share,
+            // and below 0.5 when the speed it implies is not a plausible one.
+            confidence: detection * (options.toneHz ? 1 : Math.min(0.95, share) * (plausibleFactor(m.frequencyHz / h.toneHz) ? 1 : 0.45)),
             toneHz: h.toneHz,
             observedHz: m.frequencyHz,
             uncertaintyPercent: (100 * m.uncertaintyHz) / m.frequencyHz,
@@ -307,10 +328,12 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
   const ranked = [...candidates].sort(
     (a, b) => b.confidence - a.confidence || (a.uncertaintyPercent ?? 1) - (b.uncertaintyPercent ?? 1),
   );
-  let best = ranked[0];
+  // Musical tuning alone is weak evidence of speed (the music may be tuned to another pitch, and
+  // a whole semitone cannot be told): it corroborates hum or a tone but is never the answer.
+  let best = ranked.find((c) => c.method !== 'tuning');
   if (options.mainsHz && found.hum && found.hum.cand.confidence >= 0.5) best = found.hum.cand;
   else if (options.toneHz && found.tone && found.tone.cand.confidence >= 0.5) best = found.tone.cand;
-  const hb = found.hum ?? null;
+  const hb = best && humOf.get(best) ? { m: humOf.get(best)!, cand: best } : found.hum ?? null;
   const tb = found.tone ?? null;
 
   const base: Omit<SpeedResult, 'factor' | 'cents' | 'method' | 'confidence' | 'uncertaintyPercent' | 'standardPair' | 'curve'> = {
@@ -323,7 +346,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
     notes,
   };
   if (!best || best.confidence < 0.5) {
-    notes.push('no method found evidence it can stand behind; the speed is not reported');
+    notes.push(notDeterminedReason(candidates, tuningCand, hb?.m ?? null));
     return {
       ...base,
       factor: 1,
@@ -338,7 +361,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
   let curve: { timesSeconds: number[]; factors: number[] } = { timesSeconds: [], factors: [] };
   if (best.method === 'hum' && hb) {
     const m = hb.m;
-    curve = { timesSeconds: m.timesSeconds, factors: m.fundamentalsHz.map((f) => f / best!.mainsHz!) };
+    curve = extendToEdges({ timesSeconds: m.timesSeconds, factors: m.fundamentalsHz.map((f) => f / best!.mainsHz!) }, N / fs);
   } else if (best.method === 'tone' && tb) {
     curve = { timesSeconds: tb.m.timesSeconds, factors: tb.m.frequenciesHz.map((f) => f / best!.toneHz!) };
   }
@@ -354,6 +377,63 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
     mainsHz: best.method === 'hum' ? best.mainsHz ?? null : null,
     toneHz: best.method === 'tone' ? best.toneHz ?? null : null,
   };
+}
+
+/**
+ * The hum curve's windows are centred from about 2 s after the start to 2 s before the end; a
+ * correction that held the end values would leave the drift in the first and last seconds. Carry
+ * the measured trend to the edges: a straight line through the first (last) five points, read at
+ * 0 s (at the end).
+ */
+function extendToEdges(c: { timesSeconds: number[]; factors: number[] }, durationSeconds: number): { timesSeconds: number[]; factors: number[] } {
+  const n = c.timesSeconds.length;
+  if (n < 2) return c;
+  const lineAt = (from: number, to: number, t: number) => {
+    let st = 0, sy = 0;
+    for (let i = from; i < to; i++) {
+      st += c.timesSeconds[i]!;
+      sy += c.factors[i]!;
+    }
+    const k = to - from, tm = st / k, ym = sy / k;
+    let sxy = 0, sxx = 0;
+    for (let i = from; i < to; i++) {
+      sxy += (c.timesSeconds[i]! - tm) * (c.factors[i]! - ym);
+      sxx += (c.timesSeconds[i]! - tm) ** 2;
+    }
+    return sxx > 0 ? ym + (sxy / sxx) * (t - tm) : ym;
+  };
+  const k = Math.min(5, n);
+  const times = [...c.timesSeconds], factors = [...c.factors];
+  if (times[0]! > 0) {
+    times.unshift(0);
+    factors.unshift(lineAt(0, k, 0));
+  }
+  if (times[times.length - 1]! < durationSeconds) {
+    times.push(durationSeconds);
+    factors.push(lineAt(n - k, n, durationSeconds));
+  }
+  return { timesSeconds: times, factors };
+}
+
+/** Why the speed is not determined, in one sentence (the finding says it). */
+function notDeterminedReason(candidates: SpeedCandidate[], tuning: SpeedCandidate | undefined, hum: HumMeasurement | null): string {
+  const line = candidates.filter((c) => c.method !== 'tuning').sort((a, b) => b.confidence - a.confidence)[0];
+  if (line && line.confidence >= 0.2 && line.observedHz !== undefined && !(tuning && tuning.confidence >= 0.3 && tuning.confidence >= line.confidence)) {
+    const what = line.method === 'hum' ? 'could be mains hum' : 'could be a line-up tone';
+    const why =
+      !plausibleFactor(line.factor)
+        ? `it would mean a speed factor of ${line.factor.toFixed(4)}, which no pair of standard speeds explains`
+        : line.method === 'hum' && hum && persistenceEvidence(hum.harmonicsUsed, hum.persistence) < 0.5
+          ? 'it does not hold one level through the file (it comes and goes with the playing, as a note does)'
+          : line.method === 'tone'
+            ? 'it is not a steady sine, alone, for seconds'
+            : 'the evidence for it is weak';
+    return `a line at ${fmtHz(line.observedHz)} Hz ${what}, but ${why}; the speed is not determined`;
+  }
+  if (tuning && tuning.confidence >= 0.3) {
+    return `only the tuning of the music gives a reading (${(1200 * Math.log2(tuning.factor)).toFixed(1)} cents from A = 440 Hz), and tuning alone is weak evidence of speed (the music may be tuned to another pitch, and a whole semitone cannot be told); the speed is not determined`;
+  }
+  return 'no mains hum, reference tone or musical tuning gave evidence strong enough to measure the playing speed; the speed is not determined';
 }
 
 const round = (v: number, digits: number) => Math.round(v * 10 ** digits) / 10 ** digits;

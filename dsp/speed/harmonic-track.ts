@@ -68,6 +68,9 @@ export interface SeriesMeasurement {
 const WINDOW_SECONDS = 4;
 const HOP_SECONDS = 1;
 const MAX_DRIFT_PER_SECOND = 0.004;
+const CURVE_HALF_WINDOWS = 4;
+/** A playback machine's drift is slow: the curve is a local straight line over ±15 s. */
+const CURVE_HALF_SECONDS = 15;
 
 /** Noise correlation between track samples ℓ apart for a boxcar(D)^R decimator. */
 export function trackNoiseCorrelation(factor: number, order: number): Float64Array {
@@ -139,8 +142,11 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   const hMax = Math.max(...set.harmonics);
   const T = usable / fb;
   const dft = new Float64Array(2);
-  let winLen = Math.round(WINDOW_SECONDS * fb);
-  let hop = Math.round(HOP_SECONDS * fb);
+  // Shorter clips get shorter windows (down to 1.5 s, hop a quarter of it), so a drift through a
+  // few seconds still has windows enough to show it.
+  const winSeconds = Math.min(WINDOW_SECONDS, Math.max(1.5, T / 4));
+  let winLen = Math.round(winSeconds * fb);
+  let hop = Math.max(1, Math.round(winSeconds * (HOP_SECONDS / WINDOW_SECONDS) * fb));
   if (usable < winLen + 2 * hop) {
     winLen = usable;
     hop = usable;
@@ -386,7 +392,15 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
     uncertaintyHz: uncertainty,
     windowScatterHz: scatter,
     timesSeconds: curveReliable ? times : [],
-    fundamentalsHz: curveReliable ? smoothLinear(times, f0s, 2) : [],
+    // The curve is what the windows show beyond their own scatter: a drift significant against
+    // it is followed (local straight lines over ±15 s: a ramp passes unchanged and the scatter of
+    // the windows averages out), and without one the curve is the steady mean (a window estimate
+    // wandering with the speech is measurement noise, not the machine).
+    fundamentalsHz: curveReliable
+      ? drifting
+        ? smoothLinear(times, f0s, Math.max(CURVE_HALF_WINDOWS, Math.round((CURVE_HALF_SECONDS * fb) / hop)))
+        : times.map(() => mean)
+      : [],
     detectionDb,
     noiseDetectionDb: 10 * Math.log10(1 + Math.log(cells) / H),
     harmonicSnrDb,
@@ -441,4 +455,113 @@ export function goldenMax(f: (x: number) => number, lo: number, hi: number, iter
     }
   }
   return (lo + hi) / 2;
+}
+
+/** How a line behaves through the file, segment by segment (see `linePersistence`). */
+export interface LinePersistence {
+  /** Segments looked at (they tile the whole track). */
+  segments: number;
+  /** Share of segments where at least one harmonic could be seen clearly enough to judge. */
+  coverage: number;
+  /** Of the judged (segment, harmonic) cells, the share where the line was not at its usual level. */
+  inconsistentShare: number;
+  /** Judged cells. */
+  judged: number;
+  /** Per harmonic (in the order given): share of segments judged, and share of those inconsistent. */
+  perHarmonic: { coverage: number; inconsistentShare: number }[];
+}
+
+/**
+ * Does the line persist at one level through the file? Mains hum is there all the time at a
+ * nearly constant level, through pauses and under the programme; a note starts and stops with the
+ * playing and decays (REAL-MATERIAL.md, common practice). Each harmonic's track is cut into
+ * segments (Hann, 0.5–2 s) tiling the whole file, head and tail included; in each the line's
+ * amplitude A is fitted at the measured frequency (least squares: A = |Σ c·z·e^{−jφ}|/Σc) and what
+ * else is near it gives its noise: the same fit 2 and 3 bins either side (σ_A² = mean |Z_probe|²/
+ * (2·(Σc)²)), i.e. whatever would have leaked into the line's estimate. The usual level L is the
+ * median of A over the half of the segments where the probes are quietest. A cell is judged when
+ * σ_A ≤ L/4 (the line would stand clear of what else is there) and is inconsistent when A lies
+ * outside L·[0.7, 1.4] (±3 dB) widened by 3σ_A: silence where the line should show, a note's
+ * attack or its decay. `f0At(t)` gives the fundamental to demodulate at time t (a drifting hum).
+ */
+export function linePersistence(set: TrackSet, layout: TrackLayout, f0At: (t: number) => number): LinePersistence {
+  const fb = layout.trackRateHz;
+  const n = set.tracks[0]!.length;
+  const T = n / fb;
+  const segLen = Math.max(4, Math.round(Math.min(2, Math.max(0.5, T / 16)) * fb));
+  const S = Math.floor(n / segLen);
+  const H = set.harmonics.length;
+  const none = { segments: S, coverage: 0, inconsistentShare: 1, judged: 0, perHarmonic: set.harmonics.map(() => ({ coverage: 0, inconsistentShare: 1 })) };
+  if (S < 4) return none;
+  const c = hann(segLen);
+  let sc = 0;
+  for (const v of c) sc += v;
+  const centre = (segLen - 1) / 2;
+  const amp = new Float64Array(S * H), sig = new Float64Array(S * H);
+  const PROBES = [-3, -2, 2, 3];
+  const fit = new Float64Array(1 + PROBES.length);
+  for (let s = 0; s < S; s++) {
+    // The last segment ends at the last track sample (it may overlap the one before).
+    const start = s === S - 1 ? n - segLen : s * segLen;
+    const delta = f0At(layout.timeOf(start + centre)) - set.fundamentalHz;
+    for (let j = 0; j < H; j++) {
+      const t = set.tracks[j]!;
+      const w0 = (2 * Math.PI * set.harmonics[j]! * delta) / fb;
+      for (let p = 0; p <= PROBES.length; p++) {
+        // Angular frequency of the fit: the line, or a probe `PROBES[p − 1]` bins away.
+        const w = -(w0 + (p === 0 ? 0 : (2 * Math.PI * PROBES[p - 1]!) / segLen));
+        let zr = 0, zi = 0;
+        const dc = Math.cos(w), ds = Math.sin(w);
+        let cr = Math.cos(w * -centre), ci = Math.sin(w * -centre);
+        for (let k = 0; k < segLen; k++) {
+          const re = t.re[start + k]!, im = t.im[start + k]!;
+          zr += c[k]! * (re * cr - im * ci);
+          zi += c[k]! * (re * ci + im * cr);
+          const tr = cr * dc - ci * ds;
+          ci = cr * ds + ci * dc;
+          cr = tr;
+        }
+        fit[p] = zr * zr + zi * zi;
+      }
+      let probe = 0;
+      for (let p = 1; p <= PROBES.length; p++) probe += fit[p]!;
+      amp[s * H + j] = Math.sqrt(fit[0]!) / sc;
+      sig[s * H + j] = Math.sqrt(probe / PROBES.length / 2) / sc;
+    }
+  }
+  // The usual level: the median amplitude over the half of the segments where least else is
+  // there (programme passing near the line lifts or cancels it; the quiet half shows the line).
+  const level = new Float64Array(H);
+  const order: number[] = [];
+  for (let j = 0; j < H; j++) {
+    order.length = 0;
+    for (let s = 0; s < S; s++) order.push(s);
+    order.sort((x, y) => sig[x * H + j]! - sig[y * H + j]!);
+    const quiet = order.slice(0, Math.max(2, Math.ceil(S / 2))).map((s) => amp[s * H + j]!).sort((x, y) => x - y);
+    level[j] = quiet[quiet.length >> 1]!;
+  }
+  let judged = 0, bad = 0, covered = 0;
+  const hJudged = new Float64Array(H), hBad = new Float64Array(H);
+  for (let s = 0; s < S; s++) {
+    let any = false;
+    for (let j = 0; j < H; j++) {
+      const L = level[j]!, a = amp[s * H + j]!, e = sig[s * H + j]!;
+      if (!(L > 0) || e > L / 4) continue;
+      any = true;
+      judged++;
+      hJudged[j]!++;
+      if (a < 0.7 * L - 3 * e || a > 1.4 * L + 3 * e) {
+        bad++;
+        hBad[j]!++;
+      }
+    }
+    if (any) covered++;
+  }
+  return {
+    segments: S,
+    coverage: covered / S,
+    inconsistentShare: judged ? bad / judged : 1,
+    judged,
+    perHarmonic: Array.from(hJudged, (m, j) => ({ coverage: m / S, inconsistentShare: m ? hBad[j]! / m : 1 })),
+  };
 }

@@ -29,7 +29,7 @@
 import { WelchAccumulator } from '../core/welch.ts';
 import { Decimator, HeterodyneTrack } from './decimate.ts';
 import { speedPrior } from './standard.ts';
-import { measureSeries, trackNoiseCorrelation, type SeriesMeasurement } from './harmonic-track.ts';
+import { linePersistence, measureSeries, trackNoiseCorrelation, type LinePersistence, type SeriesMeasurement, type TrackLayout, type TrackSet } from './harmonic-track.ts';
 
 interface TrackGroup {
   candidate: HumCandidate;
@@ -46,6 +46,8 @@ const TRACK_RATE_HZ = 25;
 const TRACK_ORDER = 4;
 const MAX_HARMONIC_HZ = 700;
 const MAX_HARMONICS = 10;
+/** Candidates measured in full (the best persisting at their coarse frequency). */
+const MAX_MEASURED = 3;
 
 export interface HumPeak {
   frequencyHz: number;
@@ -75,6 +77,8 @@ export interface HumMeasurement extends SeriesMeasurement {
   harmonics: number[];
   /** Comb score from the search. */
   score: number;
+  /** How the line keeps its level through the file (hum persists; a note comes and goes). */
+  persistence: LinePersistence;
 }
 
 export function humDecimation(sampleRateHz: number): number {
@@ -103,7 +107,7 @@ export class HumSearch {
   }
 
   /** Candidates, best first. `mainsHz` restricts the fundamental range. */
-  candidates(mainsHz?: 50 | 60, maxCount = 3): { candidates: HumCandidate[]; floorAt: (hz: number) => number } {
+  candidates(mainsHz?: 50 | 60, maxCount = 6): { candidates: HumCandidate[]; floorAt: (hz: number) => number } {
     const w = this.#welch.result();
     const p = w.meanPower[0]!;
     const bw = w.binWidthHz;
@@ -167,15 +171,23 @@ export class HumSearch {
       found.push({ fundamentalHz: f0, score, harmonicSnrDb });
     }
     found.sort((a, b) => b.score - a.score);
-    // Keep distinct fundamentals; drop exact multiples of a better candidate (same series).
+    // Keep distinct fundamentals. Multiples and sub-multiples of a better candidate stay: the
+    // measurement decides which of them is the series that persists (hum at half speed puts its
+    // fundamental under what looks like a sub-harmonic of its second harmonic, and vice versa).
     const kept: HumCandidate[] = [];
     for (const c of found) {
-      const dup = kept.some((k) => {
-        const r = c.fundamentalHz / k.fundamentalHz;
-        return Math.abs(r - Math.round(r)) < 0.003 * Math.round(r) && Math.round(r) >= 1;
-      });
+      const dup = kept.some((k) => Math.abs(c.fundamentalHz / k.fundamentalHz - 1) < 0.003);
       if (!dup) kept.push(c);
       if (kept.length >= maxCount) break;
+    }
+    // A series that looks strong may be the sub-harmonic of the real one (hum at 50 Hz read as a
+    // 25 Hz series whose even harmonics it is), or one of its harmonics (180 Hz of 60 Hz hum):
+    // keep its double, half and third for the best two as well.
+    for (const b of kept.slice(0, 2)) {
+      for (const k of [2, 1 / 2, 1 / 3]) {
+        const m = found.find((c) => Math.abs(c.fundamentalHz / (k * b.fundamentalHz) - 1) < 0.003);
+        if (m && !kept.includes(m)) kept.push(m);
+      }
     }
     const floorAt = (hz: number) => floorBin(Math.max(kLo, Math.min(kHi, Math.round(hz / bw))));
     return { candidates: kept, floorAt };
@@ -231,23 +243,95 @@ export class HumTracker {
 
   /** Measurement per candidate (null when the tracks are too short to measure). */
   measure(sampleRateHz: number): (HumMeasurement | null)[] {
-    return this.#groups.map((g) => this.#measureGroup(g, sampleRateHz));
+    // A cheap look first, at each candidate's coarse frequency: a series whose fundamental is not
+    // at one level through the file, or that can hardly be seen anywhere, cannot be hum
+    // (persistenceEvidence), so the costly measurement is spared; of the rest the MAX_MEASURED
+    // that persist best are measured.
+    const coarse = this.#groups.map((g) => {
+      const { set, layout } = this.#setAndLayout(g, sampleRateHz);
+      return persistenceEvidence(g.harmonics, linePersistence(set, layout, () => g.candidate.fundamentalHz));
+    });
+    const order = coarse.map((e, i) => ({ e, i })).filter((x) => x.e > 0).sort((a, b) => b.e - a.e || a.i - b.i).slice(0, MAX_MEASURED);
+    const chosen = new Set(order.map((x) => x.i));
+    return this.#groups.map((g, i) => (chosen.has(i) ? this.#measureGroup(g, sampleRateHz) : null));
+  }
+
+  #setAndLayout(g: TrackGroup, sampleRateHz: number): { set: TrackSet; layout: TrackLayout } {
+    const D2 = this.#trackDecim;
+    const delay2 = g.tracks[0]!.delaySamples;
+    const D1 = sampleRateHz / this.decimatedRateHz;
+    return {
+      set: { fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, weights: g.weights, tracks: g.tracks },
+      layout: {
+        trackRateHz: this.trackRateHz,
+        timeOf: (k: number) => ((k * D2 - delay2) * D1 - this.#dec.delaySamples) / sampleRateHz,
+        firstValid: Math.ceil((2 * delay2) / D2) + 1,
+        correlation: trackNoiseCorrelation(D2, TRACK_ORDER),
+      },
+    };
   }
 
 
   #measureGroup(g: TrackGroup, sampleRateHz: number): HumMeasurement | null {
-    const D2 = this.#trackDecim;
-    const delay2 = g.tracks[0]!.delaySamples;
-    const D1 = sampleRateHz / this.decimatedRateHz;
-    const m = measureSeries(
-      { fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, weights: g.weights, tracks: g.tracks },
-      {
-        trackRateHz: this.trackRateHz,
-        timeOf: (k) => ((k * D2 - delay2) * D1 - this.#dec.delaySamples) / sampleRateHz,
-        firstValid: Math.ceil((2 * delay2) / D2) + 1,
-        correlation: trackNoiseCorrelation(D2, TRACK_ORDER),
-      },
+    const { set, layout } = this.#setAndLayout(g, sampleRateHz);
+    const m = measureSeries(set, layout);
+    if (!m) return null;
+    // Persistence over the harmonics the measurement kept, demodulated along its curve.
+    const used = m.harmonicsUsed.map((h) => g.harmonics.indexOf(h));
+    const times = m.timesSeconds, f0s = m.fundamentalsHz;
+    const f0At = (t: number) => (m.drifting && times.length >= 2 ? interpolateHeld(times, f0s, t) : m.meanFundamentalHz);
+    const persistence = linePersistence(
+      { ...set, harmonics: used.map((j) => g.harmonics[j]!), weights: used.map((j) => g.weights[j]!), tracks: used.map((j) => g.tracks[j]!) },
+      layout,
+      f0At,
     );
-    return m ? { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score } : null;
+    return { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score, persistence };
   }
+}
+
+const gcd = (a: number, b: number): number => (b === 0 ? a : gcd(b, a % b));
+
+/**
+ * Hum persists at one level through pauses and under the programme; a note starts, decays and
+ * stops (REAL-MATERIAL.md). From the segment-by-segment check (`linePersistence`): a harmonic is
+ * established when it was judged in ≥ 30 % of the segments and kept its level in ≥ 85 % of them,
+ * contradicted when judged as often and off its level in > 30 %. The series must show itself as
+ * this series: its fundamental established, or (fundamental masked) established harmonics with no
+ * common factor (3 and 5 imply the fundamental; 2, 4, 6 are another series at twice the
+ * frequency). A contradicted fundamental, or fewer than 6 judged segments, is no hum evidence.
+ */
+export function persistenceEvidence(harmonics: readonly number[], p: LinePersistence): number {
+  const per = p.perHarmonic;
+  const est: number[] = [];
+  let judgedCells = 0, badCells = 0;
+  harmonics.forEach((h, j) => {
+    const x = per[j]!;
+    if (x.coverage < 0.3) return;
+    judgedCells += x.coverage;
+    badCells += x.coverage * x.inconsistentShare;
+    if (x.inconsistentShare <= 0.15) est.push(h);
+  });
+  const fundamental = per[harmonics.indexOf(1)];
+  if (fundamental && fundamental.coverage >= 0.3 && fundamental.inconsistentShare > 0.15) return 0;
+  if (!est.includes(1) && (est.length === 0 || est.reduce(gcd) !== 1)) return 0;
+  if (p.coverage * p.segments < 6) return 0;
+  const badShare = judgedCells > 0 ? badCells / judgedCells : 1;
+  return clamp01((0.25 - badShare) / 0.1) * clamp01((p.coverage - 0.3) / 0.3);
+}
+
+const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
+
+/** Piecewise-linear interpolation through (t, y), holding the end values outside. */
+function interpolateHeld(t: readonly number[], y: readonly number[], x: number): number {
+  if (x <= t[0]!) return y[0]!;
+  const n = t.length;
+  if (x >= t[n - 1]!) return y[n - 1]!;
+  let lo = 0, hi = n - 1;
+  while (hi - lo > 1) {
+    const mid = (lo + hi) >> 1;
+    if (t[mid]! <= x) lo = mid;
+    else hi = mid;
+  }
+  const u = (x - t[lo]!) / (t[hi]! - t[lo]!);
+  return y[lo]! + u * (y[hi]! - y[lo]!);
 }

@@ -51,6 +51,8 @@ export interface ToneRun {
   coarseHz: number;
   levelDb: number;
   tonality: number;
+  /** Largest minus smallest frame level over the run (dB): a line-up tone holds its level. */
+  levelSpreadDb: number;
 }
 
 export interface ToneMeasurement {
@@ -60,6 +62,7 @@ export interface ToneMeasurement {
   endSeconds: number;
   levelDb: number;
   tonality: number;
+  levelSpreadDb: number;
   timesSeconds: number[];
   frequenciesHz: number[];
 }
@@ -190,6 +193,7 @@ export class ToneScanner {
             coarseHz: fs[fs.length >> 1]!,
             levelDb: core.reduce((s, f) => s + f.levelDb, 0) / core.length,
             tonality: core.reduce((s, f) => s + f.tonality, 0) / core.length,
+            levelSpreadDb: Math.max(...core.map((f) => f.levelDb)) - Math.min(...core.map((f) => f.levelDb)),
           });
         }
       }
@@ -278,6 +282,7 @@ export class ToneRefiner {
       endSeconds: t0 + n / rate,
       levelDb: 20 * Math.log10(Math.max(amp, 1e-12)),
       tonality: this.run.tonality,
+      levelSpreadDb: this.run.levelSpreadDb,
       timesSeconds: times,
       frequenciesHz: freqs,
     };

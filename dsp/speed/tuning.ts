@@ -10,12 +10,11 @@
  * between 60 Hz and 5 kHz that stand ≥ 10 dB above the frame's median get an exact frequency from
  * the phase advance between the two frames (the phase-vocoder frequency estimate; Flanagan & Golden
  * 1966), kept only when it agrees with the magnitude peak. Each peak's deviation from the nearest
- * equal-tempered pitch (−50…+50 cents) goes into a circular histogram weighted by its level above
- * the floor; the histogram's peak (1-cent bins, circular Gaussian smoothing σ = 1 cent, parabolic
- * refinement) is the tuning offset. This is the usual tuning-histogram estimator (e.g. librosa's
- * estimate_tuning), here with phase-derived frequencies. Octave partials (h = 1, 2, 4) fall on the
- * fundamental's deviation; h = 3, 6 sit 1.96 cents sharp and h = 5 13.7 cents flat, which the
- * peak-picking (not a mean) largely ignores.
+ * equal-tempered pitch (−50…+50 cents) is a point on a circle of 100 cents, weighted by its level
+ * above the floor; their circular mean is the tuning offset (see `result`). Octave partials
+ * (h = 1, 2, 4) fall on the fundamental's deviation; h = 3, 6 sit 1.96 cents sharp and h = 5 13.7
+ * cents flat, which bias the absolute reading by a few cents but not how it follows a speed
+ * change.
  */
 import { FftPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';
@@ -28,7 +27,7 @@ const PEAKS_PER_FRAME = 24;
 export interface TuningMeasurement {
   /** Deviation from A4 = 440 Hz equal temperament, −50…+50 cents. */
   cents: number;
-  /** Share of the peaks' weight within ±8 cents of the offset (0 random … 1 all in tune). */
+  /** Resultant length of the deviations on the 100-cent circle (0 random … 1 all at one offset). */
   concentration: number;
   /** Peaks that were used. */
   peaks: number;
@@ -137,43 +136,41 @@ export class TuningScanner {
   result(): TuningMeasurement | null {
     const m = this.#dev.length;
     if (m < 12) return null;
-    const hist = new Float64Array(100);
-    let total = 0;
+    // Weighted circular mean of the deviations on the 100-cent circle (Mardia & Jupp, "Directional
+    // Statistics", 2000, §2.2): a uniform speed change of c cents turns every deviation by c, so
+    // the mean turns by exactly c (the histogram's peak can hop between the modes of inharmonic
+    // or mistuned partials). Its resultant length R (0 random … 1 all at one offset) is the
+    // concentration.
+    let sc = 0, ss = 0, total = 0;
     for (let i = 0; i < m; i++) {
-      const x = this.#dev[i]! + 50; // 0…100
-      const j = Math.floor(x), t = x - j;
-      hist[((j % 100) + 100) % 100]! += this.#wt[i]! * (1 - t);
-      hist[(((j + 1) % 100) + 100) % 100]! += this.#wt[i]! * t;
+      const a = (2 * Math.PI * this.#dev[i]!) / 100;
+      sc += this.#wt[i]! * Math.cos(a);
+      ss += this.#wt[i]! * Math.sin(a);
       total += this.#wt[i]!;
     }
-    const smooth = new Float64Array(100);
-    for (let j = 0; j < 100; j++) {
-      let s = 0;
-      for (let d = -4; d <= 4; d++) s += hist[(j + d + 100) % 100]! * Math.exp(-0.5 * d * d);
-      smooth[j] = s;
-    }
-    let at = 0;
-    for (let j = 1; j < 100; j++) if (smooth[j]! > smooth[at]!) at = j;
-    const a = smooth[(at + 99) % 100]!, b = smooth[at]!, c = smooth[(at + 1) % 100]!;
-    const den = a - 2 * b + c;
-    let cents = at - 50 + (den < 0 ? (0.5 * (a - c)) / den : 0);
-    if (cents > 50) cents -= 100;
-    if (cents <= -50) cents += 100;
-    // Concentration and spread near the peak (circular distance).
-    let near = 0, s1 = 0, s2 = 0;
-    for (let i = 0; i < m; i++) {
-      let d = this.#dev[i]! - cents;
-      d -= 100 * Math.round(d / 100);
-      if (Math.abs(d) <= 8) {
-        near += this.#wt[i]!;
-        s1 += this.#wt[i]! * d;
-        s2 += this.#wt[i]! * d * d;
+    const R = Math.hypot(sc, ss) / total;
+    let cents = (100 * Math.atan2(ss, sc)) / (2 * Math.PI);
+    // Refine on the partials within ±10 cents of the mean (twice): the 5th and 7th harmonics sit
+    // 13.7 and 31.2 cents flat of equal temperament and would pull a plain mean. The window moves
+    // with the mean, so a speed change still turns the result by exactly its cents.
+    for (let it = 0; it < 2; it++) {
+      let rc = 0, rs = 0;
+      for (let i = 0; i < m; i++) {
+        let d = this.#dev[i]! - cents;
+        d -= 100 * Math.round(d / 100);
+        if (Math.abs(d) > 10) continue;
+        const a = (2 * Math.PI * this.#dev[i]!) / 100;
+        rc += this.#wt[i]! * Math.cos(a);
+        rs += this.#wt[i]! * Math.sin(a);
       }
+      if (rc === 0 && rs === 0) break;
+      cents = (100 * Math.atan2(rs, rc)) / (2 * Math.PI);
     }
-    const concentration = near / total;
-    const sd = near > 0 ? Math.sqrt(Math.max(0, s2 / near - (s1 / near) ** 2)) : 50;
-    // Peaks in one frame are not independent notes: count frames' worth of evidence conservatively.
-    const nEff = Math.max(1, (m * concentration) / 6);
-    return { cents, concentration, peaks: m, uncertaintyCents: sd / Math.sqrt(nEff) };
+    if (cents <= -50) cents += 100;
+    // Circular standard deviation √(−2 ln R) (in cents); peaks in one frame are not independent
+    // notes: count frames' worth of evidence conservatively.
+    const sd = (100 / (2 * Math.PI)) * Math.sqrt(-2 * Math.log(Math.max(R, 1e-9)));
+    const nEff = Math.max(1, m / 6);
+    return { cents, concentration: R, peaks: m, uncertaintyCents: sd / Math.sqrt(nEff) };
   }
 }

@@ -53,6 +53,21 @@ describe('real material, quick slice', () => {
     expect(t.detection.present.k).toBe(t.detection.present.n);
   });
 
+  it('claims no wrong speed and no drift on clean material', () => {
+    // Bar (analyses issue): speed false alarms on clean real material ≤ 0.5 % of files, none
+    // claiming more than 1 %; the quick slice holds few files, so none at all.
+    expect(table('speed').falseAlarms.clean.n).toBeGreaterThan(0);
+    expect(table('speed').falseAlarms.clean.k).toBe(0);
+    expect(table('drift').falseAlarms.clean.k).toBe(0);
+  });
+
+  it('reads tuning that follows a uniform speed change within ±3 cents where it is confident', () => {
+    // Bar: tuning follows a uniform speed change within ±3 cents (modulo a semitone) wherever it
+    // reports a confident reading.
+    const cents = table('tuning').errors.cents;
+    if (cents) expect(cents.worst).toBeLessThanOrEqual(3);
+  });
+
   it('reports clipping exactly where it was applied', () => {
     const t = table('clipping');
     expect(t.falseAlarmList).toEqual([]);

@@ -6,6 +6,20 @@
 import type { Judgement, Scorer } from '../types.ts';
 
 const cents = (r: number) => 1200 * Math.log2(r);
+
+/** Mean of a piecewise-linear curve over [0, seconds] (trapezoid rule on a fine grid; exact for lines). */
+function curveMean(c: { timesSeconds: number[]; factors: number[] }, seconds: number): number {
+  const at = (t: number) => {
+    const ts = c.timesSeconds, fs = c.factors;
+    if (t <= ts[0]!) return fs[0]!;
+    for (let i = 1; i < ts.length; i++) if (t <= ts[i]!) return fs[i - 1]! + ((fs[i]! - fs[i - 1]!) * (t - ts[i - 1]!)) / (ts[i]! - ts[i - 1]!);
+    return fs[fs.length - 1]!;
+  };
+  const n = 1000;
+  let s = 0;
+  for (let k = 0; k <= n; k++) s += (k === 0 || k === n ? 0.5 : 1) * at((k / n) * seconds);
+  return s / n;
+}
 const tolPercent = (method: string | null | undefined) => (method === 'tuning' ? (2 ** (3 / 1200) - 1) * 100 : 0.05);
 
 export const speedScorer: Scorer = {
@@ -14,7 +28,9 @@ export const speedScorer: Scorer = {
   judge(clip, r) {
     const s = r.sections.speed;
     if (!s && !r.findings.some((f) => f.op === 'speed')) return null;
-    const truth = clip.truth.speedFactor;
+    // A speed curve is given over its own time span (the corpus applies 1.000 → 1.030 over 60 s
+    // to clips of 6–26 s): the clip's true average speed is the curve's mean over the clip.
+    const truth = clip.truth.speedCurve ? curveMean(clip.truth.speedCurve, clip.durationSeconds) : clip.truth.speedFactor;
     const present = Math.abs(truth - 1) > 0.0005;
     const warn = r.findings.find((f) => f.op === 'speed' && f.severity === 'warn' && f.suggestion?.op === 'varispeed' && 'undo' in f.suggestion.params);
     const claimedFactor = warn ? Number(warn.suggestion!.params.undo) : undefined;
@@ -44,7 +60,15 @@ export const driftScorer: Scorer = {
     if (!r.sections.speed) return null;
     const claim = r.findings.find((f) => f.op === 'speed' && /drift/i.test(f.title) && f.severity !== 'ok' && f.severity !== 'info');
     const present = clip.truth.speedCurve !== null;
-    return { present, claimed: claim !== undefined, found: present ? claim !== undefined : undefined, claimSize: claim ? Number(claim.value) : undefined, note: claim?.title };
+    return {
+      present,
+      claimed: claim !== undefined,
+      found: present ? claim !== undefined : undefined,
+      claimSize: claim ? Number(claim.value) : undefined,
+      // A drift claim is true when the clip's speed does change along it.
+      calibration: claim && claim.confidence !== undefined ? [{ confidence: claim.confidence, true: present }] : undefined,
+      note: claim?.title,
+    };
   },
 };
 
