@@ -22,7 +22,7 @@
 import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
-import { type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } from './fit.ts';
+import { type FitResult, fitSingleEcho, fitWindows, scratchFor, undoCancellationCepstrum } from './fit.ts';
 import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { mixBlock } from './mix.ts';
@@ -159,7 +159,9 @@ export async function cancelledCepstrum(
     let energy = 0;
     for (let i = 0; i < n; i++) energy += buf[i]! * buf[i]!;
     if (!(energy > 1e-24 * n)) return null;
-    const spec = plan.createHalfSpectrum();
+    // The spectrum's array is reused (up to 2^21 points here; fit.ts scratchFor; taken only
+    // now, after the last await, since the scratch is shared by all callers in this thread).
+    const spec = scratchFor(plan).spectrum;
     plan.realForward(buf, spec);
     meanLog = new Float64Array(n / 2 + 1);
     const floor = (energy / n) * 1e-20;

@@ -16,7 +16,7 @@ import { welchSpectrum } from '../core/welch.ts';
 import { isPowerOfTwo } from '../core/fft.ts';
 import { CancelledError, ParameterError } from '../errors.ts';
 import { lineChartSvg } from '../plot/svg.ts';
-import { bandwidthSpectrum, effectiveBandwidthHz } from '../levels/spectrum.ts';
+import { announcedBandwidthLevels, bandwidthSpectrum, effectiveBandwidthHz } from '../levels/spectrum.ts';
 
 /** Frames analysed at most; beyond that, evenly spaced frames stand for the whole file. */
 export const MAX_FRAMES = 4000;
@@ -68,16 +68,37 @@ export const spectrum: AnalysisOp<SpectrumResult> = {
   async run(source, params, ctx) {
     const fftSize = num(params, 'fftSize') ?? 8192;
     if (!isPowerOfTwo(fftSize)) throw new ParameterError(`--fft-size ${fftSize}: must be a power of two`);
-    const r = await welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => ctx.progress(0.5 * f));
-    const sparse = bandwidthSpectrum(source.sampleRateHz, source.channelCount, source.frames);
-    let done = 0;
-    for await (const block of source.blocks()) {
-      if (ctx.signal?.aborted) throw new CancelledError('spectrum cancelled');
-      sparse.push(block);
-      done += block[0]!.length;
-      ctx.progress(0.5 + (0.5 * done) / Math.max(1, source.frames));
-    }
-    const levels = sparse.levelsDb();
+    let welchDone = 0, sparseDone = 0;
+    const report = () => ctx.progress(0.5 * welchDone + 0.5 * sparseDone);
+    // The bandwidth spectrum is the one `levels` measures when it runs over the same source
+    // (diagnose, check: announced when it starts, which is before this looks); otherwise it is
+    // measured here, in a pass that starts together with the Welch frames, so that under
+    // diagnose's shared pass both read the file once.
+    const bandwidthLevels = async (): Promise<Float64Array> => {
+      await null; // let the analyses started together announce theirs
+      const announced = await (announcedBandwidthLevels(source) ?? Promise.resolve(null));
+      if (announced) {
+        sparseDone = 1;
+        return announced;
+      }
+      const sparse = bandwidthSpectrum(source.sampleRateHz, source.channelCount, source.frames);
+      let done = 0;
+      for await (const block of source.blocks({ readOnly: true })) {
+        if (ctx.signal?.aborted) throw new CancelledError('spectrum cancelled');
+        sparse.push(block);
+        done += block[0]!.length;
+        sparseDone = done / Math.max(1, source.frames);
+        report();
+      }
+      return sparse.levelsDb();
+    };
+    const [r, levels] = await Promise.all([
+      welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => {
+        welchDone = f;
+        report();
+      }),
+      bandwidthLevels(),
+    ]);
     const bandwidthHz = levels.length ? Math.round(effectiveBandwidthHz(levels, source.sampleRateHz)) : source.sampleRateHz / 2;
     const levelsDb = r.levelsDb.map((l) => Array.from(l, round3));
     const frequenciesHz = Array.from(r.frequenciesHz, round3);
