@@ -282,7 +282,7 @@ export function echoFactorLogPower(kernel: EchoKernel, plan: FftPlan, into?: Flo
   return out;
 }
 
-export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKernel | null, plan: FftPlan): Float64Array {
+export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKernel | null, plan: FftPlan, into?: Float64Array): Float64Array {
   const n = plan.size;
   const s = scratchFor(plan);
   const half = s.half;
@@ -291,7 +291,7 @@ export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKern
     const lp = echoFactorLogPower(kernel, plan, s.logPower);
     for (let k = 0; k <= n / 2; k++) half[k] = half[k]! + lp[k]!;
   }
-  const out = new Float64Array(n);
+  const out = into ?? new Float64Array(n);
   realCepstrum(half, plan, s.spectrum, out);
   return out;
 }
