@@ -3,8 +3,10 @@
  * share one sequential pass over it: every full forward pass (`blocks()` with no range, no
  * reversal, default block size) that starts before the shared pass has produced its first block
  * joins it and receives the same blocks in lockstep; any other read (ranges, reversed passes,
- * passes that start later) goes straight to the underlying source. Each consumer gets its own copy
- * of a block except the last one to take it ("yielded arrays belong to the caller").
+ * passes that start later) goes straight to the underlying source. Consumers that asked for
+ * `readOnly` blocks share one instance of each block; every other consumer gets its own copy
+ * ("yielded arrays belong to the caller"), except that the original goes to the last of them
+ * when no read-only consumer shares it.
  *
  * At most MAX_AHEAD blocks wait in any consumer's queue: the pass pauses until the slowest
  * consumer catches up, so memory stays at a few blocks whatever the file's length. Blocks are
@@ -26,6 +28,7 @@ const MAX_AHEAD = 3;
 interface Consumer {
   queue: Block[];
   wake: (() => void) | null;
+  readOnly: boolean;
 }
 
 export class SharedPass {
@@ -76,7 +79,7 @@ export class SharedPass {
           this.separatePasses++;
           return this.#inner.blocks(options)[Symbol.asyncIterator]();
         }
-        const c: Consumer = { queue: [], wake: null };
+        const c: Consumer = { queue: [], wake: null, readOnly: options.readOnly === true };
         this.#consumers.add(c);
         this.joined++;
         return this.#iteratorFor(c);
@@ -144,8 +147,11 @@ export class SharedPass {
           this.#finished = true;
         } else {
           this.#produced++;
-          const takers = [...this.#consumers];
-          takers.forEach((c, i) => c.queue.push(i === takers.length - 1 ? r.value : r.value.map((ch) => ch.slice())));
+          const block = r.value;
+          const writers = [...this.#consumers].filter((c) => !c.readOnly);
+          const shared = writers.length < this.#consumers.size;
+          writers.forEach((c, i) => c.queue.push(!shared && i === writers.length - 1 ? block : block.map((ch) => ch.slice())));
+          if (shared) for (const c of this.#consumers) if (c.readOnly) c.queue.push(block);
         }
       } catch (e) {
         this.#error = e;

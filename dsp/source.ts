@@ -20,6 +20,12 @@ export interface BlockOptions {
   blockFrames?: Frames;
   /** Yield blocks from the end towards the start, each block's samples reversed. */
   reverse?: boolean;
+  /**
+   * The caller only reads the blocks and keeps no reference to one after asking for the next:
+   * a source may then hand the same arrays to several such callers (SharedPass does, instead of
+   * a copy each). Without it, yielded arrays belong to the caller, who may overwrite them.
+   */
+  readOnly?: boolean;
 }
 
 export interface AudioSource {

@@ -45,7 +45,7 @@ class Radix4Tables {
    * …, m/4), for k = 0…q−1: W^k, W^{2k}, W^{3k} with W = e^{∓j2π/(4q)}, interleaved (6 numbers).
    */
   readonly forwardTwiddles: Float64Array;
-  readonly inverseTwiddles: Float64Array;
+  #inverse: Float64Array | null = null;
 
   constructor(m: number) {
     this.m = m;
@@ -63,7 +63,6 @@ class Radix4Tables {
     let total = 0;
     for (let q = this.firstRadix; 4 * q <= m; q *= 4) total += 6 * q;
     this.forwardTwiddles = new Float64Array(total);
-    this.inverseTwiddles = new Float64Array(total);
     let at = 0;
     for (let q = this.firstRadix; 4 * q <= m; q *= 4) {
       const span = 4 * q;
@@ -74,12 +73,27 @@ class Radix4Tables {
           const c = Math.cos(ang), s = Math.sin(ang);
           this.forwardTwiddles[at + 2 * (p - 1)] = c;
           this.forwardTwiddles[at + 2 * (p - 1) + 1] = -s;
-          this.inverseTwiddles[at + 2 * (p - 1)] = c;
-          this.inverseTwiddles[at + 2 * (p - 1) + 1] = s;
         }
         at += 6;
       }
     }
+  }
+
+  /**
+   * The inverse transform's twiddles, the conjugates of the forward ones (made on first use: the
+   * WebAssembly tables need them; the TypeScript kernel negates the forward ones as it reads
+   * them, which gives the same numbers and keeps large plans at half the table memory).
+   */
+  get inverseTwiddles(): Float64Array {
+    if (!this.#inverse) {
+      const f = this.forwardTwiddles, v = new Float64Array(f.length);
+      for (let i = 0; i < f.length; i += 2) {
+        v[i] = f[i]!;
+        v[i + 1] = -f[i + 1]!;
+      }
+      this.#inverse = v;
+    }
+    return this.#inverse;
   }
 }
 
@@ -141,13 +155,16 @@ function complexTransform(src: Float64Array, dst: Float64Array, t: Radix4Tables,
   }
   // Radix-4 stages in place. With A1 = W^{2k}·x1, A2 = W^k·x2, A3 = W^{3k}·x3 (x_i at offset i·q):
   // y0 = (x0+A1) + (A2+A3), y2 = (x0+A1) − (A2+A3), y1/y3 = (x0−A1) ∓ j(A2−A3).
-  const tw = inverse ? t.inverseTwiddles : t.forwardTwiddles;
+  // The inverse kernel's twiddles are the conjugates: the forward ones with the sign of the
+  // imaginary part turned (exactly, so the numbers equal a table of conjugates).
+  const tw = t.forwardTwiddles;
+  const sg = inverse ? -1 : 1;
   let base = 0;
   for (let q = radix; 4 * q <= t.m; q *= 4) {
     const q2 = 2 * q, span = 8 * q;
     const o1 = inverse ? 3 * q2 : q2, o3 = inverse ? q2 : 3 * q2;
     for (let k = 0, w = base; k < q2; k += 2, w += 6) {
-      const w1r = tw[w]!, w1i = tw[w + 1]!, w2r = tw[w + 2]!, w2i = tw[w + 3]!, w3r = tw[w + 4]!, w3i = tw[w + 5]!;
+      const w1r = tw[w]!, w1i = sg * tw[w + 1]!, w2r = tw[w + 2]!, w2i = sg * tw[w + 3]!, w3r = tw[w + 4]!, w3i = sg * tw[w + 5]!;
       for (let i0 = k; i0 < m2; i0 += span) {
         const i1 = (i0 + q2) | 0, i2 = (i1 + q2) | 0, i3 = (i2 + q2) | 0;
         const x1r = dst[i1]!, x1i = dst[(i1 + 1) | 0]!;

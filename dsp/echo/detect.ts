@@ -29,7 +29,7 @@ import { CoarseEchoSearch, type CoarseCandidate } from './coarse.ts';
 import { echoCramerRao } from './crb.ts';
 import { type FrameEvidence, frameEvidence } from './evidence.ts';
 import { fitReflectionFilter } from './filter.ts';
-import { fitSingleEcho } from './fit.ts';
+import { fitSingleEcho, releaseFitScratch } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { mixBlock } from './mix.ts';
 import { PrintThroughCollector, refinePrintThrough, searchPrintThrough, type LagCandidate } from './print-through.ts';
@@ -218,14 +218,14 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   const coarse = new CoarseEchoSearch(fs, minLag, maxLag, source.frames);
   const duration = source.frames / fs;
   const wantPt = (options.printThrough ?? true) && duration >= 4 * PRINT_THROUGH_RANGE_SECONDS[0];
-  const pt = wantPt ? new PrintThroughCollector(fs) : null;
+  const pt = wantPt ? new PrintThroughCollector(fs, source.frames) : null;
   const energies: number[] = [];
   let secondAcc = 0, secondFill = 0;
   const secondLen = Math.round(fs);
 
   // --- Pass 1.
   let done = 0;
-  for await (const block of source.blocks()) {
+  for await (const block of source.blocks({ readOnly: true })) {
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
     const mono = mixBlock(block, channel);
     coarse.push(mono);
@@ -392,6 +392,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     if (confidenceFromZ(order[i + 1]?.z ?? 0) < 0.5) break;
   }
   options.progress?.(0.75);
+  releaseFitScratch(); // the reflection's transforms are done
 
   // --- Print-through.
   let printThrough = noPrintThrough();
@@ -410,13 +411,13 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       const filterKernel = reflection.filter ? { offset: reflection.filter.firstTapSamples, taps: Float64Array.from(reflection.filter.taps) } : null;
       fullRateCancel = filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 8);
       const canceller = new EchoCanceller(filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 4));
-      const again = new PrintThroughCollector(fs);
+      pt.restart(); // the same memory (and the same steps as a new collector)
       for await (const block of source.blocks()) {
         if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
         const mono = mixBlock(block, channel);
-        again.push(canceller.process(mono, mono));
+        pt.push(canceller.process(mono, mono));
       }
-      stream = again.stream();
+      stream = pt.stream();
     }
     const maxPt = Math.min(PRINT_THROUGH_RANGE_SECONDS[1], duration / 4);
     const exclude: Array<[number, number]> = [];

@@ -267,13 +267,14 @@ export function fitSingleEcho(
  * undone in the log domain, so a model of the whole echo can be fitted to it.
  */
 /** log|1 + K(ω_k)|² at k = 0…N/2 for an echo kernel K on the plan's grid. */
-export function echoFactorLogPower(kernel: EchoKernel, plan: FftPlan): Float64Array {
+export function echoFactorLogPower(kernel: EchoKernel, plan: FftPlan, into?: Float64Array): Float64Array {
   const n = plan.size;
-  const buf = new Float64Array(n);
+  const s = scratchFor(plan);
+  const buf = s.samples.fill(0);
   for (let i = 0; i < kernel.taps.length; i++) buf[kernel.offset + i] = kernel.taps[i]!;
-  const spec = plan.createHalfSpectrum();
+  const spec = s.spectrum;
   plan.realForward(buf, spec);
-  const out = new Float64Array(n / 2 + 1);
+  const out = into ?? new Float64Array(n / 2 + 1);
   for (let k = 0; k <= n / 2; k++) {
     const re = 1 + spec[2 * k]!, im = spec[2 * k + 1]!;
     out[k] = Math.log(re * re + im * im);
@@ -281,16 +282,47 @@ export function echoFactorLogPower(kernel: EchoKernel, plan: FftPlan): Float64Ar
   return out;
 }
 
-export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKernel | null, plan: FftPlan): Float64Array {
+export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKernel | null, plan: FftPlan, into?: Float64Array): Float64Array {
   const n = plan.size;
-  const half = Float64Array.from(meanLog);
+  const s = scratchFor(plan);
+  const half = s.half;
+  half.set(meanLog.subarray(0, n / 2 + 1));
   if (kernel) {
-    const lp = echoFactorLogPower(kernel, plan);
+    const lp = echoFactorLogPower(kernel, plan, s.logPower);
     for (let k = 0; k <= n / 2; k++) half[k] = half[k]! + lp[k]!;
   }
-  const spec = plan.createHalfSpectrum();
-  const out = new Float64Array(n);
-  realCepstrum(half, plan, spec, out);
+  const out = into ?? new Float64Array(n);
+  realCepstrum(half, plan, s.spectrum, out);
   return out;
 }
 
+/**
+ * Working arrays reused from call to call: the refinement runs these transforms at up to 2^21
+ * points several times per pass, and fresh 16 MB arrays each time left hundreds of MB of garbage
+ * waiting for the collector (peak memory only: the arithmetic is the same). One set, sized for
+ * the largest transform seen, viewed at smaller sizes, until releaseFitScratch().
+ * Shared by every caller in the thread: use it only in synchronous code (never across an await).
+ */
+export interface FitScratch {
+  samples: Float64Array;
+  spectrum: Float64Array;
+  half: Float64Array;
+  logPower: Float64Array;
+}
+let scratch: { n: number; buffer: Float64Array } | null = null;
+export function scratchFor(plan: FftPlan): FitScratch {
+  const n = plan.size;
+  if (!scratch || scratch.n < n) scratch = { n, buffer: new Float64Array(3 * n + 4) };
+  const b = scratch.buffer;
+  return {
+    samples: b.subarray(0, n),
+    spectrum: b.subarray(n, 2 * n + 2),
+    half: b.subarray(2 * n + 2, 2 * n + 2 + n / 2 + 1),
+    logPower: b.subarray(2 * n + 2 + n / 2 + 1, 3 * n + 4),
+  };
+}
+
+/** Lets the working arrays go (the end of an analysis); the next call makes new ones. */
+export function releaseFitScratch(): void {
+  scratch = null;
+}

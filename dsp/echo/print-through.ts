@@ -31,39 +31,46 @@ import type { EchoKernel } from './kernel.ts';
 import { mixBlock } from './mix.ts';
 import { robustSigma } from './search.ts';
 
-/** Decimated copy of the analysed signal, kept for the print-through search. */
+/**
+ * Decimated copy of the analysed signal, kept for the print-through search: one Float32Array
+ * (sized from the expected length when given, so it is never copied), viewed by stream().
+ */
 export class PrintThroughCollector {
   readonly factor: number;
   readonly rateHz: number;
-  readonly #decimator: Decimator;
-  readonly #chunks: Float32Array[] = [];
+  #decimator: Decimator;
+  #buf: Float32Array;
   #length = 0;
 
-  constructor(sampleRateHz: number) {
+  /** @param expectedFrames input frames to come (0: unknown; the buffer then grows as needed) */
+  constructor(sampleRateHz: number, expectedFrames = 0) {
     this.factor = Math.max(1, Math.round(sampleRateHz / 4000));
     this.rateHz = sampleRateHz / this.factor;
     this.#decimator = new Decimator(this.factor);
+    this.#buf = new Float32Array(expectedFrames > 0 ? Math.ceil(expectedFrames / this.factor) + 1 : 65536);
   }
 
   push(samples: Float64Array): void {
     const d = this.#decimator.process(samples);
-    if (d.length) {
-      this.#chunks.push(Float32Array.from(d));
-      this.#length += d.length;
+    if (!d.length) return;
+    if (this.#length + d.length > this.#buf.length) {
+      const bigger = new Float32Array(Math.max(2 * this.#buf.length, this.#length + d.length));
+      bigger.set(this.#buf.subarray(0, this.#length));
+      this.#buf = bigger;
     }
+    this.#buf.set(d, this.#length);
+    this.#length += d.length;
   }
 
-  /** The decimated stream (concatenated once). */
+  /** The decimated stream so far (a view: searchPrintThrough whitens it in place). */
   stream(): Float32Array {
-    const out = new Float32Array(this.#length);
-    let at = 0;
-    for (const c of this.#chunks) {
-      out.set(c, at);
-      at += c.length;
-    }
-    this.#chunks.length = 0;
-    if (out.length) this.#chunks.push(out);
-    return out;
+    return this.#buf.subarray(0, this.#length);
+  }
+
+  /** Starts collecting again from the beginning of the stream, reusing the memory. */
+  restart(): void {
+    this.#decimator = new Decimator(this.factor);
+    this.#length = 0;
   }
 }
 
@@ -151,7 +158,7 @@ export function searchPrintThrough(
   const total = x.length;
   if (total < 4 * minLag || masks.quietFraction === 0 || masks.loudFraction === 0) return { pre: null, post: null, masks };
   const bs = masks.blockSamples;
-  // A fixed whitening filter (order 16) sharpens the correlation peaks and takes away most of the
+  // A fixed whitening filter (order 16; in place, so `input` is whitened too) sharpens the correlation peaks and takes away most of the
   // chance correlation between voiced sounds of similar spectrum at unrelated times.
   x = whiten(x, 16);
   // Full-resolution cross-correlation C(k) = Σ q(t)·l(t + k), segment by segment (overlap-save,
@@ -430,6 +437,7 @@ export async function refinePrintThrough(
  * Whitening by linear prediction of order p fitted to the whole stream (autocorrelation method,
  * Levinson–Durbin recursion; Makhoul 1975, "Linear prediction: a tutorial review", Proc. IEEE
  * 63(4)). A fixed (time-invariant) filter, so a copy of the signal stays a copy after it.
+ * Overwrites `x` (the stream is 58 MB per hour of audio; a second copy is not needed) and returns it.
  */
 export function whiten(x: Float32Array, order: number): Float32Array {
   // The autocorrelation from at most about 2¹⁹ samples (every k-th stretch of 4096 on long
@@ -461,11 +469,11 @@ export function whiten(x: Float32Array, order: number): Float32Array {
     err *= 1 - k * k;
     if (!(err > 0)) break;
   }
-  const out = new Float32Array(x.length);
-  for (let i = 0; i < x.length; i++) {
+  // In place, from the end backwards: sample i needs only samples ≤ i, not yet overwritten.
+  for (let i = x.length - 1; i >= 0; i--) {
     let s = 0;
     for (let j = 0; j <= order && j <= i; j++) s += a[j]! * x[i - j]!;
-    out[i] = s;
+    x[i] = s;
   }
-  return out;
+  return x;
 }

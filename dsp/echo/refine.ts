@@ -22,7 +22,7 @@
 import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
-import { type FitResult, fitSingleEcho, fitWindows, undoCancellationCepstrum } from './fit.ts';
+import { type FitResult, fitSingleEcho, fitWindows, scratchFor, undoCancellationCepstrum } from './fit.ts';
 import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { mixBlock } from './mix.ts';
@@ -141,6 +141,7 @@ export async function cancelledCepstrum(
   plan: FftPlan = sharedPlan(framing.fftSize),
   undo = true,
   yGate: Float64Array | null = null,
+  work?: PassArrays,
 ): Promise<Float64Array | null> {
   const { start, end, warmup } = options.excerpt;
   const from = Math.max(0, start - warmup);
@@ -148,7 +149,8 @@ export async function cancelledCepstrum(
   const canceller = kernel ? new EchoCanceller(kernel) : null;
   let meanLog: Float64Array;
   if (framing.whole) {
-    const buf = new Float64Array(n);
+    const buf = work?.samples?.length === n ? work.samples.fill(0) : new Float64Array(n);
+    if (work) work.samples = buf;
     let at = -(start - from);
     for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
       if (options.signal?.aborted) return null;
@@ -159,9 +161,12 @@ export async function cancelledCepstrum(
     let energy = 0;
     for (let i = 0; i < n; i++) energy += buf[i]! * buf[i]!;
     if (!(energy > 1e-24 * n)) return null;
-    const spec = plan.createHalfSpectrum();
+    // The spectrum's array is reused (up to 2^21 points here; fit.ts scratchFor; taken only
+    // now, after the last await, since the scratch is shared by all callers in this thread).
+    const spec = scratchFor(plan).spectrum;
     plan.realForward(buf, spec);
-    meanLog = new Float64Array(n / 2 + 1);
+    meanLog = work?.meanLog?.length === n / 2 + 1 ? work.meanLog : new Float64Array(n / 2 + 1);
+    if (work) work.meanLog = meanLog;
     const floor = (energy / n) * 1e-20;
     for (let k = 0; k <= n / 2; k++) meanLog[k] = Math.log(spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + floor);
   } else {
@@ -208,7 +213,20 @@ export async function cancelledCepstrum(
     if (options.signal?.aborted || acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
-  return undoCancellationCepstrum(meanLog, undo ? kernel : null, plan);
+  const cep = work?.cepstrum?.length === n ? work.cepstrum : undefined;
+  const out = undoCancellationCepstrum(meanLog, undo ? kernel : null, plan, cep);
+  if (work) work.cepstrum = out;
+  return out;
+}
+
+/**
+ * Arrays one caller's successive passes reuse (each pass's result replaces the last): the
+ * excerpt (whole framing) and the cepstrum, up to 2^21 points (16 MB) each.
+ */
+export interface PassArrays {
+  samples?: Float64Array;
+  meanLog?: Float64Array;
+  cepstrum?: Float64Array;
 }
 
 const clampCancel = (g: number) => Math.max(-MAX_CANCEL_GAIN, Math.min(MAX_CANCEL_GAIN, g));
@@ -363,6 +381,7 @@ export async function refineSingleEcho(
   };
   await leaveQuiet(framing);
   let gate = await combinedGate(source, framing, options, gateOn);
+  let work: PassArrays = {}; // each pass's data is used before the next pass starts
   const maxPasses = options.maxPasses ?? 6;
   let tau = initial.delaySamples, g = initial.gain;
   let fit: FitResult | null = null;
@@ -373,13 +392,14 @@ export async function refineSingleEcho(
     if (f.fftSize !== framing.fftSize || f.whole !== framing.whole) {
       framing = f;
       plan = sharedPlan(f.fftSize);
+      work = {}; // the other framing's arrays go
       prev = null; // a different framing measures a slightly different G
       await leaveQuiet(f);
       gate = await combinedGate(source, framing, options, gateOn);
     }
     const gc = clampCancel(g);
     const kernel = singleEchoKernel(tau, gc);
-    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, gate);
+    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, gate, work);
     passes++;
     if (!data) break;
     const windows = fitWindows(tau, g, framing.fftSize);

@@ -11,7 +11,7 @@ import { CancelledError } from '../errors.ts';
 import { LoudnessMeter } from './loudness.ts';
 import { TruePeakMeter } from './true-peak.ts';
 import { EDGE_SAMPLES, MAX_ZERO_RUNS, MIN_ZERO_RUN_SECONDS, findDropouts, zeroRunDropouts, type ZeroRun } from './dropouts.ts';
-import { bandwidthSpectrum, compactSpectrum, effectiveBandwidthHz } from './spectrum.ts';
+import { announceBandwidthLevels, bandwidthSpectrum, compactSpectrum, effectiveBandwidthHz } from './spectrum.ts';
 
 export interface LevelsOptions {
   /** Samples at or beyond this magnitude count as clipped (1 for float; the top code for integers). */
@@ -123,84 +123,93 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
   const loudness = new LoudnessMeter(fs, nCh, total);
   const truePeak = Array.from({ length: nCh }, () => new TruePeakMeter());
   const spectrum = bandwidthSpectrum(fs, nCh, total);
+  // `spectrum` running over the same source takes this one (dsp/ops/spectrum.ts).
+  const announced = announceBandwidthLevels(source);
 
   let pos = 0;
-  for await (const block of source.blocks()) {
-    if (ctx.signal?.aborted) throw new CancelledError('levels cancelled');
-    const len = block[0]!.length;
-    for (let c = 0; c < nCh; c++) {
-      const x = block[c]!;
-      let p = peak[c]!, s = 0, s2 = 0, k = 0;
-      let rl = runLen[c]!;
-      let zl = zeroLen[c]!;
-      const la = lastAbs[c]!;
-      for (let i = 0; i < len; i++) {
-        const v = x[i]!;
-        const a = v < 0 ? -v : v;
-        if (a > p) p = a;
-        if (a === 0) {
-          if (zl === 0) {
-            zeroStart[c] = pos + i;
-            let m = 0;
-            for (const v of la) if (v > m) m = v;
-            edgeBefore[c] = m;
-          }
-          zl++;
-        } else if (zl > 0) {
-          if (zl >= minZero && zeroRuns.length < MAX_ZERO_RUNS && pendingRun[c] === null) {
-            pendingRun[c] = { channel: c, startFrame: zeroStart[c]!, frames: zl, edgeBefore: edgeBefore[c]!, edgeAfter: 0 };
-            pendingLeft[c] = EDGE_SAMPLES;
-          }
-          zl = 0;
-        }
-        const run = pendingRun[c];
-        if (run !== null && zl === 0) {
-          if (a > run.edgeAfter) run.edgeAfter = a;
-          if (--pendingLeft[c]! === 0) {
-            zeroRuns.push(run);
-            pendingRun[c] = null;
-          }
-        }
-        la[(ringAt + i) & (EDGE_SAMPLES - 1)] = a; // EDGE_SAMPLES is a power of two
-        s += v;
-        s2 += v * v;
-        if (a >= clipLevel) {
-          k++;
-          if (rl === 0) runStart[c] = pos + i;
-          rl++;
-        } else if (rl > 0) {
-          if (rl >= minRun) closeRun(c, rl);
-          rl = 0;
-        }
-      }
-      runLen[c] = rl;
-      zeroLen[c] = zl;
-      peak[c] = p;
-      sum[c]! += s;
-      sumSq[c]! += s2;
-      clipped[c]! += k;
-    }
-    // 1 ms level track.
-    let at = 0;
-    while (at < len) {
-      const take = Math.min(len - at, frameSamples - frameFill);
+  try {
+    for await (const block of source.blocks({ readOnly: true })) {
+      if (ctx.signal?.aborted) throw new CancelledError('levels cancelled');
+      const len = block[0]!.length;
       for (let c = 0; c < nCh; c++) {
         const x = block[c]!;
-        let e = 0;
-        for (let i = at; i < at + take; i++) e += x[i]! * x[i]!;
-        frameAcc[c]! += e;
+        let p = peak[c]!, s = 0, s2 = 0, k = 0;
+        let rl = runLen[c]!;
+        let zl = zeroLen[c]!;
+        const la = lastAbs[c]!;
+        for (let i = 0; i < len; i++) {
+          const v = x[i]!;
+          const a = v < 0 ? -v : v;
+          if (a > p) p = a;
+          if (a === 0) {
+            if (zl === 0) {
+              zeroStart[c] = pos + i;
+              let m = 0;
+              for (const v of la) if (v > m) m = v;
+              edgeBefore[c] = m;
+            }
+            zl++;
+          } else if (zl > 0) {
+            if (zl >= minZero && zeroRuns.length < MAX_ZERO_RUNS && pendingRun[c] === null) {
+              pendingRun[c] = { channel: c, startFrame: zeroStart[c]!, frames: zl, edgeBefore: edgeBefore[c]!, edgeAfter: 0 };
+              pendingLeft[c] = EDGE_SAMPLES;
+            }
+            zl = 0;
+          }
+          const run = pendingRun[c];
+          if (run !== null && zl === 0) {
+            if (a > run.edgeAfter) run.edgeAfter = a;
+            if (--pendingLeft[c]! === 0) {
+              zeroRuns.push(run);
+              pendingRun[c] = null;
+            }
+          }
+          la[(ringAt + i) & (EDGE_SAMPLES - 1)] = a; // EDGE_SAMPLES is a power of two
+          s += v;
+          s2 += v * v;
+          if (a >= clipLevel) {
+            k++;
+            if (rl === 0) runStart[c] = pos + i;
+            rl++;
+          } else if (rl > 0) {
+            if (rl >= minRun) closeRun(c, rl);
+            rl = 0;
+          }
+        }
+        runLen[c] = rl;
+        zeroLen[c] = zl;
+        peak[c] = p;
+        sum[c]! += s;
+        sumSq[c]! += s2;
+        clipped[c]! += k;
       }
-      frameFill += take;
-      at += take;
-      if (frameFill === frameSamples) closeFrame();
+      // 1 ms level track.
+      let at = 0;
+      while (at < len) {
+        const take = Math.min(len - at, frameSamples - frameFill);
+        for (let c = 0; c < nCh; c++) {
+          const x = block[c]!;
+          let e = 0;
+          for (let i = at; i < at + take; i++) e += x[i]! * x[i]!;
+          frameAcc[c]! += e;
+        }
+        frameFill += take;
+        at += take;
+        if (frameFill === frameSamples) closeFrame();
+      }
+      loudness.push(block);
+      for (let c = 0; c < nCh; c++) truePeak[c]!.push(block[c]!);
+      spectrum.push(block);
+      pos += len;
+      ringAt = (ringAt + len) & (EDGE_SAMPLES - 1);
+      ctx.progress(pos / Math.max(1, total));
     }
-    loudness.push(block);
-    for (let c = 0; c < nCh; c++) truePeak[c]!.push(block[c]!);
-    spectrum.push(block);
-    pos += len;
-    ringAt = (ringAt + len) & (EDGE_SAMPLES - 1);
-    ctx.progress(pos / Math.max(1, total));
+  } catch (e) {
+    announced.fail();
+    throw e;
   }
+  const levelsDb = spectrum.levelsDb();
+  announced.done(levelsDb);
   for (let c = 0; c < nCh; c++) if (runLen[c]! >= minRun) closeRun(c, runLen[c]!);
   if (frameFill > 0) closeFrame();
 
@@ -252,7 +261,6 @@ export async function analyzeLevels(source: AudioSource, options: LevelsOptions,
   const levelDips = mergeOverlapping(dips);
 
   const silence = headTailSilence(framePower, frameIndex, frameSeconds, silenceDb, total / fs);
-  const levelsDb = spectrum.levelsDb();
   const l = loudness.result();
   return {
     channels,

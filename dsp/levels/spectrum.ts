@@ -164,6 +164,25 @@ export function bandwidthSpectrum(sampleRateHz: number, channelCount: number, fr
   return new SparseSpectrum(sampleRateHz, channelCount, fftSize, Math.max(fftSize, Math.ceil(frames / 3000)));
 }
 
+/**
+ * The bandwidth spectrum that `levels` is measuring on a source, for `spectrum` to take instead
+ * of measuring the same thing again when both run over one source (diagnose, check). Keyed by
+ * the source object; resolves to the spectrum's levels, or null when levels stopped early.
+ */
+const measuring = new WeakMap<object, Promise<Float64Array | null>>();
+
+/** Announces that the bandwidth spectrum of `source` is being measured; call done() or fail(). */
+export function announceBandwidthLevels(source: object): { done(levelsDb: Float64Array): void; fail(): void } {
+  let settle!: (v: Float64Array | null) => void;
+  measuring.set(source, new Promise((r) => (settle = r)));
+  return { done: (levelsDb) => settle(levelsDb), fail: () => settle(null) };
+}
+
+/** The announced bandwidth spectrum of `source` (see announceBandwidthLevels), if any. */
+export function announcedBandwidthLevels(source: object): Promise<Float64Array | null> | undefined {
+  return measuring.get(source);
+}
+
 /** A compact log-spaced view of a spectrum for reports: mean power per 1/12-octave band from 20 Hz. */
 export function compactSpectrum(levelsDb: Float64Array, sampleRateHz: number): { frequenciesHz: number[]; levelsDb: number[] } {
   const n = levelsDb.length;

@@ -12,10 +12,10 @@
  */
 import { defineAnalysis, type Finding } from './types.ts';
 const algorithms = async () => {
-  const [{ welchSpectrum }, { isPowerOfTwo }, { bandwidthSpectrum, effectiveBandwidthHz }] = await Promise.all([
+  const [{ welchSpectrum }, { isPowerOfTwo }, { bandwidthSpectrum, effectiveBandwidthHz, announcedBandwidthLevels }] = await Promise.all([
     import('../core/welch.ts'), import('../core/fft.ts'), import('../levels/spectrum.ts'),
   ]);
-  return { welchSpectrum, isPowerOfTwo, bandwidthSpectrum, effectiveBandwidthHz };
+  return { welchSpectrum, isPowerOfTwo, bandwidthSpectrum, effectiveBandwidthHz, announcedBandwidthLevels };
 };
 import { CancelledError, ParameterError } from '../errors.ts';
 import { lineChartSvg } from '../plot/svg.ts';
@@ -70,19 +70,40 @@ export const spectrum = defineAnalysis<SpectrumResult>()({
   // The algorithms load on first use (the editor page reads only this spec; diagnose preloads them).
   load: algorithms,
   async run(source, params, ctx) {
-    const { welchSpectrum, isPowerOfTwo, bandwidthSpectrum, effectiveBandwidthHz } = await algorithms();
+    const { welchSpectrum, isPowerOfTwo, bandwidthSpectrum, effectiveBandwidthHz, announcedBandwidthLevels } = await algorithms();
     const fftSize = params.fftSize ?? 8192;
     if (!isPowerOfTwo(fftSize)) throw new ParameterError(`--fft-size ${fftSize}: must be a power of two`);
-    const r = await welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => ctx.progress(0.5 * f));
-    const sparse = bandwidthSpectrum(source.sampleRateHz, source.channelCount, source.frames);
-    let done = 0;
-    for await (const block of source.blocks()) {
-      if (ctx.signal?.aborted) throw new CancelledError('spectrum cancelled');
-      sparse.push(block);
-      done += block[0]!.length;
-      ctx.progress(0.5 + (0.5 * done) / Math.max(1, source.frames));
-    }
-    const levels = sparse.levelsDb();
+    let welchDone = 0, sparseDone = 0;
+    const report = () => ctx.progress(0.5 * welchDone + 0.5 * sparseDone);
+    // The bandwidth spectrum is the one `levels` measures when it runs over the same source
+    // (diagnose, check: announced when it starts, which is before this looks); otherwise it is
+    // measured here, in a pass that starts together with the Welch frames, so that under
+    // diagnose's shared pass both read the file once.
+    const bandwidthLevels = async (): Promise<Float64Array> => {
+      await null; // let the analyses started together announce theirs
+      const announced = await (announcedBandwidthLevels(source) ?? Promise.resolve(null));
+      if (announced) {
+        sparseDone = 1;
+        return announced;
+      }
+      const sparse = bandwidthSpectrum(source.sampleRateHz, source.channelCount, source.frames);
+      let done = 0;
+      for await (const block of source.blocks({ readOnly: true })) {
+        if (ctx.signal?.aborted) throw new CancelledError('spectrum cancelled');
+        sparse.push(block);
+        done += block[0]!.length;
+        sparseDone = done / Math.max(1, source.frames);
+        report();
+      }
+      return sparse.levelsDb();
+    };
+    const [r, levels] = await Promise.all([
+      welchSpectrum(source, { fftSize, maxFrames: MAX_FRAMES }, (f) => {
+        welchDone = f;
+        report();
+      }),
+      bandwidthLevels(),
+    ]);
     const bandwidthHz = levels.length ? Math.round(effectiveBandwidthHz(levels, source.sampleRateHz)) : source.sampleRateHz / 2;
     const levelsDb = r.levelsDb.map((l) => Array.from(l, round3));
     const frequenciesHz = Array.from(r.frequenciesHz, round3);

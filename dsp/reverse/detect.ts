@@ -381,7 +381,7 @@ export async function detectReversedChannels(source: AudioSource, onProgress?: (
   const expected = Math.ceil(source.frames / blockFrames) + 1;
   const envs = Array.from({ length: source.channelCount }, () => new Envelope(blockFrames, expected));
   let done = 0;
-  for await (const block of source.blocks()) {
+  for await (const block of source.blocks({ readOnly: true })) {
     for (let c = 0; c < envs.length; c++) envs[c]!.add(block[c]!);
     done += block[0]!.length;
     onProgress?.(done / Math.max(1, source.frames));

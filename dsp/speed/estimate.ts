@@ -133,7 +133,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
   const tuning = methods.has('tuning') ? new TuningScanner(fs, N) : null;
   let mono = new Float64Array(65536);
   let done = 0;
-  for await (const block of source.blocks()) {
+  for await (const block of source.blocks({ readOnly: true })) {
     aborted();
     if (mono.length < block[0]!.length) mono = new Float64Array(block[0]!.length);
     const m = monoMix(block, mono);
