@@ -102,11 +102,13 @@ export class CoarseEchoSearch {
         const qi = Math.floor(p.quefrency);
         const frac = p.quefrency - qi;
         let zHalf = Infinity;
+        // One frame only (the long-delay scale on a file of a few seconds): there are no halves
+        // to compare, so the peak keeps its score and the frame-by-frame look (evidence.ts,
+        // with frames a few τ long) decides. Scoring it 0 hid a 148 ms / 0.9 reflection on a
+        // 3.9 s bass note behind the note's own 15.3 ms period.
+        if (!halves[0] || !halves[1]) zHalf = s.accumulator.frames <= 1 ? p.z / Math.SQRT2 : 0;
         for (const hc of halves) {
-          if (!hc) {
-            zHalf = 0;
-            continue;
-          }
+          if (!hc) continue;
           // A scorer around the candidate only (its noise reference is local anyway).
           const h = new CepstrumScorer(hc, qi - 2 * CepstrumScorer.BLOCK, qi + 2 * CepstrumScorer.BLOCK);
           const a = h.amplitudeAt(qi, frac).amplitude;

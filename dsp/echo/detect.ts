@@ -160,6 +160,15 @@ const notMeasured = (): ReflectionResult => ({ present: false, reason: null, evi
  */
 export const floorDisagrees = (q: number, g: number): boolean => Math.abs(q - g) > Math.max(0.3 * Math.max(Math.abs(q), Math.abs(g)), 0.05);
 
+/**
+ * Range of the frames' share of the peak at τ that a cancellation takes away (evidence.ts,
+ * `share`) for a reflection. On the real-material corpus, true reflections of 0.1–0.45 at
+ * 30–304 ms on voice, guitar, piano, pads and a music box read 0.96–1.06; peaks of the
+ * programme's own (sustained chords at 450–500 ms, a melody at 30 ms) 0.32–0.55, band loops at
+ * their beat (250, 300 ms) 1.3–1.8, held organ notes 1.19.
+ */
+export const SHARE_RANGE: readonly [number, number] = [0.75, 1.25];
+
 const noPrintThrough = (): PrintThroughResult => ({ present: false, reason: null, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
 
 /**
@@ -310,10 +319,30 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
               present: null,
               reason: `${ms} ms is a whole number of periods of the note${evidence.locked > 1 ? 's' : ''} played in ${Math.round((100 * evidence.locked) / evidence.frames)} % of the frames; a pitch period is not evidence of a reflection, and too little else is played to tell`,
             };
-          } else if (spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : 0.35) * Math.abs(gain)) {
+          } else if (!gateNoise && spread !== null && Math.sign(spread) === Math.sign(gain) && evidence.share !== null && evidence.share > SHARE_RANGE[1]) {
+            // Cancelling at ĝ leaves the frames' peak at τ in place: a rhythm or repeat at τ, or a
+            // reflection stronger than measured (Festival speech with 61.8 ms / 0.2 measured
+            // 0.11 reads 1.76; a band loop at its beat 1.5–1.8). Either way nothing to act on.
+            verdict = {
+              present: null,
+              reason: `the peak at ${ms} ms is still there after cancelling it at ${gain.toFixed(3)}: a rhythm or repeat at that interval, or a reflection stronger than measured; not determined`,
+            };
+          } else if (
+            spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : gateNoise ? 0.35 : 0.2) * Math.abs(gain) ||
+            (!gateNoise && (evidence.share === null || !(evidence.share >= SHARE_RANGE[0] && evidence.share <= SHARE_RANGE[1])))
+          ) {
+            // A reflection is in every frame, so cancelling it leaves the frames without a peak
+            // at τ (share ≈ 1); a repeat is in a few, and cancelling puts an inverse echo into
+            // the others (share ≈ 0); a rhythm at τ is still there after cancelling (share > 1).
+            // Not where noise was added after the reflection (gateNoise): the cancellation puts
+            // the inverse echo into the bins the hiss holds in every frame (the demo reel read
+            // 0.55), so there the older rule, the median's size against ĝ, decides.
             // (Where most frames are locked the few others must show the echo more clearly.)
             verdict = { present: false, reason: `the peak at ${ms} ms comes from a few moments (a repeated note, hit or phrase), not from the whole programme as a reflection would` };
-          } else if (pair !== null && (Math.sign(pair) !== Math.sign(gain) || Math.abs(pair) < 0.4 * Math.abs(gain) || Math.abs(pair) > 2 * Math.abs(gain) + 0.05)) {
+          } else if (pair !== null && (pair * Math.sign(gain) < 0.4 * Math.abs(gain) - 0.2 || pair * Math.sign(gain) > 2 * Math.abs(gain) + 0.05)) {
+            // (The later frame's own new sounds dilute the pair regression, most for weak echoes
+            // on sparse notes: a music box's 61.7 ms / 0.35 reads −0.035; a strong one must
+            // show: a band loop's beat at 250 ms read as −0.68 has pairs at 0.0001.)
             verdict = { present: false, reason: `sounds ${ms} ms apart are alike only in some places (a rhythm or repeated phrase), not throughout as with a reflection` };
           }
           z *= Math.sqrt(unlocked / Math.max(1, evidence.frames));
@@ -340,9 +369,22 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     };
   };
   let reflection = notMeasured();
-  for (let i = 0; i < Math.min(order.length, 3); i++) {
+  // A candidate at the delay of one already looked at (from another frame length), or at a
+  // whole multiple k·τ of it, is that peak again, or its rahmonic
+  // (an echo's cepstrum has (−1)^{k+1}·g^k/k there) or the same note's period again:
+  // it is skipped (a 61.7 ms / 0.35 reflection set aside on a music box came back as one at
+  // 185.2 ms with g = 0.015 = g³/3, and a 9.1 ms / 0.9 one on a voice as 91.2 ms, −0.035).
+  const seen: number[] = [];
+  const isMultiple = (q: number) => seen.some((t) => {
+    const k = Math.round(q / t);
+    return k >= 1 && Math.abs(q - k * t) <= Math.max(2, 0.005 * q);
+  });
+  for (let i = 0, looked = 0; i < order.length && looked < 3; i++) {
+    if (isMultiple(order[i]!.quefrency)) continue;
+    seen.push(order[i]!.quefrency);
+    looked++;
     const r = await measure(order[i]!);
-    if (i === 0) reflection = r;
+    if (looked === 1) reflection = r;
     if (r.present === true) {
       reflection = r;
       break;

@@ -63,7 +63,6 @@ export class LowBand {
   readonly #taps: Float64Array; // lowpass, 2L+1 taps, Σ = 1
   readonly #half: number; // L
   readonly #input: InputRing; // decimated input
-  #ended = false;
   readonly #stft: PackedStft;
   readonly #lock: PhaseLocker;
   readonly #active: number; // bins processed
@@ -214,7 +213,6 @@ export class LowBand {
       }
       dec.written = m + 1;
     }
-    this.#ended = ended;
   }
 
   /** Output samples (full rate) below this are final in the low band. */

@@ -66,23 +66,6 @@ export class PhaseLocker {
   }
 
   /**
-   * Phase reset at a transient: bins whose power rises by more than 6 dB from `before` to `after`
-   * take the analysis phase (θ = 0). DC and Nyquist stay real.
-   */
-  resetRising(after: Float64Array, before: Float64Array): void {
-    const bins = this.#active;
-    const rr = this.rotRe, ri = this.rotIm;
-    for (let k = 0; k < bins; k++) {
-      if (after[k]! > 4 * before[k]! + 1e-30) {
-        rr[k] = 1;
-        ri[k] = 0;
-      }
-    }
-    rr[0] = rr[this.#bins - 1] = 1;
-    ri[0] = ri[this.#bins - 1] = 0;
-  }
-
-  /**
    * Phase reset at a transient, sparing steady partials: every bin takes the analysis phase
    * (θ = 0) except the regions (out to the lowest bin on either side) of peaks of `after` that are
    * peaks of `before` too (at the same bin or the next) with a power no more than 1 dB higher

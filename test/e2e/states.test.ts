@@ -258,7 +258,7 @@ describe('errors and state', () => {
     await page.getByTestId('export-go').click();
     await page.getByTestId('export-progress').waitFor();
     await page.getByTestId('export-cancel').click();
-    await page.getByText('Export cancelled: nothing was written.').waitFor({ timeout: 30_000 });
+    await page.getByText('Export cancelled: nothing was written.').waitFor({ timeout: 60_000 });
     await page.waitForTimeout(1500);
     expect(downloads).toBe(0);
     expect(await page.locator('[data-testid=task]', { hasText: 'Export' }).count()).toBe(0);

@@ -12,7 +12,7 @@ import {
 import { carryMetadata } from '../../../dsp/formats/info-list.ts';
 import { buildAdtlList, buildCueChunk, isAdtlList, type CuePoint } from '../../../dsp/formats/cue.ts';
 import { mapTime } from '../../../dsp/ops/timing.ts';
-import { MemorySource, readAll } from '../../../dsp/source.ts';
+import { MemorySource } from '../../../dsp/source.ts';
 import type { Rendering, TimeSegment } from '../../../dsp/ops/types.ts';
 import type { AudioSource } from '../../../dsp/source.ts';
 import type { AudioLayout } from '../../../dsp/formats/index.ts';
@@ -28,6 +28,19 @@ const IN_MEMORY_SAMPLES = 1 << 25;
 /** Bytes per bridge write. */
 const WRITE_BYTES = 4 << 20;
 
+/** The whole source into memory, stopping at once when the export is cancelled. */
+async function readStoppable(source: AudioSource, p: Progress): Promise<Float64Array[]> {
+  const out = Array.from({ length: source.channelCount }, () => new Float64Array(source.frames));
+  let at = 0;
+  for await (const b of source.blocks()) {
+    if (p.signal.aborted) throw new CancelledError('cancelled');
+    for (let c = 0; c < out.length; c++) out[c]!.set(b[c]!, at);
+    at += b[0]!.length;
+    p.progress(0.1 * (at / Math.max(1, source.frames)), 'reading');
+  }
+  return at === source.frames ? out : out.map((c) => c.subarray(0, at));
+}
+
 export async function exportFile(source: AudioSource & { readonly layout: AudioLayout }, sourceHandle: string, read: Read, write: Write, job: ExportJob, p: Progress): Promise<JobResults['export']> {
   const layout = source.layout;
   let rendering: Rendering;
@@ -35,7 +48,7 @@ export async function exportFile(source: AudioSource & { readonly layout: AudioL
   let segments: readonly TimeSegment[];
   const renderProgress: Progress = { progress: (f, l) => p.progress(0.5 * f, l), warn: p.warn, signal: p.signal };
   if (layout.frames * layout.channels <= IN_MEMORY_SAMPLES) {
-    const whole = new MemorySource(await readAll(source), source.sampleRateHz);
+    const whole = new MemorySource(await readStoppable(source, renderProgress), source.sampleRateHz);
     const r = await renderInMemory(whole, job.steps, renderProgress);
     reports = r.reports;
     segments = r.segments;
