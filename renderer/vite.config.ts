@@ -12,8 +12,15 @@ const here = path.dirname(fileURLToPath(import.meta.url));
 export default defineConfig({
   root: here,
   base: './',
-  plugins: [webSecurity(), svelte(), demoFiles(path.resolve(here, '../assets/demo')), operationSpecs()],
-  build: { outDir: 'dist', emptyOutDir: true, target: 'es2022', chunkSizeWarningLimit: 2000 },
+  plugins: [webSecurity(), svelte({ compilerOptions: { runes: true } }), demoFiles(path.resolve(here, '../assets/demo')), operationSpecs()],
+  build: {
+    outDir: 'dist', emptyOutDir: true, target: 'es2022', chunkSizeWarningLimit: 2000,
+    rollupOptions: {
+      // Svelte's custom-element support (and the legacy class API it pulls in) sits behind a top-level
+      // `if (typeof HTMLElement …)`, which keeps it in the bundle although no component is a custom element.
+      treeshake: { moduleSideEffects: (id) => !/[\\/]svelte[\\/]src[\\/]internal[\\/]client[\\/]dom[\\/]elements[\\/]custom-element\.js$/.test(id) },
+    },
+  },
   // One worker file: the operations' algorithms, loaded on first use elsewhere, are inlined here.
   worker: { format: 'es', rollupOptions: { output: { inlineDynamicImports: true } } },
   server: { fs: { allow: [path.resolve(here, '..')] } },
