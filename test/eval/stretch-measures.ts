@@ -17,6 +17,7 @@
  *   rise is that figure minus the input's at its own onset (what the stretch added).
  */
 import FFT from 'fft.js';
+import { powerSpectrum, thirdOctaveDb } from './measures.ts';
 
 const plans = new Map<number, FFT>();
 const planOf = (n: number) => {
@@ -296,31 +297,8 @@ export function findHits(x: Float64Array, rateHz: number): number[] {
   return hits;
 }
 
-/** Third-octave long-term spectrum (dB) from 300 Hz to 3.5 kHz, Welch with 8192-point Hann frames. */
-function ltas(x: Float64Array, rateHz: number): { centreHz: number; db: number }[] {
-  const size = 8192;
-  const fft = planOf(size);
-  const w = new Float64Array(size);
-  for (let i = 0; i < size; i++) w[i] = 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / size);
-  const buf = new Array<number>(size).fill(0);
-  const out = fft.createComplexArray() as number[];
-  const p = new Float64Array(size / 2 + 1);
-  for (let s = 0; s + size <= x.length; s += size / 2) {
-    for (let i = 0; i < size; i++) buf[i] = x[s + i]! * w[i]!;
-    fft.realTransform(out, buf);
-    for (let k = 0; k <= size / 2; k++) p[k]! += out[2 * k]! ** 2 + out[2 * k + 1]! ** 2;
-  }
-  const bands: { centreHz: number; db: number }[] = [];
-  for (let bnd = -5; bnd <= 5; bnd++) {
-    const fc = 1000 * 2 ** (bnd / 3); // IEC 61260 base-2 centres, 315 Hz … 3.15 kHz
-    const k0 = Math.ceil((fc * 2 ** (-1 / 6) * size) / rateHz), k1 = Math.floor((fc * 2 ** (1 / 6) * size) / rateHz);
-    if (fc * 2 ** (1 / 6) >= rateHz / 2) continue;
-    let e = 0;
-    for (let k = k0; k <= k1; k++) e += p[k]!;
-    bands.push({ centreHz: fc, db: 10 * Math.log10(e + 1e-300) });
-  }
-  return bands;
-}
+/** Third-octave long-term spectrum (dB), bands 315 Hz … 3.15 kHz (IEC 61260 base-2 centres), Welch with 8192-point Hann frames. */
+const ltas = (x: Float64Array, rateHz: number) => thirdOctaveDb(powerSpectrum(x, 8192), rateHz, 300, 3500);
 
 /**
  * Spectral envelope deviation of a transposed voice: third-octave long-term spectra of input and
