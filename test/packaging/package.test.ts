@@ -88,8 +88,6 @@ describe('npm run dist -- --dir (Linux, stand-in Electron runtime)', () => {
       /^\/renderer\/dist\/assets\/index-[\w-]+\.js$/,
       /^\/renderer\/dist\/assets\/index-[\w-]+\.css$/,
       /^\/renderer\/dist\/assets\/engine\.worker-[\w-]+\.js$/,
-      // The FLAC decoder, loaded by the worker only when a FLAC opens.
-      /^\/renderer\/dist\/assets\/flac-source-[\w-]+\.js$/,
       // The page's chunks fetched when a dialog or panel is first opened (renderer/src/lib/lazy.svelte.ts).
       /^\/renderer\/dist\/assets\/[a-z][\w.-]*-[\w-]+\.(js|css)$/,
       /^\/assets\/demo\/thornbury-reel7\.wav$/,

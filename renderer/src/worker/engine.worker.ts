@@ -85,7 +85,7 @@ async function run(id: number, job: Job, signal: { aborted: boolean }): Promise<
       const handle = job.file.handle;
       layout = await readLayout((o, l) => readBytes(handle, o, l), job.file.sizeBytes, job.file.name);
       const read = (o: number, l: number) => readBytes(handle, o, l);
-      // The FLAC decoder loads only when a FLAC opens: WAV and AIFF start without it.
+      // The FLAC decoder is set up only when a FLAC opens (its WebAssembly compiles then; the worker is one file).
       original = layout.container === 'FLAC'
         ? await (await import('../lib/flac-source.ts')).FlacSource.open(read, layout, job.file.sizeBytes, job.file.name)
         : new FileSource(read, layout);
