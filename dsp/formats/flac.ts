@@ -136,3 +136,39 @@ export function parseStreamInfo(b: Uint8Array): FlacStreamInfo {
 }
 
 export { crc8, crc16, findFlacFrame, parseFlacFrameHeader, type FlacFrameHeader } from './flac-frames.ts';
+
+/** Frames decoded at a time when a FLAC stream is read backwards (one segment, then reversed). */
+export const FLAC_REVERSE_SEGMENT_FRAMES = 1 << 18;
+
+/** A run of decoded samples: `count` samples of every channel from index `from` of `ch`. */
+export interface DecodedRun {
+  readonly ch: readonly Float32Array[];
+  readonly from: number;
+  readonly count: number;
+}
+
+/**
+ * Blocks of [start, end) from last to first, each reversed, for a decoder that only reads forwards:
+ * segments of at least FLAC_REVERSE_SEGMENT_FRAMES are decoded (`decode`), converted (`convert`) and
+ * handed out backwards in blocks of `size`.
+ */
+export async function* reversedDecodedBlocks(
+  decode: (lo: number, hi: number) => AsyncIterable<DecodedRun>,
+  convert: (src: Float32Array, from: number, count: number, dst: Float64Array, at: number) => void,
+  channelCount: number, start: number, end: number, size: number,
+): AsyncGenerator<Float64Array[]> {
+  const seg = Math.max(size, FLAC_REVERSE_SEGMENT_FRAMES);
+  for (let segEnd = end; segEnd > start; segEnd -= seg) {
+    const segStart = Math.max(start, segEnd - seg);
+    const parts = Array.from({ length: channelCount }, () => new Float64Array(segEnd - segStart));
+    let at = 0;
+    for await (const { ch, from, count } of decode(segStart, segEnd)) {
+      for (let c = 0; c < channelCount; c++) convert(ch[c]!, from, count, parts[c]!, at);
+      at += count;
+    }
+    for (let hi = segEnd; hi > segStart; hi -= size) {
+      const lo = Math.max(segStart, hi - size);
+      yield parts.map((p) => p.slice(lo - segStart, hi - segStart).reverse());
+    }
+  }
+}

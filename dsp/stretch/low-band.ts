@@ -248,7 +248,7 @@ export class LowBand {
     return 1;
   }
 
-  /** Forgets onsets wholly before output σ − 2·window. */
+  /** Forgets onsets wholly before output σ − 2 analysis lengths. */
   #prune(sigma: number): void {
     const on = this.#onsetT, off = this.#onsetOffset;
     while (this.#onsetFrom < on.length && on[this.#onsetFrom]! + off[this.#onsetFrom]! < sigma - 4 * this.halfFull) this.#onsetFrom++;

@@ -23,6 +23,7 @@ import { FLACDecoder } from '@wasm-audio-decoders/flac';
 import { InputError } from '../../dsp/errors.ts';
 import { clockTime, findFlacFrame, FlacFrameScanner, type FlacFrame } from '../../dsp/formats/flac-frames.ts';
 import type { AudioLayout, FlacStreamInfo } from '../../dsp/formats/types.ts';
+import { reversedDecodedBlocks } from '../../dsp/formats/flac.ts';
 import { defaultBlockFrames, resolveRange, type Block, type BlockOptions } from '../../dsp/source.ts';
 import type { FileBytes } from './file-bytes.ts';
 import { fileInfoFor } from './info.ts';
@@ -30,7 +31,6 @@ import { breathe } from './yield.ts';
 import type { ChunkRecord, FileInfo, OpenedAudio, SampleFormat } from './types.ts';
 
 const FEED_BYTES = 256 << 10;
-const REVERSE_SEGMENT_FRAMES = 1 << 18;
 const NO_MD5 = '0'.repeat(32);
 const LITTLE_ENDIAN = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
 
@@ -341,20 +341,7 @@ class FlacFileAudio implements OpenedAudio {
       yield* this.forward(start, end, size);
       return;
     }
-    const seg = Math.max(size, REVERSE_SEGMENT_FRAMES);
-    for (let segEnd = end; segEnd > start; segEnd -= seg) {
-      const segStart = Math.max(start, segEnd - seg);
-      const parts = Array.from({ length: channels }, () => new Float64Array(segEnd - segStart));
-      let at = 0;
-      for await (const { ch, from, count } of this.decodeRangeIter(segStart, segEnd)) {
-        for (let c = 0; c < channels; c++) this.convert(ch[c]!, from, count, parts[c]!, at);
-        at += count;
-      }
-      for (let hi = segEnd; hi > segStart; hi -= size) {
-        const lo = Math.max(segStart, hi - size);
-        yield parts.map((p) => p.slice(lo - segStart, hi - segStart).reverse());
-      }
-    }
+    yield* reversedDecodedBlocks((lo, hi) => this.decodeRangeIter(lo, hi), (src, from, count, dst, at) => this.convert(src, from, count, dst, at), channels, start, end, size);
   }
 
   /** Forward blocks; a pass over the whole stream also checks (and remembers) the MD5. */

@@ -12,13 +12,13 @@ import { FLACDecoder } from '@wasm-audio-decoders/flac';
 import { InputError } from '../../../dsp/errors.ts';
 import { clockTime, findFlacFrame, FlacFrameScanner, type FlacFrame } from '../../../dsp/formats/flac-frames.ts';
 import type { AudioLayout, FlacStreamInfo } from '../../../dsp/formats/types.ts';
+import { reversedDecodedBlocks } from '../../../dsp/formats/flac.ts';
 import { defaultBlockFrames, resolveRange, type AudioSource, type Block, type BlockOptions } from '../../../dsp/source.ts';
 import { Md5 } from './md5.ts';
 
 export type ReadBytes = (offset: number, length: number) => Promise<Uint8Array>;
 
 const FEED_BYTES = 1 << 20;
-const REVERSE_SEGMENT_FRAMES = 1 << 18;
 const NO_MD5 = '0'.repeat(32);
 
 interface Decoded { first: number; channels: Float32Array[]; count: number }
@@ -142,20 +142,7 @@ export class FlacSource implements AudioSource {
     if (end <= start) return;
     const n = this.channelCount;
     if (options.reverse) {
-      const seg = Math.max(size, REVERSE_SEGMENT_FRAMES);
-      for (let segEnd = end; segEnd > start; segEnd -= seg) {
-        const segStart = Math.max(start, segEnd - seg);
-        const parts = Array.from({ length: n }, () => new Float64Array(segEnd - segStart));
-        let at = 0;
-        for await (const { ch, from, count } of this.#range(segStart, segEnd)) {
-          for (let c = 0; c < n; c++) this.#convert(ch[c]!, from, count, parts[c]!, at);
-          at += count;
-        }
-        for (let hi = segEnd; hi > segStart; hi -= size) {
-          const lo = Math.max(segStart, hi - size);
-          yield parts.map((p) => p.slice(lo - segStart, hi - segStart).reverse());
-        }
-      }
+      yield* reversedDecodedBlocks((lo, hi) => this.#range(lo, hi), (src, from, count, dst, at) => this.#convert(src, from, count, dst, at), n, start, end, size);
       return;
     }
     let blockStart = start, fill = 0;
