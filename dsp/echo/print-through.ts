@@ -26,7 +26,7 @@ import { nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
-import { Decimator } from './decimate.ts';
+import { Decimator } from '../core/decimate.ts';
 import type { EchoKernel } from './kernel.ts';
 import { mixBlock } from './mix.ts';
 import { robustSigma } from './search.ts';

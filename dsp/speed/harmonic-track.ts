@@ -20,7 +20,7 @@
  *    residuals after removing the fitted tone.
  */
 import { FftPlan, nextPowerOfTwo } from '../core/fft.ts';
-import { boxcarPowerKernel } from './decimate.ts';
+import { boxcarPowerKernel } from '../core/decimate.ts';
 
 export type TrackArray = Float32Array | Float64Array;
 

@@ -27,7 +27,8 @@
  *  chosen, with the other reported.
  */
 import { WelchAccumulator } from '../core/welch.ts';
-import { Decimator, HeterodyneTrack } from './decimate.ts';
+import { Decimator } from '../core/decimate.ts';
+import { HeterodyneTrack } from './heterodyne.ts';
 import { speedPrior } from './standard.ts';
 import { linePersistence, measureSeries, trackNoiseCorrelation, type LinePersistence, type SeriesMeasurement, type TrackLayout, type TrackSet } from './harmonic-track.ts';
 

@@ -18,7 +18,7 @@
  */
 import { FftPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';
-import { HeterodyneTrack } from './decimate.ts';
+import { HeterodyneTrack } from './heterodyne.ts';
 import { speedPrior } from './standard.ts';
 
 const REGION_SECONDS = 60;

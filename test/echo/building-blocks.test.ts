@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { EchoAdder, EchoCanceller } from '../../dsp/echo/canceller.ts';
-import { Decimator } from '../../dsp/echo/decimate.ts';
+import { Decimator } from '../../dsp/core/decimate.ts';
 import { echoCepstrumAt } from '../../dsp/echo/fit.ts';
 import { kernelPeakGain, kernelResponse, singleEchoKernel } from '../../dsp/echo/kernel.ts';
 import { cepstrumOf } from '../../dsp/echo/log-spectrum.ts';
@@ -147,7 +147,7 @@ describe('Decimator', () => {
     const x = noise(40001, 15);
     for (const [factor, order] of [[12, 3], [5, 2], [8, 5]] as const) {
       const fast = new Decimator(factor, order), plain = new Decimator(factor, order, 'js');
-      expect(fast.delayInputSamples).toBe(plain.delayInputSamples);
+      expect(fast.delaySamples).toBe(plain.delaySamples);
       const a: number[] = [], b: number[] = [];
       for (let at = 0, n = 1237; at < x.length; at += n) {
         a.push(...fast.process(x.subarray(at, at + n)));
