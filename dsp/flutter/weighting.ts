@@ -9,7 +9,7 @@
  * bilinear transform at the demodulator's output rate (≈ 4 kHz; warping at 200 Hz is < 0.1 dB),
  * as four first-order sections, then normalised to exactly 0 dB at 4 Hz in the digital domain.
  */
-import { designBiquad } from '../core/biquad.ts';
+import { designBiquad, type BiquadCoefficients } from '../core/biquad.ts';
 
 export const WEIGHTING_POLE_LOW_HZ = 0.6143;
 export const WEIGHTING_POLE_HIGH_HZ = 11.834;
@@ -39,7 +39,7 @@ function lowpass1(poleRadPerS: number, fs: number): FirstOrder {
 export class SectionCascade {
   constructor(
     readonly first: readonly FirstOrder[],
-    readonly second: readonly { b: [number, number, number]; a: [number, number, number] }[],
+    readonly second: readonly BiquadCoefficients[],
     public gain: number,
   ) {}
 
@@ -55,8 +55,8 @@ export class SectionCascade {
     }
     const z2r = Math.cos(2 * w), z2i = -Math.sin(2 * w);
     for (const s of this.second) {
-      const nr = s.b[0] + s.b[1] * zr + s.b[2] * z2r, ni = s.b[1] * zi + s.b[2] * z2i;
-      const dr = s.a[0] + s.a[1] * zr + s.a[2] * z2r, di = s.a[1] * zi + s.a[2] * z2i;
+      const nr = s.b0 + s.b1 * zr + s.b2 * z2r, ni = s.b1 * zi + s.b2 * z2i;
+      const dr = 1 + s.a1 * zr + s.a2 * z2r, di = s.a1 * zi + s.a2 * z2i;
       m *= Math.hypot(nr, ni) / Math.hypot(dr, di);
     }
     return m;
@@ -79,7 +79,7 @@ export class SectionCascade {
       let x1 = 0, x2 = 0, y1 = 0, y2 = 0;
       for (let i = 0; i < y.length; i++) {
         const v = y[i]!;
-        const out = s.b[0] * v + s.b[1] * x1 + s.b[2] * x2 - s.a[1] * y1 - s.a[2] * y2;
+        const out = s.b0 * v + s.b1 * x1 + s.b2 * x2 - s.a1 * y1 - s.a2 * y2;
         x2 = x1; x1 = v; y2 = y1; y1 = out;
         y[i] = out;
       }
@@ -96,10 +96,9 @@ export function weightingFilter(fs: number): SectionCascade {
   return f;
 }
 
-/** Second-order Butterworth section (RBJ design with Q = 1/√2, dsp/core/biquad.ts) as b/a arrays. */
-function butter2(kind: 'lowpass' | 'highpass', cutoffHz: number, fs: number) {
-  const c = designBiquad({ kind, frequencyHz: cutoffHz, sampleRateHz: fs, q: Math.SQRT1_2 });
-  return { b: [c.b0, c.b1, c.b2] as [number, number, number], a: [1, c.a1, c.a2] as [number, number, number] };
+/** Second-order Butterworth section (RBJ design with Q = 1/√2, dsp/core/biquad.ts). */
+function butter2(kind: 'lowpass' | 'highpass', cutoffHz: number, fs: number): BiquadCoefficients {
+  return designBiquad({ kind, frequencyHz: cutoffHz, sampleRateHz: fs, q: Math.SQRT1_2 });
 }
 
 /** Flat measuring band for unweighted figures: 0.5–200 Hz, second-order Butterworth on each side. */

@@ -7,14 +7,7 @@
  * high-pass f0, Q). These parameter values are the ones published with libebur128 (ebur128.c),
  * which reproduce the 48 kHz table to 8 digits; test/levels checks that.
  */
-import { gainToDb } from '../units.ts';
-
-export interface BiquadCoefficients {
-  /** Numerator b0, b1, b2. */
-  readonly b: readonly [number, number, number];
-  /** Denominator 1, a1, a2. */
-  readonly a: readonly [number, number, number];
-}
+import { biquadResponse, type BiquadCoefficients } from '../core/biquad.ts';
 
 /** Stage 1 (shelf) parameters. */
 const SHELF_F0_HZ = 1681.974450955533;
@@ -34,32 +27,23 @@ export function kWeightingCoefficients(sampleRateHz: number): [BiquadCoefficient
   const vb = Math.pow(vh, SHELF_VB_EXPONENT);
   let a0 = 1 + k / SHELF_Q + k * k;
   const shelf: BiquadCoefficients = {
-    b: [(vh + (vb * k) / SHELF_Q + k * k) / a0, (2 * (k * k - vh)) / a0, (vh - (vb * k) / SHELF_Q + k * k) / a0],
-    a: [1, (2 * (k * k - 1)) / a0, (1 - k / SHELF_Q + k * k) / a0],
+    b0: (vh + (vb * k) / SHELF_Q + k * k) / a0,
+    b1: (2 * (k * k - vh)) / a0,
+    b2: (vh - (vb * k) / SHELF_Q + k * k) / a0,
+    a1: (2 * (k * k - 1)) / a0,
+    a2: (1 - k / SHELF_Q + k * k) / a0,
   };
   // Stage 2: high-pass; the standard keeps the numerator at [1, −2, 1] (no gain normalisation).
   k = Math.tan((Math.PI * HIGHPASS_F0_HZ) / sampleRateHz);
   a0 = 1 + k / HIGHPASS_Q + k * k;
-  const highpass: BiquadCoefficients = {
-    b: [1, -2, 1],
-    a: [1, (2 * (k * k - 1)) / a0, (1 - k / HIGHPASS_Q + k * k) / a0],
-  };
+  const highpass: BiquadCoefficients = { b0: 1, b1: -2, b2: 1, a1: (2 * (k * k - 1)) / a0, a2: (1 - k / HIGHPASS_Q + k * k) / a0 };
   return [shelf, highpass];
-}
-
-/** |H(e^{jω})| of a biquad at `frequencyHz`. */
-export function biquadGain(c: BiquadCoefficients, frequencyHz: number, sampleRateHz: number): number {
-  const w = (2 * Math.PI * frequencyHz) / sampleRateHz;
-  const c1 = Math.cos(w), s1 = Math.sin(w), c2 = Math.cos(2 * w), s2 = Math.sin(2 * w);
-  const nr = c.b[0] + c.b[1] * c1 + c.b[2] * c2, ni = -(c.b[1] * s1 + c.b[2] * s2);
-  const dr = c.a[0] + c.a[1] * c1 + c.a[2] * c2, di = -(c.a[1] * s1 + c.a[2] * s2);
-  return Math.sqrt((nr * nr + ni * ni) / (dr * dr + di * di));
 }
 
 /** Gain of the complete K-weighting in dB at one frequency (+0.691 dB at 997 Hz at 48 kHz). */
 export function kWeightingGainDb(frequencyHz: number, sampleRateHz: number): number {
   const [s, h] = kWeightingCoefficients(sampleRateHz);
-  return gainToDb(biquadGain(s, frequencyHz, sampleRateHz) * biquadGain(h, frequencyHz, sampleRateHz));
+  return biquadResponse(s, frequencyHz, sampleRateHz).magnitudeDb + biquadResponse(h, frequencyHz, sampleRateHz).magnitudeDb;
 }
 
 /**
@@ -74,9 +58,9 @@ export class KWeightingFilter {
 
   constructor(sampleRateHz: number) {
     const [shelf, hp] = kWeightingCoefficients(sampleRateHz);
-    this.#b0 = shelf.b[0]; this.#b1 = shelf.b[1]; this.#b2 = shelf.b[2];
-    this.#a1 = shelf.a[1]; this.#a2 = shelf.a[2];
-    this.#d1 = hp.a[1]; this.#d2 = hp.a[2];
+    this.#b0 = shelf.b0; this.#b1 = shelf.b1; this.#b2 = shelf.b2;
+    this.#a1 = shelf.a1; this.#a2 = shelf.a2;
+    this.#d1 = hp.a1; this.#d2 = hp.a2;
   }
 
   /** Filters x[from, to) and returns the sum of the squared K-weighted samples. */
