@@ -6,6 +6,7 @@
  */
 import { ParameterError } from '../errors.ts';
 import { FirFilter } from './fir.ts';
+import { kaiserSinc } from './kaiser-sinc.ts';
 import { besselI0, kaiserBeta } from './windows.ts';
 
 export interface FractionalDelayOptions {
@@ -24,8 +25,6 @@ export interface FractionalDelayKernel {
   offset: number;
 }
 
-const sinc = (x: number): number => (x === 0 ? 1 : Math.sin(Math.PI * x) / (Math.PI * x));
-
 export function fractionalDelayKernel(options: FractionalDelayOptions): FractionalDelayKernel {
   const d = options.delaySamples;
   const half = options.halfTaps ?? 32;
@@ -39,12 +38,8 @@ export function fractionalDelayKernel(options: FractionalDelayOptions): Fraction
   const i0b = besselI0(beta);
   // Tap i sits at lag m = i + offset, with offset = di − half + 1, so lags span di−half+1 … di+half.
   const offset = di - half + 1;
-  for (let i = 0; i < taps; i++) {
-    const t = i + offset - d; // distance from the ideal sample position
-    const r = t / half; // −1…1 over the support
-    const w = Math.abs(r) <= 1 ? besselI0(beta * Math.sqrt(1 - r * r)) / i0b : 0;
-    kernel[i] = sinc(t) * w;
-  }
+  // t = distance of tap i from the ideal sample position; the window spans ±half.
+  for (let i = 0; i < taps; i++) kernel[i] = kaiserSinc(i + offset - d, 0.5, half, beta, i0b);
   if (frac === 0) {
     // An integer delay is exact: a single unit tap.
     kernel.fill(0);

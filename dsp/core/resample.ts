@@ -42,7 +42,8 @@
 import { BugError, ParameterError } from '../errors.ts';
 import { createSimdKernels, type SimdKernels } from './simd-kernels.ts';
 import type { AudioSource, Block } from '../source.ts';
-import { besselI0, kaiserBeta } from './windows.ts';
+import { kaiserSinc } from './kaiser-sinc.ts';
+import { kaiserBeta } from './windows.ts';
 
 export type ResampleQuality = 'archive' | 'draft';
 
@@ -110,13 +111,7 @@ export function kernelDesign(quality: ResampleQuality): KernelDesign {
  * window w of half-width W. ∫h du = 1 (unity gain in the passband).
  */
 export function kernelValue(d: KernelDesign, u: number): number {
-  const au = Math.abs(u);
-  if (au > d.halfWidth) return 0;
-  const r = au / d.halfWidth;
-  const w = besselI0(d.beta * Math.sqrt(Math.max(0, 1 - r * r))) / besselI0(d.beta);
-  const x = 2 * d.cutoff * au;
-  const sinc = x < 1e-9 ? 1 : Math.sin(Math.PI * x) / (Math.PI * x);
-  return 2 * d.cutoff * sinc * w;
+  return kaiserSinc(u, d.cutoff, d.halfWidth, d.beta);
 }
 
 /** Monomial coefficients of the cubic through (0,y0), (1/3,y1), (2/3,y2), (1,y3). */

@@ -15,7 +15,7 @@
 import type { AudioSource } from '../source.ts';
 import type { OpContext } from '../context.ts';
 import { CancelledError } from '../errors.ts';
-import { besselI0, kaiserBeta, kaiserLength } from '../core/windows.ts';
+import { kaiserLowpass } from '../core/kaiser-sinc.ts';
 
 export const TARGET_TRACK_RATE_HZ = 4000;
 const PASS_HZ = 600;
@@ -31,28 +31,6 @@ export interface FrequencyTrack {
   startSeconds: number;
 }
 
-/** Kaiser-windowed-sinc low-pass (unity DC gain) with cutoff midway between pass and stop edges. */
-export function designLowpass(sampleRateHz: number, passHz: number, stopHz: number, stopDb: number): Float64Array {
-  const transition = (2 * Math.PI * (stopHz - passHz)) / sampleRateHz;
-  let n = kaiserLength(stopDb, transition);
-  if (n % 2 === 0) n++;
-  const beta = kaiserBeta(stopDb);
-  const fc = (passHz + stopHz) / 2 / sampleRateHz; // cycles/sample
-  const h = new Float64Array(n);
-  const mid = (n - 1) / 2;
-  const i0b = besselI0(beta);
-  let sum = 0;
-  for (let i = 0; i < n; i++) {
-    const t = i - mid;
-    const sinc = t === 0 ? 2 * fc : Math.sin(2 * Math.PI * fc * t) / (Math.PI * t);
-    const r = t / mid;
-    h[i] = sinc * (besselI0(beta * Math.sqrt(Math.max(0, 1 - r * r))) / i0b);
-    sum += h[i]!;
-  }
-  for (let i = 0; i < n; i++) h[i]! /= sum;
-  return h;
-}
-
 export async function demodulateTone(
   source: AudioSource,
   startFrame: number,
@@ -64,7 +42,7 @@ export async function demodulateTone(
   const fs = source.sampleRateHz;
   const d = Math.max(1, Math.floor(fs / TARGET_TRACK_RATE_HZ));
   const fsd = fs / d;
-  const h = designLowpass(fs, PASS_HZ, Math.min(STOP_HZ, fsd - PASS_HZ), STOP_DB);
+  const h = kaiserLowpass(fs, PASS_HZ, Math.min(STOP_HZ, fsd - PASS_HZ), STOP_DB);
   const taps = h.length;
   const carry = taps - 1;
   const w = (2 * Math.PI * centreHz) / fs;

@@ -15,6 +15,7 @@
  * is computed only where none of these bounds stays below the current peak, so the result is
  * identical to interpolating everything.
  */
+import { kaiserSinc } from '../core/kaiser-sinc.ts';
 import { besselI0 } from '../core/windows.ts';
 
 export const OVERSAMPLING = 4;
@@ -32,12 +33,8 @@ export function truePeakPhases(): Float64Array[] {
   const phases: Float64Array[] = [];
   for (let p = 1; p < OVERSAMPLING; p++) {
     const h = new Float64Array(TAPS);
-    for (let k = 0; k < TAPS; k++) {
-      const t = p / OVERSAMPLING - (k - HALF_SPAN + 1); // distance from the tap to the point, in samples
-      const r = t / HALF_SPAN;
-      const w = Math.abs(r) < 1 ? besselI0(KAISER_BETA * Math.sqrt(1 - r * r)) / i0b : 0;
-      h[k] = (Math.sin(Math.PI * t) / (Math.PI * t)) * w;
-    }
+    // t = distance from the tap to the point, in samples.
+    for (let k = 0; k < TAPS; k++) h[k] = kaiserSinc(p / OVERSAMPLING - (k - HALF_SPAN + 1), 0.5, HALF_SPAN, KAISER_BETA, i0b);
     phases.push(h);
   }
   return phases;

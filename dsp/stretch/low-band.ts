@@ -24,7 +24,8 @@
  *   the main band's rotations (at the bin of the same frequency), so that both bands give every
  *   partial the same phase when the low band comes back (no cancellation in the crossover).
  */
-import { kaiserBeta, kaiserLength, makeWindow } from '../core/windows.ts';
+import { kaiserLowpass } from '../core/kaiser-sinc.ts';
+import { makeWindow } from '../core/windows.ts';
 import { PackedStft } from './packed-stft.ts';
 import { PhaseLocker } from './phase-lock.ts';
 import { InputRing, type OverlapAddRing } from './rings.ts';
@@ -104,23 +105,9 @@ export class LowBand {
     this.halfFull = (nl * d) / 2;
     // Lowpass: pass to F2, stop from fs/D − F2 (Kaiser design, 100 dB).
     const stopHz = fs / d - LOW_BAND_F2_HZ;
-    let len = d === 1 ? 1 : kaiserLength(100, (2 * Math.PI * (stopHz - LOW_BAND_F2_HZ)) / fs);
-    if (len % 2 === 0) len++;
+    const taps = d === 1 ? new Float64Array([1]) : kaiserLowpass(fs, LOW_BAND_F2_HZ, stopHz, 100);
+    const len = taps.length;
     const l = (this.#half = (len - 1) / 2);
-    const taps = new Float64Array(len);
-    if (d === 1) taps[0] = 1;
-    else {
-      const kw = makeWindow('kaiser', len, { symmetric: true, beta: kaiserBeta(100) });
-      const fc = (LOW_BAND_F2_HZ + stopHz) / 2 / fs; // cycles per sample
-      let sum = 0;
-      for (let i = 0; i < len; i++) {
-        const m = i - l;
-        const s = m === 0 ? 2 * fc : Math.sin(2 * Math.PI * fc * m) / (Math.PI * m);
-        taps[i] = s * kw[i]!;
-        sum += taps[i]!;
-      }
-      for (let i = 0; i < len; i++) taps[i]! /= sum;
-    }
     this.#taps = taps;
     // Polyphase interpolation: y[t] = Σ_j D·h[r + jD + L]·v[⌊t/D⌋ − j], r = t mod D.
     this.#phaseStart = new Int32Array(d);
