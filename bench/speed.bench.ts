@@ -12,7 +12,8 @@
  *
  * Run alone: `npm run bench -- speed`.
  */
-import { Resampler, kernelDesign, type ResampleQuality } from '../dsp/core/resample.ts';
+import { Resampler } from '../dsp/core/resample.ts';
+import { kernelDesign, type ResampleQuality } from '../dsp/core/resample-kernel.ts';
 import { estimateSpeed } from '../dsp/speed/estimate.ts';
 import { MemorySource } from '../dsp/source.ts';
 import { silentContext } from '../dsp/ops/types.ts';

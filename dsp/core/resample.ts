@@ -8,12 +8,8 @@
  * (input rate, or the output rate expressed in input time), so it both removes images when the
  * signal is slowed down / upsampled and removes aliases when it is sped up / downsampled.
  *
- * Design (in cycles per sample of the lower rate):
- *   passband edge 0.45, stopband edge 0.50 (no component anywhere above the lower Nyquist
- *   survives: alias and image rejection hold across the whole band, not only in the passband);
- *   cutoff fc = 0.475; Kaiser β and half-width from the attenuation A by Kaiser's formulas.
- *   - 'archive': A = 147 dB design (measured ≥ 140 dB; passband ripple ≈ 1e-6 dB);
- *   - 'draft':   A = 95 dB design (measured ≥ 90 dB), about 60 % of the taps.
+ * The kernel's design (passband 0.45, stopband 0.5 of the lower rate; 'archive' and 'draft') is in
+ * ./resample-kernel.ts; speed factors and curves become ratios in ./speed-curve.ts.
  *
  * Evaluation: the kernel g(t) = s·h(s·t) (t in input samples, s = min(1, ratio)) is tabulated as
  * cubic polynomials in the fractional position (a Farrow structure), L segments per input
@@ -42,10 +38,7 @@
 import { BugError, ParameterError } from '../errors.ts';
 import { createSimdKernels, type SimdKernels } from './simd-kernels.ts';
 import type { AudioSource, Block } from '../source.ts';
-import { kaiserSinc } from './kaiser-sinc.ts';
-import { kaiserBeta } from './windows.ts';
-
-export type ResampleQuality = 'archive' | 'draft';
+import { cubicThrough, kernelDesign, kernelValue, type KernelDesign, type ResampleQuality } from './resample-kernel.ts';
 
 /** A ratio (output frames per input frame) that changes with the input position. */
 export interface TimeVaryingRatio {
@@ -64,71 +57,9 @@ export interface ResamplerOptions {
   quality?: ResampleQuality;
 }
 
-/** Published design figures of one quality (cycles per sample of the lower rate). */
-export interface KernelDesign {
-  readonly quality: ResampleQuality;
-  readonly passbandEdge: number;
-  readonly stopbandEdge: number;
-  readonly cutoff: number;
-  /** Kaiser design attenuation A in dB. */
-  readonly designAttenuationDb: number;
-  readonly beta: number;
-  /** Kernel half-width in samples of the lower rate. */
-  readonly halfWidth: number;
-  /** Farrow segments per input sample. */
-  readonly segmentsPerSample: number;
-}
-
 /** Smallest and largest ratio accepted (factor 0.25–4 combined with rate changes up to 16:1). */
 export const MIN_RATIO = 1 / 64;
 export const MAX_RATIO = 64;
-
-const PASS = 0.45;
-const STOP = 0.5;
-
-export function kernelDesign(quality: ResampleQuality): KernelDesign {
-  if (quality !== 'archive' && quality !== 'draft') {
-    throw new ParameterError(`quality "${String(quality)}" must be archive or draft`);
-  }
-  const a = quality === 'archive' ? 147 : 95;
-  const dw = 2 * Math.PI * (STOP - PASS);
-  // Kaiser: length M + 1 with M = (A − 7.95)/(2.285·Δω); half-width M/2.
-  const halfWidth = (a - 7.95) / (2.285 * dw) / 2;
-  return {
-    quality,
-    passbandEdge: PASS,
-    stopbandEdge: STOP,
-    cutoff: (PASS + STOP) / 2,
-    designAttenuationDb: a,
-    beta: kaiserBeta(a),
-    halfWidth,
-    segmentsPerSample: quality === 'archive' ? 128 : 64,
-  };
-}
-
-/**
- * The continuous kernel h(u) (u in samples of the lower rate): 2fc·sinc(2fc·u)·w(u), with a Kaiser
- * window w of half-width W. ∫h du = 1 (unity gain in the passband).
- */
-export function kernelValue(d: KernelDesign, u: number): number {
-  return kaiserSinc(u, d.cutoff, d.halfWidth, d.beta);
-}
-
-/** Monomial coefficients of the cubic through (0,y0), (1/3,y1), (2/3,y2), (1,y3). */
-function cubicThrough(y0: number, y1: number, y2: number, y3: number, out: Float64Array, at: number): void {
-  // Newton divided differences on nodes 0, 1/3, 2/3, 1 (spacing h = 1/3).
-  const d1 = (y1 - y0) * 3;
-  const d2 = (y2 - y1) * 3;
-  const d3 = (y3 - y2) * 3;
-  const e1 = ((d2 - d1) * 3) / 2;
-  const e2 = ((d3 - d2) * 3) / 2;
-  const f1 = e2 - e1; // third divided difference (÷ (1 − 0) = 1)
-  // P(μ) = y0 + d1·μ + e1·μ(μ − 1/3) + f1·μ(μ − 1/3)(μ − 2/3)
-  out[at] = y0;
-  out[at + 1] = d1 - e1 / 3 + (f1 * 2) / 9;
-  out[at + 2] = e1 - f1;
-  out[at + 3] = f1;
-}
 
 /** Best rational approximation a/b of x with b ≤ maxDen, by continued fractions; null if not exact. */
 export function exactFraction(x: number, maxDen: number): [number, number] | null {
@@ -642,99 +573,6 @@ function dot2(
   }
   y0[at] = a0 + b0;
   y1[at] = a1 + b1;
-}
-
-/** Output frames per input frame for varispeed `factor` (played ÷ recorded speed) and a rate change. */
-export function ratioForFactor(factor: number, inputRateHz: number, outputRateHz = inputRateHz): number {
-  if (!(factor > 0) || !Number.isFinite(factor)) throw new ParameterError(`factor=${factor} must be a positive number`);
-  return outputRateHz / inputRateHz / factor;
-}
-
-/** A speed curve: factor (played ÷ recorded) at times in seconds of the input. */
-export interface SpeedCurve {
-  readonly timesSeconds: readonly number[];
-  readonly factors: readonly number[];
-}
-
-/**
- * A smooth interpolant through (t, y) points: monotone piecewise cubic (Fritsch & Carlson, "Monotone
- * piecewise cubic interpolation", SIAM J. Numer. Anal. 17(2), 1980), so no overshoot between points;
- * held constant outside the first and last point.
- */
-export function smoothCurve(times: readonly number[], values: readonly number[]): (t: number) => number {
-  const n = times.length;
-  if (n === 0 || values.length !== n) throw new ParameterError('a curve needs matching, non-empty time and value lists');
-  for (let i = 1; i < n; i++) {
-    if (!(times[i]! > times[i - 1]!)) throw new ParameterError('curve times must increase');
-  }
-  if (n === 1) return () => values[0]!;
-  const h = new Float64Array(n - 1), delta = new Float64Array(n - 1), m = new Float64Array(n);
-  for (let i = 0; i < n - 1; i++) {
-    h[i] = times[i + 1]! - times[i]!;
-    delta[i] = (values[i + 1]! - values[i]!) / h[i]!;
-  }
-  m[0] = delta[0]!;
-  m[n - 1] = delta[n - 2]!;
-  for (let i = 1; i < n - 1; i++) {
-    const d0 = delta[i - 1]!, d1 = delta[i]!;
-    if (d0 * d1 <= 0) m[i] = 0;
-    else {
-      const w1 = 2 * h[i]! + h[i - 1]!, w2 = h[i]! + 2 * h[i - 1]!;
-      m[i] = (w1 + w2) / (w1 / d0 + w2 / d1);
-    }
-  }
-  let last = 0;
-  return (t: number) => {
-    if (t <= times[0]!) return values[0]!;
-    if (t >= times[n - 1]!) return values[n - 1]!;
-    let i = last;
-    if (!(times[i]! <= t && t < times[i + 1]!)) {
-      let lo = 0, hi = n - 1;
-      while (hi - lo > 1) {
-        const mid = (lo + hi) >> 1;
-        if (times[mid]! <= t) lo = mid;
-        else hi = mid;
-      }
-      i = lo;
-      last = i;
-    }
-    const hh = h[i]!, u = (t - times[i]!) / hh;
-    const u2 = u * u, u3 = u2 * u;
-    return (
-      (2 * u3 - 3 * u2 + 1) * values[i]! +
-      (u3 - 2 * u2 + u) * hh * m[i]! +
-      (-2 * u3 + 3 * u2) * values[i + 1]! +
-      (u3 - u2) * hh * m[i + 1]!
-    );
-  };
-}
-
-/**
- * The time-varying ratio that plays a recording along a speed curve.
- * - mode 'undo': the curve is a measured speed factor S(t) of the input; the output plays the input
- *   at 1/S(t), which brings every moment back to its recorded speed (ratio = rateRatio·S).
- * - mode 'play': the curve is the factor to apply (ratio = rateRatio / F).
- */
-export function ratioFromSpeedCurve(
-  curve: SpeedCurve,
-  opts: { inputRateHz: number; outputRateHz?: number; mode: 'undo' | 'play' },
-): TimeVaryingRatio {
-  const { inputRateHz } = opts;
-  const rate = (opts.outputRateHz ?? inputRateHz) / inputRateHz;
-  for (const f of curve.factors) {
-    if (!(f > 0) || !Number.isFinite(f)) throw new ParameterError(`speed curve factor ${f} must be positive`);
-  }
-  const f = smoothCurve(curve.timesSeconds, curve.factors);
-  const undo = opts.mode === 'undo';
-  const minF = Math.min(...curve.factors), maxF = Math.max(...curve.factors);
-  return {
-    ratioAt: (frame: number) => {
-      const v = f(frame / inputRateHz);
-      return undo ? rate * v : rate / v;
-    },
-    minRatio: undo ? rate * minF : rate / maxF,
-    maxRatio: undo ? rate * maxF : rate / minF,
-  };
 }
 
 /** Streams a source through a resampler: yields output blocks, then the flushed tail. */

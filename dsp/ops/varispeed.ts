@@ -8,14 +8,19 @@
  * of 1 at the same rate, or a factor equal to the rate change) the output is the input's samples.
  */
 import { NotFoundError, ParameterError } from '../errors.ts';
-import type { ResampleQuality, Resampler } from '../core/resample.ts';
+import type { Resampler } from '../core/resample.ts';
+import type { ResampleQuality } from '../core/resample-kernel.ts';
 import type { SpeedMethod } from '../speed/estimate.ts';
 import { num } from './params.ts';
 import { scaledSegments } from './timing.ts';
 import { defineCorrection, type ParamValues } from './types.ts';
 
 const algorithms = async () => {
-  const [{ ratioFromSpeedCurve, resampleSource, ratioForFactor }, { estimateSpeed }] = await Promise.all([import('../core/resample.ts'), import('../speed/estimate.ts')]);
+  const [{ resampleSource }, { ratioFromSpeedCurve, ratioForFactor }, { estimateSpeed }] = await Promise.all([
+    import('../core/resample.ts'),
+    import('../core/speed-curve.ts'),
+    import('../speed/estimate.ts'),
+  ]);
   return { ratioFromSpeedCurve, resampleSource, ratioForFactor, estimateSpeed };
 };
 

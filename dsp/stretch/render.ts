@@ -10,7 +10,8 @@
  * notice; reported as `fractionErrorCents`); otherwise the exact f is used. The output is trimmed or padded to
  * exactly the input's length (the two stages round to ±1 frame).
  */
-import { kernelDesign, Resampler, type ResampleQuality } from '../core/resample.ts';
+import { Resampler } from '../core/resample.ts';
+import { kernelDesign, type ResampleQuality } from '../core/resample-kernel.ts';
 import { ParameterError } from '../errors.ts';
 import type { AudioSource, Block } from '../source.ts';
 import { MAX_RATIO, MIN_RATIO, TimeStretcher, type TimeStretchOptions } from './phase-vocoder.ts';

@@ -6,7 +6,8 @@
  */
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
-import { Resampler, type ResampleQuality } from '../../dsp/core/resample.ts';
+import { Resampler } from '../../dsp/core/resample.ts';
+import type { ResampleQuality } from '../../dsp/core/resample-kernel.ts';
 
 function resampleAll(x: Float64Array, ratio: number, quality: ResampleQuality, reuse?: Resampler): Float64Array {
   const r = reuse ?? new Resampler({ channelCount: 1, ratio, quality });

@@ -1,5 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { Resampler, exactFraction, kernelDesign, ratioFromSpeedCurve, resampleSource, smoothCurve } from '../../dsp/core/resample.ts';
+import { Resampler, exactFraction, resampleSource } from '../../dsp/core/resample.ts';
+import { kernelDesign } from '../../dsp/core/resample-kernel.ts';
+import { ratioFromSpeedCurve, smoothCurve } from '../../dsp/core/speed-curve.ts';
 import { MemorySource, collectBlocks } from '../../dsp/source.ts';
 import { ParameterError } from '../../dsp/errors.ts';
 import { seededRng } from '../helpers/rng.ts';
