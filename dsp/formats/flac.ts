@@ -2,7 +2,9 @@
  * FLAC container facts, pure: the metadata blocks (STREAMINFO for rate, channels, bits, length and
  * MD5). The audio frames (header checks against STREAMINFO, CRC-8/CRC-16, the verifying frame
  * scanner) are in flac-frames.ts. Sample decoding itself goes through a maintained decoder package
- * on the Node side (main/io/flac.ts), fed only with verified frames.
+ * (main/io/flac.ts for the command line, renderer/src/lib/flac-source.ts in the editor), fed only
+ * with verified frames; its floats become exact sample values and MD5 bytes here
+ * (flacCodesToSamples, packFlacCodes), and a backwards read is reversedDecodedBlocks.
  *
  * Source: IETF RFC 9639, "Free Lossless Audio Codec (FLAC)" (2024): §8.1 metadata block header,
  * §8.2 STREAMINFO (bits per sample 4 to 32, channels 1 to 8, sample rate not 0).
@@ -170,5 +172,43 @@ export async function* reversedDecodedBlocks(
       const lo = Math.max(segStart, hi - size);
       yield parts.map((p) => p.slice(lo - segStart, hi - segStart).reverse());
     }
+  }
+}
+
+/**
+ * Decoded FLAC samples back to their exact values. The decoder returns float32 code/(2^(b−1) − 1);
+ * for b ≤ 24 bits rounding the product with 2^(b−1) − 1 recovers every integer code, which is
+ * stored as code/2^(b−1), the value the equivalent WAV reads as: dst[at + i] for src[from + i],
+ * i < count.
+ */
+export function flacCodesToSamples(src: Float32Array, from: number, count: number, dst: Float64Array | Float32Array, at: number, bitsPerSample: number): void {
+  const k = 2 ** (bitsPerSample - 1) - 1, s = 1 / 2 ** (bitsPerSample - 1);
+  for (let i = 0; i < count; i++) dst[at + i] = Math.round(src[from + i]! * k) * s;
+}
+
+/**
+ * The integer codes of decoded samples src[from … from + count) packed little-endian in ⌈b/8⌉
+ * bytes at out[at], out[at + step], … — the interleaved layout STREAMINFO's MD5 is computed over
+ * (RFC 9639 §8.2).
+ */
+export function packFlacCodes(src: Float32Array, from: number, count: number, out: Uint8Array, at: number, step: number, bitsPerSample: number): void {
+  const k = 2 ** (bitsPerSample - 1) - 1, bytes = Math.ceil(bitsPerSample / 8);
+  const e = from + count;
+  let j = at;
+  if (bytes === 2) {
+    for (let i = from; i < e; i++, j += step) {
+      const q = Math.round(src[i]! * k) | 0;
+      out[j] = q;
+      out[j + 1] = q >> 8;
+    }
+  } else if (bytes === 3) {
+    for (let i = from; i < e; i++, j += step) {
+      const q = Math.round(src[i]! * k) | 0;
+      out[j] = q;
+      out[j + 1] = q >> 8;
+      out[j + 2] = q >> 16;
+    }
+  } else {
+    for (let i = from; i < e; i++, j += step) out[j] = Math.round(src[i]! * k) | 0;
   }
 }

@@ -23,7 +23,7 @@ import { FLACDecoder } from '@wasm-audio-decoders/flac';
 import { InputError } from '../../dsp/errors.ts';
 import { clockTime, findFlacFrame, FlacFrameScanner, type FlacFrame } from '../../dsp/formats/flac-frames.ts';
 import type { AudioLayout, FlacStreamInfo } from '../../dsp/formats/types.ts';
-import { reversedDecodedBlocks } from '../../dsp/formats/flac.ts';
+import { flacCodesToSamples, packFlacCodes, reversedDecodedBlocks } from '../../dsp/formats/flac.ts';
 import { defaultBlockFrames, resolveRange, type Block, type BlockOptions } from '../../dsp/source.ts';
 import type { FileBytes } from './file-bytes.ts';
 import { fileInfoFor } from './info.ts';
@@ -71,12 +71,17 @@ class PcmMd5 {
   #scratch = new Uint8Array(0);
   /** The scratch as 16-bit words, for 16-bit samples on little-endian hosts (one store per sample). */
   #scratch16: Int16Array | null = null;
+  readonly bytes: number;
+  readonly codeScale: number;
+  readonly outScale: number;
   constructor(
     readonly channels: number,
-    readonly bytes: number,
-    readonly codeScale: number,
-    readonly outScale: number,
-  ) {}
+    readonly bitsPerSample: number,
+  ) {
+    this.bytes = Math.ceil(bitsPerSample / 8);
+    this.codeScale = 2 ** (bitsPerSample - 1) - 1;
+    this.outScale = 1 / 2 ** (bitsPerSample - 1);
+  }
 
   /** Makes room for `count` frames; then pack()/convertAndPack() each channel, then end(count). */
   begin(count: number): void {
@@ -130,21 +135,8 @@ class PcmMd5 {
           out[j] = q;
         }
       }
-    } else if (bytes === 2) {
-      for (let i = from; i < e; i++, j += step) {
-        const q = Math.round(src[i]! * k) | 0;
-        out[j] = q;
-        out[j + 1] = q >> 8;
-      }
-    } else if (bytes === 3) {
-      for (let i = from; i < e; i++, j += step) {
-        const q = Math.round(src[i]! * k) | 0;
-        out[j] = q;
-        out[j + 1] = q >> 8;
-        out[j + 2] = q >> 16;
-      }
     } else {
-      for (let i = from; i < e; i++, j += step) out[j] = Math.round(src[i]! * k) | 0;
+      packFlacCodes(src, from, count, out, j, step, this.bitsPerSample);
     }
   }
 
@@ -186,9 +178,6 @@ class FlacFileAudio implements OpenedAudio {
   readonly codingHistory = '';
   readonly nonFiniteSamples = 0;
   private readonly si: FlacStreamInfo;
-  /** Integer code = round(decoded float × codeScale). */
-  private readonly codeScale: number;
-  private readonly outScale: number;
   /** MD5 of the decoded audio, once a whole pass has computed (and checked) it. */
   private md5: string | undefined;
 
@@ -203,13 +192,11 @@ class FlacFileAudio implements OpenedAudio {
     this.frames = layout.frames;
     this.bitsPerSample = layout.bitsPerSample;
     this.chunks = layout.chunks;
-    this.codeScale = Math.pow(2, this.bitsPerSample - 1) - 1;
-    this.outScale = 1 / Math.pow(2, this.bitsPerSample - 1);
     this.info = fileInfoFor(file.path, layout, layout.frames);
   }
 
   private newMd5(): PcmMd5 {
-    return new PcmMd5(this.channelCount, Math.ceil(this.bitsPerSample / 8), this.codeScale, this.outScale);
+    return new PcmMd5(this.channelCount, this.bitsPerSample);
   }
 
   /** Records the MD5 of a whole pass, refusing the file when it differs from STREAMINFO's. */
@@ -326,12 +313,6 @@ class FlacFileAudio implements OpenedAudio {
     return best;
   }
 
-  /** Converts decoded floats to exact code/2^(b−1) values. */
-  private convert(src: Float32Array, from: number, count: number, dst: Float64Array, at: number): void {
-    const k = this.codeScale, s = this.outScale;
-    for (let i = 0; i < count; i++) dst[at + i] = Math.round(src[from + i]! * k) * s;
-  }
-
   async *blocks(options: BlockOptions = {}): AsyncIterable<Block> {
     const [start, end] = resolveRange(this, options);
     const size = Math.max(1, Math.floor(options.blockFrames ?? defaultBlockFrames(this.channelCount)));
@@ -341,7 +322,7 @@ class FlacFileAudio implements OpenedAudio {
       yield* this.forward(start, end, size);
       return;
     }
-    yield* reversedDecodedBlocks((lo, hi) => this.decodeRangeIter(lo, hi), (src, from, count, dst, at) => this.convert(src, from, count, dst, at), channels, start, end, size);
+    yield* reversedDecodedBlocks((lo, hi) => this.decodeRangeIter(lo, hi), (src, from, count, dst, at) => flacCodesToSamples(src, from, count, dst, at, this.bitsPerSample), channels, start, end, size);
   }
 
   /** Forward blocks; a pass over the whole stream also checks (and remembers) the MD5. */
@@ -359,7 +340,7 @@ class FlacFileAudio implements OpenedAudio {
       while (done < count) {
         const take = Math.min(count - done, block[0]!.length - fill);
         if (md5) for (let c = 0; c < channels; c++) md5.convertAndPack(ch[c]!, from + done, take, c, done, block[c]!, fill);
-        else for (let c = 0; c < channels; c++) this.convert(ch[c]!, from + done, take, block[c]!, fill);
+        else for (let c = 0; c < channels; c++) flacCodesToSamples(ch[c]!, from + done, take, block[c]!, fill, this.bitsPerSample);
         fill += take;
         done += take;
         if (fill === block[0]!.length) {

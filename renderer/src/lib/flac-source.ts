@@ -12,7 +12,7 @@ import { FLACDecoder } from '@wasm-audio-decoders/flac';
 import { InputError } from '../../../dsp/errors.ts';
 import { clockTime, findFlacFrame, FlacFrameScanner, type FlacFrame } from '../../../dsp/formats/flac-frames.ts';
 import type { AudioLayout, FlacStreamInfo } from '../../../dsp/formats/types.ts';
-import { reversedDecodedBlocks } from '../../../dsp/formats/flac.ts';
+import { flacCodesToSamples, packFlacCodes, reversedDecodedBlocks } from '../../../dsp/formats/flac.ts';
 import { defaultBlockFrames, resolveRange, type AudioSource, type Block, type BlockOptions } from '../../../dsp/source.ts';
 import { Md5 } from './md5.ts';
 
@@ -30,8 +30,6 @@ export class FlacSource implements AudioSource {
   readonly bitsPerSample: number;
   readonly sampleFormat = 'int' as const;
   readonly #si: FlacStreamInfo;
-  readonly #codeScale: number;
-  readonly #outScale: number;
   #md5: string | undefined;
   #decoder: FLACDecoder | null = null;
 
@@ -41,8 +39,6 @@ export class FlacSource implements AudioSource {
     this.channelCount = layout.channels;
     this.frames = layout.frames;
     this.bitsPerSample = layout.bitsPerSample;
-    this.#codeScale = 2 ** (this.bitsPerSample - 1) - 1;
-    this.#outScale = 1 / 2 ** (this.bitsPerSample - 1);
   }
 
   static async open(read: ReadBytes, layout: AudioLayout, fileSize: number, name: string): Promise<FlacSource> {
@@ -131,18 +127,13 @@ export class FlacSource implements AudioSource {
     if (reached < end) throw new InputError(`truncated: the FLAC stream ends after ${reached} of ${this.frames} samples`, this.name, this.fileSize);
   }
 
-  #convert(src: Float32Array, from: number, count: number, dst: Float64Array | Float32Array, at: number): void {
-    const k = this.#codeScale, s = this.#outScale;
-    for (let i = 0; i < count; i++) dst[at + i] = Math.round(src[from + i]! * k) * s;
-  }
-
   async *blocks(options: BlockOptions = {}): AsyncIterable<Block> {
     const [start, end] = resolveRange(this, options);
     const size = Math.max(1, Math.floor(options.blockFrames ?? defaultBlockFrames(this.channelCount)));
     if (end <= start) return;
     const n = this.channelCount;
     if (options.reverse) {
-      yield* reversedDecodedBlocks((lo, hi) => this.#range(lo, hi), (src, from, count, dst, at) => this.#convert(src, from, count, dst, at), n, start, end, size);
+      yield* reversedDecodedBlocks((lo, hi) => this.#range(lo, hi), (src, from, count, dst, at) => flacCodesToSamples(src, from, count, dst, at, this.bitsPerSample), n, start, end, size);
       return;
     }
     let blockStart = start, fill = 0;
@@ -152,7 +143,7 @@ export class FlacSource implements AudioSource {
       let done = 0;
       while (done < count) {
         const take = Math.min(count - done, block[0]!.length - fill);
-        for (let c = 0; c < n; c++) this.#convert(ch[c]!, from + done, take, block[c]!, fill);
+        for (let c = 0; c < n; c++) flacCodesToSamples(ch[c]!, from + done, take, block[c]!, fill, this.bitsPerSample);
         fill += take;
         done += take;
         if (fill === block[0]!.length) {
@@ -174,7 +165,7 @@ export class FlacSource implements AudioSource {
     let buf: Float32Array[] = [];
     for await (const { ch, from, count } of this.#range(start, end)) {
       if (buf.length === 0 || buf[0]!.length < count) buf = Array.from({ length: this.channelCount }, () => new Float32Array(count));
-      for (let c = 0; c < this.channelCount; c++) this.#convert(ch[c]!, from, count, buf[c]!, 0);
+      for (let c = 0; c < this.channelCount; c++) flacCodesToSamples(ch[c]!, from, count, buf[c]!, 0, this.bitsPerSample);
       yield buf.map((b) => b.subarray(0, count));
     }
   }
@@ -189,17 +180,7 @@ export class FlacSource implements AudioSource {
     for await (const { ch, from, count } of this.#range(0, this.frames)) {
       if (signal?.aborted) throw new InputError('cancelled', this.name);
       if (scratch.length < count * n * bytes) scratch = new Uint8Array(count * n * bytes);
-      const k = this.#codeScale;
-      for (let c = 0; c < n; c++) {
-        const src = ch[c]!;
-        let j = c * bytes;
-        for (let i = from; i < from + count; i++, j += n * bytes) {
-          const q = Math.round(src[i]! * k) | 0;
-          scratch[j] = q;
-          if (bytes > 1) scratch[j + 1] = q >> 8;
-          if (bytes > 2) scratch[j + 2] = q >> 16;
-        }
-      }
+      for (let c = 0; c < n; c++) packFlacCodes(ch[c]!, from, count, scratch, c * bytes, n * bytes, this.bitsPerSample);
       md5.update(scratch.subarray(0, count * n * bytes));
       done += count;
       progress?.(done / this.frames);
