@@ -1,7 +1,8 @@
 /**
  * WebAssembly SIMD (f64x2) versions of the FFT kernels in fft.ts, assembled at load time from the
- * instruction lists below (no build step, no binary blobs). One complex number fills one v128
- * lane pair (re, im), so a complex add is one instruction and a complex multiply four
+ * instruction lists below by ./wasm-assembler.ts (no build step, no binary blobs). One complex
+ * number fills one v128 lane pair (re, im), so a complex add is one instruction and a complex
+ * multiply four
  * (x·[wr, wr] + swap(x)·[−wi, wi]).
  *
  * The kernels evaluate exactly the same floating-point expressions in the same order as the
@@ -16,7 +17,7 @@
  * Where WebAssembly or its SIMD extension is missing (or compiling throws, as Chromium does for
  * synchronous compiles on its main thread), `wasmFft()` returns null and fft.ts uses its own kernels.
  */
-import { F64, I32, name, section, sleb, uleb, V128, vec } from './wasm-encoding.ts';
+import { assemble, F64, Fn, I32, V128 } from './wasm-assembler.ts';
 
 // ---------------------------------------------------------------------------------------------
 // Minimal typings: dsp/ compiles against lib ES2022 only, which does not declare WebAssembly.
@@ -46,128 +47,6 @@ interface Kernels {
   scale(p: number, count: number, factor: number): void;
   /** acc[i] += t[i]·w[i], i < n (n even). */
   overlapAdd(acc: number, t: number, w: number, n: number): void;
-}
-
-// ---------------------------------------------------------------------------------------------
-// A small WebAssembly assembler: just the instructions the kernels use.
-
-function f64Bytes(v: number): number[] {
-  const b = new Uint8Array(new Float64Array([v]).buffer);
-  return Array.from(b);
-}
-
-/** Byte order on this machine is little-endian for both typed arrays and wasm on every target V8 runs on. */
-function v128F64(a: number, b: number): number[] {
-  return [...f64Bytes(a), ...f64Bytes(b)];
-}
-
-/** Swaps the two f64 lanes: bytes 8…15 then 0…7. */
-const SWAP = [8, 9, 10, 11, 12, 13, 14, 15, 0, 1, 2, 3, 4, 5, 6, 7];
-
-class Fn {
-  readonly code: number[] = [];
-  readonly #locals: number[] = [];
-  readonly params: number[];
-  readonly results: number[];
-
-  constructor(params: number[], results: number[] = []) {
-    this.params = params;
-    this.results = results;
-  }
-
-  local(type: number): number {
-    this.#locals.push(type);
-    return this.params.length + this.#locals.length - 1;
-  }
-
-  #emit(...bytes: number[]): this {
-    for (const b of bytes) this.code.push(b);
-    return this;
-  }
-
-  get = (i: number) => this.#emit(0x20, ...uleb(i));
-  set = (i: number) => this.#emit(0x21, ...uleb(i));
-  tee = (i: number) => this.#emit(0x22, ...uleb(i));
-  i32 = (v: number) => this.#emit(0x41, ...sleb(v));
-  f64 = (v: number) => this.#emit(0x44, ...f64Bytes(v));
-  add = () => this.#emit(0x6a); // i32.add
-  sub = () => this.#emit(0x6b); // i32.sub
-  mul = () => this.#emit(0x6c); // i32.mul
-  and = () => this.#emit(0x71); // i32.and
-  ltU = () => this.#emit(0x49);
-  leU = () => this.#emit(0x4d);
-  ne = () => this.#emit(0x47);
-  eq = () => this.#emit(0x46);
-  eqz = () => this.#emit(0x45);
-  loadI32 = (offset = 0) => this.#emit(0x28, 2, ...uleb(offset));
-  loadF64 = (offset = 0) => this.#emit(0x2b, 3, ...uleb(offset));
-  storeF64 = (offset = 0) => this.#emit(0x39, 3, ...uleb(offset));
-  fadd = () => this.#emit(0xa0); // f64.add
-  fsub = () => this.#emit(0xa1); // f64.sub
-  #simd = (op: number, ...imm: number[]) => this.#emit(0xfd, ...uleb(op), ...imm);
-  load = (offset = 0) => this.#simd(0x00, 3, ...uleb(offset)); // v128.load (align 8)
-  store = (offset = 0) => this.#simd(0x0b, 3, ...uleb(offset)); // v128.store
-  vconst = (a: number, b: number) => this.#simd(0x0c, ...v128F64(a, b));
-  swap = () => this.#simd(0x0d, ...SWAP); // i8x16.shuffle: push the same vector twice before it
-  splat = () => this.#simd(0x14); // f64x2.splat
-  vadd = () => this.#simd(0xf0); // f64x2.add
-  vsub = () => this.#simd(0xf1); // f64x2.sub
-  vmul = () => this.#simd(0xf2); // f64x2.mul
-  xor = () => this.#simd(0x51); // v128.xor
-
-  /** `if (cond) then` — cond must be on the stack. */
-  if(then: () => void): this {
-    this.#emit(0x04, 0x40);
-    then();
-    return this.#emit(0x0b);
-  }
-
-  /** `if (cond) then else otherwise`. */
-  ifElse(then: () => void, otherwise: () => void): this {
-    this.#emit(0x04, 0x40);
-    then();
-    this.#emit(0x05);
-    otherwise();
-    return this.#emit(0x0b);
-  }
-
-  /** `while (cond()) body()`. */
-  while(cond: () => void, body: () => void): this {
-    this.#emit(0x02, 0x40, 0x03, 0x40);
-    cond();
-    this.#emit(0x45, 0x0d, 1); // i32.eqz; br_if 1 (leave the block)
-    body();
-    return this.#emit(0x0c, 0, 0x0b, 0x0b); // br 0 (loop); end; end
-  }
-
-  /** The function body as the code section stores it: size, local declarations, code, end. */
-  encode(): number[] {
-    const groups: number[] = [];
-    let runs = 0;
-    for (let i = 0; i < this.#locals.length; ) {
-      let j = i;
-      while (j < this.#locals.length && this.#locals[j] === this.#locals[i]) j++;
-      groups.push(...uleb(j - i), this.#locals[i]!);
-      runs++;
-      i = j;
-    }
-    const body = [...uleb(runs), ...groups, ...this.code, 0x0b];
-    return [...uleb(body.length), ...body];
-  }
-}
-
-/** Assembles a module from named functions; exports them and its memory ("memory"). */
-function assemble(fns: [string, Fn][], initialPages: number): Uint8Array {
-  const types = fns.map(([, f]) => [0x60, ...vec(f.params.map((p) => [p])), ...vec(f.results.map((r) => [r]))]);
-  const bytes = [
-    0x00, 0x61, 0x73, 0x6d, 0x01, 0x00, 0x00, 0x00,
-    ...section(1, vec(types)),
-    ...section(3, vec(fns.map((_, i) => uleb(i)))),
-    ...section(5, vec([[0x00, ...uleb(initialPages)]])),
-    ...section(7, vec([[...name('memory'), 0x02, 0x00], ...fns.map(([n], i) => [...name(n), 0x00, ...uleb(i)])])),
-    ...section(10, vec(fns.map(([, f]) => f.encode()))),
-  ];
-  return new Uint8Array(bytes);
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -450,7 +329,7 @@ export function fftModuleBytes(): Uint8Array {
       ['scale', scaleFunction()],
       ['overlapAdd', overlapAddFunction()],
     ],
-    1,
+    { export: 'memory', initialPages: 1 },
   );
 }
 

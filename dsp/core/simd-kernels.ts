@@ -9,14 +9,15 @@
  *                               last sample of an odd run is left to the caller), in place; the echo
  *                               canceller's inner loop over a run of mutually independent outputs
  * Pointers are byte offsets into an imported memory, n (taps) is even. The module is assembled here
- * from its bytes (WebAssembly binary format 1.0 with the fixed-width SIMD proposal, standard since
- * 2021 and available in Node ≥ 16 and current browsers), so nothing is fetched or built.
+ * from its instructions by ./wasm-assembler.ts (WebAssembly binary format 1.0 with the fixed-width
+ * SIMD proposal, standard since 2021 and available in Node ≥ 16 and current browsers), so nothing
+ * is fetched or built.
  *
  * WebAssembly is part of the JavaScript engine (not Node or the DOM); it is reached through
  * globalThis with a minimal local type so dsp/ still compiles with lib ES2022 only. When it is
  * missing or rejects SIMD, `createSimdKernels` returns null and callers use their plain loops.
  */
-import { F64, I32, name, section, sleb, uleb, V128, vec } from './wasm-encoding.ts';
+import { assemble, F64, Fn, I32, V128 } from './wasm-assembler.ts';
 
 interface WasmMemory {
   readonly buffer: ArrayBuffer;
@@ -37,174 +38,201 @@ export interface SimdKernels {
   echoRun(taps: number, hist: number, x: number, nt: number, run: number): void;
 }
 
-// --- a tiny assembler -------------------------------------------------------------------------
-// Instructions
-const get = (i: number) => [0x20, ...uleb(i)];
-const set = (i: number) => [0x21, ...uleb(i)];
-const i32c = (v: number) => [0x41, ...sleb(v)];
-const I32_ADD = [0x6a], I32_SHL = [0x74], I32_GT_U = [0x4b], I32_LT_U = [0x49];
-const F64_ADD = [0xa0];
-const f64c0 = [0x44, 0, 0, 0, 0, 0, 0, 0, 0];
-const simd = (op: number, ...imm: number[]) => [0xfd, ...uleb(op), ...imm];
-const mem = (align: number, offset: number) => [...uleb(align), ...uleb(offset)];
-const v128load = (offset: number) => simd(0x00, ...mem(3, offset));
-const v128store = (offset: number) => simd(0x0b, ...mem(3, offset));
-const f64store = (offset: number) => [0x39, ...mem(3, offset)];
-const F64X2_SPLAT = simd(0x14), F64X2_ADD = simd(0xf0), F64X2_SUB = simd(0xf1), F64X2_MUL = simd(0xf2);
-const f64load = (offset: number) => [0x2b, ...mem(3, offset)];
-const I32_GE_U = [0x4f];
-const lane = (l: number) => simd(0x21, l);
-const BLOCK = [0x02, 0x40], LOOP = [0x03, 0x40], END = [0x0b], IF = [0x04, 0x40];
-const brIf = (d: number) => [0x0d, ...uleb(d)];
-const br = (d: number) => [0x0c, ...uleb(d)];
-const body = (locals: [number, number][], code: number[][]) => {
-  const b = [...vec(locals.map(([n, t]) => [...uleb(n), t])), ...code.flat(), ...END];
-  return [...uleb(b.length), ...b];
-};
-/** v ← v + a·b (all v128 locals given as indices; a, b as instruction lists). */
-const mulAdd = (acc: number, a: number[], b: number[]) => [...get(acc), ...a, ...b, ...F64X2_MUL, ...F64X2_ADD, ...set(acc)];
+/** acc ← acc + a·b (acc a v128 local; a, b push their operands). */
+function mulAdd(f: Fn, acc: number, a: () => void, b: () => void): void {
+  f.get(acc);
+  a();
+  b();
+  f.vmul().vadd().set(acc);
+}
 /** Horizontal sum of a v128 local onto the f64 stack. */
-const hsum = (v: number) => [...get(v), ...lane(0), ...get(v), ...lane(1), ...F64_ADD];
+const hsum = (f: Fn, v: number) => f.get(v).lane(0).get(v).lane(1).fadd();
+/** v ← [0, 0]. */
+const zero = (f: Fn, v: number) => f.f64(0).splat().set(v);
 
-function moduleBytes(): Uint8Array {
-  // Types: 0 dot1(i32 i32 i32 i32), 1 dot2(i32 i32 i32 i32 i32), 2 farrow(i32 f64 i32 i32),
-  // 3 farrowDot2(i32 f64 i32 i32 i32 i32), 4 echoRun(i32 i32 i32 i32 i32) (same shape as dot2)
-  const types = vec([
-    [0x60, ...vec([[I32], [I32], [I32], [I32]]), ...vec([])],
-    [0x60, ...vec([[I32], [I32], [I32], [I32], [I32]]), ...vec([])],
-    [0x60, ...vec([[I32], [F64], [I32], [I32]]), ...vec([])],
-    [0x60, ...vec([[I32], [F64], [I32], [I32], [I32], [I32]]), ...vec([])],
-  ]);
-  const imports = vec([[...name('env'), ...name('mem'), 0x02, 0x00, ...uleb(1)]]);
-  const funcs = vec([[0], [1], [2], [3], [1]]);
-  const exports = vec([
-    [...name('dot1'), 0x00, ...uleb(0)],
-    [...name('dot2'), 0x00, ...uleb(1)],
-    [...name('farrow'), 0x00, ...uleb(2)],
-    [...name('farrowDot2'), 0x00, ...uleb(3)],
-    [...name('echoRun'), 0x00, ...uleb(4)],
-  ]);
+/** dot1(h, x, n, out): two accumulators over four doubles per step, then one pair. */
+function dot1Function(): Fn {
+  const f = new Fn([I32, I32, I32, I32]);
+  const h = 0, x = 1, n = 2, out = 3;
+  const i = f.local(I32), end = f.local(I32), a = f.local(V128), b = f.local(V128);
+  const at = (p: number, off: number) => () => f.get(p).get(i).add().load(off);
+  f.get(n).i32(3).shl().set(end); // end = n·8
+  zero(f, a);
+  zero(f, b);
+  f.until(
+    () => f.get(i).i32(32).add().get(end).gtU(), // while i + 32 ≤ end
+    () => {
+      mulAdd(f, a, at(h, 0), at(x, 0));
+      mulAdd(f, b, at(h, 16), at(x, 16));
+      f.get(i).i32(32).add().set(i);
+    },
+  );
+  f.get(i).get(end).ltU().if(() => mulAdd(f, a, at(h, 0), at(x, 0))); // one pair left
+  f.get(a).get(b).vadd().set(a);
+  f.get(out);
+  hsum(f, a).storeF64(0);
+  return f;
+}
 
-  // dot1: params h=0 x=1 n=2 out=3; locals i=4 (i32) end=5 (i32) a=6 b=7 (v128)
-  const dot1 = body([[2, I32], [2, V128]], [
-    get(2), i32c(3), I32_SHL, set(5), // end = n·8
-    f64c0, F64X2_SPLAT, set(6), f64c0, F64X2_SPLAT, set(7),
-    BLOCK, LOOP,
-    get(4), i32c(32), I32_ADD, get(5), I32_GT_U, brIf(1), // while i + 32 ≤ end
-    mulAdd(6, [...get(0), ...get(4), ...I32_ADD, ...v128load(0)], [...get(1), ...get(4), ...I32_ADD, ...v128load(0)]),
-    mulAdd(7, [...get(0), ...get(4), ...I32_ADD, ...v128load(16)], [...get(1), ...get(4), ...I32_ADD, ...v128load(16)]),
-    get(4), i32c(32), I32_ADD, set(4),
-    br(0), END, END,
-    get(4), get(5), I32_LT_U, IF, // one pair left
-    mulAdd(6, [...get(0), ...get(4), ...I32_ADD, ...v128load(0)], [...get(1), ...get(4), ...I32_ADD, ...v128load(0)]),
-    END,
-    get(6), get(7), F64X2_ADD, set(6),
-    get(3), hsum(6), f64store(0),
-  ]);
+/** dot2(h, x0, x1, n, out): dot1 on two signals, each coefficient pair loaded once. */
+function dot2Function(): Fn {
+  const f = new Fn([I32, I32, I32, I32, I32]);
+  const h = 0, x0 = 1, x1 = 2, n = 3, out = 4;
+  const i = f.local(I32), end = f.local(I32);
+  const a0 = f.local(V128), b0 = f.local(V128), a1 = f.local(V128), b1 = f.local(V128), h01 = f.local(V128), h23 = f.local(V128);
+  const hAt = (off: number) => f.get(h).get(i).add().load(off);
+  const xAt = (p: number, off: number) => () => f.get(p).get(i).add().load(off);
+  const use = (v: number) => () => f.get(v);
+  f.get(n).i32(3).shl().set(end);
+  zero(f, a0);
+  zero(f, b0);
+  zero(f, a1);
+  zero(f, b1);
+  f.until(
+    () => f.get(i).i32(32).add().get(end).gtU(),
+    () => {
+      hAt(0).set(h01);
+      hAt(16).set(h23);
+      mulAdd(f, a0, use(h01), xAt(x0, 0));
+      mulAdd(f, b0, use(h23), xAt(x0, 16));
+      mulAdd(f, a1, use(h01), xAt(x1, 0));
+      mulAdd(f, b1, use(h23), xAt(x1, 16));
+      f.get(i).i32(32).add().set(i);
+    },
+  );
+  f.get(i).get(end).ltU().if(() => {
+    hAt(0).set(h01);
+    mulAdd(f, a0, use(h01), xAt(x0, 0));
+    mulAdd(f, a1, use(h01), xAt(x1, 0));
+  });
+  f.get(a0).get(b0).vadd().set(a0);
+  f.get(a1).get(b1).vadd().set(a1);
+  f.get(out);
+  hsum(f, a0).storeF64(0);
+  f.get(out);
+  hsum(f, a1).storeF64(8);
+  return f;
+}
 
-  // dot2: params h=0 x0=1 x1=2 n=3 out=4; locals i=5 end=6 (i32); a0=7 b0=8 a1=9 b1=10 h01=11 h23=12 (v128)
-  const hAt = (off: number) => [...get(0), ...get(5), ...I32_ADD, ...v128load(off)];
-  const xAt = (p: number, off: number) => [...get(p), ...get(5), ...I32_ADD, ...v128load(off)];
-  const dot2 = body([[2, I32], [6, V128]], [
-    get(3), i32c(3), I32_SHL, set(6),
-    f64c0, F64X2_SPLAT, set(7), f64c0, F64X2_SPLAT, set(8), f64c0, F64X2_SPLAT, set(9), f64c0, F64X2_SPLAT, set(10),
-    BLOCK, LOOP,
-    get(5), i32c(32), I32_ADD, get(6), I32_GT_U, brIf(1),
-    hAt(0), set(11), hAt(16), set(12),
-    mulAdd(7, get(11), xAt(1, 0)),
-    mulAdd(8, get(12), xAt(1, 16)),
-    mulAdd(9, get(11), xAt(2, 0)),
-    mulAdd(10, get(12), xAt(2, 16)),
-    get(5), i32c(32), I32_ADD, set(5),
-    br(0), END, END,
-    get(5), get(6), I32_LT_U, IF,
-    hAt(0), set(11),
-    mulAdd(7, get(11), xAt(1, 0)),
-    mulAdd(9, get(11), xAt(2, 0)),
-    END,
-    get(7), get(8), F64X2_ADD, set(7),
-    get(9), get(10), F64X2_ADD, set(9),
-    get(4), hsum(7), f64store(0),
-    get(4), hsum(9), f64store(8),
-  ]);
+/** farrow(tab, mu, n, out): Horner in μ per pair of taps (64 bytes of table per pair). */
+function farrowFunction(): Fn {
+  const f = new Fn([I32, F64, I32, I32]);
+  const tab = 0, mu = 1, n = 2, out = 3;
+  const i = f.local(I32), o = f.local(I32), end = f.local(I32), m = f.local(V128), v = f.local(V128);
+  const tabAt = (off: number) => f.get(tab).get(i).add().load(off);
+  const horner = (off: number) => {
+    f.get(v).get(m).vmul();
+    tabAt(off).vadd().set(v);
+  };
+  f.get(n).i32(5).shl().set(end); // end = n·32 bytes of table
+  f.get(mu).splat().set(m);
+  f.while(
+    () => f.get(i).get(end).ltU(),
+    () => {
+      tabAt(48).set(v);
+      horner(32);
+      horner(16);
+      horner(0);
+      f.get(out).get(o).add().get(v).store(0);
+      f.get(i).i32(64).add().set(i);
+      f.get(o).i32(16).add().set(o);
+    },
+  );
+  return f;
+}
 
-  // farrow: params tab=0 mu=1 (f64) n=2 out=3; locals i=4 (table byte offset) o=5 (out byte offset) end=6; m=7 v=8 (v128)
-  const tabAt = (off: number) => [...get(0), ...get(4), ...I32_ADD, ...v128load(off)];
-  const horner = (off: number) => [...get(8), ...get(7), ...F64X2_MUL, ...tabAt(off), ...F64X2_ADD, ...set(8)];
-  const farrow = body([[3, I32], [2, V128]], [
-    get(2), i32c(5), I32_SHL, set(6), // end = n·32 bytes of table (64 bytes per pair)
-    get(1), F64X2_SPLAT, set(7),
-    BLOCK, LOOP,
-    get(4), get(6), I32_LT_U, [0x45], brIf(1), // while i < end
-    tabAt(48), set(8),
-    horner(32), horner(16), horner(0),
-    get(3), get(5), I32_ADD, get(8), v128store(0),
-    get(4), i32c(64), I32_ADD, set(4),
-    get(5), i32c(16), I32_ADD, set(5),
-    br(0), END, END,
-  ]);
-  // farrowDot2: params tab=0 mu=1 x0=2 x1=3 n=4 out=5; locals i=6 (table bytes) j=7 (sample bytes)
-  // end=8 (i32); m=9 v=10 a0=11 a1=12 (v128)
-  const tab2 = (off: number) => [...get(0), ...get(6), ...I32_ADD, ...v128load(off)];
-  const horner2 = (off: number) => [...get(10), ...get(9), ...F64X2_MUL, ...tab2(off), ...F64X2_ADD, ...set(10)];
-  const xj = (p: number) => [...get(p), ...get(7), ...I32_ADD, ...v128load(0)];
-  const farrowDot2 = body([[3, I32], [4, V128]], [
-    get(4), i32c(5), I32_SHL, set(8),
-    get(1), F64X2_SPLAT, set(9),
-    f64c0, F64X2_SPLAT, set(11), f64c0, F64X2_SPLAT, set(12),
-    BLOCK, LOOP,
-    get(6), get(8), I32_LT_U, [0x45], brIf(1),
-    tab2(48), set(10),
-    horner2(32), horner2(16), horner2(0),
-    mulAdd(11, get(10), xj(2)),
-    mulAdd(12, get(10), xj(3)),
-    get(6), i32c(64), I32_ADD, set(6),
-    get(7), i32c(16), I32_ADD, set(7),
-    br(0), END, END,
-    get(5), hsum(11), f64store(0),
-    get(5), hsum(12), f64store(8),
-  ]);
-  // echoRun: params taps=0 hist=1 x=2 nt=3 run=4; locals k=5 (bytes) j=6 (bytes) end=7 tEnd=8
-  // hk=9 (i32); a0=10 a1=11 t=12 (v128). Four outputs per outer step (two accumulators share each
-  // tap), then one pair.
-  const tapLoop = (accs: number[]) => [
-    ...i32c(0), ...set(6),
-    ...BLOCK, ...LOOP,
-    ...get(6), ...get(8), ...I32_GE_U, ...brIf(1),
-    ...get(0), ...get(6), ...I32_ADD, ...f64load(0), ...F64X2_SPLAT, ...set(12),
-    ...accs.flatMap((a, i) => [...get(a), ...get(12), ...get(9), ...get(6), ...I32_ADD, ...v128load(16 * i), ...F64X2_MUL, ...F64X2_SUB, ...set(a)]),
-    ...get(6), ...i32c(8), ...I32_ADD, ...set(6),
-    ...br(0), ...END, ...END,
-  ];
-  const xk = (off: number) => [...get(2), ...get(5), ...I32_ADD, ...v128load(off)];
-  const echoRun = body([[5, I32], [3, V128]], [
-    get(4), i32c(3), I32_SHL, set(7),
-    get(3), i32c(3), I32_SHL, set(8),
-    BLOCK, LOOP,
-    get(5), i32c(32), I32_ADD, get(7), I32_GT_U, brIf(1), // while k + 4 outputs ≤ run
-    xk(0), set(10), xk(16), set(11),
-    get(1), get(5), I32_ADD, set(9),
-    tapLoop([10, 11]),
-    get(2), get(5), I32_ADD, get(10), v128store(0),
-    get(2), get(5), I32_ADD, get(11), v128store(16),
-    get(5), i32c(32), I32_ADD, set(5),
-    br(0), END, END,
-    get(5), i32c(16), I32_ADD, get(7), [0x4d], IF, // k + 2 ≤ run (i32.le_u)
-    xk(0), set(10),
-    get(1), get(5), I32_ADD, set(9),
-    tapLoop([10]),
-    get(2), get(5), I32_ADD, get(10), v128store(0),
-    END,
-  ]);
-  const code = [...uleb(5), ...dot1, ...dot2, ...farrow, ...farrowDot2, ...echoRun];
-  return new Uint8Array([
-    0x00, 0x61, 0x73, 0x6d, 0x01, 0x00, 0x00, 0x00,
-    ...section(1, types),
-    ...section(2, imports),
-    ...section(3, funcs),
-    ...section(7, exports),
-    ...section(10, code),
-  ]);
+/** farrowDot2(tab, mu, x0, x1, n, out): farrow's coefficients used at once, never stored. */
+function farrowDot2Function(): Fn {
+  const f = new Fn([I32, F64, I32, I32, I32, I32]);
+  const tab = 0, mu = 1, x0 = 2, x1 = 3, n = 4, out = 5;
+  const i = f.local(I32), j = f.local(I32), end = f.local(I32); // table bytes, sample bytes
+  const m = f.local(V128), v = f.local(V128), a0 = f.local(V128), a1 = f.local(V128);
+  const tabAt = (off: number) => f.get(tab).get(i).add().load(off);
+  const horner = (off: number) => {
+    f.get(v).get(m).vmul();
+    tabAt(off).vadd().set(v);
+  };
+  const xj = (p: number) => () => f.get(p).get(j).add().load(0);
+  f.get(n).i32(5).shl().set(end);
+  f.get(mu).splat().set(m);
+  zero(f, a0);
+  zero(f, a1);
+  f.while(
+    () => f.get(i).get(end).ltU(),
+    () => {
+      tabAt(48).set(v);
+      horner(32);
+      horner(16);
+      horner(0);
+      mulAdd(f, a0, () => f.get(v), xj(x0));
+      mulAdd(f, a1, () => f.get(v), xj(x1));
+      f.get(i).i32(64).add().set(i);
+      f.get(j).i32(16).add().set(j);
+    },
+  );
+  f.get(out);
+  hsum(f, a0).storeF64(0);
+  f.get(out);
+  hsum(f, a1).storeF64(8);
+  return f;
+}
+
+/**
+ * echoRun(taps, hist, x, nt, run): four outputs per outer step (two accumulators share each tap),
+ * then one pair.
+ */
+function echoRunFunction(): Fn {
+  const f = new Fn([I32, I32, I32, I32, I32]);
+  const taps = 0, hist = 1, x = 2, nt = 3, run = 4;
+  const k = f.local(I32), j = f.local(I32), end = f.local(I32), tEnd = f.local(I32), hk = f.local(I32); // bytes
+  const a0 = f.local(V128), a1 = f.local(V128), t = f.local(V128);
+  const tapLoop = (accs: number[]) => {
+    f.i32(0).set(j);
+    f.until(
+      () => f.get(j).get(tEnd).geU(),
+      () => {
+        f.get(taps).get(j).add().loadF64(0).splat().set(t);
+        accs.forEach((acc, l) => f.get(acc).get(t).get(hk).get(j).add().load(16 * l).vmul().vsub().set(acc));
+        f.get(j).i32(8).add().set(j);
+      },
+    );
+  };
+  const xk = (off: number) => f.get(x).get(k).add().load(off);
+  f.get(run).i32(3).shl().set(end);
+  f.get(nt).i32(3).shl().set(tEnd);
+  f.until(
+    () => f.get(k).i32(32).add().get(end).gtU(), // while k + 4 outputs ≤ run
+    () => {
+      xk(0).set(a0);
+      xk(16).set(a1);
+      f.get(hist).get(k).add().set(hk);
+      tapLoop([a0, a1]);
+      f.get(x).get(k).add().get(a0).store(0);
+      f.get(x).get(k).add().get(a1).store(16);
+      f.get(k).i32(32).add().set(k);
+    },
+  );
+  f.get(k).i32(16).add().get(end).leU().if(() => { // k + 2 ≤ run
+    xk(0).set(a0);
+    f.get(hist).get(k).add().set(hk);
+    tapLoop([a0]);
+    f.get(x).get(k).add().get(a0).store(0);
+  });
+  return f;
+}
+
+/** The module: the five kernels over the memory imported as env.mem. */
+export function simdModuleBytes(): Uint8Array {
+  return assemble(
+    [
+      ['dot1', dot1Function()],
+      ['dot2', dot2Function()],
+      ['farrow', farrowFunction()],
+      ['farrowDot2', farrowDot2Function()],
+      ['echoRun', echoRunFunction()],
+    ],
+    { import: ['env', 'mem'], minimumPages: 1 },
+  );
 }
 
 /** The module, compiled once per process (each caller gets its own instance and memory). */
@@ -219,7 +247,7 @@ export function createSimdKernels(bytes: number): SimdKernels | null {
   if (!wasm) return null;
   try {
     const memory = new wasm.Memory({ initial: Math.max(1, Math.ceil(bytes / 65536)) });
-    compiled ??= new wasm.Module(moduleBytes());
+    compiled ??= new wasm.Module(simdModuleBytes());
     const instance = new wasm.Instance(compiled, { env: { mem: memory } });
     const e = instance.exports as unknown as {
       dot1: SimdKernels['dot1'];
