@@ -120,3 +120,22 @@ export async function collectBlocks(blocks: AsyncIterable<Block>, channelCount: 
   }
   return out;
 }
+
+/**
+ * Streams `source` through a processor that holds samples back: `step` turns each input block into
+ * the output ready so far, `finish` returns the rest once the input has ended. Empty outputs are
+ * not yielded.
+ */
+export async function* streamThrough(
+  source: AudioSource,
+  blockFrames: number | undefined,
+  step: (block: Block) => Block,
+  finish: () => Block,
+): AsyncGenerator<Block> {
+  for await (const block of source.blocks({ blockFrames })) {
+    const out = step(block);
+    if (out[0]!.length > 0) yield out;
+  }
+  const tail = finish();
+  if (tail[0]!.length > 0) yield tail;
+}

@@ -37,7 +37,7 @@
  */
 import { BugError, ParameterError } from '../errors.ts';
 import { createSimdKernels, type SimdKernels } from './simd-kernels.ts';
-import type { AudioSource, Block } from '../source.ts';
+import { streamThrough, type AudioSource, type Block } from '../source.ts';
 import { cubicThrough, kernelDesign, kernelValue, type KernelDesign, type ResampleQuality } from './resample-kernel.ts';
 
 /** A ratio (output frames per input frame) that changes with the input position. */
@@ -581,10 +581,5 @@ export async function* resampleSource(
   opts: Omit<ResamplerOptions, 'channelCount'> & { blockFrames?: number },
 ): AsyncIterable<Float64Array[]> {
   const r = new Resampler({ ...opts, channelCount: source.channelCount });
-  for await (const block of source.blocks({ blockFrames: opts.blockFrames })) {
-    const out = r.process(block);
-    if (out[0]!.length > 0) yield out;
-  }
-  const tail = r.flush();
-  if (tail[0]!.length > 0) yield tail;
+  yield* streamThrough(source, opts.blockFrames, (block) => r.process(block), () => r.flush());
 }

@@ -13,7 +13,7 @@
 import { Resampler } from '../core/resample.ts';
 import { kernelDesign, type ResampleQuality } from '../core/resample-kernel.ts';
 import { ParameterError } from '../errors.ts';
-import type { AudioSource, Block } from '../source.ts';
+import { streamThrough, type AudioSource, type Block } from '../source.ts';
 import { MAX_RATIO, MIN_RATIO, TimeStretcher, type TimeStretchOptions } from './phase-vocoder.ts';
 
 /** Streams a source stretched by `ratio` (duration × ratio, pitch kept). */
@@ -22,12 +22,7 @@ export async function* stretchSource(
   options: Omit<TimeStretchOptions, 'sampleRateHz' | 'channelCount'> & { blockFrames?: number },
 ): AsyncIterable<Block> {
   const ts = new TimeStretcher({ ...options, sampleRateHz: source.sampleRateHz, channelCount: source.channelCount });
-  for await (const block of source.blocks({ blockFrames: options.blockFrames })) {
-    const out = ts.push(block);
-    if (out[0]!.length > 0) yield out;
-  }
-  const tail = ts.flush();
-  if (tail[0]!.length > 0) yield tail;
+  yield* streamThrough(source, options.blockFrames, (block) => ts.push(block), () => ts.flush());
 }
 
 export interface TransposePlan {
@@ -149,10 +144,5 @@ export class Transposer {
 /** Streams a transposed source (duration kept). */
 export async function* transposeSource(source: AudioSource, options: Omit<TransposeOptions, 'sampleRateHz' | 'channelCount'> & { blockFrames?: number }): AsyncIterable<Block> {
   const t = new Transposer({ ...options, sampleRateHz: source.sampleRateHz, channelCount: source.channelCount });
-  for await (const block of source.blocks({ blockFrames: options.blockFrames })) {
-    const out = t.push(block);
-    if (out[0]!.length > 0) yield out;
-  }
-  const tail = t.flush();
-  if (tail[0]!.length > 0) yield tail;
+  yield* streamThrough(source, options.blockFrames, (block) => t.push(block), () => t.flush());
 }
