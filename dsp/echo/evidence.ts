@@ -29,6 +29,7 @@
  */
 import { nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';
+import { CancelledError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { echoCepstrumInto } from './fit.ts';
@@ -301,7 +302,7 @@ export async function frameEvidence(
     }
   };
   for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
-    if (options.signal?.aborted) break;
+    if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
     const mono = mixBlock(block, options.channel);
     const needFrom = Math.min(nextFrame, nextPair);
     const drop = Math.max(0, Math.min(bufLen, needFrom - bufStart));

@@ -24,6 +24,7 @@
  */
 import { nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import { makeWindow } from '../core/windows.ts';
+import { CancelledError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { Decimator } from '../core/decimate.ts';
@@ -365,7 +366,7 @@ export async function refinePrintThrough(
     void final;
   };
   for await (const block of source.blocks()) {
-    if (options.signal?.aborted) return null;
+    if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
     const mono = mixBlock(block, channel);
     if (canceller) canceller.process(mono, mono);
     // Drop what no future frame needs.

@@ -20,6 +20,7 @@
  * the (bounded) excerpt in memory.
  */
 import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
+import { CancelledError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { type FitResult, fitSingleEcho, fitWindows, scratchFor, undoCancellationCepstrum } from './fit.ts';
@@ -78,7 +79,7 @@ export async function quietFrames(source: AudioSource, options: Pick<RefineOptio
   const pieces = new Float64Array(count + 1);
   let at = 0;
   for await (const block of source.blocks({ startFrame: start, endFrame: Math.min(end, start + (count + 1) * hop) })) {
-    if (options.signal?.aborted) return null;
+    if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
     const mono = mixBlock(block, options.channel);
     for (let i = 0; i < mono.length; i++, at++) {
       const j = Math.floor(at / hop);
@@ -153,7 +154,7 @@ export async function cancelledCepstrum(
     if (work) work.samples = buf;
     let at = -(start - from);
     for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
-      if (options.signal?.aborted) return null;
+      if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
       const mono = mixBlock(block, options.channel);
       if (canceller) canceller.process(mono, mono);
       for (let i = 0; i < mono.length; i++, at++) if (at >= 0 && at < n) buf[at] = mono[i]!;
@@ -196,7 +197,7 @@ export async function cancelledCepstrum(
       });
       const cancel = kernel ? new EchoCanceller(kernel) : null;
       for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
-        if (options.signal?.aborted) break;
+        if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
         const mono = mixBlock(block, options.channel);
         if (cancel) cancel.process(mono, mono);
         acc.push(mono);
@@ -204,13 +205,13 @@ export async function cancelledCepstrum(
       return acc;
     };
     let acc = await run(options.lockTau);
-    if ((options.lockTau !== undefined || acceptAt) && !options.signal?.aborted) {
+    if (options.lockTau !== undefined || acceptAt) {
       // Too few frames left: measure on more of them.
       const all = Math.max(1, Math.floor((end - start - n) / (n / 2)) + 1);
       if (acc.frames < Math.min(4, all) && options.lockTau !== undefined) acc = await run(undefined, true);
       if (acc.frames < Math.min(4, all)) acc = await run(undefined, false);
     }
-    if (options.signal?.aborted || acc.frames === 0) return null;
+    if (acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
   const cep = work?.cepstrum?.length === n ? work.cepstrum : undefined;
@@ -248,7 +249,7 @@ export async function levelGate(source: AudioSource, framing: Framing, options: 
   const n = framing.fftSize;
   const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, collectLevels: true });
   for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
-    if (options.signal?.aborted) return null;
+    if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
     acc.push(mixBlock(block, options.channel));
   }
   return acc.noiseGate();
@@ -285,7 +286,7 @@ async function deadBinGate(source: AudioSource, framing: Framing, options: Refin
   const n = framing.fftSize;
   const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2 });
   for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
-    if (options.signal?.aborted) return null;
+    if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
     acc.push(mixBlock(block, options.channel));
   }
   return acc.frames ? deadBins(acc.meanLogSpectrum()) : null;

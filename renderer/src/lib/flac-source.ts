@@ -9,7 +9,7 @@
  * when the two differ.
  */
 import { FLACDecoder } from '@wasm-audio-decoders/flac';
-import { InputError } from '../../../dsp/errors.ts';
+import { CancelledError, InputError } from '../../../dsp/errors.ts';
 import { clockTime, findFlacFrame, FlacFrameScanner, type FlacFrame } from '../../../dsp/formats/flac-frames.ts';
 import type { AudioLayout, FlacStreamInfo } from '../../../dsp/formats/types.ts';
 import { flacCodesToSamples, packFlacCodes, reversedDecodedBlocks } from '../../../dsp/formats/flac.ts';
@@ -178,7 +178,7 @@ export class FlacSource implements AudioSource {
     let scratch = new Uint8Array(0);
     let done = 0;
     for await (const { ch, from, count } of this.#range(0, this.frames)) {
-      if (signal?.aborted) throw new InputError('cancelled', this.name);
+      if (signal?.aborted) throw new CancelledError('cancelled');
       if (scratch.length < count * n * bytes) scratch = new Uint8Array(count * n * bytes);
       for (let c = 0; c < n; c++) packFlacCodes(ch[c]!, from, count, scratch, c * bytes, n * bytes, this.bitsPerSample);
       md5.update(scratch.subarray(0, count * n * bytes));
