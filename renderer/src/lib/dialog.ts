@@ -1,6 +1,7 @@
 /**
  * Modal dialogs: focus moves into the dialog when it opens (to `[data-autofocus]`, else the first
  * control), Tab stays inside it, Escape closes it, and focus returns where it was afterwards.
+ * components/dialog-shell.svelte, the frame of every dialog, applies it.
  */
 const FOCUSABLE = 'button:not([disabled]), input:not([disabled]), select:not([disabled]), textarea:not([disabled]), [tabindex]:not([tabindex="-1"])';
 
