@@ -32,6 +32,3 @@ export function modal(node: HTMLElement, onEscape: () => void) {
     },
   };
 }
-
-/** Whether a modal dialog is open (the editor's shortcuts then stay quiet). */
-export const dialogOpen = () => document.querySelector('[aria-modal="true"]') !== null;
