@@ -340,13 +340,20 @@ export class Editor {
     } catch (e) { this.fail('Opening')(e); }
   };
 
-  /** A file dropped on the window (web mode hands the File to the bridge; Electron gives its path). */
+  /**
+   * A file dropped on the window: the bridge says whether it is a recording (opened as if
+   * picked) or a session (opened as if picked from Open session); anything else is refused with
+   * the reason, in place of the recording.
+   */
   openDropped = async (file: File) => {
-    const b = this.bridge as Partial<{ adoptFile(f: File): OpenedFile }>;
-    if (!b.adoptFile) { this.note('Dropping files is not available here: use Open recording.', 'warn'); return; }
-    if (/\.(rwsession|json)$/i.test(file.name)) { await (await sessions()).openDropped(this, { name: file.name, path: null, text: await file.text() }); return; }
-    if (!(await this.mayDiscard('Opening another recording'))) return;
-    await this.open(b.adoptFile(file));
+    let d;
+    try {
+      d = await this.bridge.dropped(file);
+    } catch (e) { this.openError = { name: file.name, message: openErrorWords(e, file.name) }; return; }
+    if (d.kind === 'refused') { this.openError = { name: d.name, message: openErrorWords(new Error(d.reason), d.name) }; return; }
+    if (d.kind === 'session') { await (await sessions()).openDropped(this, d.session); return; }
+    if (!(await this.mayDiscard('Opening another recording'))) { void this.bridge.closeFile(d.file.handle).catch(() => {}); return; }
+    await this.open(d.file);
   };
 
   /** Reopens a recent item: a session from its saved text; a recording through the picker (a page cannot reopen a file by name). */
