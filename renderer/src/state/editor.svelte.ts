@@ -350,7 +350,8 @@ export class Editor {
     try {
       d = await this.bridge.dropped(file);
     } catch (e) { this.openError = { name: file.name, message: openErrorWords(e, file.name) }; return; }
-    if (d.kind === 'refused') { this.openError = { name: d.name, message: openErrorWords(new Error(d.reason), d.name) }; return; }
+    // The reason names the file, which the panel's title already does: "notes.txt is neither …" reads "It is neither …".
+    if (d.kind === 'refused') { this.openError = { name: d.name, message: d.reason.startsWith(d.name + ' ') ? `It${d.reason.slice(d.name.length)}` : d.reason }; return; }
     if (d.kind === 'session') { await (await sessions()).openDropped(this, d.session); return; }
     if (!(await this.mayDiscard('Opening another recording'))) { void this.bridge.closeFile(d.file.handle).catch(() => {}); return; }
     await this.open(d.file);
