@@ -7,6 +7,21 @@
 /** Extensions of the files the readers open: the WAV family (BWF, RF64, BW64), AIFF/AIFF-C and FLAC. */
 export const AUDIO_EXTENSIONS = ['.wav', '.wave', '.bwf', '.rf64', '.bw64', '.aif', '.aiff', '.aifc', '.flac'] as const;
 
+/** Session files: `.rwsession` (what the editor saves), and the older `.session.json`/`.json`. */
+export const SESSION_EXTENSIONS = ['.rwsession', '.json'] as const;
+
+/** What a file is by the extension of its name (any case): a recording, a session, or neither (null). */
+export function openableKind(name: string): 'audio' | 'session' | null {
+  const n = name.toLowerCase();
+  if (AUDIO_EXTENSIONS.some((e) => n.endsWith(e))) return 'audio';
+  if (SESSION_EXTENSIONS.some((e) => n.endsWith(e))) return 'session';
+  return null;
+}
+
+/** The one-line refusal of a dropped file that is neither a recording nor a session. */
+export const notOpenable = (name: string): string =>
+  `${name} is neither a recording (${AUDIO_EXTENSIONS.join(', ')}) nor a session (${SESSION_EXTENSIONS.join(', ')})`;
+
 /**
  * Why `v` is not a bare file name (no folders, no control or reserved characters, not hidden,
  * ≤ 200 characters) with one of the allowed extensions; undefined when it is one.

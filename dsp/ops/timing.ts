@@ -10,6 +10,9 @@
  */
 import { ParameterError } from '../errors.ts';
 import type { CorrectionOp, ParamSpec, ParamValue, ParamValues, SourceFacts, StepTiming, TimeSegment } from './types.ts';
+import { along, mapTime, outputDuration, unmapTime } from './time-map.ts';
+
+export { mapTime, outputDuration, unmapTime };
 
 /** The map of a step that keeps time, over an input of `durationSeconds`. */
 export function identitySegments(durationSeconds: number): TimeSegment[] {
@@ -28,35 +31,6 @@ export function reversedSegments(durationSeconds: number, fromSeconds: number, t
   out.push({ inStart: fromSeconds, inEnd: toSeconds, outStart: toSeconds, outEnd: fromSeconds });
   if (toSeconds < durationSeconds) out.push({ inStart: toSeconds, inEnd: durationSeconds, outStart: toSeconds, outEnd: durationSeconds });
   return out;
-}
-
-const slope = (s: TimeSegment) => (s.inEnd > s.inStart ? (s.outEnd - s.outStart) / (s.inEnd - s.inStart) : 1);
-const along = (s: TimeSegment, t: number) => s.outStart + (t - s.inStart) * slope(s);
-
-/** Output seconds of input second `t` (beyond the ends, the first or last segment continues). */
-export function mapTime(segments: readonly TimeSegment[], t: number): number {
-  if (segments.length === 0) return t;
-  for (const s of segments) if (t >= s.inStart && t < s.inEnd) return along(s, t);
-  return t < segments[0]!.inStart ? along(segments[0]!, t) : along(segments[segments.length - 1]!, t);
-}
-
-/** Input seconds that map to output second `t`, the inverse of mapTime (the first match in input order). */
-export function unmapTime(segments: readonly TimeSegment[], t: number): number {
-  if (segments.length === 0) return t;
-  let nearest = segments[0]!, gap = Infinity;
-  for (const s of segments) {
-    const lo = Math.min(s.outStart, s.outEnd), hi = Math.max(s.outStart, s.outEnd);
-    if (t >= lo && t <= hi) return s.outEnd === s.outStart ? s.inStart : s.inStart + ((t - s.outStart) * (s.inEnd - s.inStart)) / (s.outEnd - s.outStart);
-    const g = Math.min(Math.abs(t - lo), Math.abs(t - hi));
-    if (g < gap) { gap = g; nearest = s; }
-  }
-  const k = slope(nearest);
-  return nearest.inStart + (t - nearest.outStart) / (k === 0 ? 1 : k);
-}
-
-/** Length of the output: the largest output instant. */
-export function outputDuration(segments: readonly TimeSegment[]): number {
-  return segments.reduce((m, s) => Math.max(m, s.outStart, s.outEnd), 0);
 }
 
 /** The map of `first` followed by `then` (then's input is first's output). */

@@ -80,13 +80,27 @@ export interface Bridge {
    * opened; null when there is none (always in web mode). Each launch file is handed out once.
    */
   launched(): Promise<Launched | null>;
+  /**
+   * Opens a file dropped on the editor's window: a recording (an audio file Reelwright reads,
+   * opened as pickAudioFile opens one) or a session (its text, as openSession gives it).
+   * Anything else is refused with a one-line reason. In Electron the preload turns the File into
+   * its path (`webUtils.getPathForFile`), and the main process checks that path as it checks the
+   * recording a session names: an audio file by its extension and first bytes, a regular file
+   * that can be read; a session must be a Reelwright session file. Web mode reads the File.
+   */
+  dropped(file: File): Promise<Dropped>;
 }
 
 export type Launched = { readonly kind: 'audio'; readonly file: OpenedFile } | { readonly kind: 'session'; readonly session: OpenedText };
 
+/** A dropped file, opened, or the reason it was not (nothing was opened). */
+export type Dropped = Launched | { readonly kind: 'refused'; readonly name: string; readonly reason: string };
+
 /** The calls that cross IPC (everything but `mode`). */
 export type BridgeCall = Exclude<keyof Bridge, 'mode'>;
 export type BridgeArgs<K extends BridgeCall> = Parameters<Bridge[K]>;
+/** What a call carries over IPC: its arguments, except that a dropped File travels as its path. */
+export type BridgeIpcArgs<K extends BridgeCall> = K extends 'dropped' ? [path: string] : BridgeArgs<K>;
 
 /** IPC channel for a call. */
 export type BridgeChannel<K extends BridgeCall = BridgeCall> = `reelwright:${K}`;

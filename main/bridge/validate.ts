@@ -3,8 +3,8 @@
  * not trust the renderer) and the tests. Pure: no Node, no Electron. Each validator takes the raw
  * argument list and returns it typed, or throws BridgeArgumentError with a one-line message.
  */
-import type { BridgeArgs, BridgeCall, BridgeChannel } from './contract.ts';
-import { AUDIO_EXTENSIONS, fileNameProblem } from '../../dsp/formats/file-names.ts';
+import type { BridgeCall, BridgeChannel, BridgeIpcArgs } from './contract.ts';
+import { AUDIO_EXTENSIONS, fileNameProblem, notOpenable, openableKind } from '../../dsp/formats/file-names.ts';
 
 export { AUDIO_EXTENSIONS } from '../../dsp/formats/file-names.ts';
 
@@ -69,7 +69,21 @@ function text(call: string, what: string, v: unknown, max: number): string {
   return v as string;
 }
 
-type Validators = { readonly [K in BridgeCall]: (args: readonly unknown[]) => BridgeArgs<K> };
+/**
+ * An absolute path the page says was dropped on the window: text without NUL of at most 4096
+ * characters, absolute (a POSIX path, or a Windows drive or UNC path), whose name has a
+ * recording's or a session's extension. The main process then checks the file itself.
+ */
+export function droppedPath(call: string, v: unknown): string {
+  if (typeof v !== 'string' || v.length === 0 || v.length > 4096 || v.includes('\u0000')) fail(call, 'path must be a non-empty path of at most 4096 characters');
+  const p = v as string;
+  if (!(p.startsWith('/') || /^[A-Za-z]:[\\/]/.test(p) || p.startsWith('\\\\'))) fail(call, `not an absolute path: ${JSON.stringify(p).slice(0, 80)}`);
+  const name = p.slice(Math.max(p.lastIndexOf('/'), p.lastIndexOf('\\')) + 1);
+  if (!openableKind(name)) fail(call, notOpenable(name || p));
+  return p;
+}
+
+type Validators = { readonly [K in BridgeCall]: (args: readonly unknown[]) => BridgeIpcArgs<K> };
 
 /** One validator per bridge call; the mapped type makes a missing one a compile error. */
 export const validators: Validators = {
@@ -109,6 +123,7 @@ export const validators: Validators = {
   },
   openSession: (a) => (count('openSession', a, 0), []),
   launched: (a) => (count('launched', a, 0), []),
+  dropped: (a) => (count('dropped', a, 1), [droppedPath('dropped', a[0])]),
 };
 
 

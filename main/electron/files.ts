@@ -8,9 +8,15 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import { randomBytes } from 'node:crypto';
-import type { ExportDone, ExportTarget, OpenedFile } from '../bridge/contract.ts';
+import type { Dropped, ExportDone, ExportTarget, OpenedFile, OpenedText } from '../bridge/contract.ts';
 import { AUDIO_EXTENSIONS } from '../bridge/validate.ts';
-import { ParameterError } from '../../dsp/errors.ts';
+import { InputError, ParameterError } from '../../dsp/errors.ts';
+import { notOpenable, openableKind } from '../../dsp/formats/file-names.ts';
+
+/** Largest session file read (bytes). */
+export const MAX_SESSION_BYTES = 8 * 1024 * 1024;
+/** What a session file says it is (renderer/src/lib/session-file.ts SESSION_KIND writes the same). */
+export const SESSION_KIND = 'reelwright-session';
 
 const id = (prefix: 'f' | 'x') => `${prefix}-${randomBytes(9).toString('hex')}`;
 
@@ -189,27 +195,95 @@ export class FileTable {
 
   /**
    * Why the recording a session names cannot be opened without the user choosing it (null when
-   * it can, after the user confirms): it must be a regular file with an audio extension whose
-   * first bytes are a WAV, AIFF or FLAC header.
+   * it can, after the user confirms): an absolute path to an audio file (audioFileProblem).
    */
   async sessionSourceProblem(p: string): Promise<string | null> {
     if (!path.isAbsolute(p)) return 'the session names a relative path';
-    if (!(AUDIO_EXTENSIONS as readonly string[]).includes(path.extname(p).toLowerCase())) {
-      return `${path.basename(p)} does not have an audio file's extension (${AUDIO_EXTENSIONS.join(', ')})`;
+    return audioFileProblem(p);
+  }
+
+  /** Reads a session file the user chose; its recording may then be reopened (allowSessionSource). */
+  async readSession(p: string): Promise<OpenedText> {
+    if ((await fs.promises.stat(p)).size > MAX_SESSION_BYTES) throw new InputError('that file is too large to be a session', p);
+    const text = await fs.promises.readFile(p, 'utf8');
+    this.allowSessionSource(text);
+    return { name: path.basename(p), path: p, text };
+  }
+
+  /**
+   * A file dropped on the window, by the path the preload read from it: a recording is opened
+   * when it passes the same check as a recording a session names (audioFileProblem); a session
+   * when it is a regular file of at most 8 MiB that says it is a Reelwright session. Anything
+   * else is refused with the reason, and nothing is opened.
+   */
+  async openDropped(p: string): Promise<Dropped> {
+    const name = path.basename(p);
+    const refused = (reason: string): Dropped => ({ kind: 'refused', name, reason });
+    if (!path.isAbsolute(p)) return refused(`${name} was not given with its full path`);
+    const kind = openableKind(name);
+    if (!kind) return refused(notOpenable(name));
+    if (kind === 'audio') {
+      const problem = await audioFileProblem(p);
+      return problem ? refused(problem) : { kind, file: await this.open(p) };
     }
-    let fh: fs.promises.FileHandle | undefined;
-    try {
-      const st = await fs.promises.stat(p);
-      if (!st.isFile()) return `${path.basename(p)} is not a regular file`;
-      fh = await fs.promises.open(p, 'r');
-      const head = new Uint8Array(4096);
-      const { bytesRead } = await fh.read(head, 0, head.length, 0);
-      if (!looksLikeAudio(head.subarray(0, bytesRead))) return `${path.basename(p)} is not a WAV, AIFF or FLAC file`;
-      return null;
-    } catch (e) {
-      return `${path.basename(p)} cannot be read (${(e as { code?: string }).code ?? (e as Error).message})`;
-    } finally {
-      await fh?.close();
+    const problem = await sessionFileProblem(p);
+    return problem ? refused(problem) : { kind, session: await this.readSession(p) };
+  }
+
+}
+
+/** Why `p` is not a regular file (null when it is one), or why it cannot be read. */
+async function regularFileProblem(p: string): Promise<string | null> {
+  try {
+    return (await fs.promises.stat(p)).isFile() ? null : `${path.basename(p)} is not a regular file`;
+  } catch (e) {
+    return `${path.basename(p)} cannot be read (${(e as { code?: string }).code ?? (e as Error).message})`;
+  }
+}
+
+/**
+ * Why `p` is not an audio file Reelwright opens (null when it is): it must have an audio
+ * extension, be a regular file and start with a WAV, AIFF or FLAC header. The check for the
+ * recording a session names and for a dropped recording.
+ */
+export async function audioFileProblem(p: string): Promise<string | null> {
+  if (!(AUDIO_EXTENSIONS as readonly string[]).includes(path.extname(p).toLowerCase())) {
+    return `${path.basename(p)} does not have an audio file's extension (${AUDIO_EXTENSIONS.join(', ')})`;
+  }
+  const notFile = await regularFileProblem(p);
+  if (notFile) return notFile;
+  let fh: fs.promises.FileHandle | undefined;
+  try {
+    fh = await fs.promises.open(p, 'r');
+    const head = new Uint8Array(4096);
+    const { bytesRead } = await fh.read(head, 0, head.length, 0);
+    if (!looksLikeAudio(head.subarray(0, bytesRead))) return `${path.basename(p)} is not a WAV, AIFF or FLAC file`;
+    return null;
+  } catch (e) {
+    return `${path.basename(p)} cannot be read (${(e as { code?: string }).code ?? (e as Error).message})`;
+  } finally {
+    await fh?.close();
+  }
+}
+
+/**
+ * Why a dropped `p` is not a session file (null when it is): a regular file of at most 8 MiB,
+ * JSON whose `kind` is a Reelwright session's. Its text goes to the page only then, so a path the
+ * page names cannot read any other file.
+ */
+export async function sessionFileProblem(p: string): Promise<string | null> {
+  const name = path.basename(p);
+  const notFile = await regularFileProblem(p);
+  if (notFile) return notFile;
+  try {
+    if ((await fs.promises.stat(p)).size > MAX_SESSION_BYTES) return `${name} is too large to be a session (over ${MAX_SESSION_BYTES} bytes)`;
+    let j: unknown;
+    try { j = JSON.parse(await fs.promises.readFile(p, 'utf8')); } catch (e) {
+      if ((e as { code?: string }).code) throw e;
+      return `${name} is not a session file (not JSON)`;
     }
+    return (j as { kind?: unknown } | null)?.kind === SESSION_KIND ? null : `${name} is not a Reelwright session file`;
+  } catch (e) {
+    return `${name} cannot be read (${(e as { code?: string }).code ?? (e as Error).message})`;
   }
 }

@@ -7,9 +7,9 @@
 import fs from 'node:fs';
 import path from 'node:path';
 import { AUDIO_EXTENSIONS } from '../bridge/validate.ts';
+import { SESSION_EXTENSIONS } from '../../dsp/formats/file-names.ts';
 
-/** Session files: `.rwsession` (what the editor saves), and the older `.session.json`/`.json`. */
-export const SESSION_EXTENSIONS = ['.rwsession', '.json'] as const;
+export { SESSION_EXTENSIONS };
 
 export type LaunchKind = 'audio' | 'session';
 

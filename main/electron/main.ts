@@ -9,11 +9,11 @@ import { app, BrowserWindow, dialog, ipcMain, net, protocol, session, type IpcMa
 import fs from 'node:fs';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
-import type { Bridge, BridgeCall } from '../bridge/contract.ts';
+import type { Bridge, BridgeCall, BridgeIpcArgs } from '../bridge/contract.ts';
 import { SECURITY_HEADERS } from '../bridge/security.ts';
 import { AUDIO_EXTENSIONS, bridgeCalls, channelOf, isTrustedSenderUrl, validateCall } from '../bridge/validate.ts';
 import { FileTable } from './files.ts';
-import { InputError, ParameterError } from '../../dsp/errors.ts';
+import { ParameterError } from '../../dsp/errors.ts';
 import { launchKind, launchPath } from './launch.ts';
 
 const root = path.resolve(__dirname, '../../..');
@@ -40,15 +40,8 @@ app.on('open-file', (e, p) => {
     .then((r) => { if (r.response === 0 && win) { launchFile = p; win.webContents.reload(); } });
 });
 
-async function readSession(p: string): Promise<{ name: string; path: string; text: string }> {
-  if ((await fs.promises.stat(p)).size > 8 * 1024 * 1024) throw new InputError('that file is too large to be a session', p);
-  const text = await fs.promises.readFile(p, 'utf8');
-  files.allowSessionSource(text);
-  return { name: path.basename(p), path: p, text };
-}
-
 /** The bridge's main-process side (the preload forwards each call here). */
-type Handlers = { [K in BridgeCall]: (...args: Parameters<Bridge[K]>) => ReturnType<Bridge[K]> | Promise<Uint8Array> };
+type Handlers = { [K in BridgeCall]: (...args: BridgeIpcArgs<K>) => ReturnType<Bridge[K]> | Promise<Uint8Array> };
 
 const handlers: Handlers = {
   async openDemo() {
@@ -97,15 +90,17 @@ const handlers: Handlers = {
   async openSession() {
     const r = await dialog.showOpenDialog(win!, { title: 'Open a session', properties: ['openFile'], filters: [{ name: 'Reelwright session', extensions: ['rwsession', 'json'] }] });
     if (r.canceled || !r.filePaths[0]) return null;
-    return readSession(r.filePaths[0]);
+    return files.readSession(r.filePaths[0]);
   },
   async launched() {
     const p = launchFile;
     launchFile = null;
     const kind = p ? launchKind(p) : null;
     if (!p || !kind) return null;
-    return kind === 'audio' ? { kind, file: await files.open(p) } : { kind, session: await readSession(p) };
+    return kind === 'audio' ? { kind, file: await files.open(p) } : { kind, session: await files.readSession(p) };
   },
+  // A file dropped on the window, by the path the preload read from the File: checked like the recording a session names.
+  dropped: (p) => files.openDropped(p),
 };
 
 function checkSender(e: IpcMainInvokeEvent): void {

@@ -132,6 +132,16 @@ describe('files', () => {
     const aiffFindings = await page.locator('[data-testid=finding]').count();
     expect(aiffFindings).toBeGreaterThan(0);
 
+    // A dropped file that is neither a recording nor a session is refused by name; the recording stays open.
+    fs.writeFileSync(file('notes.txt'), 'Reel 7, side A: interview with the harbour master, 1968.\n');
+    await dropFile('notes.txt');
+    await page.getByTestId('open-error').waitFor();
+    expect(await page.getByTestId('open-error').locator('h2').textContent()).toBe('notes.txt cannot be opened');
+    expect(await page.getByTestId('open-error-text').textContent()).toMatch(/^It is neither a recording \(\.wav, .*\.flac\) nor a session \(\.rwsession, \.json\)$/);
+    await page.getByTestId('back-to-recording').click();
+    await page.getByTestId('waveform').waitFor();
+    expect(await page.getByTestId('file-name').textContent()).toBe('take2.aiff');
+
     await page.goto(`${inject('editorUrl')}?nodemo`);
     const recent = page.getByTestId('recent-item');
     await expect.poll(async () => (await recent.allTextContents()).map((t) => t.trim())).toEqual(['take2.aiff', 'take2.flac']);

@@ -14,11 +14,12 @@ import { repoRoot } from '../helpers/cli.ts';
 /**
  * Minified page entry (the script index.html loads and what it imports statically). Before the
  * page read only specs: 351,397 bytes (9ba4ef6); one script of 200,223 bytes at 13a1153, before
- * dialogs and panels opened on demand became chunks of their own. Issue 16 asks for 120,000:
- * not met yet (the Svelte runtime and the editor's state, both needed for the first paint, are
- * most of what is left), so this holds the ground gained.
+ * dialogs and panels opened on demand became chunks of their own; 167,929 bytes at c594929,
+ * before the chain's rules, sessions, export, preview/compare, the playback engine, the findings
+ * list, the empty state and the markers panel were loaded on demand and the icons shared one
+ * frame. Issue 16 asks for at most 120,000 bytes.
  */
-const PAGE_BUDGET_BYTES = 170_000;
+const PAGE_BUDGET_BYTES = 120_000;
 
 describe('editor page bundle', () => {
   it('holds the specs, not the operations’ work, which is in the worker', async () => {

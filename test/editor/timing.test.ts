@@ -7,7 +7,8 @@ import {
   scaledSegments, stepTiming, timingInRange, unmapTime,
 } from '../../dsp/ops/timing.ts';
 import type { CorrectionOp } from '../../dsp/ops/types.ts';
-import { placementIndex, StepList } from '../../renderer/src/lib/steps.ts';
+import { StepList } from '../../renderer/src/lib/steps.ts';
+import { placementIndex } from '../../renderer/src/lib/placement.ts';
 import { describeSteps } from '../../renderer/src/lib/chain-notes.ts';
 
 const op = (name: string) => findOperation(name) as CorrectionOp;

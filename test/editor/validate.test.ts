@@ -7,7 +7,7 @@ const bad = (call: string, args: unknown[], msg: RegExp) => expect(() => validat
 
 describe('bridge argument validation', () => {
   it('has a validator for every call of the Bridge interface', () => {
-    expect(bridgeCalls.sort()).toEqual(['abortExport', 'beginExport', 'closeFile', 'finishExport', 'launched', 'openDemo', 'openSession',
+    expect(bridgeCalls.sort()).toEqual(['abortExport', 'beginExport', 'closeFile', 'dropped', 'finishExport', 'launched', 'openDemo', 'openSession',
       'pickAudioFile', 'readBytes', 'reopenSource', 'saveSession', 'writeExport'].sort());
     expect(Object.keys(validators)).not.toContain('mode');
   });
@@ -46,6 +46,24 @@ describe('bridge argument validation', () => {
       expect(() => validateCall('beginExport', [name, 'f-1']), name).toThrow(BridgeArgumentError);
     }
     bad('saveSession', ['{}', 'session.wav'], /must end with \.rwsession or \.json/);
+  });
+
+  it('takes a dropped file as one absolute path naming a recording or a session', () => {
+    // The preload sends the path webUtils.getPathForFile gave for the dropped File.
+    for (const p of ['/home/a/take 3.wav', '/x/y.FLAC', '/x/reel.aifc', '/x/s.rwsession', '/x/old.session.json', 'C:\\Users\\a\\take.wav', 'D:/t.bwf', '\\\\server\\share\\t.rf64']) {
+      expect(ok('dropped', [p]), p).toEqual([p]);
+    }
+    bad('dropped', [], /expected 1 argument/);
+    bad('dropped', ['/a.wav', '/b.wav'], /expected 1 argument/);
+    bad('dropped', [{ path: '/a.wav' }], /path must be a non-empty path/);
+    bad('dropped', [''], /path must be a non-empty path/);
+    bad('dropped', ['/a\u0000b.wav'], /path must be a non-empty path/);
+    bad('dropped', ['/' + 'x'.repeat(4096) + '.wav'], /path must be a non-empty path/);
+    bad('dropped', ['take.wav'], /not an absolute path/);
+    bad('dropped', ['../take.wav'], /not an absolute path/);
+    bad('dropped', ['C:take.wav'], /not an absolute path/);
+    bad('dropped', ['/home/a/notes.txt'], /notes\.txt is neither a recording \(\.wav.*\) nor a session \(\.rwsession, \.json\)/);
+    bad('dropped', ['/home/a/'], /is neither a recording/);
   });
 
   it('trusts only the editor page as sender', () => {

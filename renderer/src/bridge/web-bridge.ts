@@ -3,7 +3,7 @@
  * interface as the Electron preload, so the editor cannot tell them apart except by `mode`.
  */
 import type { Bridge, ExportTarget, OpenedFile } from '../../../main/bridge/contract.ts';
-import { AUDIO_EXTENSIONS, fileNameProblem } from '../../../dsp/formats/file-names.ts';
+import { AUDIO_EXTENSIONS, fileNameProblem, notOpenable, openableKind } from '../../../dsp/formats/file-names.ts';
 import { ParameterError } from '../../../dsp/errors.ts';
 
 /** The bridge's rule for a file name to save (main/bridge/validate.ts applies the same one). */
@@ -51,7 +51,7 @@ interface ExportInProgress {
 }
 
 /** The web bridge, plus one web-only extra: the picked file itself, for the workers to read directly. */
-export type WebBridge = Bridge & { blobOf(handle: string): Blob | undefined; adoptFile(file: File): OpenedFile };
+export type WebBridge = Bridge & { blobOf(handle: string): Blob | undefined };
 
 export function createWebBridge(): WebBridge {
   const files = new Map<string, { file: File; isDemo: boolean }>();
@@ -69,8 +69,6 @@ export function createWebBridge(): WebBridge {
   return {
     mode: 'web',
     blobOf: (handle) => files.get(handle)?.file,
-    /** A file dropped on the page, opened like a picked one. */
-    adoptFile: (file) => opened(file, false),
     async openDemo() {
       const list = await fetch('demo/').then((r) => (r.ok ? (r.json() as Promise<string[]>) : []), () => []);
       const name = list.find((n) => n.toLowerCase().endsWith('.wav'));
@@ -136,6 +134,13 @@ export function createWebBridge(): WebBridge {
     },
     async launched() {
       return null;
+    },
+    /** A file dropped on the page: a recording opened like a picked one, a session's text read like a picked one. */
+    async dropped(file) {
+      const kind = openableKind(file.name);
+      if (kind === 'audio') return { kind, file: opened(file, false) };
+      if (kind === 'session') return { kind, session: { name: file.name, path: null, text: await file.text() } };
+      return { kind: 'refused', name: file.name, reason: notOpenable(file.name) };
     },
     async openSession() {
       const f = await pick('.rwsession,.json,application/json');

@@ -1,6 +1,7 @@
 /**
  * Modal dialogs: focus moves into the dialog when it opens (to `[data-autofocus]`, else the first
  * control), Tab stays inside it, Escape closes it, and focus returns where it was afterwards.
+ * components/dialog-shell.svelte, the frame of every dialog, applies it.
  */
 const FOCUSABLE = 'button:not([disabled]), input:not([disabled]), select:not([disabled]), textarea:not([disabled]), [tabindex]:not([tabindex="-1"])';
 
@@ -31,6 +32,3 @@ export function modal(node: HTMLElement, onEscape: () => void) {
     },
   };
 }
-
-/** Whether a modal dialog is open (the editor's shortcuts then stay quiet). */
-export const dialogOpen = () => document.querySelector('[aria-modal="true"]') !== null;

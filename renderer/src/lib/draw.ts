@@ -35,23 +35,6 @@ export function cssColor(name: string, fallback: string): string {
   return v;
 }
 
-/** Spectrogram colour map: ink → deep teal → teal → amber → cream (256 RGBA entries). */
-export const SPECTRO_LUT: Uint8ClampedArray = (() => {
-  const stops: [number, number, number, number][] = [
-    [0, 16, 19, 21], [0.3, 22, 64, 70], [0.55, 58, 160, 142], [0.78, 227, 164, 59], [1, 250, 240, 220],
-  ];
-  const lut = new Uint8ClampedArray(256 * 4);
-  for (let i = 0; i < 256; i++) {
-    const x = i / 255;
-    let k = 0;
-    while (k < stops.length - 2 && x > stops[k + 1]![0]) k++;
-    const [x0, r0, g0, b0] = stops[k]!, [x1, r1, g1, b1] = stops[k + 1]!;
-    const f = Math.min(1, Math.max(0, (x - x0) / (x1 - x0)));
-    lut.set([r0 + f * (r1 - r0), g0 + f * (g1 - g0), b0 + f * (b1 - b0), 255], i * 4);
-  }
-  return lut;
-})();
-
 /** Keeps a canvas's backing store at its CSS size × devicePixelRatio; returns the 2D context. */
 export function fitCanvas(canvas: HTMLCanvasElement): { ctx: CanvasRenderingContext2D; w: number; h: number; dpr: number } {
   const dpr = window.devicePixelRatio || 1;

@@ -45,7 +45,7 @@ export function lazy<T extends Component<any>>(load: () => Promise<{ default: T 
 }
 
 /** Warm these once the page is idle after its first paint. */
-export function warmWhenIdle(parts: readonly Lazy<unknown>[]): void {
+export function warmWhenIdle(parts: readonly Pick<Lazy<unknown>, 'warm'>[]): void {
   const go = () => parts.forEach((p) => p.warm());
   if (typeof requestIdleCallback === 'function') requestIdleCallback(go, { timeout: 3000 });
   else setTimeout(go, 1500);

@@ -2,8 +2,7 @@
  * The list of corrections ("steps") as plain data, with undo/redo of every change. Pure: the
  * editor wraps it in a Svelte state class (steps.svelte.ts); tests use it directly.
  */
-import type { CorrectionOp, ParamValue, ParamValues, SourceFacts } from '../../../dsp/ops/types.ts';
-import { changesTime } from '../../../dsp/ops/timing.ts';
+import type { CorrectionOp, ParamValue, ParamValues } from '../../../dsp/ops/types.ts';
 
 export interface Step {
   /** Stable id within a session (`s1`, `s2`, …). */
@@ -28,22 +27,6 @@ export interface Step {
 
 /** Looks up a correction by name (the registry, or a test's own list). */
 export type FindCorrection = (name: string) => CorrectionOp | undefined;
-
-/**
- * Where a correction measured on the original recording belongs in the list: before the first
- * enabled step that changes time (a varispeed, a stretch, a reverse), when its own values are
- * delays or positions and it keeps time itself, so it runs on the material it was measured on.
- * Anything else goes at the end.
- */
-export function placementIndex(steps: readonly Step[], op: CorrectionOp, params: ParamValues, facts: SourceFacts, find: FindCorrection): number {
-  const timed = op.params.some((p) => p.quantity !== undefined && params[p.name] !== undefined);
-  if (!timed || changesTime(op, params, facts) !== false) return steps.length;
-  const k = steps.findIndex((s) => {
-    const other = find(s.op);
-    return s.enabled && other !== undefined && changesTime(other, s.params, facts) !== false;
-  });
-  return k < 0 ? steps.length : k;
-}
 
 export interface Change {
   /** Plain words for the undo/redo buttons ("add Remove echo"). */

@@ -5,7 +5,7 @@
  * is at t on the original and at toCorrected(t) on the corrected time line. A preview of part of a
  * long recording starts at its region's start on both. Pure.
  */
-import { mapTime, outputDuration, unmapTime } from '../../../dsp/ops/timing.ts';
+import { mapTime, outputDuration, unmapTime } from '../../../dsp/ops/time-map.ts';
 import type { TimeSegment } from '../../../dsp/ops/types.ts';
 
 export interface Placement {

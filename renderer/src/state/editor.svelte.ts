@@ -4,28 +4,27 @@
  */
 import { getContext, setContext } from 'svelte';
 import type { Bridge, OpenedFile } from '../../../main/bridge/contract.ts';
-import { findOperation } from '../../../dsp/ops/registry.ts';
-import { correctionChoices } from '../lib/operation-lists.ts';
 import type { Finding, ParamValue, ParamValues } from '../../../dsp/ops/types.ts';
 import { Engine, JobError, type Task } from '../lib/engine.ts';
 import { rememberRecent, type RecentItem } from '../lib/recent.ts';
 import { loadAnalysisParams, saveAnalysisParams } from '../lib/analysis-settings.ts';
 import { BASE_BUCKET_FRAMES, pyramidFromParts, type PeakPyramid } from '../lib/peaks.ts';
-import { parseSession, sessionText, type Session } from '../lib/session-file.ts';
+import type { Session } from '../lib/session-file.ts';
 import type { DiagnoseResult } from '../../../dsp/ops/diagnose.ts';
-import type { ExportFormat, OpenResult, PreviewResult, Remeasure, SpectrumPair, StepSpec } from '../worker/protocol.ts';
-import type { CorrectionOp } from '../../../dsp/ops/types.ts';
-import { placementIndex, type Step } from '../lib/steps.ts';
-import { describeSteps } from '../lib/chain-notes.ts';
-import { editorWords, initialParams, stepProblems, switchMode } from '../lib/param-form.ts';
+import type { OpenResult, PreviewResult, Remeasure, SpectrumPair, StepSpec } from '../worker/protocol.ts';
+import type * as ChainRules from './chain.ts';
+import type { StepNote } from '../lib/chain-notes.ts';
 import { correctedEnd, piecesFor, toCorrected, toOriginal, type Piece, type Placement } from '../lib/timebase.ts';
 import { MarkersState } from './markers.svelte.ts';
 import { Player } from './player.svelte.ts';
 import { StepsState } from './steps.svelte.ts';
 import { Timeline } from './timeline.svelte.ts';
 
-/** Largest preview held in memory (samples over all channels): ≈ 5.8 min of 48 kHz stereo. */
-export const PREVIEW_MAX_SAMPLES = 1 << 25;
+/** The chain's rules (state/chain.ts), loaded on demand. */
+export type Chain = typeof ChainRules;
+/** The modules loaded when first used: sessions, previews and Compare (each its own chunk). */
+const sessions = () => import('./sessions.ts');
+const render = () => import('./render.ts');
 
 export interface TaskView { id: number; label: string; fraction: number; cancel: () => void; cancelling?: boolean }
 /** A question the editor asks before doing something that cannot be undone (lib/dialog.ts draws it). */
@@ -86,8 +85,16 @@ export class Editor {
   savedVersion = $state(0);
   /** A session opened on a recording whose checksum is still being computed: its steps wait. */
   sessionWaiting = $state.raw<Session | null>(null);
-  #exportTask: Task<unknown> | null = null;
+  /** The export under way (state/export.ts), which Cancel stops. */
+  exportTask: Task<unknown> | null = null;
+  /** The preview under way (state/render.ts): a new one replaces it. */
+  previewTask: Task<PreviewResult> | null = null;
+  /** The rendering whose steps were last measured again (state/render.ts). */
+  remeasuredFor: unknown = null;
   work = $state.raw<Engine | null>(null);
+  /** The chain's rules once loaded (loadChain); everything that reads them re-runs when they arrive. */
+  chain = $state.raw<Chain | null>(null);
+  #chainLoading: Promise<Chain> | null = null;
   #taskId = 0;
   #noteId = 0;
 
@@ -100,7 +107,7 @@ export class Editor {
       get sampleRateHz() { return self.opened?.layout.sampleRateHz ?? 48000; },
       get correctedMatchDb() { return self.correctedMatchDb; },
       get hasCorrected() { return self.corrected !== null; },
-      beforeSwitch: (to) => self.#rebase(self.base, to === 'processed' && self.corrected ? 'corrected' : 'original'),
+      beforeSwitch: (to) => self.rebase(self.base, to === 'processed' && self.corrected ? 'corrected' : 'original'),
     });
   }
 
@@ -123,7 +130,7 @@ export class Editor {
   }
 
   /** Moves the time line between the original's and the corrected preview's (same programme position). */
-  #rebase(from: 'original' | 'corrected', to: 'original' | 'corrected', old = this.corrected, next = this.corrected): void {
+  rebase(from: 'original' | 'corrected', to: 'original' | 'corrected', old = this.corrected, next = this.corrected): void {
     if (from === to && old === next) return;
     const origDuration = (this.opened?.layout.frames ?? 0) / this.sampleRateHz;
     const toOrig = (t: number) => (from === 'corrected' && old ? toOriginal(old.placement, t) : t);
@@ -160,7 +167,7 @@ export class Editor {
     this.stepModes = { ...this.stepModes, [stepId]: mode };
     // Text typed into the fields of the way left behind no longer counts.
     this.typing = Object.fromEntries(Object.entries(this.typing).filter(([k]) => !k.startsWith(stepId + ':')));
-    this.steps.replaceParams(stepId, switchMode(op, s.params, mode), 'change how the speed is set');
+    if (this.chain) this.steps.replaceParams(stepId, this.chain.switchMode(op, s.params, mode), 'change how the speed is set');
   };
 
   /** Text being typed that is not a valid value yet, by `stepId:param`. */
@@ -173,16 +180,18 @@ export class Editor {
     this.typing = next;
   };
 
+  /**
+   * Loads the chain's rules (state/chain.ts: the registry's specs, the parameter checks, the
+   * cards' notes) once; every way of adding a step waits for them, so no step exists without them.
+   */
+  loadChain = (): Promise<Chain> => (this.#chainLoading ??= import('./chain.ts').then(
+    (m) => (this.chain = m),
+    (e: unknown) => { this.#chainLoading = null; throw e; },
+  ));
+
   /** What stops each enabled step from rendering, checked before rendering (lib/param-form.ts), by step id. */
   get stepProblems(): Map<string, Map<string, string>> {
-    const out = new Map<string, Map<string, string>>();
-    for (const s of this.steps.steps) {
-      const op = findOperation(s.op);
-      const m = op?.kind === 'correction' ? stepProblems(s.op, op.params, s.params, this.facts) : new Map([['', `“${s.op}” is not available in this version.`]]);
-      for (const [k, v] of Object.entries(this.typing)) if (k.startsWith(s.id + ':')) m.set(k.slice(s.id.length + 1), v);
-      if (m.size) out.set(s.id, m);
-    }
-    return out;
+    return this.chain?.problemsOf(this) ?? new Map();
   }
 
   /** Enabled steps that cannot render as set. */
@@ -192,9 +201,8 @@ export class Editor {
   }
 
   /** What each step card says about time (lib/chain-notes.ts), by step id. */
-  get stepNotes() {
-    const find = (n: string) => { const o = findOperation(n); return o?.kind === 'correction' ? (o as CorrectionOp) : undefined; };
-    return describeSteps(this.steps.steps, this.facts, find, this.reportsById);
+  get stepNotes(): Map<string, StepNote[]> {
+    return this.chain?.notesOf(this) ?? new Map();
   }
 
   /** A marker at the play position (kept in original time). */
@@ -230,7 +238,8 @@ export class Editor {
 
   get sampleRateHz(): number { return this.opened?.layout.sampleRateHz ?? 48000; }
   get channelCount(): number { return this.opened?.layout.channels ?? 1; }
-  get correctionOps() { return correctionChoices(); }
+  /** The corrections "Add a correction…" offers; null until the chain's rules have arrived. */
+  get correctionOps() { return this.chain?.corrections() ?? null; }
   /** The corrected preview no longer matches the steps. */
   get stale(): boolean { return this.corrected !== null && this.corrected.version !== this.steps.version; }
   get correctedMatchDb(): number {
@@ -281,7 +290,8 @@ export class Editor {
     setTimeout(() => (this.notes = this.notes.filter((x) => x.id !== n.id)), tone === 'error' ? 12000 : 6000);
   }
 
-  #track<T>(label: string, start: (progress: (f: number, l: string) => void) => Task<T>): Promise<T> {
+  /** Runs a job with a row (progress, Cancel) in the task strip. */
+  track<T>(label: string, start: (progress: (f: number, l: string) => void) => Task<T>): Promise<T> {
     const id = ++this.#taskId;
     let task: Task<T> | null = null;
     const cancel = () => {
@@ -295,10 +305,12 @@ export class Editor {
     return task.promise.finally(() => (this.tasks = this.tasks.filter((t) => t.id !== id)));
   }
 
-  #fail = (what: string) => (err: unknown) => {
+  /** Reports a failed action in a note, in the editor's words (the fields' names, not command-line flags). */
+  fail = (what: string) => (err: unknown) => {
     if (err instanceof JobError && err.superseded) return;
     if (err instanceof JobError && err.cancelled) { this.note(`${what}: cancelled`); return; }
-    this.note(`${what}: ${editorWords(err instanceof Error ? err.message : String(err), correctionChoices().flatMap((o) => o.params))}`, 'error');
+    const m = err instanceof Error ? err.message : String(err);
+    void this.loadChain().then((c) => c.errorWords(m), () => m).then((t) => this.note(`${what}: ${t}`, 'error'));
   };
 
   /** At start: the recording or session the app was started with, else (unless told not to) the demo. */
@@ -306,8 +318,8 @@ export class Editor {
     try {
       const l = await this.bridge.launched();
       if (l?.kind === 'audio') return await this.open(l.file);
-      if (l?.kind === 'session') return await this.resumeSession(parseSession(l.session.text));
-    } catch (e) { this.#fail('Opening the file the app was started with')(e); return; }
+      if (l?.kind === 'session') { const m = await sessions(); return await m.resumeSession(this, m.parseSession(l.session.text)); }
+    } catch (e) { this.fail('Opening the file the app was started with')(e); return; }
     if (demo) await this.openDemo();
   };
 
@@ -317,7 +329,7 @@ export class Editor {
       const f = await this.bridge.openDemo();
       if (!f) { this.note('No demo recording is installed (run: npm run demo). Open a file instead.', 'warn'); return; }
       await this.open(f);
-    } catch (e) { this.#fail('Opening the demo')(e); }
+    } catch (e) { this.fail('Opening the demo')(e); }
   };
 
   pickFile = async () => {
@@ -325,34 +337,31 @@ export class Editor {
     try {
       const f = await this.bridge.pickAudioFile();
       if (f) await this.open(f);
-    } catch (e) { this.#fail('Opening')(e); }
+    } catch (e) { this.fail('Opening')(e); }
   };
 
-  /** A file dropped on the window (web mode hands the File to the bridge; Electron gives its path). */
+  /**
+   * A file dropped on the window: the bridge says whether it is a recording (opened as if
+   * picked) or a session (opened as if picked from Open session); anything else is refused with
+   * the reason, in place of the recording.
+   */
   openDropped = async (file: File) => {
-    const b = this.bridge as Partial<{ adoptFile(f: File): OpenedFile }>;
-    if (!b.adoptFile) { this.note('Dropping files is not available here: use Open recording.', 'warn'); return; }
-    if (/\.(rwsession|json)$/i.test(file.name)) {
-      try {
-        const s = parseSession(await file.text());
-        if (!(await this.mayDiscard('Opening a session'))) return;
-        this.pendingSession = s;
-      } catch (e) { this.openError = { name: file.name, message: e instanceof Error ? e.message : String(e) }; }
-      return;
-    }
-    if (!(await this.mayDiscard('Opening another recording'))) return;
-    await this.open(b.adoptFile(file));
+    let d;
+    try {
+      d = await this.bridge.dropped(file);
+    } catch (e) { this.openError = { name: file.name, message: openErrorWords(e, file.name) }; return; }
+    // The reason names the file, which the panel's title already does: "notes.txt is neither …" reads "It is neither …".
+    if (d.kind === 'refused') { this.openError = { name: d.name, message: d.reason.startsWith(d.name + ' ') ? `It${d.reason.slice(d.name.length)}` : d.reason }; return; }
+    if (d.kind === 'session') { await (await sessions()).openDropped(this, d.session); return; }
+    if (!(await this.mayDiscard('Opening another recording'))) { void this.bridge.closeFile(d.file.handle).catch(() => {}); return; }
+    await this.open(d.file);
   };
 
   /** Reopens a recent item: a session from its saved text; a recording through the picker (a page cannot reopen a file by name). */
   openRecent = async (r: RecentItem) => {
     if (r.kind === 'session' && r.text) {
       if (!(await this.mayDiscard('Opening a session'))) return;
-      try {
-        const s = parseSession(r.text);
-        if (this.bridge.mode === 'web') this.pendingSession = s;
-        else await this.resumeSession(s);
-      } catch (e) { this.openError = { name: r.name, message: e instanceof Error ? e.message : String(e) }; }
+      await (await sessions()).openRecent(this, r.name, r.text);
       return;
     }
     if (this.bridge.mode === 'web') this.note(`Choose ${r.name} in the file picker: the browser does not let a page reopen a file by itself.`);
@@ -402,7 +411,7 @@ export class Editor {
     this.compareOpen = false;
     this.peaks = null; this.corrected = null; this.diagnosis = null;
     this.spectra = null; this.remeasures = null; this.checksum = null; this.overviewMs = null; this.compared = null;
-    this.#remeasuredFor = null;
+    this.remeasuredFor = null;
     this.sessionWaiting = null;
     if (this.player.which !== 'original') this.player.which = 'original';
     this.steps.reset([]);
@@ -419,7 +428,7 @@ export class Editor {
     const parts = frames > 8 * 1024 * 1024
       ? [{ e: view, s: 0, t: half }, { e: work, s: half, t: frames }]
       : [{ e: view, s: 0, t: frames }];
-    const overview = this.#track('Overview', (p) => {
+    const overview = this.track('Overview', (p) => {
       const fr = parts.map(() => 0);
       const tasks = parts.map((x, i) => x.e.run({ type: 'overview', startFrame: x.s, endFrame: x.t }, { progress: (f) => { fr[i] = f; p(fr.reduce((a, b) => a + b, 0) / parts.length, ''); } }));
       return { promise: Promise.all(tasks.map((t) => t.promise)), cancel: () => tasks.forEach((t) => t.cancel()) };
@@ -433,8 +442,8 @@ export class Editor {
     });
     void overview
       .then(() => (this.work === work ? this.#examine(work) : null))
-      .then(() => this.work === work ? this.#track('Checksum', (p) => work.run({ type: 'checksum' }, { progress: p })) : null)
-      .then((sum) => { if (sum && this.work === work) this.checksum = sum; }, this.#fail('Checksum'));
+      .then(() => this.work === work ? this.track('Checksum', (p) => work.run({ type: 'checksum' }, { progress: p })) : null)
+      .then((sum) => { if (sum && this.work === work) this.checksum = sum; }, this.fail('Checksum'));
     return true;
   }
 
@@ -443,7 +452,7 @@ export class Editor {
     this.diagnosisState = 'running';
     this.diagnosisError = null;
     try {
-      const d = await this.#track('Examining', (p) => work.run({ type: 'diagnose', params: this.analysisParams }, { progress: p }));
+      const d = await this.track('Examining', (p) => work.run({ type: 'diagnose', params: this.analysisParams }, { progress: p }));
       if (this.work !== work) return;
       this.diagnosis = d;
       this.diagnosisState = 'done';
@@ -473,214 +482,33 @@ export class Editor {
     return this.diagnosis?.findings ?? [];
   }
 
-  /** The correction a finding suggests, when the registry has it. */
-  suggestionOf(f: Finding): { op: string; title: string; params: ParamValues } | null {
-    if (!f.suggestion) return null;
-    const op = findOperation(f.suggestion.op);
-    return op && op.kind === 'correction' ? { op: op.name, title: op.title, params: f.suggestion.params } : null;
-  }
+  /** Adds the correction a finding suggests (state/chain.ts places it in the chain). */
+  addFromFinding = async (f: Finding) => { (await this.loadChain()).addFromFinding(this, f); };
 
-  addFromFinding = (f: Finding) => {
-    const s = this.suggestionOf(f);
-    if (!s) return;
-    // Measured on the original: it goes before a step that changes time, so it runs where it was measured.
-    const find = (n: string) => { const o = findOperation(n); return o?.kind === 'correction' ? (o as CorrectionOp) : undefined; };
-    const all = this.steps.steps;
-    const at = placementIndex(all, find(s.op)!, s.params, this.facts, find);
-    this.steps.add(s.op, s.params, { op: f.op, title: f.title }, s.title, at);
-    const next: Step | undefined = all[at];
-    this.note(next
-      ? `Added “${s.title}” before “${find(next.op)?.title ?? next.op}”: it was measured on the original recording, so it runs before the timing changes.`
-      : `Added “${s.title}” with the measured settings.`);
-  };
+  addCorrection = async (name: string) => { (await this.loadChain()).addCorrection(this, name); };
 
-  addCorrection = (name: string) => {
-    const op = findOperation(name);
-    if (!op || op.kind !== 'correction') return;
-    const params: ParamValues = {};
-    for (const p of op.params) if (!p.cliOnly && p.default !== undefined) params[p.name] = p.default as ParamValues[string];
-    this.steps.add(op.name, initialParams(op.name, params), undefined, op.title);
-  };
+  /** Renders the chain over the part a preview covers, then compares (state/render.ts). */
+  preview = async () => { await this.loadChain(); await (await render()).preview(this); };
 
-  /** The part of the recording a preview covers: all of it when it fits, else the selection or the view. */
-  previewRegion(): { startFrame: number; endFrame: number } {
-    const rate = this.sampleRateHz, frames = this.opened?.layout.frames ?? 0;
-    const maxFrames = Math.floor(PREVIEW_MAX_SAMPLES / this.channelCount);
-    if (frames <= maxFrames) return { startFrame: 0, endFrame: frames };
-    const v = this.timeline.selection ?? { start: this.timeline.start, end: this.timeline.end };
-    const a = this.toOriginal(v.start), b = this.toOriginal(v.end);
-    const r = { start: Math.max(0, Math.min(a, b)), end: Math.max(a, b) };
-    const start = Math.round(r.start * rate);
-    return { startFrame: start, endFrame: Math.min(frames, start + Math.min(maxFrames, Math.round((r.end - r.start) * rate))) };
-  }
-
-  #previewTask: Task<PreviewResult> | null = null;
-  preview = async () => {
-    const view = this.view, work = this.work;
-    if (!view || !work || !this.opened) return;
-    this.#previewTask?.cancel();
-    const version = this.steps.version;
-    const steps = this.specs();
-    const region = this.previewRegion();
-    try {
-      const result = await this.#track('Preview', (p) => (this.#previewTask = work.run({ type: 'preview', steps, ...region }, { progress: p, warn: (m) => this.note(m, 'warn') })));
-      if (this.work !== work) return;
-      // The samples go on to the view worker (playback, drawing); the page keeps none of them.
-      const channels = result.channels;
-      const peaks = await view.run({ type: 'adoptProcessed', channels, sampleRateHz: result.sampleRateHz, startFrame: result.startFrame }, { transfer: channels.map((c) => c.buffer) }).promise;
-      const offsetSeconds = result.startFrame / this.sampleRateHz;
-      const old = this.corrected, from = this.base;
-      const next = { peaks, offsetSeconds, preview: { ...result, channels: [] }, version, placement: { offsetSeconds, segments: result.segments } };
-      this.corrected = next;
-      // Listening to the corrected version: stay on the same programme on its new time line.
-      this.#rebase(from, this.base, old, next);
-      for (const w of result.warnings) this.note(w, 'warn');
-      void this.compare();
-    } catch (e) { this.#fail('Preview')(e); }
-  };
-
-  /**
-   * Spectra before and after over the same material (the selection, else the previewed part),
-   * each on its own time line, then every step measured again on its own input and output.
-   */
-  compare = async () => {
-    const work = this.work;
-    if (!work || !this.opened) return;
-    const rate = this.sampleRateHz;
-    const c = this.corrected;
-    const r = c ? { start: c.preview.startFrame / rate, end: c.preview.endFrame / rate } : { start: 0, end: this.opened.layout.frames / rate };
-    const sel = this.timeline.selection;
-    const selOrig = sel ? [this.toOriginal(sel.start), this.toOriginal(sel.end)].sort((x, y) => x - y) as [number, number] : null;
-    const inside = selOrig !== null && selOrig[0] >= r.start - 1e-6 && selOrig[1] <= r.end + 1e-6;
-    const original = inside ? { start: selOrig[0], end: selOrig[1] } : r;
-    const m = c ? [toCorrected(c.placement, original.start), toCorrected(c.placement, original.end)].sort((x, y) => x - y) : null;
-    const corrected = m ? { start: m[0]!, end: m[1]! } : null;
-    this.compared = { what: inside ? 'selection' : 'previewed part', original, corrected };
-    const steps = this.specs();
-    try {
-      this.spectra = await this.#track('Spectra', (p) => work.run({
-        type: 'spectra', startFrame: Math.round(original.start * rate), endFrame: Math.round(original.end * rate),
-        ...(corrected ? { afterStartSeconds: corrected.start, afterEndSeconds: corrected.end } : {}),
-      }, { progress: p }));
-      // Each step is measured again over the whole preview, once per rendering (a new selection changes only the spectra).
-      const c2 = this.corrected;
-      if (c2 && this.#remeasuredFor !== c2) {
-        this.remeasures = null;
-        const r = await this.#track('Re-measuring', (p) => work.run({ type: 'remeasure', steps }, { progress: p }));
-        if (this.corrected === c2) { this.remeasures = r; this.#remeasuredFor = c2; }
-      }
-    } catch (e) { this.#fail('Compare')(e); }
-  };
-  #remeasuredFor: unknown = null;
-
-  exportTo = async (name: string, format: ExportFormat): Promise<boolean> => {
-    const work = this.work, f = this.file;
-    if (!work || !f) return false;
-    let target;
-    try {
-      target = await this.bridge.beginExport(name, f.handle);
-    } catch (e) { this.#fail('Export')(e); return false; }
-    if (!target) return false;
-    const steps = this.specs();
-    const markers = this.markers.list;
-    try {
-      const r = await this.#track('Export', (p) => (this.#exportTask = work.run({ type: 'export', steps, format, target: target.handle, description: `Restored from ${f.name}`, markers }, { progress: p })));
-      this.#exportTask = null;
-      const done = await this.bridge.finishExport(target.handle);
-      const cues = r.cuePoints ? `, ${r.cuePoints} marker${r.cuePoints === 1 ? '' : 's'} as cue points` : '';
-      this.note(`Exported ${done.name} (${r.container}, ${(done.bytes / 1e6).toFixed(1)} MB, ${steps.length} step${steps.length === 1 ? '' : 's'} in its history${cues}).`);
-      return true;
-    } catch (e) {
-      this.#exportTask = null;
-      await this.bridge.abortExport(target.handle).catch(() => {});
-      if (e instanceof JobError && e.cancelled && !e.superseded) this.note('Export cancelled: nothing was written.');
-      else this.#fail('Export')(e);
-      return false;
-    }
-  };
+  /** Spectra before and after, and every step measured again (state/render.ts). */
+  compare = async () => { await (await render()).compare(this); };
 
   /** Stops the export under way; the bridge removes what it had written. */
-  cancelExport = () => { this.#exportTask?.cancel(); };
+  cancelExport = () => { this.exportTask?.cancel(); };
 
-  saveSession = async (): Promise<boolean> => {
-    if (!this.file) return false;
-    if (!this.checksum) { this.note('The checksum is still being computed; try again in a moment.', 'warn'); return false; }
-    const version = this.steps.version;
-    const text = sessionText({ name: this.file.name, path: this.file.path, sizeBytes: this.file.sizeBytes, audioMd5: this.checksum }, this.steps.steps, this.markers.list);
-    try {
-      const saved = await this.bridge.saveSession(text, this.file.name.replace(/\.[^.]+$/, '') + '.rwsession');
-      if (saved) {
-        this.note(`Session saved as ${saved.name}.`);
-        this.savedVersion = version;
-        rememberRecent({ kind: 'session', name: saved.name, path: saved.path, sizeBytes: 0, text });
-        return true;
-      }
-      return false;
-    } catch (e) { this.#fail('Saving the session')(e); return false; }
-  };
+  /** Saves the steps and markers in a session file (state/sessions.ts). */
+  saveSession = async (): Promise<boolean> => (await sessions()).saveSession(this);
 
   /** A session waiting for its recording (web mode asks the user to pick it: a picker needs a click). */
   pendingSession = $state.raw<Session | null>(null);
 
   openSession = async () => {
     if (!(await this.mayDiscard('Opening a session'))) return;
-    try {
-      const t = await this.bridge.openSession();
-      if (!t) return;
-      const s = parseSession(t.text);
-      rememberRecent({ kind: 'session', name: t.name, path: t.path, sizeBytes: 0, text: t.text });
-      if (this.bridge.mode === 'web') this.pendingSession = s;
-      else await this.resumeSession(s);
-    } catch (e) { this.#fail('Opening the session')(e); }
+    await (await sessions()).openSession(this);
   };
 
-  /**
-   * Opens a session's recording; its steps and markers are applied only once the recording's
-   * checksum matches the session's, or after the user says to apply them to a different one.
-   */
-  resumeSession = async (s: Session) => {
-    this.pendingSession = null;
-    try {
-      const f = await this.bridge.reopenSource(s.source.path, s.source.name);
-      if (!f) return;
-      if (!(await this.open(f))) return;
-      this.sessionWaiting = s;
-      const work = this.work;
-      if (f.sizeBytes !== s.source.sizeBytes) { void this.#sessionMismatch(s, f.name, `its size differs (${f.sizeBytes} bytes; the session's recording had ${s.source.sizeBytes})`); return; }
-      const check = setInterval(() => {
-        if (this.work !== work || this.sessionWaiting !== s) { clearInterval(check); return; }
-        if (!this.checksum) return;
-        clearInterval(check);
-        if (this.checksum !== s.source.audioMd5) void this.#sessionMismatch(s, f.name, 'the checksum of its audio differs');
-        else this.#applySession(s, `Session reopened: ${s.steps.length} step${s.steps.length === 1 ? '' : 's'} on ${f.name}; checksum matches.`);
-      }, 250);
-    } catch (e) { this.#fail('Opening the session')(e); }
-  };
-
-  #applySession(s: Session, message: string): void {
-    this.sessionWaiting = null;
-    this.steps.reset(s.steps);
-    this.markers.reset(s.markers);
-    this.savedVersion = this.steps.version;
-    this.note(message);
-  }
-
-  async #sessionMismatch(s: Session, name: string, why: string): Promise<void> {
-    const work = this.work;
-    const a = await this.ask({
-      title: 'A different recording',
-      text: `${name} is not the recording this session was made on: ${why}. Its ${s.steps.length} correction${s.steps.length === 1 ? '' : 's'} and ${s.markers.length} marker${s.markers.length === 1 ? '' : 's'} were measured on ${s.source.name} and may be wrong here.`,
-      choices: [
-        { label: 'Do not apply them', value: 'no' },
-        { label: 'Apply them anyway', value: 'apply', primary: true },
-      ],
-      cancel: 'no',
-      testid: 'mismatch-dialog',
-    });
-    if (this.work !== work || this.sessionWaiting !== s) return;
-    if (a === 'apply') this.#applySession(s, `Session applied to ${name}, which is not its recording.`);
-    else { this.sessionWaiting = null; this.note(`The session's corrections were not applied to ${name}.`, 'warn'); }
-  }
+  /** Opens a session's recording and applies its steps once the checksum matches (state/sessions.ts). */
+  resumeSession = async (s: Session) => { await (await sessions()).resumeSession(this, s); };
 }
 
 /** An open failure in words: the reader's one line without a leading copy of the file name. */
