@@ -244,8 +244,11 @@ export class FftPlan {
   readonly #half: Radix4Tables;
   /** ½·e^{−j2πk/N} for k = 0…N/4, interleaved (the split step of the real transforms). */
   readonly #split: Float64Array;
-  /** Scratch of N numbers for inputs that are not Float64Arrays or share memory with the output. */
-  readonly #scratch: Float64Array;
+  /**
+   * Scratch of N numbers for inputs that are not Float64Arrays or overlap the output, and for
+   * realInverse without a work array; made on first use (a 2^21-point plan's is 16 MB).
+   */
+  #scratchArray: Float64Array | null = null;
   /** Second scratch of N numbers (realInverseAdd on the TypeScript kernels), made on first use. */
   #scratch2: Float64Array | null = null;
   readonly #wasm: WasmPlan | null;
@@ -261,7 +264,6 @@ export class FftPlan {
       this.#split[2 * k] = 0.5 * Math.cos(ang);
       this.#split[2 * k + 1] = -0.5 * Math.sin(ang);
     }
-    this.#scratch = new Float64Array(size);
     this.kernels = fftKernelsFor(size);
     this.#wasm = null;
     if (this.kernels === 'wasm-simd') {
@@ -322,6 +324,10 @@ export class FftPlan {
     for (let i = 0; i < n2; i++) out[i]! *= s;
   }
 
+  get #scratch(): Float64Array {
+    return (this.#scratchArray ??= new Float64Array(this.size));
+  }
+
   #fullTables(): Radix4Tables {
     return (this.#full ??= tablesFor(this.size));
   }
@@ -338,7 +344,7 @@ export class FftPlan {
       return;
     }
     let x: Float64Array;
-    if (input instanceof Float64Array && input.buffer !== out.buffer) x = input;
+    if (input instanceof Float64Array && !overlaps(input, n, out)) x = input;
     else {
       x = this.#scratch;
       for (let i = 0; i < n; i++) x[i] = input[i]!;
@@ -383,8 +389,10 @@ export class FftPlan {
    * signal, `out` receives N samples. Uses one N/2-point complex transform: with
    * E[k] = (X[k] + X*[N/2−k])/2 and O[k] = (X[k] − X*[N/2−k])/2 · e^{+j2πk/N},
    * IDFT_{N/2}(E + jO) = x[2n] + j·x[2n+1].
+   * `work` (N numbers, not overlapping `spectrum` or `out`) is used in place of the plan's own
+   * scratch by the TypeScript kernels; its contents are overwritten. Same numbers either way.
    */
-  realInverse(spectrum: Float64Array, out: Float64Array): void {
+  realInverse(spectrum: Float64Array, out: Float64Array, work?: Float64Array): void {
     const n = this.size;
     if (this.#wasm) {
       const w = this.#w(), f = w.fft;
@@ -400,7 +408,7 @@ export class FftPlan {
       out[1] = (a - b) / 2;
       return;
     }
-    const z = this.#scratch;
+    const z = work && work.length >= n ? work : this.#scratch;
     joinInverse(spectrum, z, this.#split, n);
     complexTransform(z, out, this.#half, true);
   }
@@ -437,6 +445,13 @@ export class FftPlan {
   createHalfSpectrum(): Float64Array {
     return new Float64Array(this.size + 2);
   }
+}
+
+/** Whether a[0…count) and b share any memory. */
+function overlaps(a: Float64Array, count: number, b: Float64Array): boolean {
+  if (a.buffer !== b.buffer) return false;
+  const a0 = a.byteOffset, a1 = a0 + 8 * count, b0 = b.byteOffset, b1 = b0 + b.byteLength;
+  return a0 < b1 && b0 < a1;
 }
 
 /** Copies the first `count` numbers of `src` into heap[at…]. */
@@ -510,7 +525,7 @@ function joinInverse(x: Float64Array, z: Float64Array, half: Float64Array, n: nu
 const planCache = new Map<number, FftPlan>();
 /**
  * A shared plan for one-off, non-hot-path transforms. Hot loops should own their plan
- * (plans are not re-entrant).
+ * (plans are not re-entrant). Plans are kept until releaseSharedPlans().
  */
 export function sharedPlan(size: number): FftPlan {
   let p = planCache.get(size);
@@ -615,3 +630,13 @@ export class AnySizeFft {
 
 /** Squared magnitude of bin k of an interleaved spectrum. */
 export const binPower = (spec: Float64Array, k: number): number => spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2;
+
+/**
+ * Lets the shared plans of `minSize` points or more go, with the tables only they use (the end of
+ * an analysis that made one-off transforms of millions of points: a 2^21-point plan holds about
+ * 40 MB). Plans already handed out keep working; the next sharedPlan() of that size makes a new one.
+ */
+export function releaseSharedPlans(minSize: number): void {
+  for (const size of [...planCache.keys()]) if (size >= minSize) planCache.delete(size);
+  for (const m of [...tableCache.keys()]) if (2 * m >= minSize) tableCache.delete(m);
+}

@@ -82,14 +82,17 @@ function extract(c: Float64Array, windows: readonly FitWindow[], out: Float64Arr
 
 const countPoints = (windows: readonly FitWindow[]) => windows.reduce((a, w) => a + w.hi - w.lo + 1, 0);
 
-/** Real cepstrum (length N) of a half spectrum of real values k = 0…N/2, mirrored. */
-function realCepstrum(half: Float64Array, plan: FftPlan, spec: Float64Array, out: Float64Array): void {
+/**
+ * Real cepstrum (length N) of a half spectrum of real values k = 0…N/2, mirrored. `work` (N
+ * numbers, overwritten) saves the plan its own scratch.
+ */
+function realCepstrum(half: Float64Array, plan: FftPlan, spec: Float64Array, out: Float64Array, work?: Float64Array): void {
   const n = plan.size;
   for (let k = 0; k <= n / 2; k++) {
     spec[2 * k] = half[k]!;
     spec[2 * k + 1] = 0;
   }
-  plan.realInverse(spec, out);
+  plan.realInverse(spec, out, work);
 }
 
 /**
@@ -292,7 +295,7 @@ export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKern
     for (let k = 0; k <= n / 2; k++) half[k] = half[k]! + lp[k]!;
   }
   const out = into ?? new Float64Array(n);
-  realCepstrum(half, plan, s.spectrum, out);
+  realCepstrum(half, plan, s.spectrum, out, s.samples); // (samples is free again here)
   return out;
 }
 
