@@ -291,7 +291,8 @@ export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKern
   const half = s.half;
   half.set(meanLog.subarray(0, n / 2 + 1));
   if (kernel) {
-    const lp = echoFactorLogPower(kernel, plan, s.logPower);
+    // Into the kernel's own buffer, free once it is transformed (one array of N/2 + 1 less).
+    const lp = echoFactorLogPower(kernel, plan, s.samples.subarray(0, n / 2 + 1));
     for (let k = 0; k <= n / 2; k++) half[k] = half[k]! + lp[k]!;
   }
   const out = into ?? new Float64Array(n);
@@ -310,18 +311,16 @@ export interface FitScratch {
   samples: Float64Array;
   spectrum: Float64Array;
   half: Float64Array;
-  logPower: Float64Array;
 }
 let scratch: { n: number; buffer: Float64Array } | null = null;
 export function scratchFor(plan: FftPlan): FitScratch {
   const n = plan.size;
-  if (!scratch || scratch.n < n) scratch = { n, buffer: new Float64Array(3 * n + 4) };
+  if (!scratch || scratch.n < n) scratch = { n, buffer: new Float64Array(2 * n + 2 + n / 2 + 1) };
   const b = scratch.buffer;
   return {
     samples: b.subarray(0, n),
     spectrum: b.subarray(n, 2 * n + 2),
     half: b.subarray(2 * n + 2, 2 * n + 2 + n / 2 + 1),
-    logPower: b.subarray(2 * n + 2 + n / 2 + 1, 3 * n + 4),
   };
 }
 

@@ -148,9 +148,12 @@ export async function cancelledCepstrum(
   const n = framing.fftSize;
   const canceller = kernel ? new EchoCanceller(kernel) : null;
   let meanLog: Float64Array;
+  /** Whole framing: the excerpt's array, which then holds its mean log spectrum, then the cepstrum. */
+  let whole: Float64Array | null = null;
   if (framing.whole) {
     const buf = work?.samples?.length === n ? work.samples.fill(0) : new Float64Array(n);
     if (work) work.samples = buf;
+    whole = buf;
     let at = -(start - from);
     for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
       if (options.signal?.aborted) return null;
@@ -213,9 +216,12 @@ export async function cancelledCepstrum(
     if (options.signal?.aborted || acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
-  const cep = work?.cepstrum?.length === n ? work.cepstrum : undefined;
+  // (undoCancellationCepstrum has copied the mean log spectrum before it writes the cepstrum, so
+  // in the whole framing the cepstrum can take the excerpt's array: 16 MB less at 2^21. It is
+  // read before the next pass fills that array again.)
+  const cep = whole ?? (work?.cepstrum?.length === n ? work.cepstrum : undefined);
   const out = undoCancellationCepstrum(meanLog, undo ? kernel : null, plan, cep);
-  if (work) work.cepstrum = out;
+  if (work && !whole) work.cepstrum = out;
   return out;
 }
 
