@@ -31,6 +31,16 @@ export const nextPowerOfTwo = (n: number): number => {
 };
 
 /**
+ * Complex transforms above this many points keep twiddle tables only for their stages of quarter
+ * span ≤ TABLED_QUARTER_SPAN; the later stages evaluate their twiddles as they go, with the same
+ * expression as the table (so the same numbers). A table for 2^20 points would hold 16 MB, and
+ * only one-off transforms of whole excerpts are that large; it costs them a few cos/sin per group
+ * of butterflies. (Plans on the WebAssembly kernels are far smaller and keep full tables.)
+ */
+const TABLED_POINTS = 1 << 16;
+const TABLED_QUARTER_SPAN = 1 << 10;
+
+/**
  * Read-only tables for complex transforms of m points (m a power of two ≥ 1), shared by every
  * plan that needs them.
  */
@@ -43,6 +53,7 @@ class Radix4Tables {
   /**
    * Twiddles of the radix-4 stages, stage after stage (quarter span q = firstRadix, 4·firstRadix,
    * …, m/4), for k = 0…q−1: W^k, W^{2k}, W^{3k} with W = e^{∓j2π/(4q)}, interleaved (6 numbers).
+   * Above TABLED_POINTS only the stages up to TABLED_QUARTER_SPAN are here.
    */
   readonly forwardTwiddles: Float64Array;
   #inverse: Float64Array | null = null;
@@ -61,10 +72,13 @@ class Radix4Tables {
       this.bitrev[g] = 2 * r;
     }
     let total = 0;
-    for (let q = this.firstRadix; 4 * q <= m; q *= 4) total += 6 * q;
+    for (let q = this.firstRadix; 4 * q <= m; q *= 4) {
+      if (m > TABLED_POINTS && q > TABLED_QUARTER_SPAN) break;
+      total += 6 * q;
+    }
     this.forwardTwiddles = new Float64Array(total);
     let at = 0;
-    for (let q = this.firstRadix; 4 * q <= m; q *= 4) {
+    for (let q = this.firstRadix; 4 * q <= m && at < total; q *= 4) {
       const span = 4 * q;
       for (let k = 0; k < q; k++) {
         for (let p = 1; p <= 3; p++) {
@@ -163,8 +177,18 @@ function complexTransform(src: Float64Array, dst: Float64Array, t: Radix4Tables,
   for (let q = radix; 4 * q <= t.m; q *= 4) {
     const q2 = 2 * q, span = 8 * q;
     const o1 = inverse ? 3 * q2 : q2, o3 = inverse ? q2 : 3 * q2;
+    const tabled = base + 6 * q <= tw.length;
+    const span4 = 4 * q;
     for (let k = 0, w = base; k < q2; k += 2, w += 6) {
-      const w1r = tw[w]!, w1i = sg * tw[w + 1]!, w2r = tw[w + 2]!, w2i = sg * tw[w + 3]!, w3r = tw[w + 4]!, w3i = sg * tw[w + 5]!;
+      let w1r: number, w1i: number, w2r: number, w2i: number, w3r: number, w3i: number;
+      if (tabled) {
+        w1r = tw[w]!; w1i = sg * tw[w + 1]!; w2r = tw[w + 2]!; w2i = sg * tw[w + 3]!; w3r = tw[w + 4]!; w3i = sg * tw[w + 5]!;
+      } else {
+        // The table's expressions (Radix4Tables), evaluated here.
+        const kk = k >> 1;
+        const a1 = (2 * Math.PI * 1 * kk) / span4, a2 = (2 * Math.PI * 2 * kk) / span4, a3 = (2 * Math.PI * 3 * kk) / span4;
+        w1r = Math.cos(a1); w1i = sg * -Math.sin(a1); w2r = Math.cos(a2); w2i = sg * -Math.sin(a2); w3r = Math.cos(a3); w3i = sg * -Math.sin(a3);
+      }
       for (let i0 = k; i0 < m2; i0 += span) {
         const i1 = (i0 + q2) | 0, i2 = (i1 + q2) | 0, i3 = (i2 + q2) | 0;
         const x1r = dst[i1]!, x1i = dst[(i1 + 1) | 0]!;
