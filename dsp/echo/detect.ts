@@ -2,8 +2,9 @@
  * Echo analysis: one strong reflection (0.5–500 ms after the direct sound) and print-through
  * (a faint copy 0.3–4 s before or after loud passages).
  *
- * Pass 1 (whole file, streaming): averaged log spectra at three frame lengths (coarse.ts) and a
- * decimated copy (≈ 4 kHz) for the print-through search (print-through.ts).
+ * Pass 1 (whole file, streaming): averaged log spectra at three frame lengths (coarse.ts). The
+ * decimated copy (≈ 4 kHz) for the print-through search (print-through.ts) is collected in a
+ * pass of its own after the reflection's refinement, so the two never hold memory at once.
  * Reflection: cepstral peak search → closed-form fit of the echo ripple on the coarse scale →
  * iterative cancel-and-measure refinement on an excerpt of at most `refineSeconds` (refine.ts) →
  * a check for a frequency-dependent reflection (a short filter around τ, filter.ts).
@@ -229,7 +230,6 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   let coarse: CoarseEchoSearch | null = new CoarseEchoSearch(fs, minLag, maxLag, source.frames);
   const duration = source.frames / fs;
   const wantPt = (options.printThrough ?? true) && duration >= 4 * PRINT_THROUGH_RANGE_SECONDS[0];
-  const pt = wantPt ? new PrintThroughCollector(fs, source.frames) : null;
   const energies: number[] = [];
   let secondAcc = 0, secondFill = 0;
   const secondLen = Math.round(fs);
@@ -240,7 +240,6 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
     const mono = mixBlock(block, channel);
     coarse!.push(mono);
-    pt?.push(mono);
     for (let i = 0; i < mono.length; i++) {
       secondAcc += mono[i]! * mono[i]!;
       if (++secondFill === secondLen) {
@@ -409,10 +408,13 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
 
   // --- Print-through.
   let printThrough = noPrintThrough();
-  if (pt) {
+  if (wantPt) {
+    // The decimated copy (≈ 4 kHz, Float32: 58 MB per hour) is collected here, in one more
+    // streaming pass, not during pass 1: kept through the reflection's refinement it added to
+    // that stage's transforms (the peak of `check` on a 1-hour file). The copy is the same.
+    const pt = new PrintThroughCollector(fs, source.frames);
     const rate = pt.rateHz;
-    let stream = pt.stream();
-    // A reflection found above is cancelled first, at the full rate, in one more streaming pass
+    // A reflection found above is cancelled first, at the full rate, in the same pass
     // (cancelling on the decimated stream instead leaves aliased copies that pass for
     // print-through), so that its copy of the loud passages in the quiet ones does not pass for
     // print-through; multiples k·τ, where a slightly imperfect cancellation leaves a decaying
@@ -420,18 +422,18 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     // cancellation: the search only looks below ≈ 2 kHz (8 taps are accurate to −60 dB there) and
     // the refinement mostly where the voice is (16 taps).
     let fullRateCancel: EchoKernel | null = null;
+    let canceller: EchoCanceller | null = null;
     if (reflection.present && reflection.delaySeconds !== null && reflection.gain !== null) {
       const filterKernel = reflection.filter ? { offset: reflection.filter.firstTapSamples, taps: Float64Array.from(reflection.filter.taps) } : null;
       fullRateCancel = filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 8);
-      const canceller = new EchoCanceller(filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 4));
-      pt.restart(); // the same memory (and the same steps as a new collector)
-      for await (const block of source.blocks()) {
-        if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-        const mono = mixBlock(block, channel);
-        pt.push(canceller.process(mono, mono));
-      }
-      stream = pt.stream();
+      canceller = new EchoCanceller(filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 4));
     }
+    for await (const block of source.blocks()) {
+      if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
+      const mono = mixBlock(block, channel);
+      pt.push(canceller ? canceller.process(mono, mono) : mono);
+    }
+    const stream = pt.stream();
     const maxPt = Math.min(PRINT_THROUGH_RANGE_SECONDS[1], duration / 4);
     const exclude: Array<[number, number]> = [];
     if (reflection.present && reflection.delaySeconds !== null && reflection.gain !== null) {
