@@ -31,6 +31,16 @@ export const nextPowerOfTwo = (n: number): number => {
 };
 
 /**
+ * Complex transforms above this many points keep twiddle tables only for their stages of quarter
+ * span ≤ TABLED_QUARTER_SPAN; the later stages evaluate their twiddles as they go, with the same
+ * expression as the table (so the same numbers). A table for 2^20 points would hold 16 MB, and
+ * only one-off transforms of whole excerpts are that large; it costs them a few cos/sin per group
+ * of butterflies. (Plans on the WebAssembly kernels are far smaller and keep full tables.)
+ */
+const TABLED_POINTS = 1 << 16;
+const TABLED_QUARTER_SPAN = 1 << 10;
+
+/**
  * Read-only tables for complex transforms of m points (m a power of two ≥ 1), shared by every
  * plan that needs them.
  */
@@ -43,6 +53,7 @@ class Radix4Tables {
   /**
    * Twiddles of the radix-4 stages, stage after stage (quarter span q = firstRadix, 4·firstRadix,
    * …, m/4), for k = 0…q−1: W^k, W^{2k}, W^{3k} with W = e^{∓j2π/(4q)}, interleaved (6 numbers).
+   * Above TABLED_POINTS only the stages up to TABLED_QUARTER_SPAN are here.
    */
   readonly forwardTwiddles: Float64Array;
   #inverse: Float64Array | null = null;
@@ -61,10 +72,13 @@ class Radix4Tables {
       this.bitrev[g] = 2 * r;
     }
     let total = 0;
-    for (let q = this.firstRadix; 4 * q <= m; q *= 4) total += 6 * q;
+    for (let q = this.firstRadix; 4 * q <= m; q *= 4) {
+      if (m > TABLED_POINTS && q > TABLED_QUARTER_SPAN) break;
+      total += 6 * q;
+    }
     this.forwardTwiddles = new Float64Array(total);
     let at = 0;
-    for (let q = this.firstRadix; 4 * q <= m; q *= 4) {
+    for (let q = this.firstRadix; 4 * q <= m && at < total; q *= 4) {
       const span = 4 * q;
       for (let k = 0; k < q; k++) {
         for (let p = 1; p <= 3; p++) {
@@ -163,8 +177,18 @@ function complexTransform(src: Float64Array, dst: Float64Array, t: Radix4Tables,
   for (let q = radix; 4 * q <= t.m; q *= 4) {
     const q2 = 2 * q, span = 8 * q;
     const o1 = inverse ? 3 * q2 : q2, o3 = inverse ? q2 : 3 * q2;
+    const tabled = base + 6 * q <= tw.length;
+    const span4 = 4 * q;
     for (let k = 0, w = base; k < q2; k += 2, w += 6) {
-      const w1r = tw[w]!, w1i = sg * tw[w + 1]!, w2r = tw[w + 2]!, w2i = sg * tw[w + 3]!, w3r = tw[w + 4]!, w3i = sg * tw[w + 5]!;
+      let w1r: number, w1i: number, w2r: number, w2i: number, w3r: number, w3i: number;
+      if (tabled) {
+        w1r = tw[w]!; w1i = sg * tw[w + 1]!; w2r = tw[w + 2]!; w2i = sg * tw[w + 3]!; w3r = tw[w + 4]!; w3i = sg * tw[w + 5]!;
+      } else {
+        // The table's expressions (Radix4Tables), evaluated here.
+        const kk = k >> 1;
+        const a1 = (2 * Math.PI * 1 * kk) / span4, a2 = (2 * Math.PI * 2 * kk) / span4, a3 = (2 * Math.PI * 3 * kk) / span4;
+        w1r = Math.cos(a1); w1i = sg * -Math.sin(a1); w2r = Math.cos(a2); w2i = sg * -Math.sin(a2); w3r = Math.cos(a3); w3i = sg * -Math.sin(a3);
+      }
       for (let i0 = k; i0 < m2; i0 += span) {
         const i1 = (i0 + q2) | 0, i2 = (i1 + q2) | 0, i3 = (i2 + q2) | 0;
         const x1r = dst[i1]!, x1i = dst[(i1 + 1) | 0]!;
@@ -244,8 +268,11 @@ export class FftPlan {
   readonly #half: Radix4Tables;
   /** ½·e^{−j2πk/N} for k = 0…N/4, interleaved (the split step of the real transforms). */
   readonly #split: Float64Array;
-  /** Scratch of N numbers for inputs that are not Float64Arrays or share memory with the output. */
-  readonly #scratch: Float64Array;
+  /**
+   * Scratch of N numbers for inputs that are not Float64Arrays or overlap the output, and for
+   * realInverse without a work array; made on first use (a 2^21-point plan's is 16 MB).
+   */
+  #scratchArray: Float64Array | null = null;
   /** Second scratch of N numbers (realInverseAdd on the TypeScript kernels), made on first use. */
   #scratch2: Float64Array | null = null;
   readonly #wasm: WasmPlan | null;
@@ -261,7 +288,6 @@ export class FftPlan {
       this.#split[2 * k] = 0.5 * Math.cos(ang);
       this.#split[2 * k + 1] = -0.5 * Math.sin(ang);
     }
-    this.#scratch = new Float64Array(size);
     this.kernels = fftKernelsFor(size);
     this.#wasm = null;
     if (this.kernels === 'wasm-simd') {
@@ -322,6 +348,10 @@ export class FftPlan {
     for (let i = 0; i < n2; i++) out[i]! *= s;
   }
 
+  get #scratch(): Float64Array {
+    return (this.#scratchArray ??= new Float64Array(this.size));
+  }
+
   #fullTables(): Radix4Tables {
     return (this.#full ??= tablesFor(this.size));
   }
@@ -338,7 +368,7 @@ export class FftPlan {
       return;
     }
     let x: Float64Array;
-    if (input instanceof Float64Array && input.buffer !== out.buffer) x = input;
+    if (input instanceof Float64Array && !overlaps(input, n, out)) x = input;
     else {
       x = this.#scratch;
       for (let i = 0; i < n; i++) x[i] = input[i]!;
@@ -383,8 +413,10 @@ export class FftPlan {
    * signal, `out` receives N samples. Uses one N/2-point complex transform: with
    * E[k] = (X[k] + X*[N/2−k])/2 and O[k] = (X[k] − X*[N/2−k])/2 · e^{+j2πk/N},
    * IDFT_{N/2}(E + jO) = x[2n] + j·x[2n+1].
+   * `work` (N numbers, not overlapping `spectrum` or `out`) is used in place of the plan's own
+   * scratch by the TypeScript kernels; its contents are overwritten. Same numbers either way.
    */
-  realInverse(spectrum: Float64Array, out: Float64Array): void {
+  realInverse(spectrum: Float64Array, out: Float64Array, work?: Float64Array): void {
     const n = this.size;
     if (this.#wasm) {
       const w = this.#w(), f = w.fft;
@@ -400,7 +432,7 @@ export class FftPlan {
       out[1] = (a - b) / 2;
       return;
     }
-    const z = this.#scratch;
+    const z = work && work.length >= n ? work : this.#scratch;
     joinInverse(spectrum, z, this.#split, n);
     complexTransform(z, out, this.#half, true);
   }
@@ -437,6 +469,13 @@ export class FftPlan {
   createHalfSpectrum(): Float64Array {
     return new Float64Array(this.size + 2);
   }
+}
+
+/** Whether a[0…count) and b share any memory. */
+function overlaps(a: Float64Array, count: number, b: Float64Array): boolean {
+  if (a.buffer !== b.buffer) return false;
+  const a0 = a.byteOffset, a1 = a0 + 8 * count, b0 = b.byteOffset, b1 = b0 + b.byteLength;
+  return a0 < b1 && b0 < a1;
 }
 
 /** Copies the first `count` numbers of `src` into heap[at…]. */
@@ -510,7 +549,7 @@ function joinInverse(x: Float64Array, z: Float64Array, half: Float64Array, n: nu
 const planCache = new Map<number, FftPlan>();
 /**
  * A shared plan for one-off, non-hot-path transforms. Hot loops should own their plan
- * (plans are not re-entrant).
+ * (plans are not re-entrant). Plans are kept until releaseSharedPlans().
  */
 export function sharedPlan(size: number): FftPlan {
   let p = planCache.get(size);
@@ -615,3 +654,13 @@ export class AnySizeFft {
 
 /** Squared magnitude of bin k of an interleaved spectrum. */
 export const binPower = (spec: Float64Array, k: number): number => spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2;
+
+/**
+ * Lets the shared plans of `minSize` points or more go, with the tables only they use (the end of
+ * an analysis that made one-off transforms of millions of points: a 2^21-point plan holds about
+ * 40 MB). Plans already handed out keep working; the next sharedPlan() of that size makes a new one.
+ */
+export function releaseSharedPlans(minSize: number): void {
+  for (const size of [...planCache.keys()]) if (size >= minSize) planCache.delete(size);
+  for (const m of [...tableCache.keys()]) if (2 * m >= minSize) tableCache.delete(m);
+}

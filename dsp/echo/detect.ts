@@ -2,8 +2,9 @@
  * Echo analysis: one strong reflection (0.5–500 ms after the direct sound) and print-through
  * (a faint copy 0.3–4 s before or after loud passages).
  *
- * Pass 1 (whole file, streaming): averaged log spectra at three frame lengths (coarse.ts) and a
- * decimated copy (≈ 4 kHz) for the print-through search (print-through.ts).
+ * Pass 1 (whole file, streaming): averaged log spectra at three frame lengths (coarse.ts). The
+ * decimated copy (≈ 4 kHz) for the print-through search (print-through.ts) is collected in a
+ * pass of its own after the reflection's refinement, so the two never hold memory at once.
  * Reflection: cepstral peak search → closed-form fit of the echo ripple on the coarse scale →
  * iterative cancel-and-measure refinement on an excerpt of at most `refineSeconds` (refine.ts) →
  * a check for a frequency-dependent reflection (a short filter around τ, filter.ts).
@@ -31,6 +32,7 @@ import { type FrameEvidence, frameEvidence } from './evidence.ts';
 import { fitReflectionFilter } from './filter.ts';
 import { fitSingleEcho, releaseFitScratch } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
+import { releaseSharedPlans } from '../core/fft.ts';
 import { mixBlock } from './mix.ts';
 import { PrintThroughCollector, refinePrintThrough, searchPrintThrough, type LagCandidate } from './print-through.ts';
 import { type Excerpt, MAX_CANCEL_GAIN, quietAndLoudGains, refineSingleEcho } from './refine.ts';
@@ -44,6 +46,16 @@ export const PRINT_THROUGH_RANGE_SECONDS: readonly [number, number] = [0.3, 4];
  */
 export const PRINT_THROUGH_MAX_DB = -30;
 export const PRINT_THROUGH_MIN_DB = -80;
+
+/**
+ * Longest refinement excerpt in frames (2^21: 21.8 s at 96 kHz, so the default 20 s up to there;
+ * 10.9 s at 192 kHz, 5.5 s at 384 kHz). The refinement's transforms grow with the excerpt (one
+ * frame of the whole excerpt for long delays and strong echoes; frames up to half of it
+ * otherwise), so this bounds the echo analysis's memory at any sample rate: at 2^21 the largest
+ * transform is 2^21 points. At 384 kHz a 20 s excerpt took a 2^23-point transform and `diagnose`
+ * 582 MB.
+ */
+export const MAX_REFINE_FRAMES = 1 << 21;
 
 export interface EchoAnalysisOptions {
   /** Reflection search range in seconds (positive delays). Default 0.5–500 ms, shortened with a warning on short files. */
@@ -215,10 +227,9 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   }
   const [rangeLo, rangeHi] = resolveRange(source, options.rangeSeconds, warn);
   const minLag = rangeLo * fs, maxLag = rangeHi * fs;
-  const coarse = new CoarseEchoSearch(fs, minLag, maxLag, source.frames);
+  let coarse: CoarseEchoSearch | null = new CoarseEchoSearch(fs, minLag, maxLag, source.frames);
   const duration = source.frames / fs;
   const wantPt = (options.printThrough ?? true) && duration >= 4 * PRINT_THROUGH_RANGE_SECONDS[0];
-  const pt = wantPt ? new PrintThroughCollector(fs, source.frames) : null;
   const energies: number[] = [];
   let secondAcc = 0, secondFill = 0;
   const secondLen = Math.round(fs);
@@ -228,8 +239,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   for await (const block of source.blocks({ readOnly: true })) {
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
     const mono = mixBlock(block, channel);
-    coarse.push(mono);
-    pt?.push(mono);
+    coarse!.push(mono);
     for (let i = 0; i < mono.length; i++) {
       secondAcc += mono[i]! * mono[i]!;
       if (++secondFill === secondLen) {
@@ -246,12 +256,13 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   // --- Reflection. The significant peaks are looked at in turn, strongest first, until one is
   // a reflection (a voice's fixed colouring under 1 ms, a note's period or a repeat can be the
   // strongest peak and still be none); if none is, the first one's verdict is reported.
-  const cepstra = coarse.cepstra();
-  const all = coarse.candidates(cepstra);
+  const cepstra = coarse!.cepstra();
+  const all = coarse!.candidates(cepstra);
+  const scaleSizes = coarse!.scales.map((s) => s.fftSize);
+  coarse = null; // its frame buffers and windows (up to 44 MB) go before the refinement's transforms come
   const order = orderCandidates(all, fs);
   const measure = async (cand: CoarseCandidate): Promise<ReflectionResult> => {
-    const scale = coarse.scales[cand.scale]!;
-    const first = fitSingleEcho(cepstra[cand.scale]!, scale.fftSize, { delaySamples: cand.quefrency, gain: cand.amplitude }, { searchSamples: 1.5 });
+    const first = fitSingleEcho(cepstra[cand.scale]!, scaleSizes[cand.scale]!, { delaySamples: cand.quefrency, gain: cand.amplitude }, { searchSamples: 1.5 });
     let delay = first.delaySamples, gain = first.gain, delayStd = first.delayStdSamples, gainStd = first.gainStd;
     let filter: ReflectionResult['filter'] = null;
     let z = cand.z;
@@ -259,7 +270,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     let verdict: { present: boolean | null; reason: string } | null = null;
     let evidence: FrameEvidence | null = null;
     if (confidenceFromZ(cand.z) >= 0.5) {
-      const cap = Math.max(1, Math.round((options.refineSeconds ?? 20) * fs));
+      const cap = Math.max(1, Math.min(MAX_REFINE_FRAMES, Math.round((options.refineSeconds ?? 20) * fs)));
       const { start, end } = chooseExcerpt(energies, fs, source.frames, cap);
       const decay = Math.log(1e-4) / Math.log(Math.max(0.05, Math.min(MAX_CANCEL_GAIN, Math.abs(gain))));
       const excerpt: Excerpt = { start, end, warmup: Math.min(start, Math.ceil(delay * Math.max(1, decay))) };
@@ -393,13 +404,17 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   }
   options.progress?.(0.75);
   releaseFitScratch(); // the reflection's transforms are done
+  releaseSharedPlans(1 << 19); // and their plans (a 2^21-point one holds about 40 MB)
 
   // --- Print-through.
   let printThrough = noPrintThrough();
-  if (pt) {
+  if (wantPt) {
+    // The decimated copy (≈ 4 kHz, Float32: 58 MB per hour) is collected here, in one more
+    // streaming pass, not during pass 1: kept through the reflection's refinement it added to
+    // that stage's transforms (the peak of `check` on a 1-hour file). The copy is the same.
+    const pt = new PrintThroughCollector(fs, source.frames);
     const rate = pt.rateHz;
-    let stream = pt.stream();
-    // A reflection found above is cancelled first, at the full rate, in one more streaming pass
+    // A reflection found above is cancelled first, at the full rate, in the same pass
     // (cancelling on the decimated stream instead leaves aliased copies that pass for
     // print-through), so that its copy of the loud passages in the quiet ones does not pass for
     // print-through; multiples k·τ, where a slightly imperfect cancellation leaves a decaying
@@ -407,18 +422,18 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     // cancellation: the search only looks below ≈ 2 kHz (8 taps are accurate to −60 dB there) and
     // the refinement mostly where the voice is (16 taps).
     let fullRateCancel: EchoKernel | null = null;
+    let canceller: EchoCanceller | null = null;
     if (reflection.present && reflection.delaySeconds !== null && reflection.gain !== null) {
       const filterKernel = reflection.filter ? { offset: reflection.filter.firstTapSamples, taps: Float64Array.from(reflection.filter.taps) } : null;
       fullRateCancel = filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 8);
-      const canceller = new EchoCanceller(filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 4));
-      pt.restart(); // the same memory (and the same steps as a new collector)
-      for await (const block of source.blocks()) {
-        if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-        const mono = mixBlock(block, channel);
-        pt.push(canceller.process(mono, mono));
-      }
-      stream = pt.stream();
+      canceller = new EchoCanceller(filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 4));
     }
+    for await (const block of source.blocks()) {
+      if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
+      const mono = mixBlock(block, channel);
+      pt.push(canceller ? canceller.process(mono, mono) : mono);
+    }
+    const stream = pt.stream();
     const maxPt = Math.min(PRINT_THROUGH_RANGE_SECONDS[1], duration / 4);
     const exclude: Array<[number, number]> = [];
     if (reflection.present && reflection.delaySeconds !== null && reflection.gain !== null) {

@@ -82,16 +82,6 @@ function extract(c: Float64Array, windows: readonly FitWindow[], out: Float64Arr
 
 const countPoints = (windows: readonly FitWindow[]) => windows.reduce((a, w) => a + w.hi - w.lo + 1, 0);
 
-/** Real cepstrum (length N) of a half spectrum of real values k = 0…N/2, mirrored. */
-function realCepstrum(half: Float64Array, plan: FftPlan, spec: Float64Array, out: Float64Array): void {
-  const n = plan.size;
-  for (let k = 0; k <= n / 2; k++) {
-    spec[2 * k] = half[k]!;
-    spec[2 * k + 1] = 0;
-  }
-  plan.realInverse(spec, out);
-}
-
 /**
  * Cepstrum of the single-echo factor at quefrency q, evaluated in closed form for the N-point
  * transform of the mirrored half spectrum (exactly what the data cepstrum is), so that its cost
@@ -285,14 +275,16 @@ export function echoFactorLogPower(kernel: EchoKernel, plan: FftPlan, into?: Flo
 export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKernel | null, plan: FftPlan, into?: Float64Array): Float64Array {
   const n = plan.size;
   const s = scratchFor(plan);
-  const half = s.half;
-  half.set(meanLog.subarray(0, n / 2 + 1));
-  if (kernel) {
-    const lp = echoFactorLogPower(kernel, plan, s.logPower);
-    for (let k = 0; k <= n / 2; k++) half[k] = half[k]! + lp[k]!;
+  // The log power goes into the kernel's own buffer, free once it is transformed, and the sum
+  // straight into the spectrum array (no half-spectrum copy: the scratch is 2N + 2 numbers).
+  const lp = kernel ? echoFactorLogPower(kernel, plan, s.samples.subarray(0, n / 2 + 1)) : null;
+  const spec = s.spectrum;
+  for (let k = 0; k <= n / 2; k++) {
+    spec[2 * k] = lp ? meanLog[k]! + lp[k]! : meanLog[k]!;
+    spec[2 * k + 1] = 0;
   }
   const out = into ?? new Float64Array(n);
-  realCepstrum(half, plan, s.spectrum, out);
+  plan.realInverse(spec, out, s.samples); // (samples is free again here)
   return out;
 }
 
@@ -306,19 +298,15 @@ export function undoCancellationCepstrum(meanLog: Float64Array, kernel: EchoKern
 export interface FitScratch {
   samples: Float64Array;
   spectrum: Float64Array;
-  half: Float64Array;
-  logPower: Float64Array;
 }
 let scratch: { n: number; buffer: Float64Array } | null = null;
 export function scratchFor(plan: FftPlan): FitScratch {
   const n = plan.size;
-  if (!scratch || scratch.n < n) scratch = { n, buffer: new Float64Array(3 * n + 4) };
+  if (!scratch || scratch.n < n) scratch = { n, buffer: new Float64Array(2 * n + 2) };
   const b = scratch.buffer;
   return {
     samples: b.subarray(0, n),
     spectrum: b.subarray(n, 2 * n + 2),
-    half: b.subarray(2 * n + 2, 2 * n + 2 + n / 2 + 1),
-    logPower: b.subarray(2 * n + 2 + n / 2 + 1, 3 * n + 4),
   };
 }
 

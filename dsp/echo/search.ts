@@ -48,18 +48,25 @@ export function smoothCepstrum(c: Float64Array): Float64Array {
  * Detrended cepstrum: c(q) minus a quadratic fitted to c over 3 ≤ |p − q| ≤ halfWidth (the centre
  * is left out so a sharp peak does not lift its own baseline; the quadratic follows the steep,
  * curved decay of the spectral envelope's cepstrum at short quefrencies). The cepstrum of a real
- * log spectrum is even, so indices below zero are mirrored.
+ * log spectrum is even, so indices below zero are mirrored. With `smooth`, c is first smoothed
+ * with [¼, ½, ¼] (smoothCepstrum; the same numbers, made only where they are needed).
+ * Returns the detrended values over [first, first + values.length) = [qLo − 4, qHi + 4] within
+ * 0…N−1; elsewhere it is 0. (Only that stretch is made: a scorer around one candidate of a
+ * 2^20-point cepstrum needs a few hundred values, not two arrays of 2^20.)
  */
-export function detrendCepstrum(c: Float64Array, qLo: number, qHi: number, halfWidth = 12): Float64Array {
+export function detrendCepstrum(c: Float64Array, qLo: number, qHi: number, halfWidth = 12, smooth = false): { first: number; values: Float64Array } {
   const n = c.length;
   const lo = Math.max(0, qLo - 4), hi = Math.min(n - 1, qHi + 4);
   // Extended copy over [lo − W, hi + W] with mirroring at 0 (c(−p) = c(p)).
   const base = lo - halfWidth;
   const len = hi - lo + 1 + 2 * halfWidth;
+  const at = (idx: number): number => {
+    const i = ((idx % n) + n) % n;
+    return smooth ? 0.25 * c[(i - 1 + n) % n]! + 0.5 * c[i]! + 0.25 * c[(i + 1) % n]! : c[i]!;
+  };
   const p0 = new Float64Array(len + 1), p1 = new Float64Array(len + 1), p2 = new Float64Array(len + 1);
   for (let i = 0; i < len; i++) {
-    const idx = base + i;
-    const v = c[((idx % n) + n) % n]!;
+    const v = at(base + i);
     const t = i; // position relative to base
     p0[i + 1] = p0[i]! + v;
     p1[i + 1] = p1[i]! + v * t;
@@ -73,7 +80,7 @@ export function detrendCepstrum(c: Float64Array, qLo: number, qHi: number, halfW
     s4 += 2 * u ** 4;
   }
   const det = s4 * n0 - s2 * s2;
-  const r = new Float64Array(n);
+  const r = new Float64Array(Math.max(0, hi - lo + 1));
   const range = (a: number, b: number): [number, number, number] => [p0[b + 1]! - p0[a]!, p1[b + 1]! - p1[a]!, p2[b + 1]! - p2[a]!];
   for (let q = lo; q <= hi; q++) {
     const t = q - base;
@@ -83,9 +90,9 @@ export function detrendCepstrum(c: Float64Array, qLo: number, qHi: number, halfW
     // Σ y·u² with u = position − t: Σ y p² − 2t Σ y p + t² Σ y.
     const syu2 = a2 + b2 - 2 * t * (a1 + b1) + t * t * sy;
     const fitted = (s4 * sy - s2 * syu2) / det;
-    r[q] = c[q]! - fitted;
+    r[q - lo] = at(q) - fitted;
   }
-  return r;
+  return { first: lo, values: r };
 }
 
 /** Median of |values| × 1.4826 (a robust σ for Gaussian noise). */
@@ -116,7 +123,9 @@ export class CepstrumScorer {
   readonly hi: number;
   readonly #eLo: number;
   readonly #eHi: number;
+  /** The detrended smoothed cepstrum from index #rFirst on (0 outside it). */
   readonly #r: Float64Array;
+  readonly #rFirst: number;
   readonly #ref: Float64Array;
   readonly #bestOut: Float64Array;
   readonly #bestFrac: Float64Array;
@@ -138,7 +147,9 @@ export class CepstrumScorer {
     this.#eLo = Math.max(3, lo - NEAR_HI);
     this.#eHi = Math.max(this.#eLo, Math.min(c.length / 2 - 4, hi + NEAR_HI));
     const eLo = this.#eLo, eHi = this.#eHi;
-    this.#r = detrendCepstrum(smoothCepstrum(c), eLo, eHi);
+    const detrended = detrendCepstrum(c, eLo, eHi, 12, true);
+    this.#r = detrended.values;
+    this.#rFirst = detrended.first;
     // Matched-filter outputs: for each quefrency the best of the fractional offsets, and the
     // δ = 0 output alone, whose spread is the noise reference (neighbouring values of the smoothed
     // cepstrum are correlated, so the spread of r itself would misstate the output noise).
@@ -173,7 +184,7 @@ export class CepstrumScorer {
       if (only !== undefined && f !== only) continue;
       const w = WEIGHTS[f]!;
       let acc = 0;
-      for (let j = 0; j < SPAN.length; j++) acc += w[j]! * (this.#r[q + SPAN[j]!] ?? 0);
+      for (let j = 0; j < SPAN.length; j++) acc += w[j]! * (this.#r[q + SPAN[j]! - this.#rFirst] ?? 0);
       if (f === 0) ref0 = acc;
       if (Math.abs(acc) > Math.abs(best) || only !== undefined) {
         best = acc;

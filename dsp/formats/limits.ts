@@ -6,12 +6,17 @@
  * length is a fixed time, so channels × rate decides how much `diagnose` needs.
  *
  * Sample rates: 1 kHz to 384 kHz. The lowest rate in use for speech is 2 kHz–8 kHz; the highest in
- * practice is DXD (352.8 kHz and 384 kHz). Channels: at most 64 (a 2-inch 24-track tape, a 32- or
- * 64-channel multitrack transfer); split wider files into groups of channels first.
+ * practice is DXD (352.8 kHz and 384 kHz). The ceiling is what the analyses are built and tested
+ * for with bounded memory (test/io/limits.test.ts: `diagnose` and `check` of a 384 kHz stereo
+ * file): the echo refinement's excerpt is capped in frames (dsp/echo/detect.ts MAX_REFINE_FRAMES),
+ * but the echo search's longest frame still grows with the rate (4 × 500 ms: 2^20 points at
+ * 384 kHz, 2^22 at 1.536 MHz), so higher rates would need that search decimated first.
+ * Channels: at most 64 (a 2-inch 24-track tape, a 32- or 64-channel multitrack transfer); split
+ * wider files into groups of channels first.
  */
 
 export const MIN_SAMPLE_RATE_HZ = 1000;
-export const MAX_SAMPLE_RATE_HZ = 192_000;
+export const MAX_SAMPLE_RATE_HZ = 384_000;
 export const MAX_CHANNELS = 64;
 
 /** A rate for a message: integers exactly, absurd magnitudes in exponent form, others to 10 digits. */

@@ -1,5 +1,5 @@
 /**
- * What Reelwright opens (issue 17, items 4 and 6): sample rates 1 kHz–192 kHz and at most 64
+ * What Reelwright opens (issue 17, items 4 and 6): sample rates 1 kHz–384 kHz and at most 64
  * channels, refused at open with the value; and memory bounded by channel count (blocks of at most
  * 2^17 samples, results independent of the block size, diagnose under 300 MB on 64 channels).
  */
@@ -21,6 +21,11 @@ import { repoRoot, runCli } from '../helpers/cli.ts';
 import { FIXTURES, tempDir } from './helpers.ts';
 
 const dir = tempDir('limits');
+/**
+ * Peak RSS allowed for `diagnose` / `check` of the 384 kHz case: the 300 MB of the 1-hour 96 kHz
+ * stereo case (issue 17, item 4). Measured 270–282 MB for diagnose, 278–290 MB for check.
+ */
+const BOUND_384K_MB = 300;
 afterAll(() => fs.rmSync(dir, { recursive: true, force: true }));
 let n = 0;
 const save = (bytes: Uint8Array, ext: string) => {
@@ -40,19 +45,19 @@ async function openError(file: string): Promise<string | null> {
 /** wave_16bit.wav (Python's wave module): nChannels at 22, nSamplesPerSec at 24, nAvgBytesPerSec 28, nBlockAlign 32. */
 const WAV = new Uint8Array(fs.readFileSync(path.join(FIXTURES, 'wave_16bit.wav')));
 
-describe('item 6: sample rates outside 1 kHz–192 kHz are refused at open, with the value', () => {
+describe('item 6: sample rates outside 1 kHz–384 kHz are refused at open, with the value', () => {
   it('AIFF at 1e-300 Hz, 0.5 Hz and 2^64 Hz; WAV at 1 Hz and 4.29 GHz', async () => {
     // Source: AIFF 1.3 (80-bit extended sample rate in COMM); RIFF WAVE fmt (32-bit nSamplesPerSec).
     for (const [rate, shown] of [[1e-300, '1e-300'], [0.5, '0.5'], [2 ** 64, '1.845e+19']] as const) {
       const header = buildAiffHeader({ flavour: 'AIFF', channels: 1, sampleRateHz: rate, bitsPerSample: 16, frames: 100 });
       const file = save(concatBytes([header, new Uint8Array(200)]), 'aiff');
-      expect(await openError(file)).toBe(`${file}: at byte 28: the COMM chunk says a sample rate of ${shown} Hz (Reelwright reads 1000 Hz to 192000 Hz)`);
+      expect(await openError(file)).toBe(`${file}: at byte 28: the COMM chunk says a sample rate of ${shown} Hz (Reelwright reads 1000 Hz to 384000 Hz)`);
     }
     for (const [rate, shown] of [[1, '1'], [0xffffffff, '4294967295']] as const) {
       const b = WAV.slice();
       putU32le(b, 24, rate);
       const file = save(b, 'wav');
-      expect(await openError(file)).toBe(`${file}: at byte 24: the fmt chunk says a sample rate of ${shown} Hz (Reelwright reads 1000 Hz to 192000 Hz)`);
+      expect(await openError(file)).toBe(`${file}: at byte 24: the fmt chunk says a sample rate of ${shown} Hz (Reelwright reads 1000 Hz to 384000 Hz)`);
     }
   });
 
@@ -62,14 +67,14 @@ describe('item 6: sample rates outside 1 kHz–192 kHz are refused at open, with
     const out = path.join(dir, 'half-hertz.wav');
     const r = await runCli('reverse', file, out);
     expect(r.code).toBe(2);
-    expect(r.err).toBe(`reelwright reverse: ${file}: at byte 28: the COMM chunk says a sample rate of 0.5 Hz (Reelwright reads 1000 Hz to 192000 Hz)\n`);
+    expect(r.err).toBe(`reelwright reverse: ${file}: at byte 28: the COMM chunk says a sample rate of 0.5 Hz (Reelwright reads 1000 Hz to 384000 Hz)\n`);
     expect(fs.existsSync(out)).toBe(false);
     expect((await runCli('diagnose', file)).code).toBe(2);
   });
 
   it('the ends of the range open; one hertz beyond them does not', async () => {
-    expect([MIN_SAMPLE_RATE_HZ, MAX_SAMPLE_RATE_HZ]).toEqual([1000, 192000]);
-    for (const [rate, opens] of [[1000, true], [999, false], [192000, true], [192001, false], [8000, true], [22254.5454, true]] as const) {
+    expect([MIN_SAMPLE_RATE_HZ, MAX_SAMPLE_RATE_HZ]).toEqual([1000, 384000]);
+    for (const [rate, opens] of [[1000, true], [999, false], [192000, true], [352800, true], [384000, true], [384001, false], [8000, true], [22254.5454, true]] as const) {
       const header = buildAiffHeader({ flavour: 'AIFF', channels: 1, sampleRateHz: rate, bitsPerSample: 16, frames: 100 });
       const file = save(concatBytes([header, new Uint8Array(200)]), 'aiff');
       expect(await openError(file) === null, String(rate)).toBe(opens);
@@ -151,4 +156,46 @@ describe('item 4: memory bounded by channel count', () => {
     expect(peakMb).toBeLessThan(300);
     expect(JSON.parse(r.stdout).file.channels).toBe(64);
   }, 120_000);
+
+  it('a 384 kHz stereo file goes through diagnose and check with memory bounded, and its reflection is measured', async () => {
+    // 12 s of noise bursts at 384 kHz, 24-bit, with a reflection applied exactly: y = x + 0.5·x(t − 40 ms)
+    // (15360 samples). Source: exact construction. Before the echo refinement's excerpt was capped in
+    // frames, echo alone took a 2^23-point transform and 582 MB here.
+    const fs0 = 384000, frames = fs0 * 12, delay = 15360;
+    const rng = seededRng(11);
+    const x = new Float64Array(frames);
+    let lp = 0;
+    for (let i = 0; i < frames; i++) {
+      lp = 0.7 * lp + 0.3 * (rng() - 0.5);
+      const t = i / fs0;
+      x[i] = lp * (Math.sin(2 * Math.PI * 1.3 * t) > -0.3 ? 1 : 0.02) * (0.6 + 0.4 * Math.sin(2 * Math.PI * 0.21 * t));
+    }
+    const file = path.join(dir, 'dxd.wav');
+    async function* blocks() {
+      for (let at = 0; at < frames; at += 65536) {
+        const len = Math.min(65536, frames - at);
+        const a = new Float64Array(len);
+        for (let i = 0; i < len; i++) a[i] = 0.5 * (x[at + i]! + (at + i >= delay ? 0.5 * x[at + i - delay]! : 0));
+        yield [a, a.slice()];
+      }
+    }
+    await writeAudio(file, { sampleRateHz: fs0, channelCount: 2, blocks: blocks() }, { bitsPerSample: 24, sampleFormat: 'int', dither: false });
+    const env = { ...process.env, NODE_OPTIONS: `${process.env.NODE_OPTIONS ?? ''} --require ${path.join(repoRoot, 'test/helpers/report-peak-rss.cjs')}` };
+    const peak = (stderr: string) => Number(/peak-rss-kb (\d+)/.exec(stderr)![1]) / 1024;
+    const d = spawnSync(process.execPath, [path.join(repoRoot, 'bin/reelwright.mjs'), 'diagnose', file, '--json', '--quiet'], { encoding: 'utf8', maxBuffer: 64 << 20, env });
+    expect(d.status, d.stderr).toBe(0);
+    const out = JSON.parse(d.stdout);
+    expect(out.file.sampleRateHz).toBe(fs0);
+    expect(out.echo.present).toBe(true);
+    expect(Math.abs(out.echo.delaySeconds - delay / fs0)).toBeLessThan(2 / fs0);
+    expect(Math.abs(out.echo.gain - 0.5)).toBeLessThan(0.05);
+    const report = path.join(dir, 'dxd.json');
+    const c = spawnSync(process.execPath, [path.join(repoRoot, 'bin/reelwright.mjs'), 'check', file, '--jobs', '1', '--quiet', '--json', report], { encoding: 'utf8', maxBuffer: 64 << 20, env });
+    expect([0, 1], c.stderr).toContain(c.status);
+    const entry = JSON.parse(fs.readFileSync(report, 'utf8')).files[0];
+    expect(entry.error).toBeUndefined();
+    process.stdout.write(`384 kHz stereo × 12 s: diagnose peak RSS ${peak(d.stderr).toFixed(0)} MB, check ${peak(c.stderr).toFixed(0)} MB\n`);
+    expect(peak(d.stderr)).toBeLessThan(BOUND_384K_MB);
+    expect(peak(c.stderr)).toBeLessThan(BOUND_384K_MB);
+  }, 300_000);
 });
