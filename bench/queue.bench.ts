@@ -39,6 +39,26 @@ function cpuOf(pid: number, mainThreadOnly = false): number {
   }
 }
 
+/** The running child processes of `pid` (the check processes of a worker), from /proc. */
+function childrenOf(pid: number): number[] {
+  const out: number[] = [];
+  for (const d of fs.readdirSync('/proc')) {
+    if (!/^\d+$/.test(d)) continue;
+    try {
+      const f = fs.readFileSync(`/proc/${d}/stat`, 'utf8').split(') ')[1]!.split(' ');
+      if (Number(f[1]) === pid) out.push(Number(d));
+    } catch {
+      /* gone meanwhile */
+    }
+  }
+  return out;
+}
+
+/** CPU seconds so far of a process, its threads and its running child processes (and theirs). */
+function treeCpuOf(pid: number): number {
+  return cpuOf(pid) + childrenOf(pid).reduce((a, c) => a + treeCpuOf(c), 0);
+}
+
 function localCheck(dir: string, jobs: number, tmp: string): { seconds: number; cpuSeconds: number } {
   const script = path.join(tmp, `local-${jobs}.mjs`);
   fs.writeFileSync(
@@ -48,7 +68,10 @@ function localCheck(dir: string, jobs: number, tmp: string): { seconds: number; 
       `const t0 = process.hrtime.bigint();\n` +
       `await runCheck([${JSON.stringify(dir)}, '--jobs', '${jobs}', '--quiet', '--json', ${JSON.stringify(path.join(tmp, `local-${jobs}.json`))}], { out() {} });\n` +
       `const s = Number(process.hrtime.bigint() - t0) / 1e9;\nconst u = process.resourceUsage();\n` +
-      `process.stdout.write(JSON.stringify({ seconds: s, cpuSeconds: (u.userCPUTime + u.systemCPUTime) / 1e6 }) + '\\n');\n`,
+      // The check processes have ended and been waited for: their CPU is in cutime + cstime.
+      `const f = (await import('node:fs')).readFileSync('/proc/self/stat', 'utf8').split(') ')[1].split(' ');\n` +
+      `const children = (Number(f[13]) + Number(f[14])) / 100;\n` +
+      `process.stdout.write(JSON.stringify({ seconds: s, cpuSeconds: (u.userCPUTime + u.systemCPUTime) / 1e6 + children }) + '\\n');\n`,
   );
   const r = spawnSync(process.execPath, [script], { encoding: 'utf8', cwd: ROOT, maxBuffer: 1 << 20 });
   if (r.status !== 0) throw new Error(`local check failed: ${r.stderr.slice(-500)}`);
@@ -79,7 +102,7 @@ async function runBatch(started: ChildProcess[], folder: string, batch: string) 
   // The queue's own CPU: the workers' main threads (BullMQ, Redis client, storing results; the
   // check runs in other threads) and redis-server.
   const queueCpu = () => started.reduce((a, c) => a + cpuOf(c.pid!, true), 0) + cpuOf(server!.pid!);
-  const cpu0 = started.reduce((a, c) => a + cpuOf(c.pid!), 0);
+  const cpu0 = started.reduce((a, c) => a + treeCpuOf(c.pid!), 0);
   const qcpu0 = queueCpu();
   const t0 = process.hrtime.bigint();
   await runCheck([folder, '--queue', server!.url, '--batch', batch, '--quiet'], { out() {}, err() {} });
@@ -90,7 +113,7 @@ async function runBatch(started: ChildProcess[], folder: string, batch: string) 
     await new Promise((r) => setTimeout(r, 20));
   }
   const seconds = Number(process.hrtime.bigint() - t0) / 1e9;
-  const cpuSeconds = started.reduce((a, c) => a + cpuOf(c.pid!), 0) - cpu0;
+  const cpuSeconds = started.reduce((a, c) => a + treeCpuOf(c.pid!), 0) - cpu0;
   const queueCpuSeconds = queueCpu() - qcpu0;
   const recs = [...(await readResults(client!, batch)).values()];
   return {
@@ -155,7 +178,7 @@ export default async function run(): Promise<void> {
       );
       const big = await runBatch(started, dir, `bench-${w}`);
       queued[w] = big;
-      line('queue', `queue, ${w} worker${w > 1 ? 's' : ''} (1 thread each)`, `${fmt(big.seconds, 1)} s`, `workers' CPU ${fmt(big.cpuSeconds, 1)} s; ${big.results} results${big.failed ? `, ${big.failed} FAILED` : ''}; load ${load()}`);
+      line('queue', `queue, ${w} worker${w > 1 ? 's' : ''} (1 check process each)`, `${fmt(big.seconds, 1)} s`, `workers' CPU ${fmt(big.cpuSeconds, 1)} s (${fmt(big.cpuSeconds / count, 2)} s per file, ${fmt(big.cpuSeconds / big.seconds / w, 2)} cores per worker); ${big.results} results${big.failed ? `, ${big.failed} FAILED` : ''}; load ${load()}`);
       if (w === 1) {
         // The overhead alone: many short files, where the check itself takes little time.
         const t = await runBatch(started, tiny, 'bench-tiny');

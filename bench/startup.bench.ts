@@ -4,14 +4,15 @@
  * made by `npm install`) and for the same sources run through the TypeScript loader (tsx), as
  * `reelwright` ran before it was built. Targets: `--version` ≤ 0.2 s, `info` on the demo ≤ 0.5 s.
  * Uses hyperfine when it is installed (warm-up 3, 20 runs), else its own loop (20 runs).
- * Also the start of one `check` worker thread (until it reports ready), built and through tsx.
+ * Also the start of one `check` process (until it reports ready), built and through tsx.
  */
-import { spawnSync } from 'node:child_process';
+import { fork, spawnSync } from 'node:child_process';
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { Worker } from 'node:worker_threads';
+import { fileURLToPath } from 'node:url';
 import { buildCli, isFresh, manifestPath, outDir } from '../bin/build-cli.mjs';
+import { CHECK_PROCESS_FLAGS } from '../main/check/thread.ts';
 import { fmt, line } from './util.ts';
 
 const root = path.resolve(import.meta.dirname, '..');
@@ -53,18 +54,21 @@ function timeCommand(argv: string[]): { median: number; cpu: number } {
   return { median: median(walls), cpu };
 }
 
-/** Median seconds until a check worker thread posts its first message ('ready'). */
+/** Median seconds until a check process (started as main/check/thread.ts starts it) posts its first message ('ready'). */
 async function workerStart(entry: URL, runs = 7): Promise<number> {
   const times: number[] = [];
   for (let i = 0; i < runs; i++) {
     const t = performance.now();
-    const w = new Worker(entry);
+    const child = fork(fileURLToPath(entry), [], { execArgv: [...CHECK_PROCESS_FLAGS], serialization: 'advanced', stdio: ['ignore', 'inherit', 'inherit', 'ipc'] });
     await new Promise<void>((resolve, reject) => {
-      w.once('message', () => resolve());
-      w.once('error', reject);
+      child.once('message', () => resolve());
+      child.once('error', reject);
+      child.once('exit', (code) => reject(new Error(`the check process exited (${code})`)));
     });
     times.push((performance.now() - t) / 1000);
-    await w.terminate();
+    const gone = new Promise((r) => child.once('exit', r));
+    child.kill('SIGKILL');
+    await gone;
   }
   return median(times);
 }
@@ -85,6 +89,6 @@ export default async function bench(): Promise<void> {
   }
   const builtWorker = await workerStart(new URL(`file://${path.join(outDir, 'worker-entry.mjs')}`));
   const tsxWorker = await workerStart(new URL('../main/check/worker-entry.mjs', import.meta.url));
-  line('startup', 'check worker thread until ready, built (median)', `${fmt(builtWorker, 3)} s`);
-  line('startup', 'check worker thread until ready, tsx (median)', `${fmt(tsxWorker, 3)} s`);
+  line('startup', 'check process until ready, built (median)', `${fmt(builtWorker, 3)} s`);
+  line('startup', 'check process until ready, tsx (median)', `${fmt(tsxWorker, 3)} s`);
 }

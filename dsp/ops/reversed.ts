@@ -37,9 +37,11 @@ export const reversed: AnalysisOp<ReversedResult> = {
           (ch.gatedNotes ? `, leaving out ${ch.gatedNotes} note${ch.gatedNotes === 1 ? '' : 's'} that start and stop abruptly` : '')
         : ch.basis === 'long-ramp'
           ? 'one long swell straight into a hard stop, the shape of a decaying note played backwards'
-          : ch.swellsIntoStops === 1
-            ? 'one swell straight into a hard stop and no decay after a hard start'
-            : `${ch.swellsIntoStops ?? 0} swells straight into hard stops and no decay after a hard start`;
+          : ch.basis === 'bands-agree'
+            ? `in ${Math.round((ch.bandsAgreeing ?? 0) * (ch.bands ?? 0))} of its ${ch.bands ?? 0} frequency bands the level fades in and cuts off (band skew ${(ch.bandSkew ?? 0).toFixed(2)}, median over the bands ${(ch.bandMedian ?? 0).toFixed(2)})`
+            : ch.swellsIntoStops === 1
+              ? 'one swell straight into a hard stop and no decay after a hard start'
+              : `${ch.swellsIntoStops ?? 0} swells straight into hard stops and no decay after a hard start`;
     for (const ch of result.channels) {
       if (ch.likely === true) {
         out.push({

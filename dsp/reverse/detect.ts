@@ -28,6 +28,10 @@
  *     concave in dB); it ends where the level grows again by 6 dB (another sound). A hard stop after a plateau (a wind or organ note being
  *     released) or a linear fade-in read back from its cut (concave in dB) is neither. A ramp ends
  *     where the sound does, 50 dB below the peak.
+ *  5. the band cue (dsp/reverse/bands.ts): the same skew of level changes measured in half-octave
+ *     bands (Sb), each band's own skew, their median and the share of bands leaning each way. A
+ *     chord change or a new note barely moves the broadband level but makes its partials' bands
+ *     jump while the old ones fade; played backwards every band fades in and cuts off.
  *
  * Decision (mirrored exactly for "forward"): reversed when S > 0 and one of
  *  - many events: S ≥ 0.3, at least 3 hard stops, stops ≥ 1.25 × starts, and either no hard start
@@ -39,7 +43,17 @@
  *    hard stops, no decay after a start and no more hard starts than stops (reversed notes that
  *    were damped: each damper release became a hard start followed by a swell);
  *  - one long swell: at most one hard start, a swell of ≥ 10 dB over ≥ 2 s into a hard stop, no
- *    decay after any start (a reversed held low note whose damper release became a hard start).
+ *    decay after any start (a reversed held low note whose damper release became a hard start);
+ *  - the bands agree (when none of the above decided): S ≥ 0.3, at least 3 hard stops and more
+ *    stops than starts, Sb ≥ 0.45, the median of the bands' own skews ≥ 0.5 and at least 90 % of
+ *    at least 3 bands leaning the same way (reversed strummed chords and brass chords whose few
+ *    hard starts keep the event rule from deciding). On the corpus the largest such median of a
+ *    forward channel was 0.35 (clarinet chords); a forward channel with one sound with a hard
+ *    edge (a line-up tone stopping before a slow pad) reaches Sb 0.55 but leans the other way in
+ *    half of its bands. The hard-stop count is needed: without it the band cue also calls
+ *    reversed a forward excerpt faded in and cut off (every band fades in and cuts off once),
+ *    which is what a reversed held note or a reversed legato chord sequence with a single cut
+ *    looks like too — those stay "not determined".
  * Otherwise not determined. A forward clarinet (swell 50 ms, plateau, cut; as many hard starts as
  * stops) is not determined in either direction, and so is a reversed one.
  *
@@ -53,6 +67,7 @@
 import { powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
+import { BandEnvelopes, bandAsymmetry, type BandAsymmetry } from './bands.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
@@ -76,13 +91,19 @@ export interface ReversedChannel {
   readonly decaysAfterStarts?: number;
   /** Agreement of the 1 s segment scores (t statistic; 0 when fewer than 3 segments). */
   readonly segmentAgreement?: number;
+  /** The band cue: skew of the level changes in half-octave bands, and the median of the bands' own skews. */
+  readonly bandSkew?: number;
+  readonly bandMedian?: number;
+  /** Bands scored, and the share of them leaning towards the reported direction (towards reversed when not determined). */
+  readonly bands?: number;
+  readonly bandsAgreeing?: number;
   /** Which rule decided, or why nothing did. */
   readonly basis?: ReversedBasis;
   /** Calibrated on the real-material corpus; 0 when not determined. */
   readonly confidence?: number;
 }
 
-export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'thin';
+export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'thin';
 
 export interface ReversedResult {
   readonly channels: ReversedChannel[];
@@ -343,22 +364,40 @@ function stopsWin(
   return null;
 }
 
+/** The band rule for "reversed" (see the module comment); called mirrored for "forward". */
+function bandsWin(s: number, bandSkew: number, bandMedian: number, share: number, bands: number, stops: number, starts: number): boolean {
+  return s >= REVERSED_SCORE_THRESHOLD && stops >= 3 && stops > starts && bandSkew >= 0.45 && bandMedian >= 0.5 && bands >= 3 && share >= 0.9;
+}
+
 /** The decision for one channel from its cues (see the module comment). */
-export function judgeDirection(a: Asymmetry, activeSeconds: number): Verdict {
+export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry): Verdict {
   if (activeSeconds < REVERSED_MIN_ACTIVE_SECONDS) return { likely: null, basis: 'too-little-sound', confidence: 0 };
   const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.openStops, a.openStarts, a.swells, a.decays);
   if (back) return { likely: true, ...back };
   const fwd = stopsWin(-a.score, -a.segmentT, a.hardStarts, a.hardStops, a.openStarts, a.openStops, a.decays, a.swells);
   if (fwd) return { likely: false, ...fwd };
+  if (b && bandsWin(a.score, b.score, b.bandMedian, b.positiveShare, b.bands, a.hardStops, a.hardStarts)) return { likely: true, basis: 'bands-agree', confidence: 0.7 };
+  if (b && bandsWin(-a.score, -b.score, -b.bandMedian, b.negativeShare, b.bands, a.hardStarts, a.hardStops)) return { likely: false, basis: 'bands-agree', confidence: 0.7 };
   const basis: ReversedBasis = a.hardStarts + a.hardStops === 0 ? 'no-hard-edges' : Math.abs(a.score) >= REVERSED_SCORE_THRESHOLD ? 'cues-disagree' : 'thin';
   return { likely: null, basis, confidence: 0 };
 }
 
-/** Scores one envelope and decides (the same as each channel of `detectReversedChannels`). */
-export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK_SECONDS): Omit<ReversedChannel, 'channel'> {
+/** Band levels of one channel (BandEnvelopes.levels()). */
+export interface BandLevels {
+  readonly frames: number;
+  readonly bands: number;
+  readonly power: Float32Array;
+}
+
+/**
+ * Scores one envelope and decides (the same as each channel of `detectReversedChannels`);
+ * `bandLevels` are the channel's band levels (bands.ts), without which the band rule does not apply.
+ */
+export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK_SECONDS, bandLevels?: BandLevels): Omit<ReversedChannel, 'channel'> {
   const a = asymmetryScore(power);
   const activeSeconds = a.activeBlocks * blockSeconds;
-  const v = judgeDirection(a, activeSeconds);
+  const bands = bandLevels ? bandAsymmetry(bandLevels.frames, bandLevels.bands, bandLevels.power) : undefined;
+  const v = judgeDirection(a, activeSeconds, bands);
   return {
     likely: v.likely,
     score: v.likely === null ? a.score / 4 : a.score,
@@ -370,6 +409,9 @@ export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK
     gatedNotes: a.gatedNotes,
     decaysAfterStarts: a.decays.length,
     segmentAgreement: a.segmentT,
+    ...(bands
+      ? { bandSkew: bands.score, bandMedian: bands.bandMedian, bands: bands.bands, bandsAgreeing: v.likely === false ? bands.negativeShare : bands.positiveShare }
+      : {}),
     basis: v.basis,
     confidence: v.confidence,
   };
@@ -380,12 +422,20 @@ export async function detectReversedChannels(source: AudioSource, onProgress?: (
   const blockFrames = Math.max(1, Math.round(REVERSED_BLOCK_SECONDS * source.sampleRateHz));
   const expected = Math.ceil(source.frames / blockFrames) + 1;
   const envs = Array.from({ length: source.channelCount }, () => new Envelope(blockFrames, expected));
+  const bandEnvs = Array.from({ length: source.channelCount }, () => new BandEnvelopes(source.sampleRateHz, blockFrames, expected));
   let done = 0;
   for await (const block of source.blocks({ readOnly: true })) {
-    for (let c = 0; c < envs.length; c++) envs[c]!.add(block[c]!);
+    for (let c = 0; c < envs.length; c++) {
+      envs[c]!.add(block[c]!);
+      bandEnvs[c]!.add(block[c]!);
+    }
     done += block[0]!.length;
     onProgress?.(done / Math.max(1, source.frames));
   }
   const blockSeconds = blockFrames / source.sampleRateHz;
-  return { channels: envs.map((env, c) => ({ channel: c + 1, ...judgeEnvelope(env.values, blockSeconds) })) };
+  return {
+    channels: envs.map((env, c) => {
+      return { channel: c + 1, ...judgeEnvelope(env.values, blockSeconds, bandEnvs[c]!.levels()) };
+    }),
+  };
 }

@@ -1,7 +1,7 @@
 /**
  * The work on one file of a batch check: open it, checksum the audio (fixity), run every analysis
- * that applies (dsp/ops/diagnose.ts) and return one plain, cloneable entry. Runs inside a worker
- * thread (worker.ts) or in-process. Failures to open or read become an entry with `error`, never
+ * that applies (dsp/ops/diagnose.ts) and return one plain, cloneable entry. Runs inside a check
+ * process (worker.ts) or in-process. Failures to open or read become an entry with `error`, never
  * an exception, so a batch goes on past a bad file.
  */
 import { diagnose } from '../../dsp/ops/diagnose.ts';

@@ -3,7 +3,7 @@
  *  [--jobs N] [--resume] [--thresholds FILE] [analysis options]`
  *
  * Checks every audio file in the given files and folders (recursively): fixity checksum, then
- * every registered analysis that applies (dsp/ops/diagnose.ts), each file in a worker thread.
+ * every registered analysis that applies (dsp/ops/diagnose.ts), each file in a check process of its own (thread.ts).
  * Thresholds (each analysis's default rules, listed by `check --help`, or --thresholds FILE) turn
  * the numbers into pass/warn/fail.
  * Exit status: 0 when no file fails, 1 when any file fails (unreadable files fail), 2 for bad usage
@@ -28,7 +28,7 @@ export interface CheckOptions {
   /** Replace stdout / stderr (tests). */
   out?: (s: string) => void;
   err?: (s: string) => void;
-  /** Run in this thread with this opener instead of worker threads (tests). */
+  /** Run in this thread with this opener instead of check processes (tests). */
   opener?: Opener;
 }
 
@@ -43,7 +43,7 @@ Options:
   --report FILE.html          Write the report as one self-contained HTML page.
   --json FILE.json            Write the report as JSON (one entry per file, with status and reasons).
   --csv FILE.csv              Write one row per file.
-  --jobs N                    Worker threads (default: the number of cores).
+  --jobs N                    Files checked at once, one process each (default: the number of cores).
   --resume                    Take over files from the existing --json report whose audio checksum is unchanged.
   --thresholds FILE.json      Pass/warn/fail rules replacing the defaults (listed below) one by one; null switches one off.
   --manifest FILE             Verify a SHA-256 manifest ("CHECKSUM  PATH" lines, paths relative to its folder, as in
@@ -161,8 +161,8 @@ function loadPrevious(jsonPath: string, err: (s: string) => void): Map<string, F
 }
 
 /**
- * Runs the jobs on `workers` worker threads (or in this thread with `opener`), results in job
- * order. A worker that dies turns its job into a failed entry and is replaced.
+ * Runs the jobs on `workers` check processes (or in this thread with `opener`), results in job
+ * order. A process that dies turns its job into a failed entry and is replaced.
  */
 async function runJobs(
   jobs: CheckJob[],
@@ -180,6 +180,7 @@ async function runJobs(
     return results;
   }
   let next = 0;
+  const stopping: Promise<void>[] = [];
   await new Promise<void>((resolve) => {
     let running = 0;
     const start = () => {
@@ -189,7 +190,7 @@ async function runJobs(
       const take = () => {
         if (next >= jobs.length) {
           finished = true;
-          void w.terminate();
+          stopping.push(w.terminate());
           if (--running === 0) resolve();
           return;
         }
@@ -217,10 +218,11 @@ async function runJobs(
         else if (running === 0) resolve();
       };
       w.on('error', (e) => died(e.message));
-      w.on('exit', (code) => died(`worker stopped (exit code ${code})`));
+      w.on('exit', (code) => died(`the check process stopped (exit code ${code})`));
       running++;
     };
     for (let i = 0; i < workers; i++) start();
   });
+  await Promise.all(stopping);
   return results;
 }

@@ -1,5 +1,5 @@
-// Entry point of a `reelwright check` worker thread: registers the TypeScript loader (tsx) inside
-// the worker — `--import` in a Worker's execArgv is not honoured — then loads worker.ts.
+// Entry point of a check process (main/check/thread.ts): registers the TypeScript loader (tsx),
+// then loads worker.ts. The built command line replaces this file by the bundled worker.ts.
 import { register } from 'tsx/esm/api';
 
 register();

@@ -1,10 +1,15 @@
 /**
- * Worker thread of `reelwright check`: takes one job at a time from the coordinator, posts progress
- * and then the result. Started through worker-entry.mjs, which registers the TypeScript loader.
+ * A check process of `reelwright check` and `reelwright worker` (thread.ts starts it): takes one
+ * job at a time from the coordinator over the IPC channel, posts progress and then the result.
+ * Started through worker-entry.mjs, which registers the TypeScript loader.
+ *
+ * Ctrl+C and SIGTERM reach every process of a terminal's (or a service's) process group: this one
+ * leaves them to the coordinator, which decides whether the file in progress is finished first
+ * (the queue worker) and then stops it. When the coordinator goes away (killed), the channel
+ * closes and this process ends.
  */
-import { parentPort } from 'node:worker_threads';
-import { openAudio } from '../io/reader.ts';
 import { checkFile, type CheckJob } from './check-file.ts';
+import { openAudio } from '../io/reader.ts';
 
 export type ToWorker = { type: 'job'; id: number; job: CheckJob } | { type: 'stop' };
 export type FromWorker =
@@ -12,10 +17,16 @@ export type FromWorker =
   | { type: 'progress'; id: number; fraction: number }
   | { type: 'result'; id: number; result: Awaited<ReturnType<typeof checkFile>> };
 
-const port = parentPort!;
-port.on('message', (msg: ToWorker) => {
+if (!process.send) throw new Error('worker.ts runs as a check process started by main/check/thread.ts');
+const send = (m: FromWorker) => {
+  if (process.connected) process.send!(m);
+};
+process.on('SIGINT', () => {});
+process.on('SIGTERM', () => {});
+process.on('disconnect', () => process.exit(0));
+process.on('message', (msg: ToWorker) => {
   if (msg.type === 'stop') {
-    port.close();
+    process.disconnect();
     return;
   }
   void (async () => {
@@ -24,9 +35,9 @@ port.on('message', (msg: ToWorker) => {
       const now = Date.now();
       if (now - last < 250) return;
       last = now;
-      port.postMessage({ type: 'progress', id: msg.id, fraction } satisfies FromWorker);
+      send({ type: 'progress', id: msg.id, fraction });
     });
-    port.postMessage({ type: 'result', id: msg.id, result } satisfies FromWorker);
+    send({ type: 'result', id: msg.id, result });
   })();
 });
-port.postMessage({ type: 'ready' } satisfies FromWorker);
+send({ type: 'ready' });

@@ -86,7 +86,7 @@ describe('reelwright check over a folder', () => {
   const json = () => JSON.parse(fs.readFileSync(path.join(outDir, 'r.json'), 'utf8')) as CheckReport;
   const byName = (r: CheckReport, name: string) => r.files.find((f) => f.file.path.endsWith(name))!;
 
-  it('checks every audio file with worker threads and exits 1 when any fails', async () => {
+  it('checks every audio file in check processes and exits 1 when any fails', async () => {
     const code = await runCheck(
       [dir, '--json', path.join(outDir, 'r.json'), '--csv', path.join(outDir, 'r.csv'), '--report', path.join(outDir, 'r.html'), '--jobs', '2', '--quiet'],
       opts,

@@ -102,7 +102,7 @@ describe('built command line', () => {
     expect(bad.stderr.trim().split('\n')).toHaveLength(1);
   });
 
-  it('runs `check` through its bundled worker thread with the default thresholds read from the sources', () => {
+  it('runs `check` through its bundled check process with the default thresholds read from the sources', () => {
     const dir = fs.mkdtempSync(path.join(out, 'check-'));
     fs.copyFileSync(path.join(repoRoot, 'test/fixtures/io/wave_24bit.wav'), path.join(dir, 'a.wav'));
     const r = runBuilt('check', dir, '--jobs', '1', '--quiet', '--json', path.join(dir, 'r.json'));

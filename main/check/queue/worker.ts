@@ -1,7 +1,7 @@
 /**
  * `reelwright worker --queue URL --root DIR… [--concurrency N] [--lock-seconds S] [--quiet]`:
  * takes jobs that `check --queue` put on the queue and runs on each file exactly the check that
- * `check` runs on one machine (check-file.ts, in worker threads), then stores the entry in Redis.
+ * `check` runs on one machine (check-file.ts, in check processes), then stores the entry in Redis.
  *
  * Safety: a job's path is resolved to its real path (so `..` and symbolic links are followed) and
  * refused unless it lies inside one of the --root folders (also resolved). A job is held under a
@@ -40,7 +40,7 @@ Options:
                               instead be in REELWRIGHT_QUEUE_PASSWORD).
   --root DIR                  A folder this worker may read; repeat for several. A job for a file
                               outside every root (after following links and "..") is refused.
-  --concurrency N             Files checked at once, one thread each (default: the number of cores).
+  --concurrency N             Files checked at once, one process each (default: the number of cores).
   --lock-seconds S            How long a job stays locked to this worker without a sign of life before
                               another worker may take it over (default 30).
   --quiet                     No line per file.`;
