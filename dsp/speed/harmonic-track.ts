@@ -371,8 +371,11 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   }
   // Floor: below 0.1 ppm the statistics only say "identical segments" (exactly periodic test data).
   uncertainty = Math.max(uncertainty, 1e-7 * f0c);
-  // Keep only the harmonics that are clearly there (coherent SNR ≥ 6 dB) and measure again.
-  const keep = harmonicSnrDb.map((v, j) => (v >= 6 ? j : -1)).filter((j) => j >= 0);
+  // Keep only the harmonics that are clearly there (coherent SNR ≥ 6 dB) and measure again. The
+  // fundamental always stays: a note's partial a few hertz away lifts its track's noise estimate
+  // (the whole track band counts), so its coherent SNR can read low while the line is plainly
+  // there, and without it the series cannot show itself as hum (persistenceEvidence judges it).
+  const keep = harmonicSnrDb.map((v, j) => (v >= 6 || set.harmonics[j] === 1 ? j : -1)).filter((j) => j >= 0);
   if (keep.length > 0 && keep.length < H) {
     const again = measureSeries(
       {
