@@ -71,6 +71,8 @@ const MAX_DRIFT_PER_SECOND = 0.004;
 const CURVE_HALF_WINDOWS = 4;
 /** A playback machine's drift is slow: the curve is a local straight line over ±15 s. */
 const CURVE_HALF_SECONDS = 15;
+/** Up to this length a drifting series is one straight line, fitted coherently (fitChirp). */
+const CHIRP_MAX_SECONDS = 2 * CURVE_HALF_SECONDS;
 
 /** Noise correlation between track samples ℓ apart for a boxcar(D)^R decimator. */
 export function trackNoiseCorrelation(factor: number, order: number): Float64Array {
@@ -278,7 +280,7 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   }
   const times = starts.map((s) => layout.timeOf(s + (winLen - 1) / 2));
   const f0s = Array.from(deltas, (d) => f0c + d);
-  const curveMean = f0s.reduce((a, b) => a + b, 0) / W;
+  let curveMean = f0s.reduce((a, b) => a + b, 0) / W;
   let scatter: number;
   if (W >= 3) {
     const d = f0s.slice(1).map((v, i) => Math.abs(v - f0s[i]!)).sort((a, b) => a - b);
@@ -296,6 +298,7 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
 
   // 3. Drift: a straight line through a reliable curve, significant against its scatter.
   let drifting = false;
+  let line: { slope: number; tm: number; se: number } | null = null;
   if (curveReliable && W >= 4) {
     const tm = times.reduce((a, b) => a + b, 0) / W;
     let sxy = 0, sxx = 0;
@@ -310,17 +313,30 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
     // Significant against the scatter, and large enough to matter: more than 0.02 % of f₀ over
     // the file (smaller drifts change the mean by less than the coherent estimate's own error).
     drifting = Math.abs(slope) > 4 * se && Math.abs(slope * dur) > Math.max(0.25 / (T * hMax), 2e-4 * f0c);
+    line = { slope, tm, se };
   }
+  // A drift through a short file is one straight line (the curve below would be one line through
+  // all the windows): fit it to the whole track at once, as a linear chirp, instead of through
+  // the windows' separate estimates. (Whether there is a drift stays the windows' verdict: under
+  // music a steady hum also fits a chirp better than one frequency, by far more than noise would
+  // make it.)
+  const chirp =
+    drifting && line && T <= CHIRP_MAX_SECONDS
+      ? fitChirp(set, first, usable, fb, wML, layout.timeOf(first + (usable - 1) / 2), curveMean - f0c, line, T, hMax)
+      : null;
+  if (chirp) curveMean = f0c + chirp.offsetHz;
   if (drifting) dCoherent = curveMean - f0c;
   const coherentAt = drifting ? curveMean - f0c : dCoherent;
 
   // Per-harmonic coherent SNR at the estimate, and the overall detection statistic.
+  // (Along the fitted chirp when there is one: a drifting line read at one frequency is smeared,
+  // most at the upper harmonics.)
   const harmonicSnrDb = set.harmonics.map((h, j) => {
     const t = set.tracks[j]!;
-    const [ar, ai] = segmentDft(t.re, t.im, first, all, fb, h * coherentAt, dft);
+    const [ar, ai] = chirp ? [Math.sqrt(chirp.harmonicPower[j]!), 0] : segmentDft(t.re, t.im, first, all, fb, h * coherentAt, dft);
     return 10 * Math.log10(Math.max((ar * ar + ai * ai) / (sigma2[j]! * qAll), 1e-12));
   });
-  const detection = S(first, all, coherentAt) / (qAll * H);
+  const detection = (chirp ? chirp.harmonicPower.reduce((a, p, j) => a + wML[j]! * p, 0) : S(first, all, coherentAt)) / (qAll * H);
   const detectionDb = 10 * Math.log10(Math.max(detection, 1e-12));
 
   let mean: number, uncertainty: number;
@@ -371,8 +387,11 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   }
   // Floor: below 0.1 ppm the statistics only say "identical segments" (exactly periodic test data).
   uncertainty = Math.max(uncertainty, 1e-7 * f0c);
-  // Keep only the harmonics that are clearly there (coherent SNR ≥ 6 dB) and measure again.
-  const keep = harmonicSnrDb.map((v, j) => (v >= 6 ? j : -1)).filter((j) => j >= 0);
+  // Keep only the harmonics that are clearly there (coherent SNR ≥ 6 dB) and measure again. The
+  // fundamental always stays: a note's partial a few hertz away lifts its track's noise estimate
+  // (the whole track band counts), so its coherent SNR can read low while the line is plainly
+  // there, and without it the series cannot show itself as hum (persistenceEvidence judges it).
+  const keep = harmonicSnrDb.map((v, j) => (v >= 6 || set.harmonics[j] === 1 ? j : -1)).filter((j) => j >= 0);
   if (keep.length > 0 && keep.length < H) {
     const again = measureSeries(
       {
@@ -397,7 +416,9 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
     // the windows averages out), and without one the curve is the steady mean (a window estimate
     // wandering with the speech is measurement noise, not the machine).
     fundamentalsHz: curveReliable
-      ? drifting
+      ? chirp
+        ? times.map((t) => f0c + chirp.offsetHz + chirp.slopeHzPerSecond * (t - chirp.centreSeconds))
+        : drifting
         ? smoothLinear(times, f0s, Math.max(CURVE_HALF_WINDOWS, Math.round((CURVE_HALF_SECONDS * fb) / hop)))
         : times.map(() => mean)
       : [],
@@ -407,6 +428,68 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
     steadiness,
     drifting,
   };
+}
+
+/**
+ * Coherent fit of a linear drift over the whole track: the series' phase is
+ * 2π·h·(δ·τ + ½·α·τ²) about the track's centre (τ = 0 at `centreSeconds`), and (δ, α) maximise
+ * S(δ, α) = Σ_h w_h |Σ_k c_k z_h[k] e^{−j2π·h·(δ·τ_k + ½·α·τ_k²)}|² (the harmonic-sum statistic of a
+ * linear chirp; common practice: the maximum-likelihood estimate of a chirp in white noise,
+ * whose precision grows as T^{−3/2} for δ and T^{−5/2} for α, against T^{−1/2} for an average of
+ * window estimates). With τ centred, δ and α are nearly independent: a grid around the windows'
+ * line (δ within ±2 lobes, α within ±max(4 standard errors, 30 %)), then alternating
+ * golden-section refinement. δ is the mean offset of the line over the track.
+ */
+function fitChirp(
+  set: TrackSet, first: number, usable: number, fb: number, w: readonly number[], centreSeconds: number,
+  d0: number, line: { slope: number; tm: number; se: number }, T: number, hMax: number,
+): { offsetHz: number; slopeHzPerSecond: number; centreSeconds: number; harmonicPower: number[] } {
+  const c = hann(usable);
+  const tau = new Float64Array(usable);
+  for (let k = 0; k < usable; k++) tau[k] = (k - (usable - 1) / 2) / fb;
+  const H = set.harmonics.length;
+  /** |Z_j|² of harmonic j's track demodulated along the chirp (δ, α). */
+  const power = (j: number, d: number, a: number) => {
+    const t = set.tracks[j]!, h = set.harmonics[j]!;
+    let ar = 0, ai = 0;
+    for (let k = 0; k < usable; k++) {
+      const ph = -2 * Math.PI * h * (d * tau[k]! + 0.5 * a * tau[k]! * tau[k]!);
+      const cr = Math.cos(ph), ci = Math.sin(ph);
+      const zr = c[k]! * t.re[first + k]!, zi = c[k]! * t.im[first + k]!;
+      ar += zr * cr - zi * ci;
+      ai += zr * ci + zi * cr;
+    }
+    return ar * ar + ai * ai;
+  };
+  const S = (d: number, a: number) => {
+    let v = 0;
+    for (let j = 0; j < H; j++) v += w[j]! * power(j, d, a);
+    return v;
+  };
+  // The windows' line read at the track's centre.
+  const dStart = d0 + line.slope * (centreSeconds - line.tm);
+  const lobe = 1 / (T * hMax);
+  const aHalf = Math.max(4 * line.se, 0.3 * Math.abs(line.slope));
+  const nd = 9, na = 13;
+  let bd = dStart, ba = line.slope, best = -Infinity;
+  for (let i = 0; i < na; i++) {
+    const a = line.slope - aHalf + (2 * aHalf * i) / (na - 1);
+    for (let q = 0; q < nd; q++) {
+      const d = dStart - 2 * lobe + (4 * lobe * q) / (nd - 1);
+      const v = S(d, a);
+      if (v > best) {
+        best = v;
+        bd = d;
+        ba = a;
+      }
+    }
+  }
+  const dStep = (4 * lobe) / (nd - 1), aStep = (2 * aHalf) / (na - 1);
+  for (let round = 0; round < 3; round++) {
+    bd = goldenMax((d) => S(d, ba), bd - dStep, bd + dStep, 16);
+    ba = goldenMax((a) => S(bd, a), ba - aStep, ba + aStep, 16);
+  }
+  return { offsetHz: bd, slopeHzPerSecond: ba, centreSeconds, harmonicPower: set.harmonics.map((_, j) => power(j, bd, ba)) };
 }
 
 /**

@@ -167,6 +167,26 @@ describe('drift', () => {
   });
 });
 
+describe('drift through a short clip', () => {
+  // Ramp F(t) = 1 + 0.0005·t over 8 s (played time), as a machine running up to speed; hum phase
+  // 2π·50·(t + 0.0005·t²/2). Source: the ramp is synthesised; the drift bar of the corrections
+  // issue (residual ≤ 0.02 % over the whole file, edges included) applied to the curve itself.
+  const fs = 16000, n = 8 * fs, slope = 0.0005;
+  const x = add(normalizeRms(programme(n, fs, 1, 23), rmsFor(-30)), hum(n, fs, 50, -50, rampRecordedTime(1, slope)));
+
+  it('the curve is the ramp within ±0.02 % from the first to the last sample', async () => {
+    const r = await runSpeed([x], fs, { mainsHz: '50' });
+    const ts = r.curve.timesSeconds;
+    expect(ts[0]).toBe(0);
+    expect(ts.at(-1)).toBeCloseTo(8, 9);
+    for (let i = 0; i < ts.length; i++) {
+      expect(Math.abs((r.curve.factors[i]! / (1 + slope * ts[i]!) - 1) * 100)).toBeLessThan(0.02);
+    }
+    // The mean speed over the clip: 1 + 0.0005·4.
+    expect(Math.abs(r.factor / 1.002 - 1)).toBeLessThan(1e-4);
+  });
+});
+
 describe('when nothing can be measured', () => {
   it('noise alone: method null, confidence below 0.5, factor 1', async () => {
     const fs = 16000, n = 20 * fs;
