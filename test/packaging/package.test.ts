@@ -86,7 +86,8 @@ describe('npm run dist -- --dir (Linux, stand-in Electron runtime)', () => {
       /^\/main\/electron\/build\/preload\.cjs$/,
       /^\/renderer\/dist\/index\.html$/,
       /^\/renderer\/dist\/assets\/index-[\w-]+\.js$/,
-      /^\/renderer\/dist\/assets\/index-[\w-]+\.css$/,
+      // The one style sheet of the page and its on-demand parts.
+      /^\/renderer\/dist\/assets\/style-[\w-]+\.css$/,
       /^\/renderer\/dist\/assets\/engine\.worker-[\w-]+\.js$/,
       // The page's chunks fetched when a dialog or panel is first opened (renderer/src/lib/lazy.svelte.ts).
       /^\/renderer\/dist\/assets\/[a-z][\w.-]*-[\w-]+\.(js|css)$/,
