@@ -1,6 +1,6 @@
 /**
  * Frequency of a harmonic series measured from narrowband complex tracks (one per harmonic, each
- * heterodyned at h·f₀c, see ./decimate.ts), as a curve through the file and as one mean value.
+ * heterodyned at h·f₀c, see ./heterodyne.ts), as a curve through the file and as one mean value.
  *
  * The model: track h holds a_h·e^{j2π·h·δ(t)·t} + noise, δ = f₀ − f₀c the common offset of the
  * series. For one window the maximum-likelihood δ maximises the harmonic-sum periodogram

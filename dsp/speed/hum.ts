@@ -5,7 +5,7 @@
  * harmonics. Played at speed factor a, the hum sits at a·M, a·2M, … so a = f̂₀ / M.
  *
  * Method (two passes over a mono mix, both streaming):
- *  1. Search. The mix is decimated to ≈2 kHz (boxcar-power FIR, ./decimate.ts) and a long-window
+ *  1. Search. The mix is decimated to ≈2 kHz (boxcar-power FIR, ../core/decimate.ts) and a long-window
  *     Welch spectrum (Hann, ≈0.03–0.06 Hz bins) is accumulated. Peaks ≥ 10 dB above a running-median
  *     floor are candidate fundamentals; each is scored by a harmonic comb (sum of the clipped SNRs in
  *     dB found at h·f₀, h = 1…12), and a fundamental must itself be a peak (so 100 Hz buzz is not
