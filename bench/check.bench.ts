@@ -14,7 +14,7 @@
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { spawnSync } from 'node:child_process';
+import { spawn, spawnSync } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
 import { writeAudio } from '../main/io/writer.ts';
 import { openAudio } from '../main/io/reader.ts';
@@ -22,7 +22,7 @@ import { analyses } from '../dsp/ops/registry.ts';
 import { validateParams } from '../dsp/ops/params.ts';
 import { silentContext } from '../dsp/ops/types.ts';
 import { NotFoundError } from '../dsp/errors.ts';
-import { fmt, line, mb, timeAsync } from './util.ts';
+import { fmt, line, mb, timeAsync, watchTree } from './util.ts';
 
 const FS = 96000;
 const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
@@ -84,18 +84,30 @@ export default async function run(): Promise<void> {
         `const code = await runCheck([${JSON.stringify(file)}, '--jobs', '1', '--quiet', '--json', ${JSON.stringify(path.join(tmp, 'r.json'))}], { out() {} });\n` +
         `const s = Number(process.hrtime.bigint() - t0) / 1e9;\n` +
         `const u = process.resourceUsage();\n` +
-        `process.stdout.write(JSON.stringify({ code, seconds: s, cpuSeconds: (u.userCPUTime + u.systemCPUTime) / 1e6, maxRssKb: u.maxRSS }) + '\\n');\n`,
+        // The file is checked in a child process (main/check/thread.ts), ended and waited for by now: its CPU is in cutime + cstime.
+        `const f = (await import('node:fs')).readFileSync('/proc/self/stat', 'utf8').split(') ')[1].split(' ');\n` +
+        `const children = (Number(f[13]) + Number(f[14])) / 100;\n` +
+        `process.stdout.write(JSON.stringify({ code, seconds: s, cpuSeconds: (u.userCPUTime + u.systemCPUTime) / 1e6 + children }) + '\\n');\n`,
     );
     const pin = spawnSync('taskset', ['-c', '0', 'true']).status === 0;
     const [exe, exeArgs]: [string, string[]] = pin ? ['taskset', ['-c', '0', process.execPath, script]] : [process.execPath, [script]];
-    const r = spawnSync(exe, exeArgs, { encoding: 'utf8', cwd: ROOT, maxBuffer: 1 << 20 });
+    // Peak memory of the whole command: the command's process and the check process it starts.
+    const r = await new Promise<{ status: number | null; stdout: string; stderr: string; memory: ReturnType<ReturnType<typeof watchTree>['stop']> }>((resolve) => {
+      const child = spawn(exe, exeArgs, { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
+      const watch = watchTree(child.pid!);
+      let stdout = '';
+      let stderr = '';
+      child.stdout.on('data', (d) => (stdout += d));
+      child.stderr.on('data', (d) => (stderr += d));
+      child.on('close', (status) => resolve({ status, stdout, stderr, memory: watch.stop() }));
+    });
     if (r.status !== 0) {
       line('check', 'check run failed', '—', r.stderr.split('\n').slice(-3).join(' '));
       return;
     }
-    const res = JSON.parse(r.stdout.trim().split('\n').pop()!) as { code: number; seconds: number; cpuSeconds: number; maxRssKb: number };
+    const res = { ...(JSON.parse(r.stdout.trim().split('\n').pop()!) as { code: number; seconds: number; cpuSeconds: number }), maxRssKb: r.memory.sumOfPeaksKb };
     const label = pin ? 'one core (taskset -c 0), --jobs 1' : '--jobs 1 (taskset not available)';
-    line('check', `check ${seconds / 60} min file, ${label}`, `${fmt(res.seconds, 1)} s`, `CPU ${fmt(res.cpuSeconds, 1)} s, peak RSS ${fmt(res.maxRssKb / 1024, 0)} MB, exit ${res.code}`);
+    line('check', `check ${seconds / 60} min file, ${label}`, `${fmt(res.seconds, 1)} s`, `CPU ${fmt(res.cpuSeconds, 1)} s, peak RSS ${fmt(res.maxRssKb / 1024, 0)} MB (sum of the ${r.memory.processes} processes' peaks; largest sampled total ${fmt(r.memory.largestTotalKb / 1024, 0)} MB), exit ${res.code}`);
     const load = os.loadavg()[0]!;
     const verdict = (v: number, limit: number) => (v <= limit ? 'met' : 'NOT met');
     if (big) {

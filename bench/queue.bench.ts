@@ -24,35 +24,10 @@ import { batchKeys, readResults } from '../main/check/queue/store.ts';
 import { startRedis, type RedisServer } from '../test/helpers/redis.ts';
 import { writeAudio } from '../main/io/writer.ts';
 import { makeFile } from './check.bench.ts';
-import { fmt, line } from './util.ts';
+import { childrenOf, cpuOf, fmt, line } from './util.ts';
 
 const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const load = () => fmt(os.loadavg()[0]!, 1);
-
-/** CPU seconds (user + system) so far of a process and its threads, or of its main thread alone, from /proc. */
-function cpuOf(pid: number, mainThreadOnly = false): number {
-  try {
-    const f = fs.readFileSync(mainThreadOnly ? `/proc/${pid}/task/${pid}/stat` : `/proc/${pid}/stat`, 'utf8').split(') ')[1]!.split(' ');
-    return (Number(f[11]) + Number(f[12])) / 100; // utime, stime in clock ticks (100 Hz on Linux)
-  } catch {
-    return NaN;
-  }
-}
-
-/** The running child processes of `pid` (the check processes of a worker), from /proc. */
-function childrenOf(pid: number): number[] {
-  const out: number[] = [];
-  for (const d of fs.readdirSync('/proc')) {
-    if (!/^\d+$/.test(d)) continue;
-    try {
-      const f = fs.readFileSync(`/proc/${d}/stat`, 'utf8').split(') ')[1]!.split(' ');
-      if (Number(f[1]) === pid) out.push(Number(d));
-    } catch {
-      /* gone meanwhile */
-    }
-  }
-  return out;
-}
 
 /** CPU seconds so far of a process, its threads and its running child processes (and theirs). */
 function treeCpuOf(pid: number): number {

@@ -1,5 +1,6 @@
 /** Helpers for the benches: timing, memory, and running the same work in numpy/scipy. */
 import { spawnSync } from 'node:child_process';
+import fs from 'node:fs';
 
 export function timeIt(fn: () => void, minSeconds = 1): { seconds: number; runs: number } {
   fn(); // warm-up
@@ -41,3 +42,72 @@ export function line(area: string, what: string, value: string, extra = ''): voi
 }
 
 export const mb = (bytes: number) => `${(bytes / 1048576).toFixed(0)} MB`;
+
+/** CPU seconds (user + system) so far of a process and its threads, or of its main thread alone, from /proc. */
+export function cpuOf(pid: number, mainThreadOnly = false): number {
+  try {
+    const f = fs.readFileSync(mainThreadOnly ? `/proc/${pid}/task/${pid}/stat` : `/proc/${pid}/stat`, 'utf8').split(') ')[1]!.split(' ');
+    return (Number(f[11]) + Number(f[12])) / 100; // utime, stime in clock ticks (100 Hz on Linux)
+  } catch {
+    return NaN;
+  }
+}
+
+/** The running child processes of `pid` (the check processes of a worker), from /proc. */
+export function childrenOf(pid: number): number[] {
+  const out: number[] = [];
+  for (const d of fs.readdirSync('/proc')) {
+    if (!/^\d+$/.test(d)) continue;
+    try {
+      const f = fs.readFileSync(`/proc/${d}/stat`, 'utf8').split(') ')[1]!.split(' ');
+      if (Number(f[1]) === pid) out.push(Number(d));
+    } catch {
+      /* gone meanwhile */
+    }
+  }
+  return out;
+}
+
+/** A process's resident set now and its peak so far (VmRSS, VmHWM in kB), from /proc; null once it has gone (NaN fields for a zombie). */
+export function rssOf(pid: number): { rssKb: number; peakKb: number } | null {
+  try {
+    const s = fs.readFileSync(`/proc/${pid}/status`, 'utf8');
+    const kb = (k: string) => Number(new RegExp(`^${k}:\\s+(\\d+) kB`, 'm').exec(s)?.[1] ?? NaN);
+    return { rssKb: kb('VmRSS'), peakKb: kb('VmHWM') };
+  } catch {
+    return null;
+  }
+}
+
+/**
+ * Follows a process and every process below it (sampling /proc every `everyMs`) and keeps, per
+ * process, its peak resident set. `sumOfPeaksKb` adds those peaks: an upper bound of the memory the
+ * whole tree held at once (the processes may not peak together); `largestTotalKb` is the largest
+ * sampled total of the current resident sets, a lower bound.
+ */
+export function watchTree(rootPid: number, everyMs = 100): { stop(): { sumOfPeaksKb: number; largestTotalKb: number; processes: number } } {
+  const peaks = new Map<number, number>();
+  let largestTotalKb = 0;
+  const sample = () => {
+    const pids = [rootPid];
+    for (let i = 0; i < pids.length; i++) pids.push(...childrenOf(pids[i]!));
+    let total = 0;
+    for (const pid of pids) {
+      const r = rssOf(pid);
+      if (!r || !Number.isFinite(r.rssKb) || !Number.isFinite(r.peakKb)) continue; // gone, or a zombie (no Vm lines)
+      total += r.rssKb;
+      peaks.set(pid, Math.max(peaks.get(pid) ?? 0, r.peakKb));
+    }
+    largestTotalKb = Math.max(largestTotalKb, total);
+  };
+  sample();
+  const timer = setInterval(sample, everyMs);
+  return {
+    stop() {
+      clearInterval(timer);
+      let sum = 0;
+      for (const v of peaks.values()) sum += v;
+      return { sumOfPeaksKb: sum, largestTotalKb, processes: peaks.size };
+    },
+  };
+}
