@@ -175,6 +175,12 @@ export async function frameEvidence(
   const model = new Float64Array(n);
   echoCepstrumInto(Float64Array.from({ length: n }, (_, q) => q), tau, Math.max(-0.95, Math.min(0.95, gain * rho)), n, model);
   const cx = new Float64Array(n);
+  // The same echo's log ripple bin by bin, for the bins a frame's programme does not reach (see
+  // below).
+  const aFrame = Math.max(-0.95, Math.min(0.95, gain * rho));
+  const ripple = new Float64Array(n / 2 + 1);
+  for (let k = 0; k <= n / 2; k++) ripple[k] = Math.log(1 + aFrame * aFrame + 2 * aFrame * Math.cos((2 * Math.PI * k * tau) / n));
+  const lockLogs = new Float64Array(n + 2);
   // Pair frames: short (≈ 40 ms, ≤ τ), so that a frame and the one τ later do not overlap.
   const pairN = tau >= 0.04 * fs ? Math.min(nextPowerOfTwo(Math.round(0.04 * fs)) / 2, 1 << Math.floor(Math.log2(tau))) : 0;
   const pairPlan = pairN ? sharedPlan(pairN) : null;
@@ -215,8 +221,26 @@ export async function frameEvidence(
           logs[2 * k + 1] = 0;
         }
         plan.realInverse(logs, cep);
-        for (let q = 0; q < n; q++) cx[q] = cep[q]! - model[q]!;
-        const value = peakAt(cep, tau, 0), locked = pitchLocked(cx, tau, fs, true);
+        const value = peakAt(cep, tau, 0);
+        // Bins more than 80 dB under the frame's strongest (the empty band of a resampled
+        // recording: rounding noise, added after any echo) carry none of the echo's ripple, so
+        // taking the whole model out would leave its opposite at τ there, which reads as a
+        // period at τ (16 kHz speech at 96 kHz with 13 ms / −0.45 measured exactly: 300 of 336
+        // frames "locked"). For the pitch reading they get the model's ripple, so that taking it
+        // out leaves them flat.
+        let top = -Infinity;
+        for (let k = 0; k <= n / 2; k++) top = Math.max(top, logs[2 * k]!);
+        const low = top - 80 * (Math.LN10 / 10);
+        let empty = false;
+        for (let k = 0; k <= n / 2; k++) {
+          const v = logs[2 * k]!;
+          lockLogs[2 * k] = v < low ? ((empty = true), low + ripple[k]!) : v;
+          lockLogs[2 * k + 1] = 0;
+        }
+        if (empty) plan.realInverse(lockLogs, cx);
+        else cx.set(cep);
+        for (let q = 0; q < n; q++) cx[q] = cx[q]! - model[q]!;
+        const locked = pitchLocked(cx, tau, fs, true);
         // The cancelled frame at τ: about 0 where the frame carries the echo, about −ĝ·ρ where
         // it did not and the cancellation put an inverse echo in. For the share both frames are
         // read with bins more than 80 dB under the frame's strongest held at that level: the
@@ -228,9 +252,6 @@ export async function frameEvidence(
         let cancelled = NaN, valueShare = NaN;
         if (canceller && (frameIndex++ & 1) === 0) {
           valueShare = value;
-          let top = -Infinity;
-          for (let k = 0; k <= n / 2; k++) top = Math.max(top, logs[2 * k]!);
-          const low = top - 80 * (Math.LN10 / 10);
           let clipped = false;
           for (let k = 0; k <= n / 2; k++) if (logs[2 * k]! < low) { logs[2 * k] = low; clipped = true; }
           if (clipped) {

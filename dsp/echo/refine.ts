@@ -142,6 +142,7 @@ export async function cancelledCepstrum(
   undo = true,
   yGate: Float64Array | null = null,
   work?: PassArrays,
+  estimate?: { delaySamples: number; gain: number },
 ): Promise<Float64Array | null> {
   const { start, end, warmup } = options.excerpt;
   const from = Math.max(0, start - warmup);
@@ -214,7 +215,17 @@ export async function cancelledCepstrum(
     meanLog = acc.meanLogSpectrum();
   }
   const cep = work?.cepstrum?.length === n ? work.cepstrum : undefined;
-  const out = undoCancellationCepstrum(meanLog, undo ? kernel : null, plan, cep);
+  // Bins without programme (deadBins): in frames they were left out and filled from their
+  // neighbours (LogSpectrumAccumulator); the whole excerpt's single transform is filled the
+  // same way here (its rounding noise, added after the echo, carries the inverse ripple once
+  // cancelled). Either way they then get the current estimate's exact ripple (fit.ts).
+  let deadGate = framing.whole ? null : yGate;
+  if (framing.whole && undo && estimate) {
+    deadGate = deadBinsOfPeriodogram(meanLog);
+    if (deadGate) fillGated(meanLog, deadGate);
+  }
+  const dead = undo && estimate && deadGate ? { gate: deadGate, ...estimate } : null;
+  const out = undoCancellationCepstrum(meanLog, undo ? kernel : null, plan, cep, dead);
   if (work) work.cepstrum = out;
   return out;
 }
@@ -276,7 +287,53 @@ export function deadBins(meanLog: Float64Array): Float64Array | null {
       dead++;
     } else gate[k] = -Infinity;
   }
-  return dead > 0 && dead < meanLog.length / 2 + meanLog.length / 4 ? gate : null;
+  // At least an eighth of the band must hold programme (16 kHz speech resampled to 96 kHz has a
+  // sixth; its empty five sixths left in read 13 ms / −0.45 as −0.24).
+  return dead > 0 && dead <= (7 * meanLog.length) / 8 ? gate : null;
+}
+
+/** Replaces the bins with a +∞ gate by linear interpolation between the nearest others (constant beyond the ends). */
+function fillGated(logPower: Float64Array, gate: Float64Array): void {
+  const m = logPower.length;
+  let prev = -1;
+  for (let k = 0; k <= m; k++) {
+    if (k < m && gate[k] === Infinity) continue;
+    // Bins prev+1 … k−1 are gated.
+    if (k - prev > 1) {
+      const a = prev >= 0 ? logPower[prev]! : k < m ? logPower[k]! : 0;
+      const b = k < m ? logPower[k]! : a;
+      for (let j = prev + 1; j < k; j++) logPower[j] = prev >= 0 && k < m ? a + ((b - a) * (j - prev)) / (k - prev) : prev >= 0 ? a : b;
+    }
+    prev = k;
+  }
+}
+
+/**
+ * deadBins for one whole-excerpt periodogram, whose cells scatter by several dB: the log power
+ * is first averaged over 65 neighbouring bins (the 70 dB margin is far larger than what is left
+ * of the scatter).
+ */
+export function deadBinsOfPeriodogram(logPower: Float64Array): Float64Array | null {
+  const m = logPower.length, half = 32;
+  const smooth = new Float64Array(m);
+  let sum = 0, count = 0;
+  for (let k = 0; k < Math.min(m, half); k++) {
+    sum += logPower[k]!;
+    count++;
+  }
+  for (let k = 0; k < m; k++) {
+    const add = k + half, drop = k - half - 1;
+    if (add < m) {
+      sum += logPower[add]!;
+      count++;
+    }
+    if (drop >= 0) {
+      sum -= logPower[drop]!;
+      count--;
+    }
+    smooth[k] = sum / count;
+  }
+  return deadBins(smooth);
 }
 
 async function deadBinGate(source: AudioSource, framing: Framing, options: RefineOptions): Promise<Float64Array | null> {
@@ -399,7 +456,7 @@ export async function refineSingleEcho(
     }
     const gc = clampCancel(g);
     const kernel = singleEchoKernel(tau, gc);
-    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, gate, work);
+    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, gate, work, { delaySamples: tau, gain: gc });
     passes++;
     if (!data) break;
     const windows = fitWindows(tau, g, framing.fftSize);
