@@ -226,8 +226,11 @@ export async function frameEvidence(
         // recording: rounding noise, added after any echo) carry none of the echo's ripple, so
         // taking the whole model out would leave its opposite at τ there, which reads as a
         // period at τ (16 kHz speech at 96 kHz with 13 ms / −0.45 measured exactly: 300 of 336
-        // frames "locked"). For the pitch reading they get the model's ripple, so that taking it
-        // out leaves them flat.
+        // frames "locked"). For the pitch reading they also get the model's ripple, so that
+        // taking it out leaves them flat; a frame is locked when either reading says so (a low
+        // held note's spectrum also falls 80 dB, and with only its lowest harmonics left the
+        // model then explains its period away: a held bass C2 at 15.3 ms read 0 of 71 locked
+        // that way, 69 the other; 16 kHz speech at 96 kHz is then not determined again).
         let top = -Infinity;
         for (let k = 0; k <= n / 2; k++) top = Math.max(top, logs[2 * k]!);
         const low = top - 80 * (Math.LN10 / 10);
@@ -237,8 +240,14 @@ export async function frameEvidence(
           lockLogs[2 * k] = v < low ? (empty++, low + ripple[k]!) : v;
           lockLogs[2 * k + 1] = 0;
         }
-        if (empty) plan.realInverse(lockLogs, cx);
-        else cx.set(cep);
+        cx.set(cep);
+        for (let q = 0; q < n; q++) cx[q] = cx[q]! - model[q]!;
+        let locked = pitchLocked(cx, tau, fs, true);
+        if (empty && !locked) {
+          plan.realInverse(lockLogs, cx);
+          for (let q = 0; q < n; q++) cx[q] = cx[q]! - model[q]!;
+          locked = pitchLocked(cx, tau, fs, true);
+        }
         // The frame's reading at τ with those bins held flat, and so carrying nothing, comes
         // from the bins with programme alone: divided by their share of the band it reads the
         // echo at full strength (g·ρ), as the refinement measures it. (Left as they were, the
@@ -254,8 +263,6 @@ export async function frameEvidence(
           clampedValue = peakAt(cep, tau, 0);
           value = clampedValue / Math.max(1 / 8, 1 - empty / (n / 2 + 1));
         }
-        for (let q = 0; q < n; q++) cx[q] = cx[q]! - model[q]!;
-        const locked = pitchLocked(cx, tau, fs, true);
         // The cancelled frame at τ: about 0 where the frame carries the echo, about −ĝ·ρ where
         // it did not and the cancellation put an inverse echo in. For the share both frames are
         // read with bins more than 80 dB under the frame's strongest held at that level: the
