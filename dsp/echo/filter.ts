@@ -16,7 +16,7 @@
  */
 import type { AudioSource } from '../source.ts';
 import { type EchoKernel, kernelMaxLag, kernelPeakGain, scaleKernel, singleEchoKernel } from './kernel.ts';
-import { cancelledCepstrum, chooseFraming, levelGate, MAX_CANCEL_GAIN, type RefineOptions } from './refine.ts';
+import { cancelledCepstrum, chooseFraming, combinedGate, MAX_CANCEL_GAIN, type RefineOptions } from './refine.ts';
 
 export interface FilterFit {
   kernel: EchoKernel;
@@ -89,14 +89,28 @@ export async function fitReflectionFilter(
   // With noise added after the reflection (gateNoise, as in the refinement), the cells near the
   // floor are left out here too: cancelled, that floor carries the inverse ripple, which would
   // read as a misfit of the single gain and pass for a coloured reflection.
-  const gate = options.gateNoise ? await levelGate(source, framing, options) : null;
+  // The bins a band-limited recording leaves empty (refine.ts deadBins) are left out too: they
+  // hold rounding noise, which carries no echo and, cancelled, the inverse one (16 kHz speech
+  // at 96 kHz with an exact 61.8 ms / 0.2 read it as a 32-tap "filter"). Filled from their
+  // neighbours they are flat, and the residual is read from the bins with programme alone: its
+  // cepstrum is then the taps' over that share of the band, about the share times the taps.
+  const gate = await combinedGate(source, framing, options, options.gateNoise ?? false);
+  let live = 1;
+  if (gate) {
+    let dead = 0;
+    for (let k = 0; k < gate.length; k++) if (gate[k] === Infinity) dead++;
+    live = Math.max(1 / 8, 1 - dead / gate.length);
+  }
   for (let pass = 0; pass < 3; pass++) {
     const cep = await cancelledCepstrum(source, kernel, framing, options, undefined, false, gate);
     if (!cep) return null;
     const { taps, sigma } = residualTaps(cep, c);
+    if (live < 1) {
+      for (let i = 0; i < taps.length; i++) taps[i] = taps[i]! / live;
+    }
     const energy = taps.reduce((a, t) => a + t * t, 0);
     if (!first) {
-      first = { chi2: energy / Math.max(sigma * sigma, 1e-30), misfitRatio: energy / Math.max(reflectionEnergy, 1e-30) };
+      first = { chi2: (energy * live * live) / Math.max(sigma * sigma, 1e-30), misfitRatio: energy / Math.max(reflectionEnergy, 1e-30) };
       options.onFirstLook?.(first.chi2, first.misfitRatio);
       const strength = Math.sqrt(reflectionEnergy + energy);
       if (!(first.chi2 > 60 && first.misfitRatio >= 0.3 && strength >= 0.2)) return null;

@@ -42,7 +42,7 @@ export interface RefineOptions {
   /** Channel to analyse (0-based), or −1 for the mean of all channels. */
   channel: number;
   excerpt: Excerpt;
-  /** Largest number of cancel-and-measure passes (default 6). */
+  /** Largest number of cancel-and-measure passes (default 10; most converge in 2–4). */
   maxPasses?: number;
   /** Scan the delay ±this many samples in the first pass (when the start is only roughly known). */
   searchSamples?: number;
@@ -143,6 +143,7 @@ export async function cancelledCepstrum(
   undo = true,
   yGate: Float64Array | null = null,
   work?: PassArrays,
+  estimate?: { delaySamples: number; gain: number },
 ): Promise<Float64Array | null> {
   const { start, end, warmup } = options.excerpt;
   const from = Math.max(0, start - warmup);
@@ -217,11 +218,22 @@ export async function cancelledCepstrum(
     if (acc.frames === 0) return null;
     meanLog = acc.meanLogSpectrum();
   }
-  // (undoCancellationCepstrum has copied the mean log spectrum before it writes the cepstrum, so
+  // (undoCancellationCepstrum reads the mean log spectrum whole before it writes the cepstrum, so
   // in the whole framing the cepstrum can take the excerpt's array: 16 MB less at 2^21. It is
   // read before the next pass fills that array again.)
   const cep = whole ?? (work?.cepstrum?.length === n ? work.cepstrum : undefined);
-  const out = undoCancellationCepstrum(meanLog, undo ? kernel : null, plan, cep);
+  // Bins without programme (deadBins): in frames they were left out and filled from their
+  // neighbours (LogSpectrumAccumulator); the whole excerpt's single transform is filled the
+  // same way here (its rounding noise, added after the echo, carries the inverse ripple once
+  // cancelled). Either way they then get the current estimate's exact ripple (fit.ts).
+  let deadGate = framing.whole ? null : yGate;
+  if (framing.whole && undo && estimate) {
+    deadGate = deadBinsOfPeriodogram(meanLog);
+    if (deadGate) fillGated(meanLog, deadGate);
+  }
+  const dead = undo && estimate && deadGate ? { gate: deadGate, ...estimate } : null;
+  if (work) work.reach = dead ? programmeReach(deadGate!) : null;
+  const out = undoCancellationCepstrum(meanLog, undo ? kernel : null, plan, cep, dead);
   if (work && !whole) work.cepstrum = out;
   return out;
 }
@@ -234,6 +246,30 @@ export async function cancelledCepstrum(
 export interface PassArrays {
   samples?: Float64Array;
   cepstrum?: Float64Array;
+  /** How much of the fit the bins with programme carry (programmeReach), or null when all do. */
+  reach?: { gain: number; delay: number } | null;
+}
+
+/**
+ * With the empty bins holding the current estimate's ripple (fit.ts, DeadBinEstimate), a fit
+ * reads estimate + w·(truth − estimate): the bins with programme pull it by their share of the
+ * fit's sensitivity. The gain's sensitivity is the same in every bin (the ripple's amplitude),
+ * so w is their share of the bins; the delay's grows with frequency (the ripple's phase is ωτ),
+ * so w is their share of Σk². The refinement divides each step by its w, which makes it the step
+ * a fit over the bins with programme alone would take (on 16 kHz speech at 44.1 kHz, a third of
+ * the band, the delay's w is about 1/27 and without it six passes left 0.9 read as 0.874).
+ */
+export function programmeReach(gate: Float64Array): { gain: number; delay: number } {
+  let bins = 0, live = 0, k2 = 0, liveK2 = 0;
+  for (let k = 1; k < gate.length - 1; k++) {
+    bins++;
+    k2 += k * k;
+    if (gate[k] !== Infinity) {
+      live++;
+      liveK2 += k * k;
+    }
+  }
+  return { gain: Math.max(1 / 64, live / Math.max(1, bins)), delay: Math.max(1 / 1024, liveK2 / Math.max(1, k2)) };
 }
 
 const clampCancel = (g: number) => Math.max(-MAX_CANCEL_GAIN, Math.min(MAX_CANCEL_GAIN, g));
@@ -271,7 +307,7 @@ export async function levelGate(source: AudioSource, framing: Framing, options: 
  * programme, and the cancellation added back gives them the model's ripple. Null when every bin
  * is reached.
  */
-export function deadBins(meanLog: Float64Array): Float64Array | null {
+export function deadBins(meanLog: Float64Array, withEdges = true): Float64Array | null {
   const sorted = Float64Array.from(meanLog).sort();
   const top = sorted[Math.floor(0.95 * (sorted.length - 1))]!;
   const limit = top - (70 * Math.LN10) / 10;
@@ -283,7 +319,101 @@ export function deadBins(meanLog: Float64Array): Float64Array | null {
       dead++;
     } else gate[k] = -Infinity;
   }
-  return dead > 0 && dead < meanLog.length / 2 + meanLog.length / 4 ? gate : null;
+  // The steep edge down into an empty band (a resampler's transition, some 40 dB within 1–2 %
+  // of the band) is left out with it: kept, the cepstrum rings at that edge's frequency, a
+  // ±0.01 wobble of period fs/f_edge samples that pulled 3 ms reflections on 16 kHz speech at
+  // 44.1 kHz 0.23 sample off. Walking down from each empty run, bins go too while the level
+  // (over ±4 bins) is more than 15 dB under the level 1 % of the band lower (a programme's own
+  // roll-off is far gentler).
+  if (dead > 0 && withEdges) {
+    const w = Math.max(4, Math.round(0.01 * meanLog.length));
+    const drop = (15 * Math.LN10) / 10;
+    const level = (k: number) => {
+      let s = 0, c = 0;
+      for (let j = Math.max(0, k - 4); j <= Math.min(meanLog.length - 1, k + 4); j++) {
+        s += meanLog[j]!;
+        c++;
+      }
+      return s / c;
+    };
+    for (let k = meanLog.length - 1; k > 0; k--) {
+      if (gate[k] === Infinity && gate[k - 1] !== Infinity) {
+        for (let j = k - 1; j > w && gate[j] !== Infinity && level(j) < level(j - w) - drop; j--) {
+          gate[j] = Infinity;
+          dead++;
+        }
+      }
+    }
+  }
+  // At least an eighth of the band must hold programme (16 kHz speech resampled to 96 kHz has a
+  // sixth; its empty five sixths left in read 13 ms / −0.45 as −0.24).
+  return dead > 0 && dead <= (7 * meanLog.length) / 8 ? gate : null;
+}
+
+/**
+ * Moves each run of bins with a +∞ gate by one constant so that it starts at the level of the
+ * bin below it (its shape, and any ripple it holds, kept).
+ */
+export function shiftGated(logPower: Float64Array, gate: Float64Array): void {
+  const m = logPower.length;
+  for (let k = 0; k < m; ) {
+    if (gate[k] !== Infinity) {
+      k++;
+      continue;
+    }
+    let e = k;
+    while (e < m && gate[e] === Infinity) e++;
+    let mean = 0;
+    for (let j = k; j < e; j++) mean += logPower[j]!;
+    mean /= e - k;
+    const to = k > 0 ? logPower[k - 1]! : e < m ? logPower[e]! : mean;
+    for (let j = k; j < e; j++) logPower[j] = logPower[j]! - mean + to;
+    k = e;
+  }
+}
+
+/** Replaces the bins with a +∞ gate by linear interpolation between the nearest others (constant beyond the ends). */
+export function fillGated(logPower: Float64Array, gate: Float64Array): void {
+  const m = logPower.length;
+  let prev = -1;
+  for (let k = 0; k <= m; k++) {
+    if (k < m && gate[k] === Infinity) continue;
+    // Bins prev+1 … k−1 are gated.
+    if (k - prev > 1) {
+      const a = prev >= 0 ? logPower[prev]! : k < m ? logPower[k]! : 0;
+      const b = k < m ? logPower[k]! : a;
+      for (let j = prev + 1; j < k; j++) logPower[j] = prev >= 0 && k < m ? a + ((b - a) * (j - prev)) / (k - prev) : prev >= 0 ? a : b;
+    }
+    prev = k;
+  }
+}
+
+/**
+ * deadBins for one whole-excerpt periodogram, whose cells scatter by several dB: the log power
+ * is first averaged over 65 neighbouring bins (the 70 dB margin is far larger than what is left
+ * of the scatter).
+ */
+export function deadBinsOfPeriodogram(logPower: Float64Array): Float64Array | null {
+  const m = logPower.length, half = 32;
+  const smooth = new Float64Array(m);
+  let sum = 0, count = 0;
+  for (let k = 0; k < Math.min(m, half); k++) {
+    sum += logPower[k]!;
+    count++;
+  }
+  for (let k = 0; k < m; k++) {
+    const add = k + half, drop = k - half - 1;
+    if (add < m) {
+      sum += logPower[add]!;
+      count++;
+    }
+    if (drop >= 0) {
+      sum -= logPower[drop]!;
+      count--;
+    }
+    smooth[k] = sum / count;
+  }
+  return deadBins(smooth);
 }
 
 async function deadBinGate(source: AudioSource, framing: Framing, options: RefineOptions): Promise<Float64Array | null> {
@@ -299,7 +429,7 @@ async function deadBinGate(source: AudioSource, framing: Framing, options: Refin
 }
 
 /** The noise gate (when asked for) and the dead-bin gate together: a cell must pass both. */
-async function combinedGate(source: AudioSource, framing: Framing, options: RefineOptions, noise: boolean): Promise<Float64Array | null> {
+export async function combinedGate(source: AudioSource, framing: Framing, options: RefineOptions, noise: boolean): Promise<Float64Array | null> {
   const dead = await deadBinGate(source, framing, options);
   const level = noise ? await levelGate(source, framing, options) : null;
   if (!dead) return level;
@@ -389,7 +519,7 @@ export async function refineSingleEcho(
   await leaveQuiet(framing);
   let gate = await combinedGate(source, framing, options, gateOn);
   let work: PassArrays = {}; // each pass's data is used before the next pass starts
-  const maxPasses = options.maxPasses ?? 6;
+  const maxPasses = options.maxPasses ?? 10;
   let tau = initial.delaySamples, g = initial.gain;
   let fit: FitResult | null = null;
   let prev: { g: number; measured: number } | null = null;
@@ -406,11 +536,15 @@ export async function refineSingleEcho(
     }
     const gc = clampCancel(g);
     const kernel = singleEchoKernel(tau, gc);
-    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, gate, work);
+    const data = await cancelledCepstrum(source, kernel, framing, options, plan, true, gate, work, { delaySamples: tau, gain: gc });
     passes++;
     if (!data) break;
     const windows = fitWindows(tau, g, framing.fftSize);
     fit = fitSingleEcho(data, framing.fftSize, { delaySamples: tau, gain: g }, { windows, searchSamples: pass === 0 ? (options.searchSamples ?? 0) : 0 });
+    if (work.reach) {
+      // The bins with programme carry only part of the fit (programmeReach): the full step.
+      fit = { ...fit, gain: gc + (fit.gain - gc) / work.reach.gain, delaySamples: tau + (fit.delaySamples - tau) / work.reach.delay };
+    }
     options.onPass?.(pass, fit, framing.fftSize);
     // Fixed-point step on τ; secant step on g for G(g') = fit(g') − g' = 0.
     let nextG = fit.gain;

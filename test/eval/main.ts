@@ -16,6 +16,7 @@ function parseArgs(argv: string[]): EvalOptions & { out: string; list: number } 
     else if (a === '--only') o.only = next().split(',');
     else if (a === '--split') o.split = next() as 'dev' | 'holdout';
     else if (a === '--match') o.match = next();
+    else if (a === '--set') o.set = next() as 'clean' | 'impaired';
     else if (a === '--jobs') o.jobs = Number(next());
     else if (a === '--out') o.out = next();
     else if (a === '--list') o.list = Number(next());

@@ -6,6 +6,7 @@
  *   npm run eval -- --only speed,echo     # only these analyses (diagnose verbs)
  *   npm run eval -- --split holdout       # only material the estimators were not tuned on
  *   npm run eval -- --match piano         # only clips whose id contains the text
+ *   npm run eval -- --set clean           # only the clean (or the impaired) clips
  *   npm run eval -- --jobs 2 --out eval-output/eval.json --list 10
  *   npm run eval -- --no-corrections      # analyses only
  *
@@ -30,6 +31,7 @@ export interface EvalOptions {
   only?: string[];
   split?: 'dev' | 'holdout';
   match?: string;
+  set?: 'clean' | 'impaired';
   jobs?: number;
   quiet?: boolean;
   /** Run the corrections section too (default true). */
@@ -214,6 +216,7 @@ export async function evaluate(options: EvalOptions = {}): Promise<EvalReport> {
   const corpus = await loadCorpus({ fast: options.fast, quiet: options.quiet, jobs: options.jobs });
   let clips = corpus.clips;
   if (options.split) clips = clips.filter((c) => c.split === options.split);
+  if (options.set) clips = clips.filter((c) => c.set === options.set);
   if (options.match) clips = clips.filter((c) => c.id.includes(options.match!) || (c.cleanId ?? '').includes(options.match!));
   // Impaired clips are judged against their clean originals (tuning): run those too.
   const needed = new Set(clips.map((c) => c.id));
