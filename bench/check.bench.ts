@@ -74,24 +74,14 @@ export default async function run(): Promise<void> {
     const made = await timeAsync(() => makeFile(file, seconds));
     line('check', `made ${seconds / 60} min 96 kHz 24-bit stereo WAV`, `${fmt(made, 1)} s`, mb(fs.statSync(file).size));
 
-    // The whole command in a child process: wall time and peak RSS (threads included).
-    const script = path.join(tmp, 'run.mjs');
-    fs.writeFileSync(
-      script,
-      `import { register } from ${JSON.stringify(path.join(ROOT, 'node_modules/tsx/dist/esm/api/index.mjs'))};\n` +
-        `register();\nconst { runCheck } = await import(${JSON.stringify(path.join(ROOT, 'main/check/index.ts'))});\n` +
-        `const t0 = process.hrtime.bigint();\n` +
-        `const code = await runCheck([${JSON.stringify(file)}, '--jobs', '1', '--quiet', '--json', ${JSON.stringify(path.join(tmp, 'r.json'))}], { out() {} });\n` +
-        `const s = Number(process.hrtime.bigint() - t0) / 1e9;\n` +
-        `const u = process.resourceUsage();\n` +
-        // The file is checked in a child process (main/check/thread.ts), ended and waited for by now: its CPU is in cutime + cstime.
-        `const f = (await import('node:fs')).readFileSync('/proc/self/stat', 'utf8').split(') ')[1].split(' ');\n` +
-        `const children = (Number(f[13]) + Number(f[14])) / 100;\n` +
-        `process.stdout.write(JSON.stringify({ code, seconds: s, cpuSeconds: (u.userCPUTime + u.systemCPUTime) / 1e6 + children }) + '\\n');\n`,
-    );
+    // The command a user runs (`reelwright check`, the JavaScript build, as installed), in a shell
+    // that reports its children's CPU once they have ended (cutime + cstime of /proc/$$/stat: the
+    // command and the check process it waits for). Peak memory follows the whole process tree.
+    const cmd = [process.execPath, path.join(ROOT, 'bin/reelwright.mjs'), 'check', file, '--jobs', '1', '--quiet', '--json', path.join(tmp, 'r.json')];
+    const shell = `${cmd.map((a) => `'${a}'`).join(' ')} >/dev/null; code=$?; echo "$code $(cut -d')' -f2 /proc/$$/stat)"`;
     const pin = spawnSync('taskset', ['-c', '0', 'true']).status === 0;
-    const [exe, exeArgs]: [string, string[]] = pin ? ['taskset', ['-c', '0', process.execPath, script]] : [process.execPath, [script]];
-    // Peak memory of the whole command: the command's process and the check process it starts.
+    const [exe, exeArgs]: [string, string[]] = pin ? ['taskset', ['-c', '0', 'bash', '-c', shell]] : ['bash', ['-c', shell]];
+    const t0 = process.hrtime.bigint();
     const r = await new Promise<{ status: number | null; stdout: string; stderr: string; memory: ReturnType<ReturnType<typeof watchTree>['stop']> }>((resolve) => {
       const child = spawn(exe, exeArgs, { cwd: ROOT, stdio: ['ignore', 'pipe', 'pipe'] });
       const watch = watchTree(child.pid!);
@@ -101,13 +91,19 @@ export default async function run(): Promise<void> {
       child.stderr.on('data', (d) => (stderr += d));
       child.on('close', (status) => resolve({ status, stdout, stderr, memory: watch.stop() }));
     });
-    if (r.status !== 0) {
-      line('check', 'check run failed', '—', r.stderr.split('\n').slice(-3).join(' '));
+    const wallSeconds = Number(process.hrtime.bigint() - t0) / 1e9;
+    const fields = r.stdout.trim().split('\n').pop()!.trim().split(/\s+/); // code, then stat fields from the state on
+    const code = Number(fields[0]);
+    if (r.status !== 0 || !(code === 0 || code === 1)) {
+      line('check', 'check run failed', '—', `exit ${code}: ${r.stderr.split('\n').slice(-3).join(' ')}`);
       return;
     }
-    const res = { ...(JSON.parse(r.stdout.trim().split('\n').pop()!) as { code: number; seconds: number; cpuSeconds: number }), maxRssKb: r.memory.sumOfPeaksKb };
+    // After ") ": state ppid pgrp session tty tpgid flags minflt cminflt majflt cmajflt utime stime cutime cstime
+    const cpuSeconds = (Number(fields[14]) + Number(fields[15]) + Number(fields[12]) + Number(fields[13])) / 100;
+    const res = { code, seconds: wallSeconds, cpuSeconds, maxRssKb: r.memory.sumOfPeaksKb };
     const label = pin ? 'one core (taskset -c 0), --jobs 1' : '--jobs 1 (taskset not available)';
     line('check', `check ${seconds / 60} min file, ${label}`, `${fmt(res.seconds, 1)} s`, `CPU ${fmt(res.cpuSeconds, 1)} s, peak RSS ${fmt(res.maxRssKb / 1024, 0)} MB (sum of the ${r.memory.processes} processes' peaks; largest sampled total ${fmt(r.memory.largestTotalKb / 1024, 0)} MB), exit ${res.code}`);
+    line('check', '  peak RSS by process', '', r.memory.peaks.map((p) => `${p.name} ${fmt(p.peakKb / 1024, 0)} MB`).join('; '));
     const load = os.loadavg()[0]!;
     const verdict = (v: number, limit: number) => (v <= limit ? 'met' : 'NOT met');
     if (big) {

@@ -85,8 +85,9 @@ export function rssOf(pid: number): { rssKb: number; peakKb: number } | null {
  * whole tree held at once (the processes may not peak together); `largestTotalKb` is the largest
  * sampled total of the current resident sets, a lower bound.
  */
-export function watchTree(rootPid: number, everyMs = 100): { stop(): { sumOfPeaksKb: number; largestTotalKb: number; processes: number } } {
+export function watchTree(rootPid: number, everyMs = 100): { stop(): { sumOfPeaksKb: number; largestTotalKb: number; processes: number; peaks: { name: string; peakKb: number }[] } } {
   const peaks = new Map<number, number>();
+  const names = new Map<number, string>();
   let largestTotalKb = 0;
   const sample = () => {
     const pids = [rootPid];
@@ -97,6 +98,7 @@ export function watchTree(rootPid: number, everyMs = 100): { stop(): { sumOfPeak
       if (!r || !Number.isFinite(r.rssKb) || !Number.isFinite(r.peakKb)) continue; // gone, or a zombie (no Vm lines)
       total += r.rssKb;
       peaks.set(pid, Math.max(peaks.get(pid) ?? 0, r.peakKb));
+      if (!names.has(pid)) names.set(pid, nameOf(pid));
     }
     largestTotalKb = Math.max(largestTotalKb, total);
   };
@@ -107,7 +109,18 @@ export function watchTree(rootPid: number, everyMs = 100): { stop(): { sumOfPeak
       clearInterval(timer);
       let sum = 0;
       for (const v of peaks.values()) sum += v;
-      return { sumOfPeaksKb: sum, largestTotalKb, processes: peaks.size };
+      return { sumOfPeaksKb: sum, largestTotalKb, processes: peaks.size, peaks: [...peaks].map(([pid, peakKb]) => ({ name: names.get(pid) ?? '?', peakKb })) };
     },
   };
+}
+
+/** A short name for a process: its program and the last path part of its first script argument. */
+function nameOf(pid: number): string {
+  try {
+    const argv = fs.readFileSync(`/proc/${pid}/cmdline`, 'utf8').split('\0').filter(Boolean);
+    const script = argv.slice(1).find((a) => !a.startsWith('-'));
+    return [argv[0]?.split('/').pop(), script?.split('/').pop()].filter(Boolean).join(' ');
+  } catch {
+    return '?';
+  }
 }
