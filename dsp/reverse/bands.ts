@@ -142,18 +142,7 @@ export function bandAsymmetry(frames: number, bands: number, power: Float32Array
   const all = skew(0, steps);
   const total = all.up + all.down;
   const score = total > 0 ? (all.down - all.up) / total : 0;
-  const lead = Math.floor((steps % SEGMENT_BLOCKS) / 2);
-  const seg: number[] = [];
-  for (let a = lead; a + SEGMENT_BLOCKS <= steps; a += SEGMENT_BLOCKS) {
-    const s = skew(a, a + SEGMENT_BLOCKS);
-    if (s.n >= 20 && s.up + s.down > 0) seg.push((s.down - s.up) / (s.up + s.down));
-  }
-  let segmentT = 0;
-  if (seg.length >= 3) {
-    const mean = seg.reduce((p, v) => p + v, 0) / seg.length;
-    const sd = Math.sqrt(seg.reduce((p, v) => p + (v - mean) ** 2, 0) / (seg.length - 1));
-    segmentT = sd > 0 ? mean / (sd / Math.sqrt(seg.length)) : 0;
-  }
+  const { t: segmentT, segments } = segmentAgreement(steps, SEGMENT_BLOCKS, skew);
   // Each band on its own: does every part of the spectrum lean the same way?
   const own: number[] = [];
   for (let b = 0; b < bands; b++) {
@@ -166,5 +155,23 @@ export function bandAsymmetry(frames: number, bands: number, power: Float32Array
   const bandMedian = m === 0 ? 0 : m % 2 ? own[(m - 1) / 2]! : (own[m / 2 - 1]! + own[m / 2]!) / 2;
   const positiveShare = m === 0 ? 0 : own.filter((v) => v > 0).length / m;
   const negativeShare = m === 0 ? 0 : own.filter((v) => v < 0).length / m;
-  return { score, steps: all.n, segmentT, segments: seg.length, bands: m, bandMedian, positiveShare, negativeShare };
+  return { score, steps: all.n, segmentT, segments, bands: m, bandMedian, positiveShare, negativeShare };
+}
+
+/**
+ * Agreement of the skew over segments of `segmentBlocks` steps (centred in the file so that
+ * reversal mirrors them as nearly as possible): Student's t of the per-segment scores
+ * (down − up) / (down + up), over segments with at least 20 active steps; t = 0 with fewer than 3.
+ */
+export function segmentAgreement(steps: number, segmentBlocks: number, skew: (from: number, to: number) => { up: number; down: number; n: number }): { t: number; segments: number } {
+  const lead = Math.floor((steps % segmentBlocks) / 2);
+  const seg: number[] = [];
+  for (let a = lead; a + segmentBlocks <= steps; a += segmentBlocks) {
+    const s = skew(a, a + segmentBlocks);
+    if (s.n >= 20 && s.up + s.down > 0) seg.push((s.down - s.up) / (s.up + s.down));
+  }
+  if (seg.length < 3) return { t: 0, segments: seg.length };
+  const mean = seg.reduce((p, v) => p + v, 0) / seg.length;
+  const sd = Math.sqrt(seg.reduce((p, v) => p + (v - mean) ** 2, 0) / (seg.length - 1));
+  return { t: sd > 0 ? mean / (sd / Math.sqrt(seg.length)) : 0, segments: seg.length };
 }

@@ -67,7 +67,7 @@
 import { powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
-import { BandEnvelopes, bandAsymmetry, type BandAsymmetry } from './bands.ts';
+import { BandEnvelopes, bandAsymmetry, segmentAgreement, type BandAsymmetry } from './bands.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
@@ -272,18 +272,7 @@ export function asymmetryScore(power: Float32Array): Asymmetry {
   const score = total > 0 ? (all.down - all.up) / total : 0;
 
   // Agreement over 1 s segments (steps centred in the file so that reversal mirrors them as nearly as possible).
-  const steps = n - 1, lead = Math.floor((steps % SEGMENT_BLOCKS) / 2);
-  const seg: number[] = [];
-  for (let a = lead; a + SEGMENT_BLOCKS <= steps; a += SEGMENT_BLOCKS) {
-    const s = skewOf(db, a, a + SEGMENT_BLOCKS, -ACTIVE_DB);
-    if (s.n >= 20 && s.up + s.down > 0) seg.push((s.down - s.up) / (s.up + s.down));
-  }
-  let segmentT = 0;
-  if (seg.length >= 3) {
-    const mean = seg.reduce((p, v) => p + v, 0) / seg.length;
-    const sd = Math.sqrt(seg.reduce((p, v) => p + (v - mean) ** 2, 0) / (seg.length - 1));
-    segmentT = sd > 0 ? mean / (sd / Math.sqrt(seg.length)) : 0;
-  }
+  const { t: segmentT } = segmentAgreement(n - 1, SEGMENT_BLOCKS, (a, b) => skewOf(db, a, b, -ACTIVE_DB));
 
   // Hard edges over 20 ms, one per edge (the largest change among its neighbours).
   const d2 = new Float64Array(Math.max(0, n - 2));
