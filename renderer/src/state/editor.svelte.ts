@@ -271,7 +271,7 @@ export class Editor {
     const parts = [n ? `${n} correction${n === 1 ? '' : 's'}` : '', m ? `${m} marker${m === 1 ? '' : 's'}` : ''].filter(Boolean).join(' and ');
     const a = await this.ask({
       title: 'Unsaved corrections',
-      text: `${what} closes ${this.file?.name ?? 'this recording'}, and its ${parts} have not been saved in a session.`,
+      text: `${what} closes ${this.file?.name ?? 'this recording'}, and its ${parts} ${n + m === 1 ? 'has' : 'have'} not been saved in a session.`,
       choices: [
         { label: 'Keep working', value: 'keep' },
         { label: 'Save the session first', value: 'save' },
