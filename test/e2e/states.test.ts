@@ -251,7 +251,10 @@ describe('errors and state', () => {
     await (await pickAgain).setFiles(sessionPath);
     await pick(page, 'take2.wav', page.getByTestId('find-source'));
     await page.getByText('checksum matches').waitFor({ timeout: 60_000 });
-    expect(await page.locator('[data-testid=step][data-op=unecho]').count()).toBe(1);
+    // The chain's cards come with its on-demand part: wait for the first, then count them.
+    const steps = page.locator('[data-testid=step][data-op=unecho]');
+    await steps.first().waitFor({ timeout: 30_000 });
+    expect(await steps.count()).toBe(1);
   });
 
   it('stops an export on Cancel and saves no file', async () => {
