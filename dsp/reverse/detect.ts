@@ -25,7 +25,8 @@
  *     hard start followed by a steady decay is the same forwards. "Steady": the mean levels of the
  *     ramp's fifths, from the edge away, fall by ≥ 8 % of its dB in each of the first two steps and
  *     never climb back by more than 1 dB, and the nearer half carries at least 35 % of the fall (not
- *     concave in dB); it ends where the level grows again by 6 dB (another sound). A hard stop after a plateau (a wind or organ note being
+ *     concave in dB); it ends where the level grows again by 6 dB (another sound), or where it falls
+ *     by 12 dB within 50 ms (the note's own end: a damper or a release, which is not the decay). A hard stop after a plateau (a wind or organ note being
  *     released) or a linear fade-in read back from its cut (concave in dB) is neither. A ramp ends
  *     where the sound does, 50 dB below the peak.
  *  5. the band cue (dsp/reverse/bands.ts): the same skew of level changes measured in half-octave
@@ -124,6 +125,9 @@ const SEGMENT_BLOCKS = 100;
 const RAMP_END_DB = -FLOOR_DB + 10;
 const GATED_DIP_DB = 10;
 const RAMP_REGROW_DB = 6;
+/** A ramp stops at the note's own end: a fall of RELEASE_DB within RELEASE_BLOCKS. */
+const RELEASE_BLOCKS = 5;
+const RELEASE_DB = 12;
 
 /**
  * Per-channel block power envelope, grown as the source streams past. Sized for the source's
@@ -230,6 +234,9 @@ function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp
     // The ramp ends where the sound does (10 dB above the floor), or where the level grows again
     // (another sound: a free decay read from its loud end only falls).
     if (smooth[p]! <= RAMP_END_DB || smooth[p]! > lowest + RAMP_REGROW_DB) break;
+    // … or where the note itself ends: a fall of 12 dB within 50 ms (a damper or a release,
+    // far faster than the decay being followed) is not part of the ramp.
+    if (k >= RELEASE_BLOCKS && smooth[p - dir * RELEASE_BLOCKS]! - smooth[p]! >= RELEASE_DB) break;
     lowest = Math.min(lowest, smooth[p]!);
     last = p;
     count++;

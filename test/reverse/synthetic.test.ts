@@ -72,6 +72,21 @@ describe('reversed detection on synthetic references', () => {
     console.log('[reversed] struck partials:\n  ' + lines.join('\n  '));
   });
 
+  it('reads a struck note stopped by a damper as forward, and played backwards as reversed', async () => {
+    // Source: construction — one struck note (struckNotes above) whose free decay is cut short
+    // after 2 s by a damper: 60 dB more fall over 150 ms, the end of a held bass note (common
+    // practice). The decay is followed from the hard start up to the damper, not into it; played
+    // backwards the damper is a quick rise (not a hard edge) and the note a swell into the stop.
+    const x = struckNotes([0.3], [98], 10, 3.2);
+    for (let i = Math.round(2.3 * FS); i < x.length; i++) x[i]! *= 10 ** ((-60 * Math.min(1, (i / FS - 2.3) / 0.15)) / 20);
+    const f = await judge(x), b = await judge(flip(x));
+    console.log('[reversed] ' + line('damped struck note', f) + '\n  ' + line('damped struck note backwards', b));
+    expect(f.likely).toBe(false);
+    expect(f.decaysAfterStarts).toBe(1);
+    expect(b.likely).toBe(true);
+    expect(b.swellsIntoStops).toBe(1);
+  });
+
   it('never calls a held sound faded in and cut off reversed, whatever the fade curve', async () => {
     // Source: construction. A forward excerpt of a sustained sound that an editor faded in and
     // cut off has one fade and one cut only — exactly what a reversed sustained note looks like
