@@ -94,19 +94,32 @@ describe('reversed detection on synthetic references', () => {
     // direction is not determined (issue 11: "a clip whose only evidence is one fade and one cut
     // should stay not determined"). Fade curves in common use (common practice): linear gain,
     // equal-power (quarter sine), and linear in dB (60 dB).
-    const fade = 1.5, hold = 2.5, cutAt = 0.2 + fade + hold;
+    // Fades of 0.5–3 s, held 0, 0.3 or 2.5 s before the cut: with no hold, a fade linear in dB
+    // into the cut has exactly the broadband shape of a free decay played backwards; only the
+    // bands, which a gain moves together, tell it apart.
     const curves: [string, (u: number) => number][] = [
       ['linear gain', (u) => u],
       ['quarter sine', (u) => Math.sin((Math.PI / 2) * u)],
-      ['linear in dB', (u) => 10 ** ((-60 * (1 - u)) / 20)],
+      ['linear in dB, 60 dB', (u) => 10 ** ((-60 * (1 - u)) / 20)],
+      ['linear in dB, 40 dB', (u) => 10 ** ((-40 * (1 - u)) / 20)],
+      ['cubic', (u) => u ** 3],
     ];
     const lines: string[] = [];
+    let fadeLike = 0;
     for (const [name, curve] of curves) {
-      const x = heldWithGain(cutAt + 0.5, (t) => (t < 0.2 || t >= cutAt ? 0 : t < 0.2 + fade ? curve((t - 0.2) / fade) : 1));
-      const c = await judge(x);
-      lines.push(line(`held, faded in (${name}) and cut`, c));
-      expect(c.likely).not.toBe(true);
+      for (const fade of [0.5, 1.5, 3]) {
+        for (const hold of [0, 0.3, 2.5]) {
+          const cutAt = 0.2 + fade + hold;
+          const x = heldWithGain(cutAt + 0.5, (t) => (t < 0.2 || t >= cutAt ? 0 : t < 0.2 + fade ? curve((t - 0.2) / fade) : 1));
+          const c = await judge(x);
+          lines.push(line(`held, faded in (${name}, ${fade} s) and cut after ${hold} s`, c));
+          expect(c.likely).not.toBe(true);
+          if (c.basis === 'fade-like') fadeLike++;
+        }
+      }
     }
+    // The swells that look like a reversed decay are recognised as fades (and said so).
+    expect(fadeLike).toBeGreaterThanOrEqual(8);
     console.log('[reversed] fade-in and cut:\n  ' + lines.join('\n  '));
   });
 
