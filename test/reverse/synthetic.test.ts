@@ -9,6 +9,8 @@ import { describe, expect, it } from 'vitest';
 import { MemorySource } from '../../dsp/source.ts';
 import { REVERSED_SCORE_THRESHOLD, detectReversedChannels, type ReversedChannel } from '../../dsp/reverse/detect.ts';
 import { gaussian, seededRng } from '../helpers/rng.ts';
+import { bandDb, bandHeterogeneity } from '../../dsp/reverse/bands.ts';
+import { reversed } from '../../dsp/ops/reversed.ts';
 
 const FS = 48000;
 const flip = (x: Float64Array) => x.slice().reverse();
@@ -120,6 +122,14 @@ describe('reversed detection on synthetic references', () => {
     }
     // The swells that look like a reversed decay are recognised as fades (and said so).
     expect(fadeLike).toBeGreaterThanOrEqual(8);
+    const x = heldWithGain(2.2, (t) => (t < 0.2 || t >= 1.7 ? 0 : 10 ** ((-60 * (1 - (t - 0.2) / 1.5)) / 20)));
+    const res = await detectReversedChannels(new MemorySource([x], FS));
+    expect(res.channels[0]!.basis).toBe('fade-like');
+    const f = reversed.findings!(res, { sampleRateHz: FS, channelCount: 1, frames: x.length });
+    expect(f).toHaveLength(1);
+    expect(f[0]).toMatchObject({ severity: 'info', title: 'Direction of channel 1 not determined' });
+    expect(f[0]!.sentence).toMatch(/moves every frequency band together/);
+    expect(f[0]!.suggestion).toBeUndefined();
     console.log('[reversed] fade-in and cut:\n  ' + lines.join('\n  '));
   });
 
@@ -149,5 +159,27 @@ describe('reversed detection on synthetic references', () => {
     const b = await judge(flip(x));
     console.log('[reversed] ' + line('the same played backwards', b));
     expect(b.likely).toBe(true);
+  });
+});
+
+describe('band heterogeneity of a ramp (dsp/reverse/bands.ts bandHeterogeneity)', () => {
+  /** Band levels (power) from per-band dB curves, frame-major. */
+  const levels = (frames: number, bands: number, db: (t: number, b: number) => number) =>
+    Float32Array.from({ length: frames * bands }, (_, i) => 10 ** (db(Math.floor(i / bands), i % bands) / 10));
+
+  it('is 0 when a gain moves every band together, and large for a rate of its own in each band', () => {
+    // Source: exact identity — identical band slopes give Cochran's Q = 0; straight lines with
+    // slopes 0.2 … 0.55 dB per frame and ±0.5 dB of seeded noise differ by far more than their
+    // standard errors (Cochran, Biometrics 10, 1954: Q/(m − 1) ≈ 1 for equal slopes).
+    const g = gaussian(seededRng(5));
+    const frames = 200, bands = 8;
+    const gain = levels(frames, bands, (t, b) => -50 + 0.25 * t - 3 * b);
+    const q0 = bandHeterogeneity(bandDb(frames, bands, gain), 0, frames);
+    expect(q0.bands).toBe(bands);
+    expect(q0.ratio).toBeLessThan(1e-6);
+    const noisyGain = levels(frames, bands, (t, b) => -50 + 0.25 * t - 3 * b + 0.5 * g());
+    expect(bandHeterogeneity(bandDb(frames, bands, noisyGain), 0, frames).ratio).toBeLessThan(4);
+    const free = levels(frames, bands, (t, b) => -60 + (0.2 + 0.05 * b) * t + 0.5 * g());
+    expect(bandHeterogeneity(bandDb(frames, bands, free), 0, frames).ratio).toBeGreaterThan(50);
   });
 });
