@@ -62,7 +62,13 @@
  *    reversed a forward excerpt faded in and cut off (every band fades in and cuts off once),
  *    which is what a reversed held note or a reversed legato chord sequence with a single cut
  *    looks like too — those stay "not determined".
- * Otherwise not determined. A forward clarinet (swell 50 ms, plateau, cut; as many hard starts as
+ * Otherwise not determined. Sustained sampled notes and chords played backwards (organ, bowed
+ * strings, choir, brass, pads: one swell from silence, the held sound, one cut) stay not
+ * determined: measured on the corpus, the held part between the fade and the cut is the same
+ * either way round (30 ms band skew, 100 ms band rates and 50 ms per-bin level jumps all within
+ * ±0.1 of zero, with signs that differ between instruments), and the order in which the bands
+ * arrive over the swell, or their decay rates over a release, lean different ways on different
+ * instruments; what is left is one fade and one cut. A forward clarinet (swell 50 ms, plateau, cut; as many hard starts as
  * stops) is not determined in either direction, and so is a reversed one.
  *
  * Antisymmetry: time reversal maps every step d to −d and every hard start to a hard stop with the
