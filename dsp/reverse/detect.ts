@@ -65,8 +65,9 @@
  * Otherwise not determined. Sustained sampled notes and chords played backwards (organ, bowed
  * strings, choir, brass, pads: one swell from silence, the held sound, one cut) stay not
  * determined: measured on the corpus, the held part between the fade and the cut is the same
- * either way round (30 ms band skew, 100 ms band rates and 50 ms per-bin level jumps all within
- * ±0.1 of zero, with signs that differ between instruments), and the order in which the bands
+ * either way round (on the missed clips the 30 ms band skew, 100 ms band rates and 50 ms per-bin
+ * level jumps, away from the fade and the cut, are within ±0.25 of zero and as often lean the
+ * wrong way as the right one), and the order in which the bands
  * arrive over the swell, or their decay rates over a release, lean different ways on different
  * instruments; what is left is one fade and one cut. A forward clarinet (swell 50 ms, plateau, cut; as many hard starts as
  * stops) is not determined in either direction, and so is a reversed one.
