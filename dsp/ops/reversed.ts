@@ -62,6 +62,8 @@ export const reversed: AnalysisOp<ReversedResult> = {
           ? `less than ${REVERSED_MIN_ACTIVE_SECONDS} s of sound loud enough to judge`
           : ch.basis === 'no-hard-edges'
             ? 'its sounds neither start nor stop abruptly (sustained or steady material), so their shape does not tell the direction'
+            : ch.basis === 'fade-like'
+              ? `its one ${ch.abruptStops > ch.abruptStarts ? 'swell into a hard stop' : 'decay after a hard start'} moves every frequency band together (band spread ${(ch.rampBandSpread ?? 0).toFixed(1)}), as a fade applied as a gain does, while a free decay has a rate of its own in each band — one fade and one cut read the same either way round`
             : ch.basis === 'cues-disagree'
               ? `its level steps lean one way (skew ${(ch.skew ?? ch.score).toFixed(2)}) but too few of its sounds say which way (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops${ch.gatedNotes ? `, ${ch.gatedNotes} of them notes that start and stop abruptly, which read the same either way round` : ''}) — slow attacks with quick releases (winds, bowed strings, organ, fades) look like this either way round`
               : `too few independent sounds agree (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops, skew ${(ch.skew ?? ch.score).toFixed(2)})`;

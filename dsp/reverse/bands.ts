@@ -105,23 +105,11 @@ export interface BandAsymmetry {
   readonly negativeShare: number;
 }
 
-/** The band skew of one channel's band levels. */
-export function bandAsymmetry(frames: number, bands: number, power: Float32Array): BandAsymmetry {
+/** The band skew of one channel's band levels (`levels`: the same in dB, when already at hand). */
+export function bandAsymmetry(frames: number, bands: number, power: Float32Array, levels?: BandDb): BandAsymmetry {
   const none = { score: 0, steps: 0, segmentT: 0, segments: 0, bands: 0, bandMedian: 0, positiveShare: 0, negativeShare: 0 };
   if (frames <= LAG_BLOCKS || bands === 0) return none;
-  const db = new Float64Array(frames * bands);
-  const peaks = new Float64Array(bands);
-  const col = new Float64Array(frames);
-  for (let b = 0; b < bands; b++) {
-    for (let t = 0; t < frames; t++) col[t] = powerToDb(power[t * bands + b]! + 1e-30);
-    const sorted = Float64Array.from(col).sort();
-    peaks[b] = sorted[Math.min(frames - 1, Math.floor(0.99 * (frames - 1)))]!;
-    for (let t = 0; t < frames; t++) db[t * bands + b] = Math.max(col[t]! - peaks[b]!, -FLOOR_DB);
-  }
-  // A band far below the loudest contributes only noise: bands within 40 dB of the loudest band's peak.
-  let loudest = -Infinity;
-  for (let b = 0; b < bands; b++) loudest = Math.max(loudest, peaks[b]!);
-  const use = Array.from(peaks, (p) => p >= loudest - 40);
+  const { db, used: use } = levels ?? bandDb(frames, bands, power);
   const steps = frames - LAG_BLOCKS;
   /** Up and down cubes over steps [from, to) of every used band, or of band `only`. */
   const skew = (from: number, to: number, only = -1) => {
@@ -174,4 +162,83 @@ export function segmentAgreement(steps: number, segmentBlocks: number, skew: (fr
   const mean = seg.reduce((p, v) => p + v, 0) / seg.length;
   const sd = Math.sqrt(seg.reduce((p, v) => p + (v - mean) ** 2, 0) / (seg.length - 1));
   return { t: sd > 0 ? mean / (sd / Math.sqrt(seg.length)) : 0, segments: seg.length };
+}
+
+/** Band levels in dB relative to each band's robust peak (99th percentile), floored 60 dB down. */
+export interface BandDb {
+  readonly frames: number;
+  readonly bands: number;
+  /** Frames × bands, frame-major. */
+  readonly db: Float64Array;
+  /** Bands within 40 dB of the loudest band's peak. */
+  readonly used: readonly boolean[];
+}
+
+export function bandDb(frames: number, bands: number, power: Float32Array): BandDb {
+  const db = new Float64Array(frames * bands);
+  const peaks = new Float64Array(bands);
+  const col = new Float64Array(frames);
+  for (let b = 0; b < bands; b++) {
+    for (let t = 0; t < frames; t++) col[t] = powerToDb(power[t * bands + b]! + 1e-30);
+    const sorted = Float64Array.from(col).sort();
+    peaks[b] = sorted[Math.min(frames - 1, Math.floor(0.99 * (frames - 1)))]!;
+    for (let t = 0; t < frames; t++) db[t * bands + b] = Math.max(col[t]! - peaks[b]!, -FLOOR_DB);
+  }
+  let loudest = -Infinity;
+  for (let b = 0; b < bands; b++) loudest = Math.max(loudest, peaks[b]!);
+  return { frames, bands, db, used: Array.from(peaks, (p) => p >= loudest - 40) };
+}
+
+/**
+ * Do the bands' levels move apart over frames [from, to)? Each used band's level is fitted with a
+ * straight line (dB against time); a gain (an editor's fade, whatever its curve) moves every band
+ * by the same dB, so the slopes differ only by the material's own fluctuation, while a free decay
+ * has a rate of its own in each band. Returns the heterogeneity Q/(m − 1) of the m slopes
+ * (Cochran's Q: Σ (s_b − s̄)² / SE_b² with the inverse-variance mean s̄; e.g. Cochran, Biometrics
+ * 10, 1954), each standard error widened for the residuals' lag-1 autocorrelation ρ by
+ * √((1 + ρ)/(1 − ρ)) (the AR(1) effective sample size: common practice). About 1 for a gain on
+ * stationary material; large when the bands decay at different rates.
+ */
+export function bandHeterogeneity(b: BandDb, from: number, to: number): { bands: number; ratio: number } {
+  const lo = Math.max(0, from), hi = Math.min(b.frames, to);
+  const s: number[] = [], w: number[] = [];
+  const ys = new Float64Array(Math.max(0, hi - lo)), ts = new Float64Array(Math.max(0, hi - lo));
+  for (let k = 0; k < b.bands; k++) {
+    if (!b.used[k]) continue;
+    let n = 0;
+    for (let t = lo; t < hi; t++) {
+      const y = b.db[t * b.bands + k]!;
+      if (y <= -FLOOR_DB + 10) continue;
+      ys[n] = y;
+      ts[n] = t;
+      n++;
+    }
+    if (n < 30) continue;
+    let tm = 0, ym = 0;
+    for (let i = 0; i < n; i++) { tm += ts[i]!; ym += ys[i]!; }
+    tm /= n; ym /= n;
+    let sxx = 0, sxy = 0;
+    for (let i = 0; i < n; i++) { sxx += (ts[i]! - tm) ** 2; sxy += (ts[i]! - tm) * (ys[i]! - ym); }
+    if (sxx <= 0) continue;
+    const slope = sxy / sxx;
+    let rss = 0, r1 = 0, prev = 0;
+    for (let i = 0; i < n; i++) {
+      const r = ys[i]! - ym - slope * (ts[i]! - tm);
+      rss += r * r;
+      if (i > 0) r1 += r * prev;
+      prev = r;
+    }
+    const rho = rss > 0 ? Math.min(0.98, Math.max(0, r1 / rss)) : 0;
+    const se2 = (rss / Math.max(1, n - 2) / sxx) * ((1 + rho) / (1 - rho));
+    s.push(slope);
+    w.push(1 / Math.max(se2, 1e-12));
+  }
+  const m = s.length;
+  if (m < 3) return { bands: m, ratio: 0 };
+  let sw = 0, swm = 0;
+  for (let i = 0; i < m; i++) { sw += w[i]!; swm += w[i]! * s[i]!; }
+  const mean = swm / sw;
+  let q = 0;
+  for (let i = 0; i < m; i++) q += w[i]! * (s[i]! - mean) ** 2;
+  return { bands: m, ratio: q / (m - 1) };
 }

@@ -25,7 +25,8 @@
  *     hard start followed by a steady decay is the same forwards. "Steady": the mean levels of the
  *     ramp's fifths, from the edge away, fall by ≥ 8 % of its dB in each of the first two steps and
  *     never climb back by more than 1 dB, and the nearer half carries at least 35 % of the fall (not
- *     concave in dB); it ends where the level grows again by 6 dB (another sound). A hard stop after a plateau (a wind or organ note being
+ *     concave in dB); it ends where the level grows again by 6 dB (another sound), or where it falls
+ *     by 12 dB within 50 ms (the note's own end: a damper or a release, which is not the decay). A hard stop after a plateau (a wind or organ note being
  *     released) or a linear fade-in read back from its cut (concave in dB) is neither. A ramp ends
  *     where the sound does, 50 dB below the peak.
  *  5. the band cue (dsp/reverse/bands.ts): the same skew of level changes measured in half-octave
@@ -44,6 +45,13 @@
  *    were damped: each damper release became a hard start followed by a swell);
  *  - one long swell: at most one hard start, a swell of ≥ 10 dB over ≥ 2 s into a hard stop, no
  *    decay after any start (a reversed held low note whose damper release became a hard start);
+ *  - a fade is not a decay: the two rules above that rest on one ramp (one swell into the stop,
+ *    one long swell) need the ramp's frequency bands to move apart (bands.ts bandHeterogeneity
+ *    ≥ 6). A fade applied as a gain moves every band together whatever its curve, and one linear
+ *    in dB has exactly the broadband shape of a free decay read backwards; a free decay has a rate
+ *    of its own in each band. A ramp whose bands move together leaves the direction not determined
+ *    ('fade-like'), and so do sampled notes whose decay is a volume envelope — their reversal is,
+ *    sample for sample, a fade-in ending in a cut;
  *  - the bands agree (when none of the above decided): S ≥ 0.3, at least 3 hard stops and more
  *    stops than starts, Sb ≥ 0.45, the median of the bands' own skews ≥ 0.5 and at least 90 % of
  *    at least 3 bands leaning the same way (reversed strummed chords and brass chords whose few
@@ -54,7 +62,14 @@
  *    reversed a forward excerpt faded in and cut off (every band fades in and cuts off once),
  *    which is what a reversed held note or a reversed legato chord sequence with a single cut
  *    looks like too — those stay "not determined".
- * Otherwise not determined. A forward clarinet (swell 50 ms, plateau, cut; as many hard starts as
+ * Otherwise not determined. Sustained sampled notes and chords played backwards (organ, bowed
+ * strings, choir, brass, pads: one swell from silence, the held sound, one cut) stay not
+ * determined: measured on the corpus, the held part between the fade and the cut is the same
+ * either way round (on the missed clips the 30 ms band skew, 100 ms band rates and 50 ms per-bin
+ * level jumps, away from the fade and the cut, are within ±0.25 of zero and as often lean the
+ * wrong way as the right one), and the order in which the bands
+ * arrive over the swell, or their decay rates over a release, lean different ways on different
+ * instruments; what is left is one fade and one cut. A forward clarinet (swell 50 ms, plateau, cut; as many hard starts as
  * stops) is not determined in either direction, and so is a reversed one.
  *
  * Antisymmetry: time reversal maps every step d to −d and every hard start to a hard stop with the
@@ -67,7 +82,7 @@
 import { powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
-import { BandEnvelopes, bandAsymmetry, segmentAgreement, type BandAsymmetry } from './bands.ts';
+import { BandEnvelopes, bandAsymmetry, bandDb, bandHeterogeneity, segmentAgreement, type BandAsymmetry, type BandDb } from './bands.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
@@ -97,13 +112,17 @@ export interface ReversedChannel {
   /** Bands scored, and the share of them leaning towards the reported direction (towards reversed when not determined). */
   readonly bands?: number;
   readonly bandsAgreeing?: number;
+  /** For a direction resting on one ramp (one swell into a stop, or one decay after a start): how far
+   * its frequency bands move apart (bands.ts bandHeterogeneity; about 1 for a fade, which moves every
+   * band together). Absent when no such ramp was weighed. */
+  readonly rampBandSpread?: number;
   /** Which rule decided, or why nothing did. */
   readonly basis?: ReversedBasis;
   /** Calibrated on the real-material corpus; 0 when not determined. */
   readonly confidence?: number;
 }
 
-export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'thin';
+export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
 
 export interface ReversedResult {
   readonly channels: ReversedChannel[];
@@ -124,6 +143,17 @@ const SEGMENT_BLOCKS = 100;
 const RAMP_END_DB = -FLOOR_DB + 10;
 const GATED_DIP_DB = 10;
 const RAMP_REGROW_DB = 6;
+/** A ramp stops at the note's own end: a fall of RELEASE_DB within RELEASE_BLOCKS. */
+const RELEASE_BLOCKS = 5;
+const RELEASE_DB = 12;
+/**
+ * A direction resting on one ramp needs its bands to move apart by at least this much (Q/(m − 1)
+ * of bands.ts bandHeterogeneity). Gain fades (linear in dB, cubic, over 0.5–3 s) on steady partials,
+ * noise and partials with vibrato and tremolo gave at most 4.4; free decays of the corpus's struck
+ * and plucked notes mostly 10–90, but a few sampled notes whose decay is a volume envelope (the same
+ * in every band) 0.4–4 — those are a fade, and one fade with one cut stays not determined.
+ */
+const RAMP_BAND_SPREAD = 6;
 
 /**
  * Per-channel block power envelope, grown as the source streams past. Sized for the source's
@@ -177,6 +207,9 @@ export const LARGE_STEP_DB = 6;
 export interface Ramp {
   readonly seconds: number;
   readonly db: number;
+  /** The blocks it spans, first ≤ last (whichever end the edge is at). */
+  readonly first: number;
+  readonly last: number;
 }
 
 export interface Asymmetry {
@@ -230,6 +263,9 @@ function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp
     // The ramp ends where the sound does (10 dB above the floor), or where the level grows again
     // (another sound: a free decay read from its loud end only falls).
     if (smooth[p]! <= RAMP_END_DB || smooth[p]! > lowest + RAMP_REGROW_DB) break;
+    // … or where the note itself ends: a fall of 12 dB within 50 ms (a damper or a release,
+    // far faster than the decay being followed) is not part of the ramp.
+    if (k >= RELEASE_BLOCKS && smooth[p - dir * RELEASE_BLOCKS]! - smooth[p]! >= RELEASE_DB) break;
     lowest = Math.min(lowest, smooth[p]!);
     last = p;
     count++;
@@ -253,7 +289,7 @@ function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp
   // Not concave in dB: the nearer half carries at least 35 % of the fall (a straight line in dB
   // carries half, a two-stage decay more, a linear-amplitude fade read back from its cut about a quarter).
   if (means[0]! - means[2]! < 0.35 * (means[0]! - means[4]!)) return null;
-  return { seconds: count * REVERSED_BLOCK_SECONDS, db: total };
+  return { seconds: count * REVERSED_BLOCK_SECONDS, db: total, first: Math.min(j, last), last: Math.max(j, last) };
 }
 
 /** Every cue of one block-power envelope (see the module comment). */
@@ -338,19 +374,30 @@ export interface Verdict {
   readonly confidence: number;
 }
 
-/** The rules for "the abrupt edges are stops" (reversed); called mirrored for "forward". */
+/** The rules for "the abrupt edges are stops" (reversed); called mirrored for "forward". `moves`
+ * says whether a ramp's bands move apart (not a fade); it decides the rules that rest on one ramp. */
 function stopsWin(
   s: number, t: number, stops: number, starts: number, openStops: number, openStarts: number, swells: readonly Ramp[], decays: readonly Ramp[],
-): { basis: ReversedBasis; confidence: number } | null {
+  moves: (r: Ramp) => boolean = () => true,
+): { basis: ReversedBasis; confidence: number } | { fadeLike: true } | null {
   if (s <= 0) return null;
   if (s >= REVERSED_SCORE_THRESHOLD && openStops >= 3 && openStops >= 1.25 * openStarts && (openStarts === 0 || t >= 1.5)) {
     // Calibrated on the corpus: no false call at any count; fewer events, less confidence.
     return { basis: 'many-events', confidence: openStops >= 8 && (openStarts === 0 || t >= 3) ? 0.95 : 0.8 };
   }
-  if (s >= 0.6 && starts === 0 && stops >= 1 && swells.length >= 1 && decays.length === 0) return { basis: 'ramps-at-edges', confidence: 0.7 };
+  // One ramp only: a swell into the stop that moves every band together is a fade, not a decay.
+  let fadeLike = false;
+  if (s >= 0.6 && starts === 0 && stops >= 1 && swells.length >= 1 && decays.length === 0) {
+    if (swells.some(moves)) return { basis: 'ramps-at-edges', confidence: 0.7 };
+    fadeLike = true;
+  }
   if (s >= REVERSED_SCORE_THRESHOLD && swells.length >= 2 && decays.length === 0 && stops >= starts) return { basis: 'ramps-at-edges', confidence: 0.8 };
-  if (starts <= 1 && stops >= Math.max(1, starts) && decays.length === 0 && swells.some((r) => r.seconds >= 2 && r.db >= 10)) return { basis: 'long-ramp', confidence: 0.7 };
-  return null;
+  const long = swells.filter((r) => r.seconds >= 2 && r.db >= 10);
+  if (starts <= 1 && stops >= Math.max(1, starts) && decays.length === 0 && long.length > 0) {
+    if (long.some(moves)) return { basis: 'long-ramp', confidence: 0.7 };
+    fadeLike = true;
+  }
+  return fadeLike ? { fadeLike: true } : null;
 }
 
 /** The band rule for "reversed" (see the module comment); called mirrored for "forward". */
@@ -359,16 +406,25 @@ function bandsWin(s: number, bandSkew: number, bandMedian: number, share: number
 }
 
 /** The decision for one channel from its cues (see the module comment). */
-export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry): Verdict {
+export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry, moves?: (r: Ramp) => boolean): Verdict {
   if (activeSeconds < REVERSED_MIN_ACTIVE_SECONDS) return { likely: null, basis: 'too-little-sound', confidence: 0 };
-  const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.openStops, a.openStarts, a.swells, a.decays);
-  if (back) return { likely: true, ...back };
-  const fwd = stopsWin(-a.score, -a.segmentT, a.hardStarts, a.hardStops, a.openStarts, a.openStops, a.decays, a.swells);
-  if (fwd) return { likely: false, ...fwd };
+  const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.openStops, a.openStarts, a.swells, a.decays, moves);
+  if (back && 'basis' in back) return { likely: true, ...back };
+  const fwd = stopsWin(-a.score, -a.segmentT, a.hardStarts, a.hardStops, a.openStarts, a.openStops, a.decays, a.swells, moves);
+  if (fwd && 'basis' in fwd) return { likely: false, ...fwd };
   if (b && bandsWin(a.score, b.score, b.bandMedian, b.positiveShare, b.bands, a.hardStops, a.hardStarts)) return { likely: true, basis: 'bands-agree', confidence: 0.7 };
   if (b && bandsWin(-a.score, -b.score, -b.bandMedian, b.negativeShare, b.bands, a.hardStarts, a.hardStops)) return { likely: false, basis: 'bands-agree', confidence: 0.7 };
-  const basis: ReversedBasis = a.hardStarts + a.hardStops === 0 ? 'no-hard-edges' : Math.abs(a.score) >= REVERSED_SCORE_THRESHOLD ? 'cues-disagree' : 'thin';
+  const basis: ReversedBasis =
+    a.hardStarts + a.hardStops === 0 ? 'no-hard-edges' : back || fwd ? 'fade-like' : Math.abs(a.score) >= REVERSED_SCORE_THRESHOLD ? 'cues-disagree' : 'thin';
   return { likely: null, basis, confidence: 0 };
+}
+
+/**
+ * How far the bands move apart over a ramp (bands.ts bandHeterogeneity), over the band frames that
+ * lie wholly inside it (frame k ends with block k and spans about blocks k − 3 … k).
+ */
+function rampBandSpread(bd: BandDb, r: Ramp): number {
+  return bandHeterogeneity(bd, r.first + 3, r.last + 1).ratio;
 }
 
 /** Band levels of one channel (BandEnvelopes.levels()). */
@@ -385,8 +441,18 @@ export interface BandLevels {
 export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK_SECONDS, bandLevels?: BandLevels): Omit<ReversedChannel, 'channel'> {
   const a = asymmetryScore(power);
   const activeSeconds = a.activeBlocks * blockSeconds;
-  const bands = bandLevels ? bandAsymmetry(bandLevels.frames, bandLevels.bands, bandLevels.power) : undefined;
-  const v = judgeDirection(a, activeSeconds, bands);
+  const bd = bandLevels && bandLevels.frames > 0 && bandLevels.bands > 0 ? bandDb(bandLevels.frames, bandLevels.bands, bandLevels.power) : undefined;
+  const bands = bandLevels ? bandAsymmetry(bandLevels.frames, bandLevels.bands, bandLevels.power, bd) : undefined;
+  // Without band levels the ramps cannot be told from fades: they count as before.
+  const spreads = new Map<Ramp, number>();
+  const spread = (r: Ramp) => {
+    if (!bd) return Infinity;
+    let q = spreads.get(r);
+    if (q === undefined) spreads.set(r, (q = rampBandSpread(bd, r)));
+    return q;
+  };
+  const v = judgeDirection(a, activeSeconds, bands, (r) => spread(r) >= RAMP_BAND_SPREAD);
+  const weighed = [...spreads.values()];
   return {
     likely: v.likely,
     score: v.likely === null ? a.score / 4 : a.score,
@@ -401,6 +467,7 @@ export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK
     ...(bands
       ? { bandSkew: bands.score, bandMedian: bands.bandMedian, bands: bands.bands, bandsAgreeing: v.likely === false ? bands.negativeShare : bands.positiveShare }
       : {}),
+    ...(weighed.length > 0 ? { rampBandSpread: Math.max(...weighed) } : {}),
     basis: v.basis,
     confidence: v.confidence,
   };

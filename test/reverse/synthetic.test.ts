@@ -1,0 +1,185 @@
+/**
+ * Reversed-channel detection (dsp/reverse/detect.ts) on synthetic references with a known answer:
+ * struck partial series whose decay times fall with frequency (forwards → plays forwards, played
+ * backwards → plays backwards), and the shapes that look like a reversed sustained note but are
+ * forward programme — a held sound faded in and cut off, a reversed-cymbal swell inside forward
+ * drums — which must never be called reversed.
+ */
+import { describe, expect, it } from 'vitest';
+import { MemorySource } from '../../dsp/source.ts';
+import { REVERSED_SCORE_THRESHOLD, detectReversedChannels, type ReversedChannel } from '../../dsp/reverse/detect.ts';
+import { gaussian, seededRng } from '../helpers/rng.ts';
+import { bandDb, bandHeterogeneity } from '../../dsp/reverse/bands.ts';
+import { reversed } from '../../dsp/ops/reversed.ts';
+
+const FS = 48000;
+const flip = (x: Float64Array) => x.slice().reverse();
+const judge = async (x: Float64Array) => (await detectReversedChannels(new MemorySource([x], FS))).channels[0]!;
+const line = (name: string, c: ReversedChannel) =>
+  `${name}: ${String(c.likely).padEnd(5)} score ${c.score.toFixed(2)} skew ${c.skew!.toFixed(2)}, ${c.abruptStarts} hard starts, ${c.abruptStops} hard stops, ${c.swellsIntoStops} swells, ${c.decaysAfterStarts} decays (${c.basis})`;
+
+/**
+ * Struck notes: partial k of f0 at amplitude 1/k with a 60 dB decay time T60(k) = t60 / k^0.7,
+ * shorter for higher partials. Free vibration decays exponentially, each mode at its own rate,
+ * and damping grows with frequency, so high partials die first (Source: Fletcher & Rossing, The
+ * Physics of Musical Instruments, 2nd ed., §2.2 damped oscillator and §12 on string decay).
+ */
+function struckNotes(onsets: readonly number[], f0s: readonly number[], t60: number, seconds: number): Float64Array {
+  const n = Math.round(seconds * FS);
+  const x = new Float64Array(n);
+  onsets.forEach((t0, j) => {
+    const f0 = f0s[j % f0s.length]!;
+    for (let k = 1; k <= 16 && k * f0 < 0.45 * FS; k++) {
+      const tau = t60 / k ** 0.7 / Math.log(1000); // amplitude time constant: e^(−t/τ) reaches −60 dB at T60
+      const w = (2 * Math.PI * k * f0) / FS;
+      const end = Math.min(n, Math.round((t0 + 7 * tau * Math.log(10)) * FS));
+      for (let i = Math.round(t0 * FS); i < end; i++) {
+        const t = i / FS - t0;
+        x[i]! += (0.1 / k) * Math.exp(-t / tau) * Math.sin(w * (i - t0 * FS));
+      }
+    }
+  });
+  return x;
+}
+
+/** A held organ-like sound (steady partials 1/k of 110 Hz and a fifth above), with a gain curve applied. */
+function heldWithGain(seconds: number, gain: (t: number) => number): Float64Array {
+  const n = Math.round(seconds * FS);
+  const x = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const t = i / FS;
+    let v = 0;
+    for (let k = 1; k <= 8; k++) v += (Math.sin(2 * Math.PI * 110 * k * t) + 0.7 * Math.sin(2 * Math.PI * 165 * k * t)) / k;
+    x[i] = 0.05 * gain(t) * v;
+  }
+  return x;
+}
+
+describe('reversed detection on synthetic references', () => {
+  it('reads struck partial series with band-dependent decay as forward, and played backwards as reversed', async () => {
+    // Source: construction (struckNotes above) and exact reversal of its samples. A single long
+    // note (hard start, free decay) and a phrase of four notes.
+    const cases: [string, Float64Array][] = [
+      ['one struck note', struckNotes([0.3], [110], 4, 5)],
+      ['four struck notes', struckNotes([0.3, 1.5, 2.7, 3.9], [110, 147, 131, 165], 2.5, 6)],
+    ];
+    const lines: string[] = [];
+    for (const [name, x] of cases) {
+      const f = await judge(x), b = await judge(flip(x));
+      lines.push(line(name, f), line(name + ' backwards', b));
+      expect(f.likely).toBe(false);
+      expect(b.likely).toBe(true);
+      expect(b.score).toBeGreaterThanOrEqual(REVERSED_SCORE_THRESHOLD);
+    }
+    console.log('[reversed] struck partials:\n  ' + lines.join('\n  '));
+  });
+
+  it('reads a struck note stopped by a damper as forward, and played backwards as reversed', async () => {
+    // Source: construction — one struck note (struckNotes above) whose free decay is cut short
+    // after 2 s by a damper: 60 dB more fall over 150 ms, the end of a held bass note (common
+    // practice). The decay is followed from the hard start up to the damper, not into it; played
+    // backwards the damper is a quick rise (not a hard edge) and the note a swell into the stop.
+    const x = struckNotes([0.3], [98], 10, 3.2);
+    for (let i = Math.round(2.3 * FS); i < x.length; i++) x[i]! *= 10 ** ((-60 * Math.min(1, (i / FS - 2.3) / 0.15)) / 20);
+    const f = await judge(x), b = await judge(flip(x));
+    console.log('[reversed] ' + line('damped struck note', f) + '\n  ' + line('damped struck note backwards', b));
+    expect(f.likely).toBe(false);
+    expect(f.decaysAfterStarts).toBe(1);
+    expect(b.likely).toBe(true);
+    expect(b.swellsIntoStops).toBe(1);
+  });
+
+  it('never calls a held sound faded in and cut off reversed, whatever the fade curve', async () => {
+    // Source: construction. A forward excerpt of a sustained sound that an editor faded in and
+    // cut off has one fade and one cut only — exactly what a reversed sustained note looks like
+    // (its release read backwards, then the attack as a cut); with no other evidence the
+    // direction is not determined (issue 11: "a clip whose only evidence is one fade and one cut
+    // should stay not determined"). Fade curves in common use (common practice): linear gain,
+    // equal-power (quarter sine), and linear in dB (60 dB).
+    // Fades of 0.5–3 s, held 0, 0.3 or 2.5 s before the cut: with no hold, a fade linear in dB
+    // into the cut has exactly the broadband shape of a free decay played backwards; only the
+    // bands, which a gain moves together, tell it apart.
+    const curves: [string, (u: number) => number][] = [
+      ['linear gain', (u) => u],
+      ['quarter sine', (u) => Math.sin((Math.PI / 2) * u)],
+      ['linear in dB, 60 dB', (u) => 10 ** ((-60 * (1 - u)) / 20)],
+      ['linear in dB, 40 dB', (u) => 10 ** ((-40 * (1 - u)) / 20)],
+      ['cubic', (u) => u ** 3],
+    ];
+    const lines: string[] = [];
+    let fadeLike = 0;
+    for (const [name, curve] of curves) {
+      for (const fade of [0.5, 1.5, 3]) {
+        for (const hold of [0, 0.3, 2.5]) {
+          const cutAt = 0.2 + fade + hold;
+          const x = heldWithGain(cutAt + 0.5, (t) => (t < 0.2 || t >= cutAt ? 0 : t < 0.2 + fade ? curve((t - 0.2) / fade) : 1));
+          const c = await judge(x);
+          lines.push(line(`held, faded in (${name}, ${fade} s) and cut after ${hold} s`, c));
+          expect(c.likely).not.toBe(true);
+          if (c.basis === 'fade-like') fadeLike++;
+        }
+      }
+    }
+    // The swells that look like a reversed decay are recognised as fades (and said so).
+    expect(fadeLike).toBeGreaterThanOrEqual(8);
+    const x = heldWithGain(2.2, (t) => (t < 0.2 || t >= 1.7 ? 0 : 10 ** ((-60 * (1 - (t - 0.2) / 1.5)) / 20)));
+    const res = await detectReversedChannels(new MemorySource([x], FS));
+    expect(res.channels[0]!.basis).toBe('fade-like');
+    const f = reversed.findings!(res, { sampleRateHz: FS, channelCount: 1, frames: x.length });
+    expect(f).toHaveLength(1);
+    expect(f[0]).toMatchObject({ severity: 'info', title: 'Direction of channel 1 not determined' });
+    expect(f[0]!.sentence).toMatch(/moves every frequency band together/);
+    expect(f[0]!.suggestion).toBeUndefined();
+    console.log('[reversed] fade-in and cut:\n  ' + lines.join('\n  '));
+  });
+
+  it('never calls forward drums with a reversed-cymbal swell into the downbeat reversed', async () => {
+    // Source: construction. A common production effect: a cymbal (noise decaying over 2 s) played
+    // backwards swells into the first hit of forward drums (hard attacks, 150 ms decays). The
+    // channel plays forwards; the swell is one event among many forward ones.
+    const g = gaussian(seededRng(11));
+    const n = 8 * FS;
+    const x = new Float64Array(n);
+    const swellEnd = 2.2;
+    for (let i = Math.round(0.2 * FS); i < Math.round(swellEnd * FS); i++) {
+      const t = swellEnd - i / FS; // time since the (reversed) cymbal hit
+      x[i] = 0.15 * g() * Math.exp(-t / (2 / Math.log(1000)));
+    }
+    for (let h = 0; h < 12; h++) {
+      const t0 = swellEnd + h * 0.45;
+      for (let i = Math.round(t0 * FS); i < Math.min(n, Math.round((t0 + 0.4) * FS)); i++) {
+        const t = i / FS - t0;
+        x[i]! += 0.4 * Math.exp(-t / 0.05) * (Math.sin(2 * Math.PI * 80 * t) + 0.3 * g());
+      }
+    }
+    const c = await judge(x);
+    console.log('[reversed] ' + line('drums after a reversed-cymbal swell', c));
+    expect(c.likely).not.toBe(true);
+    // And the whole channel played backwards is found (each hit becomes a swell into a stop).
+    const b = await judge(flip(x));
+    console.log('[reversed] ' + line('the same played backwards', b));
+    expect(b.likely).toBe(true);
+  });
+});
+
+describe('band heterogeneity of a ramp (dsp/reverse/bands.ts bandHeterogeneity)', () => {
+  /** Band levels (power) from per-band dB curves, frame-major. */
+  const levels = (frames: number, bands: number, db: (t: number, b: number) => number) =>
+    Float32Array.from({ length: frames * bands }, (_, i) => 10 ** (db(Math.floor(i / bands), i % bands) / 10));
+
+  it('is 0 when a gain moves every band together, and large for a rate of its own in each band', () => {
+    // Source: exact identity — identical band slopes give Cochran's Q = 0; straight lines with
+    // slopes 0.2 … 0.55 dB per frame and ±0.5 dB of seeded noise differ by far more than their
+    // standard errors (Cochran, Biometrics 10, 1954: Q/(m − 1) ≈ 1 for equal slopes).
+    const g = gaussian(seededRng(5));
+    const frames = 200, bands = 8;
+    const gain = levels(frames, bands, (t, b) => -50 + 0.25 * t - 3 * b);
+    const q0 = bandHeterogeneity(bandDb(frames, bands, gain), 0, frames);
+    expect(q0.bands).toBe(bands);
+    expect(q0.ratio).toBeLessThan(1e-6);
+    const noisyGain = levels(frames, bands, (t, b) => -50 + 0.25 * t - 3 * b + 0.5 * g());
+    expect(bandHeterogeneity(bandDb(frames, bands, noisyGain), 0, frames).ratio).toBeLessThan(4);
+    const free = levels(frames, bands, (t, b) => -60 + (0.2 + 0.05 * b) * t + 0.5 * g());
+    expect(bandHeterogeneity(bandDb(frames, bands, free), 0, frames).ratio).toBeGreaterThan(50);
+  });
+});
