@@ -107,7 +107,9 @@ async function correct(t: CorrectTask): Promise<CorrectionResult> {
       metrics.windows = abs.length;
       metrics.lengthRatio = output.length / reference.length;
     }
-    return { id: t.id, metrics, resolved: rendering.resolved as Record<string, unknown>, warnings, cpuSeconds: cpu() };
+    // JSON has no NaN or ±Infinity (they would arrive as null): such values travel as their names.
+    const sent = Object.fromEntries(Object.entries(metrics).map(([k, v]) => [k, Number.isFinite(v) ? v : String(v)])) as unknown as Record<string, number>;
+    return { id: t.id, metrics: sent, resolved: rendering.resolved as Record<string, unknown>, warnings, cpuSeconds: cpu() };
   } catch (e) {
     return { id: t.id, metrics: {}, resolved: {}, warnings, cpuSeconds: cpu(), error: e instanceof Error ? `${e.name}: ${e.message}` : String(e) };
   } finally {
