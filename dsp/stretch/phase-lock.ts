@@ -3,8 +3,10 @@
  * of audio", IEEE Trans. Speech Audio Process. 7(3):323–332, §IV) for the time-stretcher.
  *
  * The state is one rotation e^{jθ} per bin, θ = φ_out − φ_in, shared by all channels (so
- * inter-channel phase and level differences pass unchanged). Peaks are bins larger than their two
- * neighbours on each side in the channels' summed power; each peak's rotation advances by
+ * inter-channel phase and level differences pass unchanged). Peaks are bins larger than their
+ * neighbour on each side in the channels' summed power (with two neighbours each side, as in the
+ * paper, a weak partial 2–3 bins from a strong one is no peak and turns with the strong one's
+ * frequency: pulled toward it on low piano notes); each peak's rotation advances by
  * (H_s − H_a)·ω̂ with ω̂ its instantaneous frequency, and every bin of the peak's region (bounded
  * by the lowest bin between two peaks) takes the peak's rotation, so bins other than peaks need no
  * trigonometry.
@@ -15,6 +17,9 @@
  * for discrete Fourier transforms of weighted signals", IEEE Trans. Instrum. Meas.
  * 32(2):350–355). Peaks more than 50 dB below the frame's largest (the noise floor) advance by
  * table: Grandke's offset rounded to 1/64 bin, no trigonometry.
+ *
+ * With a Hann analysis window (the main band) each steady peak's leakage into its neighbours'
+ * regions is turned by its own rotation (`#correctLeakage`).
  */
 
 const TWO_PI = 2 * Math.PI;
@@ -23,6 +28,8 @@ const wrap = (x: number): number => x - TWO_PI * Math.round(x / TWO_PI);
 const WEAK_PEAK = 1e-5;
 /** Resolution of the tabled frequency offset: 1/64 bin. */
 const FRACTION_STEPS = 64;
+/** Farthest bin a partial's leakage is corrected at (Hann leakage there ≈ −98 dB). */
+const MAX_REACH = 24;
 
 export class PhaseLocker {
   readonly fftSize: number;
@@ -43,7 +50,14 @@ export class PhaseLocker {
   #stepDelta = NaN;
   readonly #peaks: Int32Array;
 
-  constructor(fftSize: number, synthesisHop: number, channelCount: number, activeBins = fftSize / 2 + 1) {
+  /** Leakage correction for a periodic Hann analysis window (see `#correctLeakage`). */
+  readonly #hann: boolean;
+  readonly #peakFreq: Float64Array; // per peak: frequency (bins), NaN when not corrected
+  readonly #regionLo: Int32Array;
+  readonly #regionHi: Int32Array;
+  readonly #inv: Float64Array; // 1/sin(πx/N) over the bins one correction reaches
+
+  constructor(fftSize: number, synthesisHop: number, channelCount: number, activeBins = fftSize / 2 + 1, hannLeakage = false) {
     this.fftSize = fftSize;
     this.synthesisHop = synthesisHop;
     this.channelCount = channelCount;
@@ -57,6 +71,11 @@ export class PhaseLocker {
     this.rotRe = new Float64Array(bins).fill(1);
     this.rotIm = new Float64Array(bins);
     this.#peaks = new Int32Array(bins);
+    this.#hann = hannLeakage;
+    this.#peakFreq = new Float64Array(hannLeakage ? bins : 0);
+    this.#regionLo = new Int32Array(hannLeakage ? bins : 0);
+    this.#regionHi = new Int32Array(hannLeakage ? bins : 0);
+    this.#inv = new Float64Array(2 * MAX_REACH + 5);
   }
 
   /** Every rotation back to 1 (the output takes the analysis phases). */
@@ -144,7 +163,7 @@ export class PhaseLocker {
     let count = 0, top = 0;
     for (let k = 2; k < last - 1; k++) {
       const v = pw[k]!;
-      if (v > pw[k - 1]! && v > pw[k + 1]! && v >= pw[k - 2]! && v >= pw[k + 2]! && v > 0) {
+      if (v > pw[k - 1]! && v >= pw[k + 1]! && v > 0) {
         peaks[count++] = k;
         if (v > top) top = v;
       }
@@ -187,6 +206,8 @@ export class PhaseLocker {
           w = omega[kp]!; // the same analysis frame again: keep the last estimate
         }
         omega[kp] = w;
+        // A steady partial (the fine and coarse offsets agree) is corrected for leakage.
+        if (this.#hann) this.#peakFreq[p] = Math.abs(w / binRad - kp - delta) < 0.25 ? w / binRad : NaN;
         const phi = wrap(advance * w);
         cr = Math.cos(phi);
         ci = Math.sin(phi);
@@ -199,6 +220,7 @@ export class PhaseLocker {
         cr = sr * fr - si * fi;
         ci = sr * fi + si * fr;
         omega[kp] = (kp + q / FRACTION_STEPS) * binRad;
+        if (this.#hann) this.#peakFreq[p] = NaN;
       }
       // New rotation of the peak, renormalised to unit length (first-order correction).
       let nr = rr[kp]! * cr - ri[kp]! * ci, ni = rr[kp]! * ci + ri[kp]! * cr;
@@ -224,8 +246,13 @@ export class PhaseLocker {
           out[2 * k + 1] = re * ni + im * nr;
         }
       }
+      if (this.#hann) {
+        this.#regionLo[p] = regionStart;
+        this.#regionHi[p] = regionEnd;
+      }
       regionStart = regionEnd + 1;
     }
+    if (this.#hann && advance !== 0) this.#correctLeakage(pw, xw, y, count, top);
     // DC and Nyquist stay real (the two-channels-per-FFT packing needs real spectra there).
     rr[0] = 1;
     ri[0] = 0;
@@ -244,6 +271,98 @@ export class PhaseLocker {
     }
     return true;
   }
+
+  /**
+   * Leakage between regions. A partial at f (bins) puts a_p·W(f − k) into every bin k, W the
+   * transform of the analysis window; phase locking turns the bins of another peak's region by
+   * that peak's rotation R(k), so the partial's leakage there is turned wrongly, and since the
+   * rotations of two partials drift apart frame by frame, the overlap-add makes a line one frame
+   * rate from the partial (about −50 dB re a partial 5 bins away). Each steady peak's leakage
+   * outside its region is turned to its own rotation: Y(k) += (R_p − R(k))·X(k_p)·W(f − k)/W(f − k_p)
+   * (X(k_p) = a_p·W(f − k_p) to within the other partials' leakage at k_p).
+   *
+   * W for the periodic Hann window, from the Dirichlet kernel D(δ) = Σₙ e^{j2πδn/N}
+   * = e^{jπδ(N−1)/N}·sin(πδ)/sin(πδ/N) and w = ½ − ½cos(2πn/N): W(δ) = ½D(δ) − ¼D(δ−1) − ¼D(δ+1)
+   * = e^{jπδ(N−1)/N}·sin(πδ)·B(δ), B(δ) = ½/sin(πδ/N) − ¼e^{jπ/N}/sin(π(δ−1)/N) − ¼e^{−jπ/N}/sin(π(δ+1)/N)
+   * (exact; Harris 1978 gives the same kernel sum). For k = k_p + m the ratio is
+   * W(δ₀ − m)/W(δ₀) = e^{jπm/N}·B(δ₀ − m)/B(δ₀), δ₀ = f − k_p.
+   * The reach is where the leakage (|W(d)/W(0)| ≈ 1/(πd³)) falls below −90 dB of the frame's
+   * largest peak, at most MAX_REACH bins.
+   */
+  #correctLeakage(pw: Float64Array, xw: readonly Float64Array[], y: readonly Float64Array[], count: number, top: number): void {
+    const n = this.fftSize, last = this.#active - 1;
+    const peaks = this.#peaks, freq = this.#peakFreq, lo = this.#regionLo, hi = this.#regionHi;
+    const rr = this.rotRe, ri = this.rotIm, inv = this.#inv, channels = this.channelCount;
+    const piN = Math.PI / n, cN = Math.cos(piN), sN = Math.sin(piN);
+    for (let p = 0; p < count; p++) {
+      const f = freq[p]!;
+      if (!(f === f)) continue;
+      const kp = peaks[p]!;
+      // X(k_p) must be this partial's: no peak within 3 bins that is less than 40 dB below it (a closer
+      // one's main lobe overlaps, and neither amplitude nor frequency can be read at k_p).
+      const near = pw[kp]! * 1e-4;
+      if ((p > 0 && kp - peaks[p - 1]! < 4 && pw[peaks[p - 1]!]! > near) || (p + 1 < count && peaks[p + 1]! - kp < 4 && pw[peaks[p + 1]!]! > near)) continue;
+      // Reach: (1/(πd³))²·pw < 1e-9·top.
+      const reach = Math.min(MAX_REACH, Math.ceil(Math.pow((1e9 * pw[kp]!) / top, 1 / 6) / Math.cbrt(Math.PI)));
+      const from = Math.max(1, kp - reach), to = Math.min(last - 1, kp + reach);
+      const rlo = lo[p]!, rhi = hi[p]!;
+      if (from >= rlo && to <= rhi) continue;
+      let d0 = f - kp;
+      const frac = d0 - Math.round(d0);
+      if (Math.abs(frac) < 1e-6) d0 += frac >= 0 ? 1e-6 : -1e-6; // B has removable poles at whole δ
+      // inv[i] = 1/sin(π(δ₀ − m)/N) for m = from − kp − 1 + i.
+      const m0 = from - kp - 1;
+      // y = π(δ₀ − m)/N: |y| < 0.05 for N ≥ 2048, where sin y = y − y³/6 + y⁵/120 to double
+      // precision (next term y⁷/5040); |y| < 0.34 at N = 256, relative error < 3e-7.
+      for (let i = 0, m = m0; m <= to - kp + 1; i++, m++) {
+        const a = piN * (d0 - m), a2 = a * a;
+        inv[i] = 1 / (a * (1 - a2 * (1 / 6 - a2 / 120)));
+      }
+      // B(δ₀): t(δ₀) = inv[−m0], t(δ₀ − 1) = inv[−m0 + 1] (m = 1), t(δ₀ + 1) = inv[−m0 − 1].
+      const b = (i: number, out: number[]) => {
+        const t0 = inv[i]!, tm = inv[i + 1]!, tp = inv[i - 1]!; // x, x − 1, x + 1 with x = δ₀ − m
+        out[0] = 0.5 * t0 - 0.25 * cN * (tm + tp);
+        out[1] = -0.25 * sN * (tm - tp);
+      };
+      const bb = this.#b;
+      let b0r: number, b0i: number;
+      if (-m0 - 1 >= 0 && -m0 + 1 < inv.length) {
+        b(-m0, bb);
+        b0r = bb[0]!;
+        b0i = bb[1]!;
+      } else {
+        const t0 = 1 / Math.sin(piN * d0), tm = 1 / Math.sin(piN * (d0 - 1)), tp = 1 / Math.sin(piN * (d0 + 1));
+        b0r = 0.5 * t0 - 0.25 * cN * (tm + tp);
+        b0i = -0.25 * sN * (tm - tp);
+      }
+      const b0n = b0r * b0r + b0i * b0i;
+      const qr = b0r / b0n, qi = -b0i / b0n; // 1/B(δ₀)
+      const pr = rr[kp]!, pi = ri[kp]!;
+      // e^{jπm/N}, advanced by e^{jπ/N} per bin.
+      let er = Math.cos(piN * (from - kp)), ei = Math.sin(piN * (from - kp));
+      for (let k = from; k <= to; k++) {
+        if (k < rlo || k > rhi) {
+          b(k - from + 1, bb);
+          // ρ = e^{jπm/N}·B(δ₀ − m)/B(δ₀); then (R_p − R(k))·ρ.
+          const ar = bb[0]! * qr - bb[1]! * qi, ai = bb[0]! * qi + bb[1]! * qr;
+          const rhoR = er * ar - ei * ai, rhoI = er * ai + ei * ar;
+          const dr = pr - rr[k]!, di = pi - ri[k]!;
+          const gr = dr * rhoR - di * rhoI, gi = dr * rhoI + di * rhoR;
+          for (let c = 0; c < channels; c++) {
+            const x = xw[c]!, out = y[c]!;
+            const xr = x[2 * kp]!, xi = x[2 * kp + 1]!;
+            out[2 * k]! += xr * gr - xi * gi;
+            out[2 * k + 1]! += xr * gi + xi * gr;
+          }
+        }
+        const t = er * cN - ei * sN;
+        ei = er * sN + ei * cN;
+        er = t;
+      }
+    }
+  }
+
+  readonly #b: number[] = [0, 0];
 
   /** Tables e^{jΔω_k} (by recurrence) and e^{jΔ·2π(q/64)/N} for the advance Δ = H_s − H_a. */
   #buildSteps(advance: number): void {
