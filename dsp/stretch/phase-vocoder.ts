@@ -262,8 +262,8 @@ export class TimeStretcher {
         // Low-band frames up to this σ; the one at σ takes this frame's α and rotations.
         while (low.nextSigma <= sigma) {
           const at = low.nextSigma;
-          if (at === sigma) low.frame(alpha, this.#lock.rotRe, this.#lock.rotIm, n);
-          else low.frame(map.alphaAt(at), null, null, n);
+          if (at === sigma) low.frame(alpha, this.#lock.rotRe, this.#lock.rotIm, n, this.#gain);
+          else low.frame(map.alphaAt(at), null, null, n, this.#gain);
         }
       }
       this.#frame++;
