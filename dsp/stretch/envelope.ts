@@ -113,7 +113,7 @@ export class SpectralEnvelope {
     if (this.#adaptive) this.#chooseLifter(a);
     const v = this.#env;
     for (let it = 0; it < MAX_ITERATIONS; it++) {
-      this.#smooth(a, v);
+      this.#smooth(a, v, it === 0 && this.#adaptive); // the first cepstrum is #chooseLifter's
       let worst = 0;
       for (let j = 0; j < points; j++) {
         const d = a[j]! - v[j]!;
@@ -170,15 +170,20 @@ export class SpectralEnvelope {
     this.#lifter = best > 0 && top > CEPSTRAL_PEAK ? Math.max(this.#lifterMin, Math.min(this.#lifterMax, Math.round(best / 2))) : this.#lifterMin;
   }
 
-  /** Cepstral smoothing: log magnitude → real cepstrum → lifter → log magnitude. */
-  #smooth(logMag: Float64Array, out: Float64Array): void {
+  /**
+   * Cepstral smoothing: log magnitude → real cepstrum → lifter → log magnitude (`haveCepstrum`:
+   * the cepstrum of `logMag` is already in #ceps).
+   */
+  #smooth(logMag: Float64Array, out: Float64Array, haveCepstrum: boolean): void {
     const m = this.#m, half = this.#half, c = this.#ceps;
     const points = m / 2 + 1;
-    for (let j = 0; j < points; j++) {
-      half[2 * j] = logMag[j]!;
-      half[2 * j + 1] = 0;
+    if (!haveCepstrum) {
+      for (let j = 0; j < points; j++) {
+        half[2 * j] = logMag[j]!;
+        half[2 * j + 1] = 0;
+      }
+      this.#plan.realInverse(half, c);
     }
-    this.#plan.realInverse(half, c);
     const l = this.#lifter;
     for (let q = l + 1; q < m - l; q++) c[q] = 0;
     this.#plan.realForward(c, half);

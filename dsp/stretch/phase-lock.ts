@@ -26,6 +26,8 @@ const TWO_PI = 2 * Math.PI;
 const wrap = (x: number): number => x - TWO_PI * Math.round(x / TWO_PI);
 /** Peaks this far below the frame's largest (power ratio, −50 dB) advance by table. */
 const WEAK_PEAK = 1e-5;
+/** A maximum this much smaller (power ratio, 25 dB) than one within 3 bins is its side lobe. */
+const SIDE_LOBE = 10 ** 2.5;
 /** Resolution of the tabled frequency offset: 1/64 bin. */
 const FRACTION_STEPS = 64;
 /** Farthest bin a partial's leakage is corrected at (Hann leakage there ≈ −98 dB). */
@@ -168,6 +170,21 @@ export class PhaseLocker {
         if (v > top) top = v;
       }
     }
+    // A maximum within 3 bins of one more than 25 dB larger is that one's side lobe (Hann: −31 dB
+    // and below), not a partial of its own: it joins the larger one's region. Below the weak-peak
+    // level (the noise floor) a peak must be larger than two neighbours on each side, as in the
+    // paper (noise has a maximum every third bin; its locking gains nothing from more peaks).
+    const weakLevel = top * WEAK_PEAK;
+    let kept = 0, prevK = -10, prevV = 0;
+    for (let p = 0; p < count; p++) {
+      const k = peaks[p]!, v = pw[k]!;
+      const next = p + 1 < count ? peaks[p + 1]! : -1;
+      const lobe = (k - prevK <= 3 && prevV > SIDE_LOBE * v) || (next >= 0 && next - k <= 3 && pw[next]! > SIDE_LOBE * v);
+      prevK = k;
+      prevV = v;
+      if (!lobe && (v >= weakLevel || (v >= pw[k - 2]! && v >= pw[k + 2]!))) peaks[kept++] = k;
+    }
+    count = kept;
     if (count === 0) return false;
     const hs = this.synthesisHop, n = this.fftSize;
     const omega = this.#omega, rr = this.rotRe, ri = this.rotIm;
@@ -318,23 +335,11 @@ export class PhaseLocker {
         const a = piN * (d0 - m), a2 = a * a;
         inv[i] = 1 / (a * (1 - a2 * (1 / 6 - a2 / 120)));
       }
-      // B(δ₀): t(δ₀) = inv[−m0], t(δ₀ − 1) = inv[−m0 + 1] (m = 1), t(δ₀ + 1) = inv[−m0 − 1].
-      const b = (i: number, out: number[]) => {
-        const t0 = inv[i]!, tm = inv[i + 1]!, tp = inv[i - 1]!; // x, x − 1, x + 1 with x = δ₀ − m
-        out[0] = 0.5 * t0 - 0.25 * cN * (tm + tp);
-        out[1] = -0.25 * sN * (tm - tp);
-      };
-      const bb = this.#b;
-      let b0r: number, b0i: number;
-      if (-m0 - 1 >= 0 && -m0 + 1 < inv.length) {
-        b(-m0, bb);
-        b0r = bb[0]!;
-        b0i = bb[1]!;
-      } else {
-        const t0 = 1 / Math.sin(piN * d0), tm = 1 / Math.sin(piN * (d0 - 1)), tp = 1 / Math.sin(piN * (d0 + 1));
-        b0r = 0.5 * t0 - 0.25 * cN * (tm + tp);
-        b0i = -0.25 * sN * (tm - tp);
-      }
+      // B(x) = ½t(x) − ¼e^{jπ/N}t(x − 1) − ¼e^{−jπ/N}t(x + 1), t = 1/sin(π·/N); x = δ₀ − m is
+      // inv[m − m0], x − 1 the next entry, x + 1 the one before. B(δ₀) at m = 0:
+      const i0 = -m0;
+      const b0r = 0.5 * inv[i0]! - 0.25 * cN * (inv[i0 + 1]! + inv[i0 - 1]!);
+      const b0i = -0.25 * sN * (inv[i0 + 1]! - inv[i0 - 1]!);
       const b0n = b0r * b0r + b0i * b0i;
       const qr = b0r / b0n, qi = -b0i / b0n; // 1/B(δ₀)
       const pr = rr[kp]!, pi = ri[kp]!;
@@ -342,9 +347,10 @@ export class PhaseLocker {
       let er = Math.cos(piN * (from - kp)), ei = Math.sin(piN * (from - kp));
       for (let k = from; k <= to; k++) {
         if (k < rlo || k > rhi) {
-          b(k - from + 1, bb);
+          const i = k - from + 1;
+          const br = 0.5 * inv[i]! - 0.25 * cN * (inv[i + 1]! + inv[i - 1]!), bi = -0.25 * sN * (inv[i + 1]! - inv[i - 1]!);
           // ρ = e^{jπm/N}·B(δ₀ − m)/B(δ₀); then (R_p − R(k))·ρ.
-          const ar = bb[0]! * qr - bb[1]! * qi, ai = bb[0]! * qi + bb[1]! * qr;
+          const ar = br * qr - bi * qi, ai = br * qi + bi * qr;
           const rhoR = er * ar - ei * ai, rhoI = er * ai + ei * ar;
           const dr = pr - rr[k]!, di = pi - ri[k]!;
           const gr = dr * rhoR - di * rhoI, gi = dr * rhoI + di * rhoR;
@@ -361,8 +367,6 @@ export class PhaseLocker {
       }
     }
   }
-
-  readonly #b: number[] = [0, 0];
 
   /** Tables e^{jΔω_k} (by recurrence) and e^{jΔ·2π(q/64)/N} for the advance Δ = H_s − H_a. */
   #buildSteps(advance: number): void {
