@@ -162,29 +162,23 @@ export class PhaseLocker {
   lock(pw: Float64Array, xw: readonly Float64Array[], xp: readonly Float64Array[], y: readonly Float64Array[], hopIn: number): boolean {
     const bins = this.#active, last = bins - 1, full = bins === this.#bins;
     const peaks = this.#peaks;
+    // A peak is larger than its neighbour on each side, except: below the weak-peak level (the
+    // noise floor) it must be larger than two neighbours on each side, as in the paper (noise has
+    // a maximum every third bin, and its locking gains nothing from more peaks); and a maximum
+    // with a bin 2–3 bins away more than 25 dB larger is a side lobe of that partial (Hann: −31 dB
+    // and below), not a partial of its own: it joins the partial's region.
     let count = 0, top = 0;
+    for (let k = 2; k < last - 1; k++) if (pw[k]! > top) top = pw[k]!;
+    const weakLevel = top * WEAK_PEAK;
     for (let k = 2; k < last - 1; k++) {
       const v = pw[k]!;
-      if (v > pw[k - 1]! && v >= pw[k + 1]! && v > 0) {
-        peaks[count++] = k;
-        if (v > top) top = v;
-      }
+      if (!(v > pw[k - 1]! && v >= pw[k + 1]! && v > 0)) continue;
+      const l2 = pw[k - 2]!, r2 = pw[k + 2]!;
+      if (v < weakLevel && (v < l2 || v < r2)) continue;
+      const lobe = SIDE_LOBE * v;
+      if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
+      peaks[count++] = k;
     }
-    // A maximum within 3 bins of one more than 25 dB larger is that one's side lobe (Hann: −31 dB
-    // and below), not a partial of its own: it joins the larger one's region. Below the weak-peak
-    // level (the noise floor) a peak must be larger than two neighbours on each side, as in the
-    // paper (noise has a maximum every third bin; its locking gains nothing from more peaks).
-    const weakLevel = top * WEAK_PEAK;
-    let kept = 0, prevK = -10, prevV = 0;
-    for (let p = 0; p < count; p++) {
-      const k = peaks[p]!, v = pw[k]!;
-      const next = p + 1 < count ? peaks[p + 1]! : -1;
-      const lobe = (k - prevK <= 3 && prevV > SIDE_LOBE * v) || (next >= 0 && next - k <= 3 && pw[next]! > SIDE_LOBE * v);
-      prevK = k;
-      prevV = v;
-      if (!lobe && (v >= weakLevel || (v >= pw[k - 2]! && v >= pw[k + 2]!))) peaks[kept++] = k;
-    }
-    count = kept;
     if (count === 0) return false;
     const hs = this.synthesisHop, n = this.fftSize;
     const omega = this.#omega, rr = this.rotRe, ri = this.rotIm;
@@ -303,7 +297,7 @@ export class PhaseLocker {
    * = e^{jπδ(N−1)/N}·sin(πδ)·B(δ), B(δ) = ½/sin(πδ/N) − ¼e^{jπ/N}/sin(π(δ−1)/N) − ¼e^{−jπ/N}/sin(π(δ+1)/N)
    * (exact; Harris 1978 gives the same kernel sum). For k = k_p + m the ratio is
    * W(δ₀ − m)/W(δ₀) = e^{jπm/N}·B(δ₀ − m)/B(δ₀), δ₀ = f − k_p.
-   * The reach is where the leakage (|W(d)/W(0)| ≈ 1/(πd³)) falls below −90 dB of the frame's
+   * The reach is where the leakage (|W(d)/W(0)| ≈ 1/(πd³)) falls below −80 dB of the frame's
    * largest peak, at most MAX_REACH bins.
    */
   #correctLeakage(pw: Float64Array, xw: readonly Float64Array[], y: readonly Float64Array[], count: number, top: number): void {
@@ -319,8 +313,8 @@ export class PhaseLocker {
       // one's main lobe overlaps, and neither amplitude nor frequency can be read at k_p).
       const near = pw[kp]! * 1e-4;
       if ((p > 0 && kp - peaks[p - 1]! < 4 && pw[peaks[p - 1]!]! > near) || (p + 1 < count && peaks[p + 1]! - kp < 4 && pw[peaks[p + 1]!]! > near)) continue;
-      // Reach: (1/(πd³))²·pw < 1e-9·top.
-      const reach = Math.min(MAX_REACH, Math.ceil(Math.pow((1e9 * pw[kp]!) / top, 1 / 6) / Math.cbrt(Math.PI)));
+      // Reach: (1/(πd³))²·pw < 1e-8·top (−80 dB).
+      const reach = Math.min(MAX_REACH, Math.ceil(Math.pow((1e8 * pw[kp]!) / top, 1 / 6) / Math.cbrt(Math.PI)));
       const from = Math.max(1, kp - reach), to = Math.min(last - 1, kp + reach);
       const rlo = lo[p]!, rhi = hi[p]!;
       if (from >= rlo && to <= rhi) continue;
