@@ -26,6 +26,9 @@ const TWO_PI = 2 * Math.PI;
 const wrap = (x: number): number => x - TWO_PI * Math.round(x / TWO_PI);
 /** Peaks this far below the frame's largest (power ratio, −50 dB) advance by table. */
 const WEAK_PEAK = 1e-5;
+/** Re and Im of B(x) = ½/sin(πx/N) − ¼e^{jπ/N}/sin(π(x−1)/N) − ¼e^{−jπ/N}/sin(π(x+1)/N) (see `#correctLeakage`). */
+const hannBRe = (x: number, piN: number, cN: number): number => 0.5 / Math.sin(piN * x) - 0.25 * cN * (1 / Math.sin(piN * (x - 1)) + 1 / Math.sin(piN * (x + 1)));
+const hannBIm = (x: number, piN: number, sN: number): number => -0.25 * sN * (1 / Math.sin(piN * (x - 1)) - 1 / Math.sin(piN * (x + 1)));
 /** A maximum this much smaller (power ratio, 25 dB) than one within 3 bins is its side lobe. */
 const SIDE_LOBE = 10 ** 2.5;
 /** Resolution of the tabled frequency offset: 1/64 bin. */
@@ -56,6 +59,8 @@ export class PhaseLocker {
   readonly #hann: boolean;
   readonly #peakFreq: Float64Array; // per peak: frequency (bins), NaN when not corrected
   readonly #regionLo: Int32Array;
+  readonly #oldRe: Float64Array; // per peak: its rotation before this frame
+  readonly #oldIm: Float64Array;
   readonly #regionHi: Int32Array;
   readonly #inv: Float64Array; // 1/sin(πx/N) over the bins one correction reaches
 
@@ -76,6 +81,8 @@ export class PhaseLocker {
     this.#hann = hannLeakage;
     this.#peakFreq = new Float64Array(hannLeakage ? bins : 0);
     this.#regionLo = new Int32Array(hannLeakage ? bins : 0);
+    this.#oldRe = new Float64Array(hannLeakage ? bins : 0);
+    this.#oldIm = new Float64Array(hannLeakage ? bins : 0);
     this.#regionHi = new Int32Array(hannLeakage ? bins : 0);
     this.#inv = new Float64Array(2 * MAX_REACH + 5);
   }
@@ -233,6 +240,10 @@ export class PhaseLocker {
         omega[kp] = (kp + q / FRACTION_STEPS) * binRad;
         if (this.#hann) this.#peakFreq[p] = NaN;
       }
+      if (this.#hann) {
+        this.#oldRe[p] = rr[kp]!;
+        this.#oldIm[p] = ri[kp]!;
+      }
       // New rotation of the peak, renormalised to unit length (first-order correction).
       let nr = rr[kp]! * cr - ri[kp]! * ci, ni = rr[kp]! * ci + ri[kp]! * cr;
       const g = 1.5 - 0.5 * (nr * nr + ni * ni);
@@ -263,7 +274,10 @@ export class PhaseLocker {
       }
       regionStart = regionEnd + 1;
     }
-    if (this.#hann && advance !== 0) this.#correctLeakage(pw, xw, y, count, top);
+    if (this.#hann && advance !== 0) {
+      if (hopIn > 0) this.#refineWeak(pw, xw, xp, y, count, hopIn, advance, top * WEAK_PEAK);
+      this.#correctLeakage(pw, xw, y, count, top);
+    }
     // DC and Nyquist stay real (the two-channels-per-FFT packing needs real spectra there).
     rr[0] = 1;
     ri[0] = 0;
@@ -300,6 +314,103 @@ export class PhaseLocker {
    * The reach is where the leakage (|W(d)/W(0)| ≈ 1/(πd³)) falls below −80 dB of the frame's
    * largest peak, at most MAX_REACH bins.
    */
+  /**
+   * A peak (above the noise floor) 10 dB or more below a steady neighbouring peak 4–12 bins away: that partial's leakage
+   * at this peak's bin, ρ·X(k_q) with ρ = W(f_q − k_p)/W(f_q − k_q) (the same in both frames, the
+   * frame position cancelling), is taken out of both frames before the phase advance is read, and
+   * the rotation of the peak's region is redone. (Left in, it beats with the weak partial and
+   * leaves a line one beat, as the frames sample it, from the weak partial.)
+   */
+  #refineWeak(pw: Float64Array, xw: readonly Float64Array[], xp: readonly Float64Array[], y: readonly Float64Array[], count: number, hopIn: number, advance: number, weak: number): void {
+    const peaks = this.#peaks, freq = this.#peakFreq, omega = this.#omega, rr = this.rotRe, ri = this.rotIm;
+    const channels = this.channelCount, binRad = TWO_PI / this.fftSize;
+    for (let p = 0; p < count; p++) {
+      const kp = peaks[p]!;
+      if (pw[kp]! < weak) continue; // tabled peaks (the noise floor) have no phase-derived frequency
+      const rho = this.#rho;
+      rho[0] = 0;
+      rho[1] = 0;
+      let any = false, two = false, q0 = 0, q1 = 0;
+      for (let side = -1; side <= 1; side += 2) {
+        const q = p + side;
+        if (q < 0 || q >= count) continue;
+        const kq = peaks[q]!, d = Math.abs(kq - kp), fq = freq[q]!;
+        if (d < 4 || d > 12 || !(fq === fq) || pw[kq]! < 10 * pw[kp]!) continue;
+        // A maximum whose own frequency is the neighbour's is that partial's side lobe.
+        if (Math.abs(omega[kp]! / binRad - fq) < 2) continue;
+        this.#kernelRatio(fq - kq, kp - kq);
+        if (!any) {
+          q0 = kq;
+          rho[0] = this.#kr[0]!;
+          rho[1] = this.#kr[1]!;
+        } else {
+          q1 = kq;
+          two = true;
+          rho[2] = this.#kr[0]!;
+          rho[3] = this.#kr[1]!;
+        }
+        any = true;
+      }
+      if (!any) continue;
+      let hr = 0, hi = 0;
+      for (let c = 0; c < channels; c++) {
+        const cur = xw[c]!, prev = xp[c]!;
+        let ar = cur[2 * kp]! - (rho[0]! * cur[2 * q0]! - rho[1]! * cur[2 * q0 + 1]!);
+        let ai = cur[2 * kp + 1]! - (rho[0]! * cur[2 * q0 + 1]! + rho[1]! * cur[2 * q0]!);
+        let br = prev[2 * kp]! - (rho[0]! * prev[2 * q0]! - rho[1]! * prev[2 * q0 + 1]!);
+        let bi = prev[2 * kp + 1]! - (rho[0]! * prev[2 * q0 + 1]! + rho[1]! * prev[2 * q0]!);
+        if (two) {
+          ar -= rho[2]! * cur[2 * q1]! - rho[3]! * cur[2 * q1 + 1]!;
+          ai -= rho[2]! * cur[2 * q1 + 1]! + rho[3]! * cur[2 * q1]!;
+          br -= rho[2]! * prev[2 * q1]! - rho[3]! * prev[2 * q1 + 1]!;
+          bi -= rho[2]! * prev[2 * q1 + 1]! + rho[3]! * prev[2 * q1]!;
+        }
+        hr += ar * br + ai * bi;
+        hi += ai * br - ar * bi;
+      }
+      if (hr === 0 && hi === 0) continue;
+      const dphi = Math.atan2(hi, hr);
+      const w = (dphi + TWO_PI * Math.round((hopIn * omega[kp]! - dphi) / TWO_PI)) / hopIn;
+      omega[kp] = w;
+      if (freq[p]! === freq[p]!) freq[p] = w / binRad;
+      const phi = wrap(advance * w), cr = Math.cos(phi), ci = Math.sin(phi);
+      const or = this.#oldRe[p]!, oi = this.#oldIm[p]!;
+      let nr = or * cr - oi * ci, ni = or * ci + oi * cr;
+      const g = 1.5 - 0.5 * (nr * nr + ni * ni);
+      nr *= g;
+      ni *= g;
+      const lo = this.#regionLo[p]!, hiK = this.#regionHi[p]!;
+      for (let k = lo; k <= hiK; k++) {
+        rr[k] = nr;
+        ri[k] = ni;
+      }
+      for (let c = 0; c < channels; c++) {
+        const x = xw[c]!, out = y[c]!;
+        for (let k = lo; k <= hiK; k++) {
+          const re = x[2 * k]!, im = x[2 * k + 1]!;
+          out[2 * k] = re * nr - im * ni;
+          out[2 * k + 1] = re * ni + im * nr;
+        }
+      }
+    }
+  }
+
+  /** W(δ₀ − m)/W(δ₀) for the periodic Hann window (see `#correctLeakage`), into #kr. */
+  #kernelRatio(d0: number, m: number): void {
+    const n = this.fftSize, piN = Math.PI / n, cN = Math.cos(piN), sN = Math.sin(piN);
+    const frac = d0 - Math.round(d0);
+    if (Math.abs(frac) < 1e-6) d0 += frac >= 0 ? 1e-6 : -1e-6;
+    const ar = hannBRe(d0 - m, piN, cN), ai = hannBIm(d0 - m, piN, sN), br = hannBRe(d0, piN, cN), bi = hannBIm(d0, piN, sN);
+    const bn = br * br + bi * bi;
+    const qr = (ar * br + ai * bi) / bn, qi = (ai * br - ar * bi) / bn;
+    const er = Math.cos(piN * m), ei = Math.sin(piN * m);
+    this.#kr[0] = er * qr - ei * qi;
+    this.#kr[1] = er * qi + ei * qr;
+  }
+
+  readonly #kr = new Float64Array(2);
+  readonly #rho = new Float64Array(4);
+
   #correctLeakage(pw: Float64Array, xw: readonly Float64Array[], y: readonly Float64Array[], count: number, top: number): void {
     const n = this.fftSize, last = this.#active - 1;
     const peaks = this.#peaks, freq = this.#peakFreq, lo = this.#regionLo, hi = this.#regionHi;
