@@ -23,7 +23,11 @@ export interface SpectralEnvelopeOptions {
   readonly sampleRateHz: number;
   /** Frequency factor of the resampling that follows (2^(semitones/12)). */
   readonly frequencyFactor: number;
-  /** Lifter cutoff (default 2 ms: keeps formants, drops the harmonic ripple of voices up to ~500 Hz). */
+  /**
+   * Lifter cutoff. Default: half the pitch period where the frame's cepstrum shows one (the
+   * order fs/(2·f0) Röbel & Rodet give for the true envelope), 2 … 3 ms, else 2 ms (keeps
+   * formants, drops the harmonic ripple of voices up to ~250 Hz). A number fixes it.
+   */
   readonly cutoffSeconds?: number;
   /** Largest boost or cut applied, dB (default 24). */
   readonly limitDb?: number;
@@ -32,13 +36,21 @@ export interface SpectralEnvelopeOptions {
 const POOL = 4;
 const MAX_ITERATIONS = 8;
 const CONVERGED = Math.log(10 ** (2 / 20)); // 2 dB in natural-log magnitude
+/** Cepstral peak (natural-log magnitude units) that counts as a pitch period. */
+const CEPSTRAL_PEAK = 0.05;
 
 export class SpectralEnvelope {
   readonly fftSize: number;
   readonly frequencyFactor: number;
   readonly #m: number; // pooled transform size N/4
   readonly #plan: FftPlan;
-  readonly #lifter: number;
+  #lifter: number;
+  readonly #lifterMin: number;
+  readonly #lifterMax: number;
+  readonly #adaptive: boolean;
+  readonly #periodLo: number; // quefrencies searched for the pitch period, samples
+  readonly #periodHi: number;
+  readonly #lowSpan: number; // pooled points up to 1 kHz
   readonly #limit: number;
   readonly #target: Float64Array; // log magnitude to cover (A)
   readonly #env: Float64Array; // envelope (V), M/2+1 points
@@ -53,8 +65,14 @@ export class SpectralEnvelope {
     this.frequencyFactor = frequencyFactor;
     this.#m = fftSize / POOL;
     this.#plan = new FftPlan(this.#m);
-    const cutoff = options.cutoffSeconds ?? 0.002;
-    this.#lifter = Math.max(2, Math.min(this.#m / 2 - 1, Math.round(cutoff * sampleRateHz)));
+    const lift = (seconds: number) => Math.max(2, Math.min(this.#m / 2 - 1, Math.round(seconds * sampleRateHz)));
+    this.#adaptive = options.cutoffSeconds === undefined;
+    this.#lifter = this.#lifterMin = lift(options.cutoffSeconds ?? 0.002);
+    this.#lifterMax = lift(0.003);
+    // Periods 2.5 … 12.5 ms (400 … 80 Hz), within the cepstrum's span.
+    this.#lowSpan = Math.floor((1000 * fftSize) / (POOL * sampleRateHz));
+    this.#periodLo = Math.round(0.0025 * sampleRateHz);
+    this.#periodHi = Math.min(this.#m / 2 - 2, Math.round(0.0125 * sampleRateHz));
     this.#limit = Math.log(10 ** ((options.limitDb ?? 24) / 20));
     const points = this.#m / 2 + 1;
     this.#target = new Float64Array(points);
@@ -81,9 +99,21 @@ export class SpectralEnvelope {
       for (let k = Math.max(0, POOL * j - POOL / 2); k < Math.min(bins, POOL * j + POOL / 2); k++) if (power[k]! > p) p = power[k]!;
       a[j] = 0.5 * Math.log(p + floor);
     }
+    // Below the lowest partial the spectrum holds no envelope, only its absence: a hole there
+    // (hum-free voices have nothing below f0) drags the smoothed envelope down over the first
+    // few hundred hertz. Points below the first within 20 dB of the largest under 1 kHz take
+    // its value.
+    const upTo = Math.min(points - 1, this.#lowSpan);
+    let low = -Infinity;
+    for (let j = 0; j <= upTo; j++) if (a[j]! > low) low = a[j]!;
+    const near = low - Math.log(10); // 20 dB in natural-log magnitude
+    let first = 0;
+    while (first < upTo && a[first]! < near) first++;
+    for (let j = 0; j < first; j++) a[j] = a[first]!;
+    if (this.#adaptive) this.#chooseLifter(a);
     const v = this.#env;
     for (let it = 0; it < MAX_ITERATIONS; it++) {
-      this.#smooth(a, v);
+      this.#smooth(a, v, it === 0 && this.#adaptive); // the first cepstrum is #chooseLifter's
       let worst = 0;
       for (let j = 0; j < points; j++) {
         const d = a[j]! - v[j]!;
@@ -117,8 +147,11 @@ export class SpectralEnvelope {
     }
   }
 
-  /** Cepstral smoothing: log magnitude → real cepstrum → lifter → log magnitude. */
-  #smooth(logMag: Float64Array, out: Float64Array): void {
+  /**
+   * Lifter for this frame: half the pitch period when the real cepstrum has a clear peak at
+   * 2.5–12.5 ms (larger than CEPSTRAL_PEAK, and the largest there), within 2 … 3 ms; else 2 ms.
+   */
+  #chooseLifter(logMag: Float64Array): void {
     const m = this.#m, half = this.#half, c = this.#ceps;
     const points = m / 2 + 1;
     for (let j = 0; j < points; j++) {
@@ -126,6 +159,31 @@ export class SpectralEnvelope {
       half[2 * j + 1] = 0;
     }
     this.#plan.realInverse(half, c);
+    let best = -1, top = 0;
+    for (let q = this.#periodLo; q <= this.#periodHi; q++) {
+      const v = c[q]!;
+      if (v > top && v >= c[q - 1]! && v >= c[q + 1]!) {
+        top = v;
+        best = q;
+      }
+    }
+    this.#lifter = best > 0 && top > CEPSTRAL_PEAK ? Math.max(this.#lifterMin, Math.min(this.#lifterMax, Math.round(best / 2))) : this.#lifterMin;
+  }
+
+  /**
+   * Cepstral smoothing: log magnitude → real cepstrum → lifter → log magnitude (`haveCepstrum`:
+   * the cepstrum of `logMag` is already in #ceps).
+   */
+  #smooth(logMag: Float64Array, out: Float64Array, haveCepstrum: boolean): void {
+    const m = this.#m, half = this.#half, c = this.#ceps;
+    const points = m / 2 + 1;
+    if (!haveCepstrum) {
+      for (let j = 0; j < points; j++) {
+        half[2 * j] = logMag[j]!;
+        half[2 * j + 1] = 0;
+      }
+      this.#plan.realInverse(half, c);
+    }
     const l = this.#lifter;
     for (let q = l + 1; q < m - l; q++) c[q] = 0;
     this.#plan.realForward(c, half);

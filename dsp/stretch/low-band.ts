@@ -69,6 +69,7 @@ export class LowBand {
   readonly #active: number; // bins processed
   readonly #mask: Float64Array; // m_L per low-band bin
   readonly #olaWeights: Float64Array; // w² of the window
+  readonly #gain: Float64Array; // per bin: crossover × frame weight (× formant gain)
   #xw: Float64Array[];
   #xwPrev: Float64Array[];
   readonly #y: Float64Array[];
@@ -146,6 +147,7 @@ export class LowBand {
     this.#lock = new PhaseLocker(nl, this.hop, options.channelCount, active);
     const bins = nl / 2 + 1;
     this.#mask = new Float64Array(bins);
+    this.#gain = new Float64Array(bins);
     for (let k = 0; k < bins; k++) this.#mask[k] = lowBandWeight((k * fs) / d / nl);
     const perChannel = () => Array.from({ length: options.channelCount }, () => new Float64Array(nl + 2));
     this.#xw = perChannel();
@@ -272,7 +274,7 @@ export class LowBand {
    * when it comes back its partials have the phases the main band gave them (no cancellation in
    * the crossover).
    */
-  frame(alpha: number, mainRotRe: Float64Array | null, mainRotIm: Float64Array | null, mainFftSize: number): void {
+  frame(alpha: number, mainRotRe: Float64Array | null, mainRotIm: Float64Array | null, mainFftSize: number, mainGain: Float64Array | null = null): void {
     const sigma = this.nextSigma;
     this.#prune(sigma);
     const weight = this.frameWeight(sigma, alpha);
@@ -300,12 +302,21 @@ export class LowBand {
       lock.rotateHeld(xw, y);
     }
     const m = this.#mask, bins = this.#active;
+    const g = this.#gain;
+    for (let k = 0; k < bins; k++) g[k] = m[k]! * weight;
+    if (mainGain) {
+      // The main band's formant gains (keep-formants), read at this bin's frequency.
+      const scale = mainFftSize / this.fftSize / this.decimation;
+      for (let k = 0; k < bins; k++) {
+        const x = k * scale, i = Math.floor(x);
+        g[k]! *= i + 1 < mainGain.length ? mainGain[i]! + (x - i) * (mainGain[i + 1]! - mainGain[i]!) : mainGain[mainGain.length - 1]!;
+      }
+    }
     for (let c = 0; c < this.channelCount; c++) {
       const out = y[c]!;
       for (let k = 0; k < bins; k++) {
-        const g = m[k]! * weight;
-        out[2 * k]! *= g;
-        out[2 * k + 1]! *= g;
+        out[2 * k]! *= g[k]!;
+        out[2 * k + 1]! *= g[k]!;
       }
     }
     this.#synthesize(sigma / this.decimation);

@@ -3,8 +3,10 @@
  * of audio", IEEE Trans. Speech Audio Process. 7(3):323–332, §IV) for the time-stretcher.
  *
  * The state is one rotation e^{jθ} per bin, θ = φ_out − φ_in, shared by all channels (so
- * inter-channel phase and level differences pass unchanged). Peaks are bins larger than their two
- * neighbours on each side in the channels' summed power; each peak's rotation advances by
+ * inter-channel phase and level differences pass unchanged). Peaks are bins larger than their
+ * neighbour on each side in the channels' summed power (with two neighbours each side, as in the
+ * paper, a weak partial 2–3 bins from a strong one is no peak and turns with the strong one's
+ * frequency: pulled toward it on low piano notes); each peak's rotation advances by
  * (H_s − H_a)·ω̂ with ω̂ its instantaneous frequency, and every bin of the peak's region (bounded
  * by the lowest bin between two peaks) takes the peak's rotation, so bins other than peaks need no
  * trigonometry.
@@ -15,14 +17,24 @@
  * for discrete Fourier transforms of weighted signals", IEEE Trans. Instrum. Meas.
  * 32(2):350–355). Peaks more than 50 dB below the frame's largest (the noise floor) advance by
  * table: Grandke's offset rounded to 1/64 bin, no trigonometry.
+ *
+ * With a Hann analysis window (the main band) each steady peak's leakage into its neighbours'
+ * regions is turned by its own rotation (`#correctLeakage`).
  */
 
 const TWO_PI = 2 * Math.PI;
 const wrap = (x: number): number => x - TWO_PI * Math.round(x / TWO_PI);
 /** Peaks this far below the frame's largest (power ratio, −50 dB) advance by table. */
 const WEAK_PEAK = 1e-5;
+/** Re and Im of B(x) = ½/sin(πx/N) − ¼e^{jπ/N}/sin(π(x−1)/N) − ¼e^{−jπ/N}/sin(π(x+1)/N) (see `#correctLeakage`). */
+const hannBRe = (x: number, piN: number, cN: number): number => 0.5 / Math.sin(piN * x) - 0.25 * cN * (1 / Math.sin(piN * (x - 1)) + 1 / Math.sin(piN * (x + 1)));
+const hannBIm = (x: number, piN: number, sN: number): number => -0.25 * sN * (1 / Math.sin(piN * (x - 1)) - 1 / Math.sin(piN * (x + 1)));
+/** A maximum this much smaller (power ratio, 25 dB) than one within 3 bins is its side lobe. */
+const SIDE_LOBE = 10 ** 2.5;
 /** Resolution of the tabled frequency offset: 1/64 bin. */
 const FRACTION_STEPS = 64;
+/** Farthest bin a partial's leakage is corrected at (Hann leakage there ≈ −98 dB). */
+const MAX_REACH = 24;
 
 export class PhaseLocker {
   readonly fftSize: number;
@@ -43,7 +55,16 @@ export class PhaseLocker {
   #stepDelta = NaN;
   readonly #peaks: Int32Array;
 
-  constructor(fftSize: number, synthesisHop: number, channelCount: number, activeBins = fftSize / 2 + 1) {
+  /** Leakage correction for a periodic Hann analysis window (see `#correctLeakage`). */
+  readonly #hann: boolean;
+  readonly #peakFreq: Float64Array; // per peak: frequency (bins), NaN when not corrected
+  readonly #regionLo: Int32Array;
+  readonly #oldRe: Float64Array; // per peak: its rotation before this frame
+  readonly #oldIm: Float64Array;
+  readonly #regionHi: Int32Array;
+  readonly #inv: Float64Array; // 1/sin(πx/N) over the bins one correction reaches
+
+  constructor(fftSize: number, synthesisHop: number, channelCount: number, activeBins = fftSize / 2 + 1, hannLeakage = false) {
     this.fftSize = fftSize;
     this.synthesisHop = synthesisHop;
     this.channelCount = channelCount;
@@ -57,6 +78,13 @@ export class PhaseLocker {
     this.rotRe = new Float64Array(bins).fill(1);
     this.rotIm = new Float64Array(bins);
     this.#peaks = new Int32Array(bins);
+    this.#hann = hannLeakage;
+    this.#peakFreq = new Float64Array(hannLeakage ? bins : 0);
+    this.#regionLo = new Int32Array(hannLeakage ? bins : 0);
+    this.#oldRe = new Float64Array(hannLeakage ? bins : 0);
+    this.#oldIm = new Float64Array(hannLeakage ? bins : 0);
+    this.#regionHi = new Int32Array(hannLeakage ? bins : 0);
+    this.#inv = new Float64Array(2 * MAX_REACH + 5);
   }
 
   /** Every rotation back to 1 (the output takes the analysis phases). */
@@ -141,13 +169,22 @@ export class PhaseLocker {
   lock(pw: Float64Array, xw: readonly Float64Array[], xp: readonly Float64Array[], y: readonly Float64Array[], hopIn: number): boolean {
     const bins = this.#active, last = bins - 1, full = bins === this.#bins;
     const peaks = this.#peaks;
+    // A peak is larger than its neighbour on each side, except: below the weak-peak level (the
+    // noise floor) it must be larger than two neighbours on each side, as in the paper (noise has
+    // a maximum every third bin, and its locking gains nothing from more peaks); and a maximum
+    // with a bin 2–3 bins away more than 25 dB larger is a side lobe of that partial (Hann: −31 dB
+    // and below), not a partial of its own: it joins the partial's region.
     let count = 0, top = 0;
+    for (let k = 2; k < last - 1; k++) if (pw[k]! > top) top = pw[k]!;
+    const weakLevel = top * WEAK_PEAK;
     for (let k = 2; k < last - 1; k++) {
       const v = pw[k]!;
-      if (v > pw[k - 1]! && v > pw[k + 1]! && v >= pw[k - 2]! && v >= pw[k + 2]! && v > 0) {
-        peaks[count++] = k;
-        if (v > top) top = v;
-      }
+      if (!(v > pw[k - 1]! && v >= pw[k + 1]! && v > 0)) continue;
+      const l2 = pw[k - 2]!, r2 = pw[k + 2]!;
+      if (v < weakLevel && (v < l2 || v < r2)) continue;
+      const lobe = SIDE_LOBE * v;
+      if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
+      peaks[count++] = k;
     }
     if (count === 0) return false;
     const hs = this.synthesisHop, n = this.fftSize;
@@ -187,6 +224,8 @@ export class PhaseLocker {
           w = omega[kp]!; // the same analysis frame again: keep the last estimate
         }
         omega[kp] = w;
+        // A steady partial (the fine and coarse offsets agree) is corrected for leakage.
+        if (this.#hann) this.#peakFreq[p] = Math.abs(w / binRad - kp - delta) < 0.25 ? w / binRad : NaN;
         const phi = wrap(advance * w);
         cr = Math.cos(phi);
         ci = Math.sin(phi);
@@ -199,6 +238,11 @@ export class PhaseLocker {
         cr = sr * fr - si * fi;
         ci = sr * fi + si * fr;
         omega[kp] = (kp + q / FRACTION_STEPS) * binRad;
+        if (this.#hann) this.#peakFreq[p] = NaN;
+      }
+      if (this.#hann) {
+        this.#oldRe[p] = rr[kp]!;
+        this.#oldIm[p] = ri[kp]!;
       }
       // New rotation of the peak, renormalised to unit length (first-order correction).
       let nr = rr[kp]! * cr - ri[kp]! * ci, ni = rr[kp]! * ci + ri[kp]! * cr;
@@ -224,7 +268,15 @@ export class PhaseLocker {
           out[2 * k + 1] = re * ni + im * nr;
         }
       }
+      if (this.#hann) {
+        this.#regionLo[p] = regionStart;
+        this.#regionHi[p] = regionEnd;
+      }
       regionStart = regionEnd + 1;
+    }
+    if (this.#hann && advance !== 0) {
+      if (hopIn > 0) this.#refineWeak(pw, xw, xp, y, count, hopIn, advance, top * WEAK_PEAK);
+      this.#correctLeakage(pw, xw, y, count, top);
     }
     // DC and Nyquist stay real (the two-channels-per-FFT packing needs real spectra there).
     rr[0] = 1;
@@ -243,6 +295,182 @@ export class PhaseLocker {
       }
     }
     return true;
+  }
+
+  /**
+   * Leakage between regions. A partial at f (bins) puts a_p·W(f − k) into every bin k, W the
+   * transform of the analysis window; phase locking turns the bins of another peak's region by
+   * that peak's rotation R(k), so the partial's leakage there is turned wrongly, and since the
+   * rotations of two partials drift apart frame by frame, the overlap-add makes a line one frame
+   * rate from the partial (about −50 dB re a partial 5 bins away). Each steady peak's leakage
+   * outside its region is turned to its own rotation: Y(k) += (R_p − R(k))·X(k_p)·W(f − k)/W(f − k_p)
+   * (X(k_p) = a_p·W(f − k_p) to within the other partials' leakage at k_p).
+   *
+   * W for the periodic Hann window, from the Dirichlet kernel D(δ) = Σₙ e^{j2πδn/N}
+   * = e^{jπδ(N−1)/N}·sin(πδ)/sin(πδ/N) and w = ½ − ½cos(2πn/N): W(δ) = ½D(δ) − ¼D(δ−1) − ¼D(δ+1)
+   * = e^{jπδ(N−1)/N}·sin(πδ)·B(δ), B(δ) = ½/sin(πδ/N) − ¼e^{jπ/N}/sin(π(δ−1)/N) − ¼e^{−jπ/N}/sin(π(δ+1)/N)
+   * (exact; Harris 1978 gives the same kernel sum). For k = k_p + m the ratio is
+   * W(δ₀ − m)/W(δ₀) = e^{jπm/N}·B(δ₀ − m)/B(δ₀), δ₀ = f − k_p.
+   * The reach is where the leakage (|W(d)/W(0)| ≈ 1/(πd³)) falls below −80 dB of the frame's
+   * largest peak, at most MAX_REACH bins.
+   */
+  /**
+   * A peak (above the noise floor) 10 dB or more below a steady neighbouring peak 4–12 bins away: that partial's leakage
+   * at this peak's bin, ρ·X(k_q) with ρ = W(f_q − k_p)/W(f_q − k_q) (the same in both frames, the
+   * frame position cancelling), is taken out of both frames before the phase advance is read, and
+   * the rotation of the peak's region is redone. (Left in, it beats with the weak partial and
+   * leaves a line one beat, as the frames sample it, from the weak partial.)
+   */
+  #refineWeak(pw: Float64Array, xw: readonly Float64Array[], xp: readonly Float64Array[], y: readonly Float64Array[], count: number, hopIn: number, advance: number, weak: number): void {
+    const peaks = this.#peaks, freq = this.#peakFreq, omega = this.#omega, rr = this.rotRe, ri = this.rotIm;
+    const channels = this.channelCount, binRad = TWO_PI / this.fftSize;
+    for (let p = 0; p < count; p++) {
+      const kp = peaks[p]!;
+      if (pw[kp]! < weak) continue; // tabled peaks (the noise floor) have no phase-derived frequency
+      const rho = this.#rho;
+      rho[0] = 0;
+      rho[1] = 0;
+      let any = false, two = false, q0 = 0, q1 = 0;
+      for (let side = -1; side <= 1; side += 2) {
+        const q = p + side;
+        if (q < 0 || q >= count) continue;
+        const kq = peaks[q]!, d = Math.abs(kq - kp), fq = freq[q]!;
+        if (d < 4 || d > 12 || !(fq === fq) || pw[kq]! < 10 * pw[kp]!) continue;
+        // A maximum whose own frequency is the neighbour's is that partial's side lobe.
+        if (Math.abs(omega[kp]! / binRad - fq) < 2) continue;
+        this.#kernelRatio(fq - kq, kp - kq);
+        if (!any) {
+          q0 = kq;
+          rho[0] = this.#kr[0]!;
+          rho[1] = this.#kr[1]!;
+        } else {
+          q1 = kq;
+          two = true;
+          rho[2] = this.#kr[0]!;
+          rho[3] = this.#kr[1]!;
+        }
+        any = true;
+      }
+      if (!any) continue;
+      let hr = 0, hi = 0;
+      for (let c = 0; c < channels; c++) {
+        const cur = xw[c]!, prev = xp[c]!;
+        let ar = cur[2 * kp]! - (rho[0]! * cur[2 * q0]! - rho[1]! * cur[2 * q0 + 1]!);
+        let ai = cur[2 * kp + 1]! - (rho[0]! * cur[2 * q0 + 1]! + rho[1]! * cur[2 * q0]!);
+        let br = prev[2 * kp]! - (rho[0]! * prev[2 * q0]! - rho[1]! * prev[2 * q0 + 1]!);
+        let bi = prev[2 * kp + 1]! - (rho[0]! * prev[2 * q0 + 1]! + rho[1]! * prev[2 * q0]!);
+        if (two) {
+          ar -= rho[2]! * cur[2 * q1]! - rho[3]! * cur[2 * q1 + 1]!;
+          ai -= rho[2]! * cur[2 * q1 + 1]! + rho[3]! * cur[2 * q1]!;
+          br -= rho[2]! * prev[2 * q1]! - rho[3]! * prev[2 * q1 + 1]!;
+          bi -= rho[2]! * prev[2 * q1 + 1]! + rho[3]! * prev[2 * q1]!;
+        }
+        hr += ar * br + ai * bi;
+        hi += ai * br - ar * bi;
+      }
+      if (hr === 0 && hi === 0) continue;
+      const dphi = Math.atan2(hi, hr);
+      const w = (dphi + TWO_PI * Math.round((hopIn * omega[kp]! - dphi) / TWO_PI)) / hopIn;
+      omega[kp] = w;
+      if (freq[p]! === freq[p]!) freq[p] = w / binRad;
+      const phi = wrap(advance * w), cr = Math.cos(phi), ci = Math.sin(phi);
+      const or = this.#oldRe[p]!, oi = this.#oldIm[p]!;
+      let nr = or * cr - oi * ci, ni = or * ci + oi * cr;
+      const g = 1.5 - 0.5 * (nr * nr + ni * ni);
+      nr *= g;
+      ni *= g;
+      const lo = this.#regionLo[p]!, hiK = this.#regionHi[p]!;
+      for (let k = lo; k <= hiK; k++) {
+        rr[k] = nr;
+        ri[k] = ni;
+      }
+      for (let c = 0; c < channels; c++) {
+        const x = xw[c]!, out = y[c]!;
+        for (let k = lo; k <= hiK; k++) {
+          const re = x[2 * k]!, im = x[2 * k + 1]!;
+          out[2 * k] = re * nr - im * ni;
+          out[2 * k + 1] = re * ni + im * nr;
+        }
+      }
+    }
+  }
+
+  /** W(δ₀ − m)/W(δ₀) for the periodic Hann window (see `#correctLeakage`), into #kr. */
+  #kernelRatio(d0: number, m: number): void {
+    const n = this.fftSize, piN = Math.PI / n, cN = Math.cos(piN), sN = Math.sin(piN);
+    const frac = d0 - Math.round(d0);
+    if (Math.abs(frac) < 1e-6) d0 += frac >= 0 ? 1e-6 : -1e-6;
+    const ar = hannBRe(d0 - m, piN, cN), ai = hannBIm(d0 - m, piN, sN), br = hannBRe(d0, piN, cN), bi = hannBIm(d0, piN, sN);
+    const bn = br * br + bi * bi;
+    const qr = (ar * br + ai * bi) / bn, qi = (ai * br - ar * bi) / bn;
+    const er = Math.cos(piN * m), ei = Math.sin(piN * m);
+    this.#kr[0] = er * qr - ei * qi;
+    this.#kr[1] = er * qi + ei * qr;
+  }
+
+  readonly #kr = new Float64Array(2);
+  readonly #rho = new Float64Array(4);
+
+  #correctLeakage(pw: Float64Array, xw: readonly Float64Array[], y: readonly Float64Array[], count: number, top: number): void {
+    const n = this.fftSize, last = this.#active - 1;
+    const peaks = this.#peaks, freq = this.#peakFreq, lo = this.#regionLo, hi = this.#regionHi;
+    const rr = this.rotRe, ri = this.rotIm, inv = this.#inv, channels = this.channelCount;
+    const piN = Math.PI / n, cN = Math.cos(piN), sN = Math.sin(piN);
+    for (let p = 0; p < count; p++) {
+      const f = freq[p]!;
+      if (!(f === f)) continue;
+      const kp = peaks[p]!;
+      // X(k_p) must be this partial's: no peak within 3 bins that is less than 40 dB below it (a closer
+      // one's main lobe overlaps, and neither amplitude nor frequency can be read at k_p).
+      const near = pw[kp]! * 1e-4;
+      if ((p > 0 && kp - peaks[p - 1]! < 4 && pw[peaks[p - 1]!]! > near) || (p + 1 < count && peaks[p + 1]! - kp < 4 && pw[peaks[p + 1]!]! > near)) continue;
+      // Reach: (1/(πd³))²·pw < 1e-8·top (−80 dB).
+      const reach = Math.min(MAX_REACH, Math.ceil(Math.pow((1e8 * pw[kp]!) / top, 1 / 6) / Math.cbrt(Math.PI)));
+      const from = Math.max(1, kp - reach), to = Math.min(last - 1, kp + reach);
+      const rlo = lo[p]!, rhi = hi[p]!;
+      if (from >= rlo && to <= rhi) continue;
+      let d0 = f - kp;
+      const frac = d0 - Math.round(d0);
+      if (Math.abs(frac) < 1e-6) d0 += frac >= 0 ? 1e-6 : -1e-6; // B has removable poles at whole δ
+      // inv[i] = 1/sin(π(δ₀ − m)/N) for m = from − kp − 1 + i.
+      const m0 = from - kp - 1;
+      // y = π(δ₀ − m)/N: |y| < 0.05 for N ≥ 2048, where sin y = y − y³/6 + y⁵/120 to double
+      // precision (next term y⁷/5040); |y| < 0.34 at N = 256, relative error < 3e-7.
+      for (let i = 0, m = m0; m <= to - kp + 1; i++, m++) {
+        const a = piN * (d0 - m), a2 = a * a;
+        inv[i] = 1 / (a * (1 - a2 * (1 / 6 - a2 / 120)));
+      }
+      // B(x) = ½t(x) − ¼e^{jπ/N}t(x − 1) − ¼e^{−jπ/N}t(x + 1), t = 1/sin(π·/N); x = δ₀ − m is
+      // inv[m − m0], x − 1 the next entry, x + 1 the one before. B(δ₀) at m = 0:
+      const i0 = -m0;
+      const b0r = 0.5 * inv[i0]! - 0.25 * cN * (inv[i0 + 1]! + inv[i0 - 1]!);
+      const b0i = -0.25 * sN * (inv[i0 + 1]! - inv[i0 - 1]!);
+      const b0n = b0r * b0r + b0i * b0i;
+      const qr = b0r / b0n, qi = -b0i / b0n; // 1/B(δ₀)
+      const pr = rr[kp]!, pi = ri[kp]!;
+      // e^{jπm/N}, advanced by e^{jπ/N} per bin.
+      let er = Math.cos(piN * (from - kp)), ei = Math.sin(piN * (from - kp));
+      for (let k = from; k <= to; k++) {
+        if (k < rlo || k > rhi) {
+          const i = k - from + 1;
+          const br = 0.5 * inv[i]! - 0.25 * cN * (inv[i + 1]! + inv[i - 1]!), bi = -0.25 * sN * (inv[i + 1]! - inv[i - 1]!);
+          // ρ = e^{jπm/N}·B(δ₀ − m)/B(δ₀); then (R_p − R(k))·ρ.
+          const ar = br * qr - bi * qi, ai = br * qi + bi * qr;
+          const rhoR = er * ar - ei * ai, rhoI = er * ai + ei * ar;
+          const dr = pr - rr[k]!, di = pi - ri[k]!;
+          const gr = dr * rhoR - di * rhoI, gi = dr * rhoI + di * rhoR;
+          for (let c = 0; c < channels; c++) {
+            const x = xw[c]!, out = y[c]!;
+            const xr = x[2 * kp]!, xi = x[2 * kp + 1]!;
+            out[2 * k]! += xr * gr - xi * gi;
+            out[2 * k + 1]! += xr * gi + xi * gr;
+          }
+        }
+        const t = er * cN - ei * sN;
+        ei = er * sN + ei * cN;
+        er = t;
+      }
+    }
   }
 
   /** Tables e^{jΔω_k} (by recurrence) and e^{jΔ·2π(q/64)/N} for the advance Δ = H_s − H_a. */

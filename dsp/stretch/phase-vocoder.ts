@@ -137,7 +137,7 @@ export class TimeStretcher {
     this.fftSize = this.#n = n;
     this.synthesisHop = this.#hs = n / 4;
     const bins = (this.#bins = n / 2 + 1);
-    this.#lock = new PhaseLocker(n, this.#hs, channelCount);
+    this.#lock = new PhaseLocker(n, this.#hs, channelCount, n / 2 + 1, true);
 
     const hs = this.#hs;
     const zoneHalf = n / 2 + n / 16; // frames containing the onset, plus 1/16 N for its uncertainty
@@ -262,8 +262,8 @@ export class TimeStretcher {
         // Low-band frames up to this σ; the one at σ takes this frame's α and rotations.
         while (low.nextSigma <= sigma) {
           const at = low.nextSigma;
-          if (at === sigma) low.frame(alpha, this.#lock.rotRe, this.#lock.rotIm, n);
-          else low.frame(map.alphaAt(at), null, null, n);
+          if (at === sigma) low.frame(alpha, this.#lock.rotRe, this.#lock.rotIm, n, this.#gain);
+          else low.frame(map.alphaAt(at), null, null, n, this.#gain);
         }
       }
       this.#frame++;

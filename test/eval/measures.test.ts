@@ -4,6 +4,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { bandDeviationDb, echoReductionDb, offsetTrack, residualSpeedPercent, thirdOctaveDb, powerSpectrum } from './measures.ts';
+import { numbersFromJson, numbersToJson } from './pool.ts';
 import { delayExact } from '../helpers/delay.ts';
 import { gaussian, seededRng } from '../helpers/rng.ts';
 
@@ -13,6 +14,19 @@ function noise(n: number, seed: number): Float64Array {
   const g = gaussian(seededRng(seed));
   return Float64Array.from({ length: n }, () => g());
 }
+
+describe('metrics between worker and report', () => {
+  it('NaN and ±Infinity survive the JSON line', () => {
+    // Source: exact identity; JSON (ECMA-404) has no NaN or Infinity, JSON.stringify writes null.
+    const m = { worstCents: Infinity, newLineDb: -Infinity, preEchoDb: NaN, onsetErrorMs: 1.25 };
+    expect(JSON.parse(JSON.stringify(m))).toEqual({ worstCents: null, newLineDb: null, preEchoDb: null, onsetErrorMs: 1.25 });
+    const back = numbersFromJson(JSON.parse(JSON.stringify(numbersToJson(m))) as Record<string, number | string>);
+    expect(back.worstCents).toBe(Infinity);
+    expect(back.newLineDb).toBe(-Infinity);
+    expect(back.preEchoDb).toBeNaN();
+    expect(back.onsetErrorMs).toBe(1.25);
+  });
+});
 
 describe('correction measures', () => {
   it('echo reduction is the residual energy ratio in dB', () => {

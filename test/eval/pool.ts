@@ -5,6 +5,18 @@ import readline from 'node:readline';
 
 const ROOT = path.resolve(import.meta.dirname, '../..');
 
+/**
+ * Numbers for a JSON line: JSON has no NaN or ±Infinity (JSON.stringify writes null), so those
+ * travel by name ("NaN", "Infinity", "-Infinity"); `numbersFromJson` reads them back.
+ */
+export function numbersToJson(values: Record<string, number>): Record<string, number | string> {
+  return Object.fromEntries(Object.entries(values).map(([k, v]) => [k, Number.isFinite(v) ? v : String(v)]));
+}
+
+export function numbersFromJson(values: Record<string, number | string>): Record<string, number> {
+  return Object.fromEntries(Object.entries(values).map(([k, v]) => [k, Number(v)]));
+}
+
 export class TaskPool<T extends { id: string }, R extends { id: string }> {
   private readonly children: ChildProcess[] = [];
   private readonly waiting = new Map<string, (r: R) => void>();

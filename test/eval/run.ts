@@ -19,7 +19,7 @@
  */
 import path from 'node:path';
 import { loadCorpus, type CorpusClip } from '../corpus/index.ts';
-import { TaskPool } from './pool.ts';
+import { numbersFromJson, TaskPool } from './pool.ts';
 import { scorers } from './score/index.ts';
 import { summarise, wilson } from './stats.ts';
 import type { ClipResult, CorrectionResult, Judgement, Scorer } from './types.ts';
@@ -243,8 +243,10 @@ export async function evaluate(options: EvalOptions = {}): Promise<EvalReport> {
       }),
       ...cases.map(async (c) => {
         const id = `${c.clip.id} ${c.op} ${JSON.stringify(c.params)}`;
-        const r = await pool.run({ task: 'correct', id, file: c.clip.file, referenceFile: c.clip.referenceFile ?? c.clip.file, op: c.op, params: c.params, measure: c.measure });
-        corrected.set(id, r as CorrectionResult);
+        const r = (await pool.run({ task: 'correct', id, file: c.clip.file, referenceFile: c.clip.referenceFile ?? c.clip.file, op: c.op, params: c.params, measure: c.measure })) as CorrectionResult;
+        // The worker sends NaN and ±Infinity by name (JSON has none): back to numbers, so that a
+        // missing partial (Infinity cents) fails and "no new line" (−Infinity dB) passes.
+        corrected.set(id, { ...r, metrics: numbersFromJson(r.metrics) });
         tick();
       }),
     ]);

@@ -10,6 +10,7 @@ import { validateParams } from '../../dsp/ops/params.ts';
 import { collectBlocks, readAll } from '../../dsp/source.ts';
 import type { ParamValues } from '../../dsp/ops/types.ts';
 import type { ClipResult, CorrectionResult } from './types.ts';
+import { numbersToJson } from './pool.ts';
 import { bandDeviationDb, echoReductionDb, monoMix, offsetTrack, residualSpeedPercent } from './measures.ts';
 import { comparePartials, envelopeDeviationDb, findHits, readOnsets } from './stretch-measures.ts';
 
@@ -107,7 +108,8 @@ async function correct(t: CorrectTask): Promise<CorrectionResult> {
       metrics.windows = abs.length;
       metrics.lengthRatio = output.length / reference.length;
     }
-    return { id: t.id, metrics, resolved: rendering.resolved as Record<string, unknown>, warnings, cpuSeconds: cpu() };
+    // NaN and ±Infinity travel by name (as null a missing partial would pass and "no new line" fail).
+    return { id: t.id, metrics: numbersToJson(metrics) as unknown as Record<string, number>, resolved: rendering.resolved as Record<string, unknown>, warnings, cpuSeconds: cpu() };
   } catch (e) {
     return { id: t.id, metrics: {}, resolved: {}, warnings, cpuSeconds: cpu(), error: e instanceof Error ? `${e.name}: ${e.message}` : String(e) };
   } finally {
