@@ -54,136 +54,25 @@ export function fitWindows(delay: number, gain: number, n: number, halfWidth = 8
 }
 
 /**
- * Per-window orthonormal bases of what the background may hold: a constant and a slope (the
- * source's smooth cepstrum), and, for each band-edge frequency ν (cycles per sample; bandEdges),
- * cos 2πνq and sin 2πνq. A steep edge in the log spectrum (a recording band-limited at 8 kHz,
- * its top 25–60 dB down) rings in the cepstrum as ≈ D·sin(2πνq)/(πq), an oscillation of period
- * fs/f_edge samples that a slope cannot follow inside a ±8-bin window; on Festival speech at
- * 44.1 kHz it stood 0.03 high at 3 ms and read 2.9 ms / −0.45 as −0.482. Its amplitude changes
- * by under 20 % across a window down to 1 ms, so one (cos, sin) pair per edge and window holds it.
- * Modified Gram–Schmidt (Golub & Van Loan, Matrix Computations, §5.2.8); a basis vector that is
- * (nearly) a combination of the earlier ones is dropped.
+ * Projects out a constant + slope from each window of `v` (in place on the extracted vector).
+ * The vector holds the windows' values concatenated in order.
  */
-interface WindowBasis {
-  /** Column-major, m × count. */
-  q: Float64Array;
-  count: number;
-}
-
-function backgroundBases(windows: readonly FitWindow[], ringing: readonly number[]): WindowBasis[] {
-  return windows.map((w) => {
+function projectBackground(v: Float64Array, windows: readonly FitWindow[]): void {
+  let at = 0;
+  for (const w of windows) {
     const m = w.hi - w.lo + 1;
     const mid = (m - 1) / 2;
-    const cols: Float64Array[] = [];
-    const raw: ((i: number) => number)[] = [() => 1, (i) => i - mid];
-    for (const nu of ringing) {
-      raw.push((i) => Math.cos(2 * Math.PI * nu * (w.lo + i)), (i) => Math.sin(2 * Math.PI * nu * (w.lo + i)));
+    let s0 = 0, s1 = 0, s11 = 0;
+    for (let i = 0; i < m; i++) {
+      const t = i - mid;
+      s0 += v[at + i]!;
+      s1 += v[at + i]! * t;
+      s11 += t * t;
     }
-    for (const f of raw) {
-      if (cols.length >= m - 3) break; // leave the window points to fit the echo with
-      const v = new Float64Array(m);
-      for (let i = 0; i < m; i++) v[i] = f(i);
-      const norm0 = Math.sqrt(v.reduce((a, x) => a + x * x, 0));
-      for (const c of cols) {
-        let d = 0;
-        for (let i = 0; i < m; i++) d += c[i]! * v[i]!;
-        for (let i = 0; i < m; i++) v[i] = v[i]! - d * c[i]!;
-      }
-      const norm = Math.sqrt(v.reduce((a, x) => a + x * x, 0));
-      if (!(norm > 1e-6 * norm0)) continue;
-      for (let i = 0; i < m; i++) v[i] = v[i]! / norm;
-      cols.push(v);
-    }
-    const q = new Float64Array(m * cols.length);
-    cols.forEach((c, j) => q.set(c, j * m));
-    return { q, count: cols.length };
-  });
-}
-
-/**
- * Projects the background (backgroundBases) out of each window of `v`, in place. The vector
- * holds the windows' values concatenated in order.
- */
-function projectBackground(v: Float64Array, windows: readonly FitWindow[], bases: readonly WindowBasis[]): void {
-  let at = 0;
-  for (let w = 0; w < windows.length; w++) {
-    const win = windows[w]!;
-    const m = win.hi - win.lo + 1;
-    const { q, count } = bases[w]!;
-    for (let j = 0; j < count; j++) {
-      const o = j * m;
-      let d = 0;
-      for (let i = 0; i < m; i++) d += q[o + i]! * v[at + i]!;
-      for (let i = 0; i < m; i++) v[at + i] = v[at + i]! - d * q[o + i]!;
-    }
+    const a = s0 / m, b = s11 > 0 ? s1 / s11 : 0;
+    for (let i = 0; i < m; i++) v[at + i] = v[at + i]! - a - b * (i - mid);
     at += m;
   }
-}
-
-/**
- * Frequencies (cycles per sample, 0 < ν < ½) of the steep edges of a mean log power spectrum
- * (k = 0…N/2): where the level, averaged over ±0.25 % of the band, falls by more than 10 dB
- * across 1 % of the band. The middle of each such drop is one edge; at most `max`, the
- * largest drops first. Gentle roll-offs ring only at quefrencies under N/(their width) and are
- * left to the slope.
- */
-export function bandEdges(meanLog: Float64Array, max = 2): number[] {
-  const m = meanLog.length;
-  const n = 2 * (m - 1);
-  const half = Math.max(1, Math.round(0.0025 * m));
-  const span = Math.max(2, Math.round(0.005 * m));
-  const smooth = new Float64Array(m);
-  let sum = 0, count = 0;
-  for (let k = 0; k < Math.min(m, half); k++) {
-    sum += meanLog[k]!;
-    count++;
-  }
-  for (let k = 0; k < m; k++) {
-    if (k + half < m) {
-      sum += meanLog[k + half]!;
-      count++;
-    }
-    if (k - half - 1 >= 0) {
-      sum -= meanLog[k - half - 1]!;
-      count--;
-    }
-    smooth[k] = sum / count;
-  }
-  const limit = (10 * Math.LN10) / 10;
-  const found: { k: number; drop: number }[] = [];
-  for (let k = span + 1; k < m - span - 1; ) {
-    const drop = smooth[k - span]! - smooth[k + span]!;
-    if (drop <= limit) {
-      k++;
-      continue;
-    }
-    // The run of points where the drop exceeds the limit; its largest drop marks the edge.
-    let best = k, bestDrop = drop;
-    let j = k;
-    for (; j < m - span - 1; j++) {
-      const d = smooth[j - span]! - smooth[j + span]!;
-      if (d <= limit) break;
-      if (d > bestDrop) {
-        bestDrop = d;
-        best = j;
-      }
-    }
-    // A sharp step gives the same drop all across ±span of it (the ripple tips the largest one
-    // either way): the edge is the middle of the points within 10 % of the largest drop.
-    let first = -1, last = -1;
-    for (let i = k; i < j; i++) {
-      if (smooth[i - span]! - smooth[i + span]! >= 0.9 * bestDrop) {
-        if (first < 0) first = i;
-        last = i;
-      }
-    }
-    found.push({ k: first >= 0 ? (first + last) / 2 : best, drop: bestDrop });
-    k = j + 1;
-  }
-  return found
-    .sort((a, b) => b.drop - a.drop)
-    .slice(0, max)
-    .map((e) => e.k / n);
 }
 
 function extract(c: Float64Array, windows: readonly FitWindow[], out: Float64Array): void {
@@ -243,10 +132,9 @@ export function fitSingleEcho(
   data: Float64Array,
   n: number,
   start: SingleEcho,
-  options: { windows?: FitWindow[]; searchSamples?: number; ringing?: readonly number[] } = {},
+  options: { windows?: FitWindow[]; searchSamples?: number } = {},
 ): FitResult {
   const windows = options.windows ?? fitWindows(start.delaySamples, start.gain, n);
-  const bases = backgroundBases(windows, options.ringing ?? []);
   const m = countPoints(windows);
   const d = new Float64Array(m);
   extract(data, windows, d);
@@ -259,7 +147,7 @@ export function fitSingleEcho(
   const residual = (tau: number, g: number, into: Float64Array): number => {
     model(tau, g, tmp);
     for (let i = 0; i < m; i++) into[i] = d[i]! - tmp[i]!;
-    projectBackground(into, windows, bases);
+    projectBackground(into, windows);
     let s = 0;
     for (let i = 0; i < m; i++) s += into[i]! ** 2;
     return s;
@@ -350,7 +238,7 @@ export function fitSingleEcho(
     }
     if (!improved) break;
   }
-  const dof = Math.max(1, m - 2 - bases.reduce((a, b) => a + b.count, 0));
+  const dof = Math.max(1, m - 2 - 2 * windows.length);
   const s2 = cost / dof;
   const det = a11 * a22 - a12 * a12;
   return {

@@ -23,7 +23,7 @@ import { type FftPlan, nextPowerOfTwo, sharedPlan } from '../core/fft.ts';
 import { CancelledError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
-import { bandEdges, type FitResult, fitSingleEcho, fitWindows, scratchFor, undoCancellationCepstrum } from './fit.ts';
+import { type FitResult, fitSingleEcho, fitWindows, scratchFor, undoCancellationCepstrum } from './fit.ts';
 import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { mixBlock } from './mix.ts';
@@ -251,10 +251,6 @@ export async function cancelledCepstrum(
     deadGate = deadBinsOfPeriodogram(meanLog);
     if (deadGate) fillGated(meanLog, deadGate);
   }
-  // The steep edges of the band (fit.ts, bandEdges) ring in the cepstrum; the fit takes that
-  // ringing as background. (Edges within 0.1 of Nyquist are left out: their ringing alternates
-  // nearly as a fractional delay's own sidelobes do, and would take part of the delay with it.)
-  if (work) work.ringing = [...bandEdges(meanLog), ...(deadGate ? deadJunctions(deadGate) : [])].filter((nu) => nu < 0.4).slice(0, 3);
   const dead = undo && estimate && deadGate ? { gate: deadGate, ...estimate } : null;
   if (work) work.reach = dead ? programmeReach(deadGate!) : null;
   const out = undoCancellationCepstrum(meanLog, undo ? kernel : null, plan, cep, dead);
@@ -274,8 +270,6 @@ export interface PassArrays {
   reach?: { gain: number; delay: number } | null;
   /** Lock decisions by frame start (frames whose own period lands on lockTau), from the first pass. */
   locked?: Map<number, boolean>;
-  /** Band-edge frequencies (cycles per sample) whose cepstral ringing the fit takes as background. */
-  ringing?: number[];
 }
 
 /**
@@ -376,32 +370,6 @@ export function deadBins(meanLog: Float64Array, withEdges = true): Float64Array 
   // At least an eighth of the band must hold programme (16 kHz speech resampled to 96 kHz has a
   // sixth; its empty five sixths left in read 13 ms / −0.45 as −0.24).
   return dead > 0 && dead <= (7 * meanLog.length) / 8 ? gate : null;
-}
-
-/**
- * Where runs of bins without programme (a +∞ gate) meet bins with it, as frequencies in cycles
- * per sample (bin / N): the level filled in there joins the programme's with a kink, which rings
- * in the cepstrum at that frequency as a steep edge does (fit.ts, bandEdges). The widest runs'
- * ends first, at most two.
- */
-export function deadJunctions(gate: Float64Array): number[] {
-  const m = gate.length, n = 2 * (m - 1);
-  const runs: { at: number; width: number }[] = [];
-  for (let k = 0; k < m; ) {
-    if (gate[k] !== Infinity) {
-      k++;
-      continue;
-    }
-    let e = k;
-    while (e < m && gate[e] === Infinity) e++;
-    if (k > 0) runs.push({ at: k, width: e - k });
-    if (e < m) runs.push({ at: e, width: e - k });
-    k = e;
-  }
-  return runs
-    .sort((a, b) => b.width - a.width)
-    .slice(0, 2)
-    .map((r) => r.at / n);
 }
 
 /**
@@ -594,7 +562,7 @@ export async function refineSingleEcho(
     passes++;
     if (!data) break;
     const windows = fitWindows(tau, g, framing.fftSize);
-    fit = fitSingleEcho(data, framing.fftSize, { delaySamples: tau, gain: g }, { windows, searchSamples: pass === 0 ? (options.searchSamples ?? 0) : 0, ringing: work.ringing });
+    fit = fitSingleEcho(data, framing.fftSize, { delaySamples: tau, gain: g }, { windows, searchSamples: pass === 0 ? (options.searchSamples ?? 0) : 0 });
     if (work.reach) {
       // The bins with programme carry only part of the fit (programmeReach): the full step.
       fit = { ...fit, gain: gc + (fit.gain - gc) / work.reach.gain, delaySamples: tau + (fit.delaySamples - tau) / work.reach.delay };
