@@ -37,3 +37,30 @@ describe('echo cepstrum model', () => {
     }
   });
 });
+
+describe('frames left out as locked to the delay', () => {
+  // Frame log spectra built from chosen cepstra: L(k) = Σ_q 2·c_q·cos(2πkq/N) has exactly c_q at
+  // q (and N − q). Source: exact identity (the real cepstrum of an even sequence).
+  const fs = 44100, tau = 181; // 4.1 ms
+  const frame = (peaks: [number, number][]) => {
+    const l = new Float64Array(N / 2 + 1);
+    for (let k = 0; k <= N / 2; k++) for (const [q, c] of peaks) l[k] = l[k]! + 2 * c * Math.cos((2 * Math.PI * k * q) / N);
+    return l;
+  };
+  it('keeps a cancelled frame whose only peak at τ is what is left of the echo', async () => {
+    const { lockedByPeriod } = await import('../../dsp/echo/refine.ts');
+    const lock = lockedByPeriod(N, tau, fs);
+    expect(lock.accept(frame([[tau, 0.3]]))).toBe(true);
+    expect(lock.accept(frame([[tau, -0.3]]))).toBe(true);
+  });
+  it('leaves out a note whose period is τ (positive rahmonics at 2τ, 3τ) or a whole multiple of it', async () => {
+    // Source: the cepstrum of a periodic pulse train has positive peaks at every multiple of its
+    // period (common practice: cepstral pitch detection).
+    const { lockedByPeriod } = await import('../../dsp/echo/refine.ts');
+    const lock = lockedByPeriod(N, tau, fs);
+    expect(lock.accept(frame([[tau, 0.3], [2 * tau, 0.25], [3 * tau, 0.2]]))).toBe(false);
+    expect(lock.accept(frame([[3 * tau, 0.4], [6 * tau, 0.3]]))).toBe(false);
+    // A note of an unrelated period is kept.
+    expect(lock.accept(frame([[257, 0.4], [514, 0.3]]))).toBe(true);
+  });
+});
