@@ -66,13 +66,18 @@ const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
 /**
  * Evidence (0–1) that a measured series is mains hum: it must stand clearly above noise (coherent
  * harmonic-sum statistic: from 1 dB above what noise alone reaches in the search, to 6 dB above it),
- * be there all the time (steadiness: music partials come and go) and persist at one level through
- * the file (`persistenceEvidence`).
+ * be there all the time (steadiness: music partials come and go), persist at one level through
+ * the file (`persistenceEvidence`, stricter under quiet weights).
  */
 function humEvidence(m: HumMeasurement): number {
   const detection = clamp01((m.detectionDb - m.noiseDetectionDb - 1) / 5);
   const steady = clamp01((m.steadiness - 0.6) / 0.3);
-  return detection * steady * persistenceEvidence(m.harmonicsUsed, m.persistence);
+  // Under quiet weights the bursts no longer blur the segments' readings, so hum shows at its one
+  // level in nearly every judged segment; a drum's ringing that each hit starts again (steady
+  // only in the long run, where a loop repeats) does not: full weight up to 6 % of the judged
+  // cells off the level, none from 10 %.
+  const level = m.quiet ? clamp01((0.1 - m.persistence.inconsistentShare) / 0.04) : 1;
+  return detection * steady * level * persistenceEvidence(m.harmonicsUsed, m.persistence);
 }
 
 /**

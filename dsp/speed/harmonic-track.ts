@@ -689,3 +689,4 @@ export function linePersistence(set: TrackSet, layout: TrackLayout, f0At: (t: nu
     perHarmonic: Array.from(hJudged, (m, j) => ({ coverage: m / S, inconsistentShare: m ? hBad[j]! / m : 1 })),
   };
 }
+

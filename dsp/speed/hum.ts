@@ -89,6 +89,8 @@ export interface HumMeasurement extends SeriesMeasurement {
   score: number;
   /** How the line keeps its level through the file (hum persists; a note comes and goes). */
   persistence: LinePersistence;
+  /** Measured on quiet-weighted tracks (./quiet-weight.ts). */
+  quiet: boolean;
 }
 
 export function humDecimation(sampleRateHz: number): number {
@@ -363,7 +365,7 @@ export class HumTracker {
       layout,
       f0At,
     );
-    return { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score, persistence };
+    return { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score, persistence, quiet: !!g.candidate.quiet };
   }
 }
 
