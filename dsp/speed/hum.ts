@@ -56,8 +56,6 @@ const MAX_HARMONIC_HZ = 700;
 const MAX_HARMONICS = 10;
 /** Candidates measured in full (the best persisting at their coarse frequency). */
 const MAX_MEASURED = 3;
-/** Candidates taken from the quiet-weighted spectrum (before multiples and sub-multiples). */
-const QUIET_MAX_CANDIDATES = 3;
 
 export interface HumPeak {
   frequencyHz: number;
@@ -153,8 +151,10 @@ export class HumSearch {
   candidates(mainsHz?: 50 | 60, maxCount = 6): { candidates: HumCandidate[]; floorAt: (hz: number, quiet?: boolean) => number } {
     this.#finishQuiet();
     const plain = spectrumCandidates(this.#welch, this.decimatedRateHz, mainsHz, maxCount, false);
-    // Fewer from the quiet spectrum: it is there for a line that the plain one buries.
-    const quiet = spectrumCandidates(this.#welchQuiet, this.decimatedRateHz, mainsHz, Math.min(maxCount, QUIET_MAX_CANDIDATES), true);
+    // As many from the quiet spectrum: an exactly repeating drum loop puts steady lines of its own
+    // there (at multiples of its repetition rate), and fewer candidates can leave only such a line
+    // measured, with nothing to show that another line is as credible.
+    const quiet = spectrumCandidates(this.#welchQuiet, this.decimatedRateHz, mainsHz, maxCount, true);
     return { candidates: [...plain.candidates, ...quiet.candidates], floorAt: (hz, q) => (q ? quiet.floorAt(hz) : plain.floorAt(hz)) };
   }
 }
