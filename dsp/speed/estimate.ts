@@ -66,13 +66,18 @@ const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
 /**
  * Evidence (0–1) that a measured series is mains hum: it must stand clearly above noise (coherent
  * harmonic-sum statistic: from 1 dB above what noise alone reaches in the search, to 6 dB above it),
- * be there all the time (steadiness: music partials come and go) and persist at one level through
- * the file (`persistenceEvidence`).
+ * be there all the time (steadiness: music partials come and go), persist at one level through
+ * the file (`persistenceEvidence`, stricter under quiet weights).
  */
 function humEvidence(m: HumMeasurement): number {
   const detection = clamp01((m.detectionDb - m.noiseDetectionDb - 1) / 5);
   const steady = clamp01((m.steadiness - 0.6) / 0.3);
-  return detection * steady * persistenceEvidence(m.harmonicsUsed, m.persistence);
+  // Under quiet weights the bursts no longer blur the segments' readings, so hum shows at its one
+  // level in nearly every judged segment; a drum's ringing that each hit starts again (steady
+  // only in the long run, where a loop repeats) does not: full weight up to 6 % of the judged
+  // cells off the level, none from 10 %.
+  const level = m.quiet ? clamp01((0.1 - m.persistence.inconsistentShare) / 0.04) : 1;
+  return detection * steady * level * persistenceEvidence(m.harmonicsUsed, m.persistence);
 }
 
 /**
@@ -83,15 +88,21 @@ function plausibleFactor(factor: number): boolean {
   return Math.abs(1200 * Math.log2(factor)) <= 300 || standardPairText(factor) !== null;
 }
 
-/** Share of a's harmonic power (linear SNR) that falls on harmonics of b (within 0.05 %). */
-function sharedShare(a: HumMeasurement, b: HumMeasurement): number {
+/**
+ * Share of a's harmonic power (linear SNR) that falls on harmonics of b. Harmonic h of a is on
+ * harmonic k of b when |h·f_a − k·f_b| ≤ h·max(0.05 % of f_a, 2/T): two lines closer than the
+ * main-lobe half-width of a Hann-tapered record of T seconds (2/T) cannot be told apart, and an
+ * offset of a's fundamental grows h-fold at its h-th harmonic (common practice).
+ */
+function sharedShare(a: HumMeasurement, b: HumMeasurement, durationSeconds: number): number {
   let total = 0, shared = 0;
+  const tol = Math.max(5e-4 * a.meanFundamentalHz, 2 / durationSeconds);
   a.harmonicsUsed.forEach((h, j) => {
     const snr = Math.pow(10, (a.harmonicSnrDb[j] ?? -99) / 10);
     total += snr;
     const f = h * a.meanFundamentalHz;
     const k = Math.round(f / b.meanFundamentalHz);
-    if (k >= 1 && Math.abs(f - k * b.meanFundamentalHz) <= 5e-4 * f) shared += snr;
+    if (k >= 1 && Math.abs(f - k * b.meanFundamentalHz) <= h * tol) shared += snr;
   });
   return total > 0 ? shared / total : 0;
 }
@@ -154,7 +165,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
   if (hum) {
     const { candidates: hc, floorAt } = hum.candidates(options.mainsHz);
     if (hc.length > 0) {
-      const tracker = new HumTracker(fs, hc.map((candidate) => ({ candidate, floorAt })));
+      const tracker = new HumTracker(fs, hc.map((candidate) => ({ candidate, floorAt: (hz: number) => floorAt(hz, candidate.quiet) })), hum.quietWeights());
       let d2 = 0;
       for await (const block of source.blocks()) {
         aborted();
@@ -176,7 +187,7 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
       // drop it. A series that is not hum itself drops nothing.
       const kept: typeof usable = [];
       for (const c of usable) {
-        if (!kept.some((b) => b.evidence >= 0.5 && sharedShare(c.m, b.m) >= 0.5)) kept.push(c);
+        if (!kept.some((b) => b.evidence >= 0.5 && sharedShare(c.m, b.m, N / fs) >= 0.5)) kept.push(c);
       }
       // Several steady lines can each look like hum (a pure test tone, an electronic whine): rank
       // them by evidence × the plausibility of the speed they imply, and let the winner keep only

@@ -30,6 +30,11 @@ export interface TrackSet {
   /** Initial relative weights (1/noise floor) for the grid search. */
   readonly weights: readonly number[];
   readonly tracks: readonly { re: TrackArray; im: TrackArray; length: number }[];
+  /**
+   * The time weights the tracks were taken under, through the same filter (quiet-weighted tracks,
+   * ./quiet-weight.ts); a line's level in a segment is then its weighted mean amplitude.
+   */
+  readonly gain?: TrackArray;
 }
 
 export interface TrackLayout {
@@ -582,11 +587,33 @@ export function linePersistence(set: TrackSet, layout: TrackLayout, f0At: (t: nu
   const centre = (segLen - 1) / 2;
   const amp = new Float64Array(S * H), sig = new Float64Array(S * H);
   const PROBES = [-3, -2, 2, 3];
-  const fit = new Float64Array(1 + PROBES.length);
+  const fitRe = new Float64Array(1 + PROBES.length), fitIm = new Float64Array(1 + PROBES.length);
+  const gainRe = new Float64Array(1 + PROBES.length), gainIm = new Float64Array(1 + PROBES.length);
+  const cg = new Float64Array(segLen);
   for (let s = 0; s < S; s++) {
     // The last segment ends at the last track sample (it may overlap the one before).
     const start = s === S - 1 ? n - segLen : s * segLen;
     const delta = f0At(layout.timeOf(start + centre)) - set.fundamentalHz;
+    // Under time weights g (quiet-weighted tracks) the track holds g·(line + programme): the line
+    // is fitted with the regressor g·e^{jφ} (least squares, coefficients c·g: A = Σ c·g·z·e^{−jφ} /
+    // Σ c·g²), and the probes are read on what is left after it, since the weights spread the
+    // line itself into sidebands at the rates the programme's bursts come at.
+    const g = set.gain;
+    if (g) {
+      for (let k = 0; k < segLen; k++) cg[k] = c[k]! * g[start + k]!;
+      for (let p = 0; p <= PROBES.length; p++) {
+        const w = p === 0 ? 0 : -(2 * Math.PI * PROBES[p - 1]!) / segLen;
+        let gr = 0, gi = 0;
+        for (let k = 0; k < segLen; k++) {
+          const v = cg[k]! * g[start + k]!;
+          gr += v * Math.cos(w * (k - centre));
+          gi += v * Math.sin(w * (k - centre));
+        }
+        gainRe[p] = gr;
+        gainIm[p] = gi;
+      }
+    }
+    const coef = g ? cg : c;
     for (let j = 0; j < H; j++) {
       const t = set.tracks[j]!;
       const w0 = (2 * Math.PI * set.harmonics[j]! * delta) / fb;
@@ -598,18 +625,32 @@ export function linePersistence(set: TrackSet, layout: TrackLayout, f0At: (t: nu
         let cr = Math.cos(w * -centre), ci = Math.sin(w * -centre);
         for (let k = 0; k < segLen; k++) {
           const re = t.re[start + k]!, im = t.im[start + k]!;
-          zr += c[k]! * (re * cr - im * ci);
-          zi += c[k]! * (re * ci + im * cr);
+          zr += coef[k]! * (re * cr - im * ci);
+          zi += coef[k]! * (re * ci + im * cr);
           const tr = cr * dc - ci * ds;
           ci = cr * ds + ci * dc;
           cr = tr;
         }
-        fit[p] = zr * zr + zi * zi;
+        fitRe[p] = zr;
+        fitIm[p] = zi;
       }
-      let probe = 0;
-      for (let p = 1; p <= PROBES.length; p++) probe += fit[p]!;
-      amp[s * H + j] = Math.sqrt(fit[0]!) / sc;
-      sig[s * H + j] = Math.sqrt(probe / PROBES.length / 2) / sc;
+      if (g) {
+        const g0 = Math.max(gainRe[0]!, 1e-12 * sc);
+        const ar = fitRe[0]! / g0, ai = fitIm[0]! / g0;
+        let probe = 0;
+        for (let p = 1; p <= PROBES.length; p++) {
+          const rr = fitRe[p]! - (ar * gainRe[p]! - ai * gainIm[p]!);
+          const ri = fitIm[p]! - (ar * gainIm[p]! + ai * gainRe[p]!);
+          probe += rr * rr + ri * ri;
+        }
+        amp[s * H + j] = Math.hypot(ar, ai);
+        sig[s * H + j] = Math.sqrt(probe / PROBES.length / 2) / g0;
+      } else {
+        let probe = 0;
+        for (let p = 1; p <= PROBES.length; p++) probe += fitRe[p]! ** 2 + fitIm[p]! ** 2;
+        amp[s * H + j] = Math.hypot(fitRe[0]!, fitIm[0]!) / sc;
+        sig[s * H + j] = Math.sqrt(probe / PROBES.length / 2) / sc;
+      }
     }
   }
   // The usual level: the median amplitude over the half of the segments where least else is
@@ -648,3 +689,4 @@ export function linePersistence(set: TrackSet, layout: TrackLayout, f0At: (t: nu
     perHarmonic: Array.from(hJudged, (m, j) => ({ coverage: m / S, inconsistentShare: m ? hBad[j]! / m : 1 })),
   };
 }
+

@@ -29,6 +29,7 @@
 import { WelchAccumulator } from '../core/welch.ts';
 import { Decimator } from '../core/decimate.ts';
 import { HeterodyneTrack } from './heterodyne.ts';
+import { QuietGain, QuietWeighting } from './quiet-weight.ts';
 import { speedPrior } from './standard.ts';
 import { linePersistence, measureSeries, trackNoiseCorrelation, type LinePersistence, type SeriesMeasurement, type TrackLayout, type TrackSet } from './harmonic-track.ts';
 
@@ -37,6 +38,12 @@ interface TrackGroup {
   harmonics: number[];
   weights: number[];
   tracks: HeterodyneTrack[];
+}
+
+/** Frame weights from the search pass (see ./quiet-weight.ts). */
+export interface QuietWeights {
+  weights: Float32Array;
+  frameLength: number;
 }
 
 export const HUM_MIN_FACTOR = 0.25;
@@ -62,6 +69,8 @@ export interface HumCandidate {
   score: number;
   /** SNR (dB) of each harmonic h = 1…H at h·f₀ (0 when absent). */
   harmonicSnrDb: number[];
+  /** Found in the quiet-weighted spectrum, and measured on quiet-weighted tracks. */
+  quiet?: boolean;
 }
 
 export interface HumHypothesis {
@@ -80,17 +89,26 @@ export interface HumMeasurement extends SeriesMeasurement {
   score: number;
   /** How the line keeps its level through the file (hum persists; a note comes and goes). */
   persistence: LinePersistence;
+  /** Measured on quiet-weighted tracks (./quiet-weight.ts). */
+  quiet: boolean;
 }
 
 export function humDecimation(sampleRateHz: number): number {
   return Math.max(1, Math.floor(sampleRateHz / DECIM_TARGET_HZ));
 }
 
-/** Pass 1: decimate a mono stream and accumulate the long-window spectrum. */
+/**
+ * Pass 1: decimate a mono stream and accumulate two long-window spectra: the plain one, and one
+ * of the stream weighted towards its quiet moments (./quiet-weight.ts), where a steady line buried
+ * under bursts (a drum loop's kicks, a note's attacks) stands clear.
+ */
 export class HumSearch {
   readonly decimatedRateHz: number;
   readonly #dec: Decimator;
   readonly #welch: WelchAccumulator;
+  readonly #welchQuiet: WelchAccumulator;
+  readonly #quiet: QuietWeighting;
+  #quietDone = false;
 
   constructor(sampleRateHz: number, totalFrames: number) {
     const D = humDecimation(sampleRateHz);
@@ -100,99 +118,133 @@ export class HumSearch {
     let fft = 4096;
     while (fft * 2 <= Math.max(len, 4096) && fft < 65536) fft *= 2;
     this.#welch = new WelchAccumulator({ sampleRateHz: this.decimatedRateHz, channelCount: 1, fftSize: fft, window: 'hann' });
+    this.#welchQuiet = new WelchAccumulator({ sampleRateHz: this.decimatedRateHz, channelCount: 1, fftSize: fft, window: 'hann' });
+    this.#quiet = new QuietWeighting(this.decimatedRateHz);
   }
 
   push(mono: Float64Array): void {
     const y = this.#dec.process(mono);
-    if (y.length) this.#welch.push([y]);
+    if (!y.length) return;
+    this.#welch.push([y]);
+    const q = this.#quiet.push(y);
+    if (q.length) this.#welchQuiet.push([q]);
   }
 
-  /** Candidates, best first. `mainsHz` restricts the fundamental range. */
-  candidates(mainsHz?: 50 | 60, maxCount = 6): { candidates: HumCandidate[]; floorAt: (hz: number) => number } {
-    const w = this.#welch.result();
-    const p = w.meanPower[0]!;
-    const bw = w.binWidthHz;
-    const fsd = this.decimatedRateHz;
-    const kLo = Math.max(2, Math.floor(8 / bw));
-    const kHi = Math.min(p.length - 3, Math.floor(Math.min(0.4 * fsd, MAX_HARMONIC_HZ * 1.1) / bw));
-    // Running-median floor, computed every `stride` bins over ±(1.5 Hz, ≥ 12 bins), interpolated.
-    const half = Math.max(12, Math.round(1.5 / bw));
-    const stride = Math.max(1, Math.floor(half / 4));
-    const floorKnots: number[] = [];
-    const knotBins: number[] = [];
-    const tmp: number[] = [];
-    for (let k = kLo; k <= kHi + stride; k += stride) {
-      tmp.length = 0;
-      for (let j = Math.max(1, k - half); j <= Math.min(p.length - 1, k + half); j++) tmp.push(p[j]!);
-      tmp.sort((a, b) => a - b);
-      floorKnots.push(Math.max(tmp[tmp.length >> 1]!, 1e-300));
-      knotBins.push(k);
-    }
-    const floorBin = (k: number): number => {
-      const x = (k - kLo) / stride;
-      const i = Math.max(0, Math.min(floorKnots.length - 2, Math.floor(x)));
-      const t = Math.max(0, Math.min(1, x - i));
-      return floorKnots[i]! * (1 - t) + floorKnots[i + 1]! * t;
-    };
-    const snrDb = (k: number) => 10 * Math.log10(p[k]! / floorBin(k));
-    const interp = (k: number): number => {
-      const a = Math.log(p[k - 1]! + 1e-300), b = Math.log(p[k]! + 1e-300), c = Math.log(p[k + 1]! + 1e-300);
-      const den = a - 2 * b + c;
-      const d = den < 0 ? (0.5 * (a - c)) / den : 0;
-      return (k + Math.max(-0.5, Math.min(0.5, d))) * bw;
-    };
-    const fMin = (mainsHz ?? 50) * HUM_MIN_FACTOR * 0.995;
-    const fMax = (mainsHz ?? 60) * HUM_MAX_FACTOR * 1.005;
-    /** Power over floor at frequency f (largest of the two bins around it). */
-    const ratioAt = (f: number): number => {
-      const x = f / bw, k = Math.floor(x);
-      if (k < kLo || k + 1 > kHi) return 0;
-      return Math.max(p[k]! / floorBin(k), p[k + 1]! / floorBin(k + 1));
-    };
-    // Harmonic-sum statistic over the first H harmonics (H ∈ {3, 6, 12}): under noise alone each
-    // term p/median is exponential with mean 1/ln 2, so the sum of H terms has mean H/ln 2 and
-    // standard deviation √H/ln 2; candidates rank by the best z-score.
-    const mu = 1 / Math.LN2;
-    const found: HumCandidate[] = [];
-    for (let k = Math.max(kLo + 2, Math.floor(fMin / bw)); k <= Math.min(kHi - 2, Math.ceil(fMax / bw)); k++) {
-      if (!(p[k]! > p[k - 1]! && p[k]! >= p[k + 1]! && p[k]! > p[k - 2]! && p[k]! >= p[k + 2]!)) continue;
-      const s1 = snrDb(k);
-      if (s1 < 3) continue;
-      const f0 = interp(k);
-      if (f0 < fMin || f0 > fMax) continue;
-      const hMax = Math.min(MAX_HARMONICS, Math.floor(Math.min(MAX_HARMONIC_HZ, kHi * bw) / f0));
-      const harmonicSnrDb: number[] = [];
-      let sum = 0, score = -Infinity;
-      for (let h = 1; h <= hMax; h++) {
-        const r = h === 1 ? p[k]! / floorBin(k) : ratioAt(h * f0);
-        harmonicSnrDb.push(10 * Math.log10(Math.max(r, 1e-12)));
-        sum += Math.min(r, 1000);
-        if (h === 3 || h === 6 || h === 12 || h === hMax) score = Math.max(score, (sum - h * mu) / (Math.sqrt(h) * mu));
-      }
-      found.push({ fundamentalHz: f0, score, harmonicSnrDb });
-    }
-    found.sort((a, b) => b.score - a.score);
-    // Keep distinct fundamentals. Multiples and sub-multiples of a better candidate stay: the
-    // measurement decides which of them is the series that persists (hum at half speed puts its
-    // fundamental under what looks like a sub-harmonic of its second harmonic, and vice versa).
-    const kept: HumCandidate[] = [];
-    for (const c of found) {
-      const dup = kept.some((k) => Math.abs(c.fundamentalHz / k.fundamentalHz - 1) < 0.003);
-      if (!dup) kept.push(c);
-      if (kept.length >= maxCount) break;
-    }
-    // A series that looks strong may be the sub-harmonic of the real one (hum at 50 Hz read as a
-    // 25 Hz series whose even harmonics it is), or one of its harmonics (180 Hz of 60 Hz hum):
-    // keep its double, half and third for the best two as well.
-    for (const b of kept.slice(0, 2)) {
-      for (const k of [2, 1 / 2, 1 / 3]) {
-        const m = found.find((c) => Math.abs(c.fundamentalHz / (k * b.fundamentalHz) - 1) < 0.003);
-        if (m && !kept.includes(m)) kept.push(m);
-      }
-    }
-    const floorAt = (hz: number) => floorBin(Math.max(kLo, Math.min(kHi, Math.round(hz / bw))));
-    return { candidates: kept, floorAt };
+  #finishQuiet(): void {
+    if (this.#quietDone) return;
+    this.#quietDone = true;
+    const q = this.#quiet.finish();
+    if (q.length) this.#welchQuiet.push([q]);
   }
+
+  /** The quiet weights by frame of the decimated stream (for the tracker's pass). */
+  quietWeights(): QuietWeights {
+    this.#finishQuiet();
+    return { weights: this.#quiet.weights, frameLength: this.#quiet.frameLength };
+  }
+
+  /**
+   * Candidates, best first, from the plain spectrum, then from the quiet-weighted one (marked
+   * `quiet`). `mainsHz` restricts the fundamental range. `floorAt(hz, quiet)` is the spectrum's
+   * noise floor at a frequency.
+   */
+  candidates(mainsHz?: 50 | 60, maxCount = 6): { candidates: HumCandidate[]; floorAt: (hz: number, quiet?: boolean) => number } {
+    this.#finishQuiet();
+    const plain = spectrumCandidates(this.#welch, this.decimatedRateHz, mainsHz, maxCount, false);
+    // As many from the quiet spectrum: an exactly repeating drum loop puts steady lines of its own
+    // there (at multiples of its repetition rate), and fewer candidates can leave only such a line
+    // measured, with nothing to show that another line is as credible.
+    const quiet = spectrumCandidates(this.#welchQuiet, this.decimatedRateHz, mainsHz, maxCount, true);
+    return { candidates: [...plain.candidates, ...quiet.candidates], floorAt: (hz, q) => (q ? quiet.floorAt(hz) : plain.floorAt(hz)) };
+  }
+}
+
+function spectrumCandidates(
+  welch: WelchAccumulator, fsd: number, mainsHz: 50 | 60 | undefined, maxCount: number, quiet: boolean,
+): { candidates: HumCandidate[]; floorAt: (hz: number) => number } {
+  const w = welch.result();
+  const p = w.meanPower[0]!;
+  const bw = w.binWidthHz;
+
+  const kLo = Math.max(2, Math.floor(8 / bw));
+  const kHi = Math.min(p.length - 3, Math.floor(Math.min(0.4 * fsd, MAX_HARMONIC_HZ * 1.1) / bw));
+  // Running-median floor, computed every `stride` bins over ±(1.5 Hz, ≥ 12 bins), interpolated.
+  const half = Math.max(12, Math.round(1.5 / bw));
+  const stride = Math.max(1, Math.floor(half / 4));
+  const floorKnots: number[] = [];
+  const knotBins: number[] = [];
+  const tmp: number[] = [];
+  for (let k = kLo; k <= kHi + stride; k += stride) {
+    tmp.length = 0;
+    for (let j = Math.max(1, k - half); j <= Math.min(p.length - 1, k + half); j++) tmp.push(p[j]!);
+    tmp.sort((a, b) => a - b);
+    floorKnots.push(Math.max(tmp[tmp.length >> 1]!, 1e-300));
+    knotBins.push(k);
+  }
+  const floorBin = (k: number): number => {
+    const x = (k - kLo) / stride;
+    const i = Math.max(0, Math.min(floorKnots.length - 2, Math.floor(x)));
+    const t = Math.max(0, Math.min(1, x - i));
+    return floorKnots[i]! * (1 - t) + floorKnots[i + 1]! * t;
+  };
+  const snrDb = (k: number) => 10 * Math.log10(p[k]! / floorBin(k));
+  const interp = (k: number): number => {
+    const a = Math.log(p[k - 1]! + 1e-300), b = Math.log(p[k]! + 1e-300), c = Math.log(p[k + 1]! + 1e-300);
+    const den = a - 2 * b + c;
+    const d = den < 0 ? (0.5 * (a - c)) / den : 0;
+    return (k + Math.max(-0.5, Math.min(0.5, d))) * bw;
+  };
+  const fMin = (mainsHz ?? 50) * HUM_MIN_FACTOR * 0.995;
+  const fMax = (mainsHz ?? 60) * HUM_MAX_FACTOR * 1.005;
+  /** Power over floor at frequency f (largest of the two bins around it). */
+  const ratioAt = (f: number): number => {
+    const x = f / bw, k = Math.floor(x);
+    if (k < kLo || k + 1 > kHi) return 0;
+    return Math.max(p[k]! / floorBin(k), p[k + 1]! / floorBin(k + 1));
+  };
+  // Harmonic-sum statistic over the first H harmonics (H ∈ {3, 6, 12}): under noise alone each
+  // term p/median is exponential with mean 1/ln 2, so the sum of H terms has mean H/ln 2 and
+  // standard deviation √H/ln 2; candidates rank by the best z-score.
+  const mu = 1 / Math.LN2;
+  const found: HumCandidate[] = [];
+  for (let k = Math.max(kLo + 2, Math.floor(fMin / bw)); k <= Math.min(kHi - 2, Math.ceil(fMax / bw)); k++) {
+    if (!(p[k]! > p[k - 1]! && p[k]! >= p[k + 1]! && p[k]! > p[k - 2]! && p[k]! >= p[k + 2]!)) continue;
+    const s1 = snrDb(k);
+    if (s1 < 3) continue;
+    const f0 = interp(k);
+    if (f0 < fMin || f0 > fMax) continue;
+    const hMax = Math.min(MAX_HARMONICS, Math.floor(Math.min(MAX_HARMONIC_HZ, kHi * bw) / f0));
+    const harmonicSnrDb: number[] = [];
+    let sum = 0, score = -Infinity;
+    for (let h = 1; h <= hMax; h++) {
+      const r = h === 1 ? p[k]! / floorBin(k) : ratioAt(h * f0);
+      harmonicSnrDb.push(10 * Math.log10(Math.max(r, 1e-12)));
+      sum += Math.min(r, 1000);
+      if (h === 3 || h === 6 || h === 12 || h === hMax) score = Math.max(score, (sum - h * mu) / (Math.sqrt(h) * mu));
+    }
+    found.push({ fundamentalHz: f0, score, harmonicSnrDb, ...(quiet ? { quiet: true } : {}) });
+  }
+  found.sort((a, b) => b.score - a.score);
+  // Keep distinct fundamentals. Multiples and sub-multiples of a better candidate stay: the
+  // measurement decides which of them is the series that persists (hum at half speed puts its
+  // fundamental under what looks like a sub-harmonic of its second harmonic, and vice versa).
+  const kept: HumCandidate[] = [];
+  for (const c of found) {
+    const dup = kept.some((k) => Math.abs(c.fundamentalHz / k.fundamentalHz - 1) < 0.003);
+    if (!dup) kept.push(c);
+    if (kept.length >= maxCount) break;
+  }
+  // A series that looks strong may be the sub-harmonic of the real one (hum at 50 Hz read as a
+  // 25 Hz series whose even harmonics it is), or one of its harmonics (180 Hz of 60 Hz hum):
+  // keep its double, half and third for the best two as well.
+  for (const b of kept.slice(0, 2)) {
+    for (const k of [2, 1 / 2, 1 / 3]) {
+      const m = found.find((c) => Math.abs(c.fundamentalHz / (k * b.fundamentalHz) - 1) < 0.003);
+      if (m && !kept.includes(m)) kept.push(m);
+    }
+  }
+  const floorAt = (hz: number) => floorBin(Math.max(kLo, Math.min(kHi, Math.round(hz / bw))));
+  return { candidates: kept, floorAt };
 }
 
 /** The mains hypotheses that explain a hum fundamental, most plausible first. */
@@ -205,21 +257,34 @@ export function humHypotheses(fundamentalHz: number, mainsHz?: 50 | 60): HumHypo
   return out.sort((a, b) => b.prior - a.prior);
 }
 
-/** Pass 2: narrowband tracks around the harmonics of one or more candidate fundamentals. */
+/**
+ * Pass 2: narrowband tracks around the harmonics of one or more candidate fundamentals. A
+ * candidate from the quiet-weighted spectrum is tracked on the weighted stream (the same frame
+ * weights, `quiet`), with the weights themselves tracked alongside so that a line's level can be
+ * read per segment as the weighted mean of its amplitude.
+ */
 export class HumTracker {
   readonly decimatedRateHz: number;
   readonly trackRateHz: number;
   readonly #dec: Decimator;
   readonly #groups: TrackGroup[] = [];
   readonly #trackDecim: number;
+  readonly #gain: QuietGain | null;
+  readonly #gainTrack: HeterodyneTrack | null;
+  readonly #candidates: HumCandidate[];
 
-  constructor(sampleRateHz: number, candidates: { candidate: HumCandidate; floorAt: (hz: number) => number }[]) {
+  constructor(sampleRateHz: number, candidates: { candidate: HumCandidate; floorAt: (hz: number) => number }[], quiet?: QuietWeights) {
     const D = humDecimation(sampleRateHz);
     this.#dec = new Decimator(D, DECIM_ORDER);
     this.decimatedRateHz = sampleRateHz / D;
     this.#trackDecim = Math.max(1, Math.round(this.decimatedRateHz / TRACK_RATE_HZ));
     this.trackRateHz = this.decimatedRateHz / this.#trackDecim;
+    this.#candidates = candidates.map((c) => c.candidate);
+    const anyQuiet = candidates.some((c) => c.candidate.quiet);
+    this.#gain = anyQuiet && quiet ? new QuietGain(quiet.weights, quiet.frameLength) : null;
+    this.#gainTrack = this.#gain ? new HeterodyneTrack(0, this.#trackDecim, TRACK_ORDER) : null;
     for (const { candidate, floorAt } of candidates) {
+      if (candidate.quiet && !this.#gain) continue;
       const f0 = candidate.fundamentalHz;
       const harmonics: number[] = [];
       const weights: number[] = [];
@@ -239,22 +304,36 @@ export class HumTracker {
   push(mono: Float64Array): void {
     const y = this.#dec.process(mono);
     if (!y.length) return;
-    for (const g of this.#groups) for (const t of g.tracks) t.push(y);
+    const q = this.#gain?.apply(y);
+    if (q) this.#gainTrack!.push(q.gain);
+    for (const g of this.#groups) {
+      const x = g.candidate.quiet && q ? q.weighted : y;
+      for (const t of g.tracks) t.push(x);
+    }
   }
 
-  /** Measurement per candidate (null when the tracks are too short to measure). */
+  /** Measurement per candidate given to the constructor (null when not measured). */
   measure(sampleRateHz: number): (HumMeasurement | null)[] {
     // A cheap look first, at each candidate's coarse frequency: a series whose fundamental is not
     // at one level through the file, or that can hardly be seen anywhere, cannot be hum
     // (persistenceEvidence), so the costly measurement is spared; of the rest the MAX_MEASURED
-    // that persist best are measured.
+    // that persist best are measured, from the plain and from the quiet-weighted tracks each.
     const coarse = this.#groups.map((g) => {
       const { set, layout } = this.#setAndLayout(g, sampleRateHz);
-      return persistenceEvidence(g.harmonics, linePersistence(set, layout, () => g.candidate.fundamentalHz));
+      const lp = linePersistence(set, layout, () => g.candidate.fundamentalHz);
+      return persistenceEvidence(g.harmonics, lp);
     });
-    const order = coarse.map((e, i) => ({ e, i })).filter((x) => x.e > 0).sort((a, b) => b.e - a.e || a.i - b.i).slice(0, MAX_MEASURED);
-    const chosen = new Set(order.map((x) => x.i));
-    return this.#groups.map((g, i) => (chosen.has(i) ? this.#measureGroup(g, sampleRateHz) : null));
+    const chosen = new Set<number>();
+    for (const quiet of [false, true]) {
+      coarse
+        .map((e, i) => ({ e, i }))
+        .filter((x) => x.e > 0 && !!this.#groups[x.i]!.candidate.quiet === quiet)
+        .sort((a, b) => b.e - a.e || a.i - b.i)
+        .slice(0, MAX_MEASURED)
+        .forEach((x) => chosen.add(x.i));
+    }
+    const byCandidate = new Map(this.#groups.map((g, i) => [g.candidate, chosen.has(i) ? this.#measureGroup(g, sampleRateHz) : null]));
+    return this.#candidates.map((c) => byCandidate.get(c) ?? null);
   }
 
   #setAndLayout(g: TrackGroup, sampleRateHz: number): { set: TrackSet; layout: TrackLayout } {
@@ -262,7 +341,10 @@ export class HumTracker {
     const delay2 = g.tracks[0]!.delaySamples;
     const D1 = sampleRateHz / this.decimatedRateHz;
     return {
-      set: { fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, weights: g.weights, tracks: g.tracks },
+      set: {
+        fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, weights: g.weights, tracks: g.tracks,
+        ...(g.candidate.quiet && this.#gainTrack ? { gain: this.#gainTrack.re } : {}),
+      },
       layout: {
         trackRateHz: this.trackRateHz,
         timeOf: (k: number) => ((k * D2 - delay2) * D1 - this.#dec.delaySamples) / sampleRateHz,
@@ -286,7 +368,7 @@ export class HumTracker {
       layout,
       f0At,
     );
-    return { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score, persistence };
+    return { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score, persistence, quiet: !!g.candidate.quiet };
   }
 }
 
