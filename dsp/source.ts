@@ -26,6 +26,13 @@ export interface BlockOptions {
    * a copy each). Without it, yielded arrays belong to the caller, who may overwrite them.
    */
   readOnly?: boolean;
+  /**
+   * The caller is done with each block before it asks for the next (it keeps no reference and
+   * needs none of its values later): a source may then yield the same arrays every time,
+   * overwritten, instead of new ones (file sources do; less garbage in passes that read an
+   * excerpt many times). The last block may be a shorter view of them.
+   */
+  reusable?: boolean;
 }
 
 export interface AudioSource {

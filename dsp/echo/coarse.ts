@@ -86,8 +86,20 @@ export class CoarseEchoSearch {
    * such a file at 96 kHz from z 21.9 to 4.7).
    */
   cepstra(): Array<Float64Array | null> {
-    this.#empty = this.scales.map((s) => (s.accumulator.frames > 0 ? deadBins(s.accumulator.meanLogSpectrum(), false) : null));
-    return this.scales.map((s, i) => (s.accumulator.frames > 0 ? cepstrumOf(this.#filled(s.accumulator.meanLogSpectrum(), i), sharedPlan(s.fftSize)) : null));
+    // The input has ended: the frame buffers go first (they are the largest arrays here).
+    for (const s of this.scales) s.accumulator.release();
+    const largest = this.longestFrame;
+    const half = new Float64Array(largest + 2), work = new Float64Array(largest);
+    this.#empty = [];
+    return this.scales.map((s, i) => {
+      if (s.accumulator.frames === 0) {
+        this.#empty[i] = null;
+        return null;
+      }
+      const meanLog = s.accumulator.meanLogSpectrum();
+      this.#empty[i] = deadBins(meanLog, false);
+      return cepstrumOf(this.#filled(meanLog, i), sharedPlan(s.fftSize), { half, work });
+    });
   }
 
   /** Per scale, the empty bins found by cepstra() (a +∞ gate), or null. */
@@ -109,35 +121,38 @@ export class CoarseEchoSearch {
    */
   candidates(cepstra: Array<Float64Array | null>, perScale = 3, exclude: ReadonlyArray<[number, number]> = []): CoarseCandidate[] {
     const out: CoarseCandidate[] = [];
+    const largest = this.longestFrame;
+    const scratch = { log: new Float64Array(largest / 2 + 1), half: new Float64Array(largest + 2), into: new Float64Array(largest), work: new Float64Array(largest) };
     this.scales.forEach((s, i) => {
       const c = cepstra[i];
       if (!c) return;
       const scorer = new CepstrumScorer(c, s.lagLo, s.lagHi);
       if (scorer.hi <= scorer.lo) return;
-      const halves = ([0, 1] as const).map((h) => {
-        const m = s.accumulator.halfMeanLogSpectrum(h);
-        return m ? cepstrumOf(this.#filled(m, i), sharedPlan(s.fftSize)) : null;
-      });
       const found = scorer.candidates({ count: perScale + 3, exclude });
-      for (const p of found) {
-        const qi = Math.floor(p.quefrency);
-        const frac = p.quefrency - qi;
-        let zHalf = Infinity;
-        // One frame only (the long-delay scale on a file of a few seconds): there are no halves
-        // to compare, so the peak keeps its score and the frame-by-frame look (evidence.ts,
-        // with frames a few τ long) decides. Scoring it 0 hid a 148 ms / 0.9 reflection on a
-        // 3.9 s bass note behind the note's own 15.3 ms period.
-        if (!halves[0] || !halves[1]) zHalf = s.accumulator.frames <= 1 ? p.z / Math.SQRT2 : 0;
-        for (const hc of halves) {
-          if (!hc) continue;
+      // One frame only (the long-delay scale on a file of a few seconds): there are no halves
+      // to compare, so the peak keeps its score and the frame-by-frame look (evidence.ts,
+      // with frames a few τ long) decides. Scoring it 0 hid a 148 ms / 0.9 reflection on a
+      // 3.9 s bass note behind the note's own 15.3 ms period.
+      const bothHalves = s.accumulator.halfMeanLogSpectrum(0, scratch.log) !== null && s.accumulator.halfMeanLogSpectrum(1, scratch.log) !== null;
+      const zHalf = found.map((p) => (bothHalves ? Infinity : s.accumulator.frames <= 1 ? p.z / Math.SQRT2 : 0));
+      // The halves one after the other, in the same arrays (2^20-point cepstra at 384 kHz).
+      for (const which of [0, 1] as const) {
+        const m = s.accumulator.halfMeanLogSpectrum(which, scratch.log);
+        if (!m) continue;
+        const hc = cepstrumOf(this.#filled(m, i), sharedPlan(s.fftSize), scratch);
+        found.forEach((p, j) => {
+          const qi = Math.floor(p.quefrency);
+          const frac = p.quefrency - qi;
           // A scorer around the candidate only (its noise reference is local anyway).
           const h = new CepstrumScorer(hc, qi - 2 * CepstrumScorer.BLOCK, qi + 2 * CepstrumScorer.BLOCK);
           const a = h.amplitudeAt(qi, frac).amplitude;
-          zHalf = Math.min(zHalf, (Math.sign(p.amplitude) * a) / h.noiseAt(qi));
-        }
-        const z = Math.max(0, Math.min(p.z, Math.SQRT2 * zHalf));
-        out.push({ ...p, z, scale: i });
+          zHalf[j] = Math.min(zHalf[j]!, (Math.sign(p.amplitude) * a) / h.noiseAt(qi));
+        });
       }
+      found.forEach((p, j) => {
+        const z = Math.max(0, Math.min(p.z, Math.SQRT2 * zHalf[j]!));
+        out.push({ ...p, z, scale: i });
+      });
     });
     // Keep the best `perScale` of each scale after re-scoring.
     const kept: CoarseCandidate[] = [];

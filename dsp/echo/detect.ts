@@ -33,7 +33,8 @@ import { fitReflectionFilter } from './filter.ts';
 import { fitSingleEcho, releaseFitScratch } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { releaseSharedPlans } from '../core/fft.ts';
-import { mixBlock } from './mix.ts';
+import { reclaim } from '../core/reclaim.ts';
+import { MixScratch, mixBlock } from './mix.ts';
 import { PrintThroughCollector, refinePrintThrough, searchPrintThrough, type LagCandidate } from './print-through.ts';
 import { type Excerpt, MAX_CANCEL_GAIN, quietAndLoudGains, refineSingleEcho } from './refine.ts';
 
@@ -236,9 +237,10 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
 
   // --- Pass 1.
   let done = 0;
+  const mix = new MixScratch();
   for await (const block of source.blocks({ readOnly: true })) {
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-    const mono = mixBlock(block, channel);
+    const mono = mixBlock(block, channel, mix);
     coarse!.push(mono);
     for (let i = 0; i < mono.length; i++) {
       secondAcc += mono[i]! * mono[i]!;
@@ -260,6 +262,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   const all = coarse!.candidates(cepstra);
   const scaleSizes = coarse!.scales.map((s) => s.fftSize);
   coarse = null; // its frame buffers and windows (up to 44 MB) go before the refinement's transforms come
+  reclaim();
   const order = orderCandidates(all, fs);
   const measure = async (cand: CoarseCandidate): Promise<ReflectionResult> => {
     const first = fitSingleEcho(cepstra[cand.scale]!, scaleSizes[cand.scale]!, { delaySamples: cand.quefrency, gain: cand.amplitude }, { searchSamples: 1.5 });
@@ -275,6 +278,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       const decay = Math.log(1e-4) / Math.log(Math.max(0.05, Math.min(MAX_CANCEL_GAIN, Math.abs(gain))));
       const excerpt: Excerpt = { start, end, warmup: Math.min(start, Math.ceil(delay * Math.max(1, decay))) };
       let refined = await refineSingleEcho(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal });
+      reclaim();
       // Noise added after the reflection (hiss, hum) does not share the programme's echo: it is
       // echo-free in the original, and after a cancellation it carries the inverse echo instead.
       // That shows in the quiet frames (the floor); when their gain disagrees with the loud
@@ -304,7 +308,9 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
             reason: `a peak at ${ms} ms: under 1 ms a reflection cannot be told from the fixed colouring of the voice, instrument or microphone (the spectral envelope lives at those quefrencies)`,
           };
         } else {
+          reclaim();
           evidence = await frameEvidence(source, delay, gain, { channel, start: excerpt.start, end: excerpt.end, signal: options.signal });
+          reclaim();
           const unlocked = evidence.frames - evidence.locked;
           if (evidence.frames >= 5 && unlocked >= 4 && evidence.locked > 0.02 * evidence.frames) {
             // Measure again without the frames whose own period lands on τ.
@@ -405,6 +411,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   options.progress?.(0.75);
   releaseFitScratch(); // the reflection's transforms are done
   releaseSharedPlans(1 << 19); // and their plans (a 2^21-point one holds about 40 MB)
+  reclaim();
 
   // --- Print-through.
   let printThrough = noPrintThrough();
@@ -428,9 +435,10 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       fullRateCancel = filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 8);
       canceller = new EchoCanceller(filterKernel ?? reflectionKernel(reflection.delaySeconds * fs, reflection.gain, 4));
     }
-    for await (const block of source.blocks()) {
+    const mix = new MixScratch();
+    for await (const block of source.blocks({ reusable: true })) {
       if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-      const mono = mixBlock(block, channel);
+      const mono = mixBlock(block, channel, mix);
       pt.push(canceller ? canceller.process(mono, mono) : mono);
     }
     const stream = pt.stream();
@@ -454,6 +462,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         // Print-through is a faint copy of the loud passages in the quiet ones (about −40 to
         // −65 dB, highs reduced): the full-rate look must confirm the copy the coarse search saw,
         // at its lag and strength, in every band, and at a level a tape can print.
+        reclaim();
         const r = await refinePrintThrough(source, channel, lagSamples, found.masks, pt.factor, { signal: options.signal, cancel: fullRateCancel });
         const coarseDb = 20 * Math.log10(Math.max(1e-12, Math.abs(pick.gain)));
         if (!r || !(Math.abs(r.lagSamples - lagSamples) <= 1.5 * pt.factor) || !(r.gain !== 0)) {

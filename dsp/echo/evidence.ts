@@ -34,7 +34,7 @@ import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { echoCepstrumInto } from './fit.ts';
 import { singleEchoKernel } from './kernel.ts';
-import { mixBlock } from './mix.ts';
+import { MixScratch, mixBlock } from './mix.ts';
 
 /**
  * Detrended cepstrum value at quefrency q: with `signed` ±1 the extreme of that sign over ±w
@@ -338,9 +338,10 @@ export async function frameEvidence(
       }
     }
   };
-  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
+  const mix = new MixScratch();
+  for await (const block of source.blocks({ startFrame: start, endFrame: end, reusable: true })) {
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-    const mono = mixBlock(block, options.channel);
+    const mono = mixBlock(block, options.channel, mix);
     const needFrom = Math.min(nextFrame, nextPair);
     const drop = Math.max(0, Math.min(bufLen, needFrom - bufStart));
     if (drop > 0) {
@@ -358,7 +359,7 @@ export async function frameEvidence(
       bufX = biggerX;
     }
     buf.set(mono, bufLen);
-    if (canceller) bufX.set(canceller.process(mono, new Float64Array(mono.length)), bufLen);
+    if (canceller) canceller.process(mono, bufX.subarray(bufLen, bufLen + mono.length));
     bufLen += mono.length;
     analyse();
   }

@@ -63,10 +63,10 @@ export class LogSpectrumAccumulator {
   readonly hopSize: number;
   readonly frameStride: number;
   readonly #plan: FftPlan;
-  readonly #window: Float64Array;
-  readonly #buf: Float64Array;
-  readonly #frame: Float64Array;
-  readonly #spec: Float64Array;
+  #window: Float64Array;
+  #buf: Float64Array;
+  #frame: Float64Array;
+  #spec: Float64Array;
   readonly #sum: Float64Array;
   /** Sums over the even- and odd-numbered analysed frames (two independent halves). */
   readonly #halves: [Float64Array, Float64Array] | null;
@@ -114,12 +114,25 @@ export class LogSpectrumAccumulator {
     this.#powerSums = this.#gate && this.#gateSmooth > 1 ? new Float64Array(n / 2 + 2) : null;
   }
 
+  /**
+   * Lets the frame buffers and the window go (4 arrays of N numbers: 34 MB at 2^20 points) once
+   * the input has ended; the sums stay, so the means can still be read. push() after release()
+   * is an error.
+   */
+  release(): void {
+    const none = new Float64Array(0);
+    this.#window = this.#buf = this.#frame = this.#spec = none;
+    this.#released = true;
+  }
+  #released = false;
+
   /** Frames accumulated so far. */
   get frames(): number {
     return this.#frames;
   }
 
   push(samples: Float64Array): void {
+    if (this.#released) throw new Error('LogSpectrumAccumulator: push() after release()');
     const n = this.fftSize, hop = this.hopSize, buf = this.#buf;
     let i = 0;
     if (this.#consumed < this.#skip) {
@@ -225,11 +238,13 @@ export class LogSpectrumAccumulator {
   }
 
   /** Mean log power of the even (0) or odd (1) analysed frames, or null if not kept / empty. */
-  halfMeanLogSpectrum(which: 0 | 1): Float64Array | null {
+  halfMeanLogSpectrum(which: 0 | 1, into?: Float64Array): Float64Array | null {
     const h = this.#halves?.[which];
     const m = this.#halfFrames[which];
     if (!h || m === 0) return null;
-    return h.map((v) => v / m);
+    const out = into && into.length >= h.length ? into.subarray(0, h.length) : new Float64Array(h.length);
+    for (let k = 0; k < h.length; k++) out[k] = h[k]! / m;
+    return out;
   }
 
   /** Mean natural-log power per bin, k = 0…N/2 (a copy). */
@@ -293,14 +308,19 @@ export class LogSpectrumAccumulator {
  * c(q) = (1/N) Σ_k L_k e^{j2πkq/N}, q = 0…N−1. The log is of |X|², so a single echo of gain g
  * gives c(τ) ≈ g (twice the amplitude-cepstrum value g/2).
  */
-export function cepstrumOf(logSpectrum: Float64Array, plan: FftPlan): Float64Array {
+export function cepstrumOf(
+  logSpectrum: Float64Array,
+  plan: FftPlan,
+  scratch?: { into?: Float64Array; half?: Float64Array; work?: Float64Array },
+): Float64Array {
   const n = plan.size;
-  const half = plan.createHalfSpectrum();
+  // Optional caller's arrays (at least N+2, N and N numbers): the same numbers, no new ones.
+  const half = scratch?.half && scratch.half.length >= n + 2 ? scratch.half.subarray(0, n + 2) : plan.createHalfSpectrum();
   for (let k = 0; k <= n / 2; k++) {
     half[2 * k] = logSpectrum[k]!;
     half[2 * k + 1] = 0;
   }
-  const c = new Float64Array(n);
-  plan.realInverse(half, c);
+  const c = scratch?.into && scratch.into.length >= n ? scratch.into.subarray(0, n) : new Float64Array(n);
+  plan.realInverse(half, c, scratch?.work && scratch.work.length >= n ? scratch.work : undefined);
   return c;
 }

@@ -29,7 +29,7 @@ import type { AudioSource } from '../source.ts';
 import { EchoCanceller } from './canceller.ts';
 import { Decimator } from '../core/decimate.ts';
 import type { EchoKernel } from './kernel.ts';
-import { mixBlock } from './mix.ts';
+import { MixScratch, mixBlock } from './mix.ts';
 import { robustSigma } from './search.ts';
 
 /**
@@ -365,9 +365,10 @@ export async function refinePrintThrough(
     }
     void final;
   };
-  for await (const block of source.blocks()) {
+  const mix = new MixScratch();
+  for await (const block of source.blocks({ reusable: true })) {
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-    const mono = mixBlock(block, channel);
+    const mono = mixBlock(block, channel, mix);
     if (canceller) canceller.process(mono, mono);
     // Drop what no future frame needs.
     const keepFrom = Math.min(pos, pos + t0);

@@ -26,7 +26,7 @@ import { EchoCanceller } from './canceller.ts';
 import { type FitResult, fitSingleEcho, fitWindows, scratchFor, undoCancellationCepstrum } from './fit.ts';
 import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
-import { mixBlock } from './mix.ts';
+import { MixScratch, mixBlock } from './mix.ts';
 import { pitchLocked } from './evidence.ts';
 
 export interface Excerpt {
@@ -78,9 +78,10 @@ export async function quietFrames(source: AudioSource, options: Pick<RefineOptio
   // only ranks frames by level).
   const pieces = new Float64Array(count + 1);
   let at = 0;
-  for await (const block of source.blocks({ startFrame: start, endFrame: Math.min(end, start + (count + 1) * hop) })) {
+  const mix = new MixScratch();
+  for await (const block of source.blocks({ startFrame: start, endFrame: Math.min(end, start + (count + 1) * hop), reusable: true })) {
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-    const mono = mixBlock(block, options.channel);
+    const mono = mixBlock(block, options.channel, mix);
     for (let i = 0; i < mono.length; i++, at++) {
       const j = Math.floor(at / hop);
       if (j <= count) pieces[j]! += mono[i]! * mono[i]!;
@@ -157,9 +158,10 @@ export async function cancelledCepstrum(
     if (work) work.samples = buf;
     whole = buf;
     let at = -(start - from);
-    for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
+    const mix = new MixScratch();
+    for await (const block of source.blocks({ startFrame: from, endFrame: end, reusable: true })) {
       if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-      const mono = mixBlock(block, options.channel);
+      const mono = mixBlock(block, options.channel, mix);
       if (canceller) canceller.process(mono, mono);
       for (let i = 0; i < mono.length; i++, at++) if (at >= 0 && at < n) buf[at] = mono[i]!;
     }
@@ -220,9 +222,10 @@ export async function cancelledCepstrum(
           : undefined,
       });
       const cancel = kernel ? new EchoCanceller(kernel) : null;
-      for await (const block of source.blocks({ startFrame: from, endFrame: end })) {
+      const mix = new MixScratch();
+      for await (const block of source.blocks({ startFrame: from, endFrame: end, reusable: true })) {
         if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-        const mono = mixBlock(block, options.channel);
+        const mono = mixBlock(block, options.channel, mix);
         if (cancel) cancel.process(mono, mono);
         acc.push(mono);
       }
@@ -339,9 +342,10 @@ export async function levelGate(source: AudioSource, framing: Framing, options: 
   const { start, end } = options.excerpt;
   const n = framing.fftSize;
   const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2, collectLevels: true });
-  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
+  const mix = new MixScratch();
+  for await (const block of source.blocks({ startFrame: start, endFrame: end, reusable: true })) {
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-    acc.push(mixBlock(block, options.channel));
+    acc.push(mixBlock(block, options.channel, mix));
   }
   return acc.noiseGate();
 }
@@ -470,9 +474,10 @@ async function deadBinGate(source: AudioSource, framing: Framing, options: Refin
   const { start, end } = options.excerpt;
   const n = framing.fftSize;
   const acc = new LogSpectrumAccumulator({ fftSize: n, hopSize: n / 2 });
-  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
+  const mix = new MixScratch();
+  for await (const block of source.blocks({ startFrame: start, endFrame: end, reusable: true })) {
     if (options.signal?.aborted) throw new CancelledError('echo analysis cancelled');
-    acc.push(mixBlock(block, options.channel));
+    acc.push(mixBlock(block, options.channel, mix));
   }
   return acc.frames ? deadBins(acc.meanLogSpectrum()) : null;
 }
@@ -511,8 +516,9 @@ export async function quietAndLoudGains(
   let acc = 0, filled = 0;
   const ring = new Float64Array(n);
   let pos = 0;
-  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
-    const mono = mixBlock(block, options.channel);
+  const mix = new MixScratch();
+  for await (const block of source.blocks({ startFrame: start, endFrame: end, reusable: true })) {
+    const mono = mixBlock(block, options.channel, mix);
     for (let i = 0; i < mono.length; i++) {
       ring[pos] = mono[i]! * mono[i]!;
       pos = (pos + 1) % n;
@@ -538,8 +544,8 @@ export async function quietAndLoudGains(
   };
   const quiet = new LogSpectrumAccumulator({ fftSize: n, hopSize: hop, accept: (l) => frameEnergy(l) <= quietMax * 1.2 });
   const loud = new LogSpectrumAccumulator({ fftSize: n, hopSize: hop, accept: (l) => frameEnergy(l) >= loudMin * 0.8 });
-  for await (const block of source.blocks({ startFrame: start, endFrame: end })) {
-    const mono = mixBlock(block, options.channel);
+  for await (const block of source.blocks({ startFrame: start, endFrame: end, reusable: true })) {
+    const mono = mixBlock(block, options.channel, mix);
     quiet.push(mono);
     loud.push(mono);
   }

@@ -209,11 +209,12 @@ export class CepstrumScorer {
     const nb = this.#blockNoise.length;
     const b = Math.max(0, Math.min(nb - 1, Math.floor((q - this.lo) / CepstrumScorer.BLOCK)));
     const bn = this.#blockNoise;
-    const three = [bn[Math.max(0, b - 1)]!, bn[b]!, bn[Math.min(nb - 1, b + 1)]!].sort((x, y) => x - y);
-    const blocky = Math.max(three[1]!, bn[b]!);
+    const x = bn[Math.max(0, b - 1)]!, y = bn[b]!, z = bn[Math.min(nb - 1, b + 1)]!;
+    const median = Math.max(Math.min(x, y), Math.min(Math.max(x, y), z));
+    const blocky = Math.max(median, y);
     let s2 = 0, cnt = 0;
     for (let d = CepstrumScorer.NEAR_LO; d <= CepstrumScorer.NEAR_HI; d++) {
-      for (const p of [q - d, q + d]) {
+      for (let p = q - d; p <= q + d; p += 2 * d) {
         if (p >= this.#eLo && p <= this.#eHi) {
           s2 += this.#ref[p - this.#eLo]! ** 2;
           cnt++;
@@ -265,21 +266,31 @@ export class CepstrumScorer {
 
   /** The best peaks in [lo, hi], best first, at least `separation` apart, periodic ones left out. */
   candidates(options: SearchOptions = {}): CepstralPeak[] {
-    const scores: Array<{ q: number; s: number; a: number; noise: number }> = [];
+    // Scores in typed arrays (10^5 quefrencies and more at high rates), ranked by an index
+    // sort with ties in quefrency order (as a stable sort of the scores would leave them).
+    const span = Math.max(0, this.hi - this.lo + 1);
+    const qs = new Int32Array(span), ss = new Float64Array(span), noises = new Float64Array(span);
+    let m = 0;
     for (let q = this.lo; q <= this.hi; q++) {
       if (options.exclude?.some(([a, b]) => q >= a && q <= b)) continue;
       const noise = this.noiseAt(q);
-      const { amplitude, fraction } = this.amplitudeAt(q);
-      scores.push({ q: q + fraction, s: Math.abs(this.#bestOut[q - this.#eLo]!) / noise, a: amplitude, noise });
+      qs[m] = q;
+      ss[m] = Math.abs(this.#bestOut[q - this.#eLo]!) / noise;
+      noises[m] = noise;
+      m++;
     }
-    scores.sort((x, y) => y.s - x.s);
+    const order = new Uint32Array(m);
+    for (let i = 0; i < m; i++) order[i] = i;
+    order.sort((x, y) => ss[y]! - ss[x]! || x - y);
     const out: CepstralPeak[] = [];
     const sep = options.separation ?? 3;
-    for (const sc of scores) {
+    for (const i of order) {
       if (out.length >= (options.count ?? 1)) break;
-      if (out.some((p) => Math.abs(p.quefrency - sc.q) < sep)) continue;
-      if (this.periodicAt(sc.q, sc.a)) continue;
-      out.push({ quefrency: sc.q, amplitude: sc.a, z: sc.s, noise: sc.noise });
+      const { amplitude, fraction } = this.amplitudeAt(qs[i]!);
+      const q = qs[i]! + fraction;
+      if (out.some((p) => Math.abs(p.quefrency - q) < sep)) continue;
+      if (this.periodicAt(q, amplitude)) continue;
+      out.push({ quefrency: q, amplitude, z: ss[i]!, noise: noises[i]! });
     }
     return out;
   }

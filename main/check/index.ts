@@ -190,7 +190,7 @@ async function runJobs(
       const take = () => {
         if (next >= jobs.length) {
           finished = true;
-          stopping.push(w.terminate());
+          stopping.push(w.stop());
           if (--running === 0) resolve();
           return;
         }

@@ -55,6 +55,19 @@ export class CheckThread extends EventEmitter {
     if (this.#child.connected) this.#child.send(m);
   }
 
+  /**
+   * Asks an idle process to end (it disconnects and exits normally, so its exit handlers run),
+   * and stops it at once after `graceMs` if it has not; resolves when it has gone.
+   */
+  async stop(graceMs = 2000): Promise<void> {
+    if (this.#child.exitCode !== null || this.#child.signalCode !== null) return this.#exited;
+    this.postMessage({ type: 'stop' });
+    let timer: ReturnType<typeof setTimeout> | undefined;
+    await Promise.race([this.#exited, new Promise<void>((r) => (timer = setTimeout(r, graceMs)))]);
+    clearTimeout(timer);
+    await this.terminate();
+  }
+
   /** Stops the process at once (a job in progress is dropped) and resolves when it has gone. */
   async terminate(): Promise<void> {
     if (this.#child.exitCode === null && this.#child.signalCode === null) this.#child.kill('SIGKILL');

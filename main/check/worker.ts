@@ -10,6 +10,7 @@
  */
 import { checkFile, type CheckJob } from './check-file.ts';
 import { openAudio } from '../io/reader.ts';
+import { installReclaim } from '../io/reclaim.ts';
 
 export type ToWorker = { type: 'job'; id: number; job: CheckJob } | { type: 'stop' };
 export type FromWorker =
@@ -21,6 +22,7 @@ if (!process.send) throw new Error('worker.ts runs as a check process started by
 const send = (m: FromWorker) => {
   if (process.connected) process.send!(m);
 };
+installReclaim();
 process.on('SIGINT', () => {});
 process.on('SIGTERM', () => {});
 process.on('disconnect', () => process.exit(0));

@@ -18,6 +18,7 @@ import { humanize, Progress, toJson } from './output.ts';
 import { interruption, whileWriting } from './interrupt.ts';
 import { InternalFailure, WarningHold } from './failures.ts';
 import { io, paramsFromFlags, reportError, suggestionCommand } from './shared.ts';
+import { installReclaim } from '../io/reclaim.ts';
 
 export { io, paramsFromFlags, reportError, suggestionCommand } from './shared.ts';
 
@@ -43,6 +44,7 @@ const BUILTINS: Record<string, { summary: string; run: Builtin }> = {
 const warnings = new WarningHold((m) => io.err(`warning: ${m}`));
 
 export async function main(argv: string[]): Promise<number> {
+  installReclaim();
   const [verb, ...rest] = argv;
   if (!verb || verb === '--help' || verb === '-h' || verb === 'help') {
     io.out(generalHelp());

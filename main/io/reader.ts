@@ -74,6 +74,10 @@ class PcmFileAudio implements OpenedAudio {
     const channels = this.channelCount;
     const buf = new Uint8Array(Math.min(size, Math.max(1, end - start)) * blockAlign);
     let bad = 0;
+    // With `reusable`, one set of arrays serves every block (shorter views for the last one).
+    const kept: Float64Array[] | null = options.reusable
+      ? Array.from({ length: channels }, () => new Float64Array(Math.min(size, Math.max(1, end - start))))
+      : null;
     const readBlock = (lo: number, hi: number): Block => {
       const n = hi - lo;
       const bytes = n * blockAlign;
@@ -86,7 +90,7 @@ class PcmFileAudio implements OpenedAudio {
         );
       }
       const out: Float64Array[] = [];
-      for (let c = 0; c < channels; c++) out.push(new Float64Array(n));
+      for (let c = 0; c < channels; c++) out.push(kept ? (kept[c]!.length === n ? kept[c]! : kept[c]!.subarray(0, n)) : new Float64Array(n));
       bad += decodeSamples(buf, 0, encoding, channels, n, out, 0);
       return out;
     };
