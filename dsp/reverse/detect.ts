@@ -118,11 +118,13 @@ export interface ReversedChannel {
   readonly rampBandSpread?: number;
   /** Which rule decided, or why nothing did. */
   readonly basis?: ReversedBasis;
+  /** For basis 'mirrors-channel': the 1-based channel whose level envelope this one's mirrors in time. */
+  readonly mirrorOf?: number;
   /** Calibrated on the real-material corpus; 0 when not determined. */
   readonly confidence?: number;
 }
 
-export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
+export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'mirrors-channel' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
 
 export interface ReversedResult {
   readonly channels: ReversedChannel[];
@@ -154,6 +156,11 @@ const RELEASE_DB = 12;
  * in every band) 0.4–4 — those are a fade, and one fade with one cut stays not determined.
  */
 const RAMP_BAND_SPREAD = 6;
+/** Mirrored channels (decideMirroredPairs): correlation against the other played backwards, margin over forwards, lags tried, band skew. */
+const MIRROR_MIN_CORRELATION = 0.85;
+const MIRROR_MIN_MARGIN = 0.5;
+const MIRROR_LAG_BLOCKS = 2;
+const MIRROR_BAND_SKEW = 0.45;
 
 /**
  * Per-channel block power envelope, grown as the source streams past. Sized for the source's
@@ -489,9 +496,83 @@ export async function detectReversedChannels(source: AudioSource, onProgress?: (
     onProgress?.(done / Math.max(1, source.frames));
   }
   const blockSeconds = blockFrames / source.sampleRateHz;
-  return {
-    channels: envs.map((env, c) => {
-      return { channel: c + 1, ...judgeEnvelope(env.values, blockSeconds, bandEnvs[c]!.levels()) };
-    }),
-  };
+  const channels: ReversedChannel[] = envs.map((env, c) => ({ channel: c + 1, ...judgeEnvelope(env.values, blockSeconds, bandEnvs[c]!.levels()) }));
+  return { channels: decideMirroredPairs(channels, envs.map((e) => e.values)) };
+}
+
+/**
+ * Pearson correlation of two channels' level envelopes (dB, floored as in asymmetryScore), block t
+ * of `a` against block t + lag of `b` — or, `mirrored`, against block n − 1 − t + lag of `b` — over
+ * the blocks where either is within 35 dB of its peak; the best over lags −2 … 2 (a reversal of a
+ * length that is not a whole number of blocks shifts the blocks by up to one). 0 with fewer than 30
+ * such blocks.
+ */
+export function envelopeCorrelation(a: Float32Array, b: Float32Array, mirrored: boolean): number {
+  const da = floorDb(a), db = floorDb(b);
+  const n = db.length;
+  let best = -1;
+  for (let lag = -MIRROR_LAG_BLOCKS; lag <= MIRROR_LAG_BLOCKS; lag++) {
+    let m = 0, sa = 0, sb = 0, saa = 0, sbb = 0, sab = 0;
+    for (let t = 0; t < da.length; t++) {
+      const k = mirrored ? n - 1 - t + lag : t + lag;
+      if (k < 0 || k >= n) continue;
+      const x = da[t]!, y = db[k]!;
+      if (Math.max(x, y) < -ACTIVE_DB) continue;
+      m++;
+      sa += x; sb += y; saa += x * x; sbb += y * y; sab += x * y;
+    }
+    if (m < 30) continue;
+    const cov = sab / m - (sa / m) * (sb / m), va = saa / m - (sa / m) ** 2, vb = sbb / m - (sb / m) ** 2;
+    if (va > 0 && vb > 0) best = Math.max(best, cov / Math.sqrt(va * vb));
+  }
+  return Math.max(0, best);
+}
+
+/** Block powers in dB relative to their robust peak (99th percentile), floored 60 dB down. */
+function floorDb(power: Float32Array): Float64Array {
+  const n = power.length;
+  const db = new Float64Array(n);
+  for (let i = 0; i < n; i++) db[i] = powerToDb(power[i]! + 1e-30);
+  if (n === 0) return db;
+  const peak = Float64Array.from(db).sort()[Math.min(n - 1, Math.floor(0.99 * (n - 1)))]!;
+  for (let i = 0; i < n; i++) db[i] = Math.max(db[i]! - peak, -FLOOR_DB);
+  return db;
+}
+
+/** Leans towards "reversed" (sign +1) or "forward" (−1) on the broadband and the band cues together. */
+function leans(c: ReversedChannel, sign: 1 | -1): boolean {
+  const s = sign * (c.skew ?? 0), sb = sign * (c.bandSkew ?? 0);
+  // bandsAgreeing is the share leaning the reported way, towards reversed when not determined
+  // (1 − that share counts the bands leaning forward and those with no lean at all).
+  const share = sign === 1 || c.likely === false ? (c.bandsAgreeing ?? 0) : 1 - (c.bandsAgreeing ?? 1);
+  const [stops, starts] = sign === 1 ? [c.abruptStops, c.abruptStarts] : [c.abruptStarts, c.abruptStops];
+  return s >= REVERSED_SCORE_THRESHOLD && sb >= MIRROR_BAND_SKEW && share >= 0.9 && (c.bands ?? 0) >= 3 && stops > starts;
+}
+
+/**
+ * Two channels whose level envelopes are each other's mirror image in time (correlation ≥ 0.85
+ * against the other played backwards, at least 0.5 more than forwards) carry the same programme,
+ * one of them backwards: stereo programme played forwards has its channels' envelopes in step
+ * (on the corpus the mirrored correlation exceeded the forward one by at most −0.02, a clip of
+ * chords that reads almost the same both ways, whose forward correlation was 1). Which one is
+ * reversed is then the one question left, and each channel's own lean answers it twice over:
+ * when one leans reversed and the other forward on both the broadband and the band cues (≥ 90 %
+ * of the bands), the first plays backwards and the second forwards. Decides only channels left
+ * undetermined by their own evidence.
+ */
+export function decideMirroredPairs(channels: readonly ReversedChannel[], power: readonly Float32Array[]): ReversedChannel[] {
+  const out = channels.slice();
+  for (let i = 0; i < out.length; i++) {
+    for (let j = 0; j < out.length; j++) {
+      if (i === j) continue;
+      const back = out[i]!, fwd = out[j]!;
+      if (back.likely !== null || fwd.likely === true || !leans(back, 1) || !leans(fwd, -1)) continue;
+      const mirrored = envelopeCorrelation(power[i]!, power[j]!, true);
+      if (mirrored < MIRROR_MIN_CORRELATION) continue;
+      if (mirrored - envelopeCorrelation(power[i]!, power[j]!, false) < MIRROR_MIN_MARGIN) continue;
+      out[i] = { ...back, likely: true, score: back.skew ?? back.score, basis: 'mirrors-channel', mirrorOf: fwd.channel, confidence: 0.8 };
+      if (fwd.likely === null) out[j] = { ...fwd, likely: false, score: fwd.skew ?? fwd.score, basis: 'mirrors-channel', mirrorOf: back.channel, bandsAgreeing: 1 - (fwd.bandsAgreeing ?? 1), confidence: 0.8 };
+    }
+  }
+  return out;
 }
