@@ -62,6 +62,17 @@
  *    reversed a forward excerpt faded in and cut off (every band fades in and cuts off once),
  *    which is what a reversed held note or a reversed legato chord sequence with a single cut
  *    looks like too — those stay "not determined".
+ *  - staggered edges (when none of the above decided): S ≥ 0.3, no hard start, at least 2 hard stops
+ *    staggered across the bands (bands.ts edgeStagger: in the 40–120 ms before the stop 3 or more
+ *    bands, a quarter of those sounding, fall away by 12 dB while 2 or more hold) and the band skew
+ *    agreeing (Sb ≥ 0.45, ≥ 90 % of ≥ 3 bands). A natural attack reaches its partials at different
+ *    moments (an organ's low partials speak late); a gain, a gate or an editor's cut moves every
+ *    band at once. Reversed held organ notes: each a swell from silence (the release, a gain), the
+ *    note, and the attack read backwards. On the corpus no forward channel without hard starts had
+ *    two staggered stops, and no excerpt faded in and cut off (1323 channels) was decided by this
+ *    rule; one cut alone, staggered or not, stays not determined (the cut of a faded-in cello or
+ *    violin melody excerpt is staggered when the excerpt ends just after a note change);
+ *  - one channel the mirror of another (decideMirroredPairs, after the channels were judged): see there.
  * Otherwise not determined. Sustained sampled notes and chords played backwards (organ, bowed
  * strings, choir, brass, pads: one swell from silence, the held sound, one cut) stay not
  * determined: measured on the corpus, the held part between the fade and the cut is the same
@@ -82,7 +93,7 @@
 import { powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
-import { BandEnvelopes, bandAsymmetry, bandDb, bandHeterogeneity, segmentAgreement, type BandAsymmetry, type BandDb } from './bands.ts';
+import { BandEnvelopes, bandAsymmetry, bandDb, bandHeterogeneity, edgeStagger, segmentAgreement, type BandAsymmetry, type BandDb } from './bands.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
@@ -101,6 +112,9 @@ export interface ReversedChannel {
   readonly abruptStops: number;
   /** Swells into hard stops (free decays backwards) and decays after hard starts (forwards). */
   readonly swellsIntoStops?: number;
+  /** Hard edges staggered across the bands (bands.ts edgeStagger), as a natural attack is, and played backwards. */
+  readonly staggeredStarts?: number;
+  readonly staggeredStops?: number;
   /** Gated notes (a hard start and a hard stop with the level held between), left out of the counts. */
   readonly gatedNotes?: number;
   readonly decaysAfterStarts?: number;
@@ -124,7 +138,7 @@ export interface ReversedChannel {
   readonly confidence?: number;
 }
 
-export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'mirrors-channel' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
+export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'staggered-edges' | 'mirrors-channel' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
 
 export interface ReversedResult {
   readonly channels: ReversedChannel[];
@@ -238,6 +252,8 @@ export interface Asymmetry {
   readonly decays: readonly Ramp[];
   /** t statistic of the 1 s segment scores (0 when fewer than 3 segments). */
   readonly segmentT: number;
+  /** The hard edges themselves: block `at` (the edge spans blocks at … at + 2) and whether it is a start. */
+  readonly edges: readonly { readonly at: number; readonly up: boolean }[];
 }
 
 function skewOf(db: Float64Array, from: number, to: number, active: number): { up: number; down: number; n: number; rises: number; falls: number } {
@@ -302,7 +318,7 @@ function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp
 /** Every cue of one block-power envelope (see the module comment). */
 export function asymmetryScore(power: Float32Array): Asymmetry {
   const n = power.length;
-  const none = { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0, hardStarts: 0, hardStops: 0, openStarts: 0, openStops: 0, gatedNotes: 0, swells: [], decays: [], segmentT: 0 };
+  const none = { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0, hardStarts: 0, hardStops: 0, openStarts: 0, openStops: 0, gatedNotes: 0, swells: [], decays: [], segmentT: 0, edges: [] };
   if (n < 2) return none;
   const db = new Float64Array(n);
   for (let i = 0; i < n; i++) db[i] = powerToDb(power[i]! + 1e-30);
@@ -372,7 +388,7 @@ export function asymmetryScore(power: Float32Array): Asymmetry {
       if (r) swells.push(r);
     }
   }
-  return { score, activeBlocks: all.n, largeRises: all.rises, largeFalls: all.falls, hardStarts, hardStops, openStarts, openStops, gatedNotes, swells, decays, segmentT };
+  return { score, activeBlocks: all.n, largeRises: all.rises, largeFalls: all.falls, hardStarts, hardStops, openStarts, openStops, gatedNotes, swells, decays, segmentT, edges };
 }
 
 export interface Verdict {
@@ -412,8 +428,13 @@ function bandsWin(s: number, bandSkew: number, bandMedian: number, share: number
   return s >= REVERSED_SCORE_THRESHOLD && stops >= 3 && stops > starts && bandSkew >= 0.45 && bandMedian >= 0.5 && bands >= 3 && share >= 0.9;
 }
 
+/** The staggered-edge rule for "reversed" (see the module comment); called mirrored for "forward". */
+function staggerWin(s: number, bandSkew: number, share: number, bands: number, staggeredStops: number, starts: number): boolean {
+  return s >= REVERSED_SCORE_THRESHOLD && starts === 0 && staggeredStops >= 2 && bandSkew >= 0.45 && bands >= 3 && share >= 0.9;
+}
+
 /** The decision for one channel from its cues (see the module comment). */
-export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry, moves?: (r: Ramp) => boolean): Verdict {
+export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry, moves?: (r: Ramp) => boolean, staggered?: { starts: number; stops: number }): Verdict {
   if (activeSeconds < REVERSED_MIN_ACTIVE_SECONDS) return { likely: null, basis: 'too-little-sound', confidence: 0 };
   const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.openStops, a.openStarts, a.swells, a.decays, moves);
   if (back && 'basis' in back) return { likely: true, ...back };
@@ -421,6 +442,8 @@ export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsym
   if (fwd && 'basis' in fwd) return { likely: false, ...fwd };
   if (b && bandsWin(a.score, b.score, b.bandMedian, b.positiveShare, b.bands, a.hardStops, a.hardStarts)) return { likely: true, basis: 'bands-agree', confidence: 0.7 };
   if (b && bandsWin(-a.score, -b.score, -b.bandMedian, b.negativeShare, b.bands, a.hardStarts, a.hardStops)) return { likely: false, basis: 'bands-agree', confidence: 0.7 };
+  if (b && staggered && staggerWin(a.score, b.score, b.positiveShare, b.bands, staggered.stops, a.hardStarts)) return { likely: true, basis: 'staggered-edges', confidence: 0.7 };
+  if (b && staggered && staggerWin(-a.score, -b.score, b.negativeShare, b.bands, staggered.starts, a.hardStops)) return { likely: false, basis: 'staggered-edges', confidence: 0.7 };
   const basis: ReversedBasis =
     a.hardStarts + a.hardStops === 0 ? 'no-hard-edges' : back || fwd ? 'fade-like' : Math.abs(a.score) >= REVERSED_SCORE_THRESHOLD ? 'cues-disagree' : 'thin';
   return { likely: null, basis, confidence: 0 };
@@ -458,7 +481,10 @@ export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK
     if (q === undefined) spreads.set(r, (q = rampBandSpread(bd, r)));
     return q;
   };
-  const v = judgeDirection(a, activeSeconds, bands, (r) => spread(r) >= RAMP_BAND_SPREAD);
+  // Hard edges whose bands cross them at different moments, as a natural attack's do.
+  let staggeredStarts = 0, staggeredStops = 0;
+  if (bd) for (const e of a.edges) if (edgeStagger(bd, e.at, e.up)) e.up ? staggeredStarts++ : staggeredStops++;
+  const v = judgeDirection(a, activeSeconds, bands, (r) => spread(r) >= RAMP_BAND_SPREAD, bd ? { starts: staggeredStarts, stops: staggeredStops } : undefined);
   const weighed = [...spreads.values()];
   return {
     likely: v.likely,
@@ -468,6 +494,8 @@ export function judgeEnvelope(power: Float32Array, blockSeconds = REVERSED_BLOCK
     abruptStarts: a.hardStarts,
     abruptStops: a.hardStops,
     swellsIntoStops: a.swells.length,
+    staggeredStarts,
+    staggeredStops,
     gatedNotes: a.gatedNotes,
     decaysAfterStarts: a.decays.length,
     segmentAgreement: a.segmentT,
