@@ -8,6 +8,7 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { loadCorpus, type CorpusClip } from '../corpus/index.ts';
 import { openAudio } from '../../main/io/reader.ts';
 import { MemorySource, readAll } from '../../dsp/source.ts';
+import { reversed } from '../../dsp/ops/reversed.ts';
 import { REVERSED_BLOCK_SECONDS, REVERSED_SCORE_THRESHOLD, detectReversedChannels, envelopeCorrelation, type ReversedChannel } from '../../dsp/reverse/detect.ts';
 
 interface Loaded {
@@ -108,6 +109,11 @@ describe('reversed channels on real recordings', () => {
       const second = await judge([l!, flip(r!)], sampleRateHz);
       console.log('[reversed] ' + line(id + ' right reversed', second[0]!) + '; ' + line('', second[1]!));
       expect(second.map((c) => [c.likely, c.basis, c.mirrorOf])).toEqual([[false, 'mirrors-channel', 2], [true, 'mirrors-channel', 1]]);
+      // The finding names the channel, says why, and offers to reverse that channel only.
+      const res = await detectReversedChannels(new MemorySource([l!, flip(r!)], sampleRateHz));
+      const warn = reversed.findings!(res, { sampleRateHz, channelCount: 2, frames: l!.length }).filter((f) => f.severity === 'warn');
+      expect(warn.map((f) => [f.title, f.suggestion])).toEqual([['Channel 2 plays backwards', { op: 'reverse', params: { channels: [2] } }]]);
+      expect(warn[0]!.sentence).toMatch(/follows channel 1 played backwards/);
       const first = await judge([flip(l!), r!], sampleRateHz);
       expect(first.map((c) => [c.likely, c.basis])).toEqual([[true, 'mirrors-channel'], [false, 'mirrors-channel']]);
       // The envelopes: in step forwards (the recording's two channels), mirrored after one reversal.

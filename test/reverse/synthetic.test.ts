@@ -168,6 +168,10 @@ describe('reversed detection on synthetic references', () => {
     console.log('[reversed] ' + [line('staggered notes', f), line('backwards', b), line('gated notes', gf), line('backwards', gb)].join('\n  '));
     expect([f.likely, f.basis, f.staggeredStarts]).toEqual([false, 'staggered-edges', 2]);
     expect([b.likely, b.basis, b.staggeredStops]).toEqual([true, 'staggered-edges', 2]);
+    const res = await detectReversedChannels(new MemorySource([flip(staggered)], FS));
+    const warn = reversed.findings!(res, { sampleRateHz: FS, channelCount: 1, frames: staggered.length });
+    expect(warn.map((w) => [w.severity, w.title])).toEqual([['warn', 'Channel 1 plays backwards']]);
+    expect(warn[0]!.sentence).toMatch(/bands drop out one after another/);
     expect(gf.staggeredStarts).toBe(0);
     expect(gb.staggeredStops).toBe(0);
     expect(gb.likely).not.toBe(true);
