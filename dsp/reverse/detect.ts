@@ -175,6 +175,7 @@ const MIRROR_MIN_CORRELATION = 0.85;
 const MIRROR_MIN_MARGIN = 0.5;
 const MIRROR_LAG_BLOCKS = 2;
 const MIRROR_BAND_SKEW = 0.45;
+const MIRROR_MAX_PAIRS = 16;
 
 /**
  * Per-channel block power envelope, grown as the source streams past. Sized for the source's
@@ -536,15 +537,17 @@ export async function detectReversedChannels(source: AudioSource, onProgress?: (
  * such blocks.
  */
 export function envelopeCorrelation(a: Float32Array, b: Float32Array, mirrored: boolean): number {
-  const da = floorDb(a), db = floorDb(b);
-  const n = db.length;
+  // dB computed block by block (no whole-envelope copies beyond the peak's sort).
+  const pa = robustPeakDb(a), pb = robustPeakDb(b);
+  const level = (p: number, peak: number) => Math.max(powerToDb(p + 1e-30) - peak, -FLOOR_DB);
+  const n = b.length;
   let best = -1;
   for (let lag = -MIRROR_LAG_BLOCKS; lag <= MIRROR_LAG_BLOCKS; lag++) {
     let m = 0, sa = 0, sb = 0, saa = 0, sbb = 0, sab = 0;
-    for (let t = 0; t < da.length; t++) {
+    for (let t = 0; t < a.length; t++) {
       const k = mirrored ? n - 1 - t + lag : t + lag;
       if (k < 0 || k >= n) continue;
-      const x = da[t]!, y = db[k]!;
+      const x = level(a[t]!, pa), y = level(b[k]!, pb);
       if (Math.max(x, y) < -ACTIVE_DB) continue;
       m++;
       sa += x; sb += y; saa += x * x; sbb += y * y; sab += x * y;
@@ -556,15 +559,12 @@ export function envelopeCorrelation(a: Float32Array, b: Float32Array, mirrored: 
   return Math.max(0, best);
 }
 
-/** Block powers in dB relative to their robust peak (99th percentile), floored 60 dB down. */
-function floorDb(power: Float32Array): Float64Array {
+/** The robust peak (99th percentile) of block powers, in dB, as asymmetryScore takes it. */
+function robustPeakDb(power: Float32Array): number {
   const n = power.length;
-  const db = new Float64Array(n);
-  for (let i = 0; i < n; i++) db[i] = powerToDb(power[i]! + 1e-30);
-  if (n === 0) return db;
-  const peak = Float64Array.from(db).sort()[Math.min(n - 1, Math.floor(0.99 * (n - 1)))]!;
-  for (let i = 0; i < n; i++) db[i] = Math.max(db[i]! - peak, -FLOOR_DB);
-  return db;
+  if (n === 0) return 0;
+  const sorted = Float32Array.from(power).sort();
+  return powerToDb(sorted[Math.min(n - 1, Math.floor(0.99 * (n - 1)))]! + 1e-30);
 }
 
 /** Leans towards "reversed" (sign +1) or "forward" (−1) on the broadband and the band cues together. */
@@ -590,11 +590,14 @@ function leans(c: ReversedChannel, sign: 1 | -1): boolean {
  */
 export function decideMirroredPairs(channels: readonly ReversedChannel[], power: readonly Float32Array[]): ReversedChannel[] {
   const out = channels.slice();
+  // Bounded work on many-channel files: at most MIRROR_MAX_PAIRS pairs are compared.
+  let compared = 0;
   for (let i = 0; i < out.length; i++) {
     for (let j = 0; j < out.length; j++) {
       if (i === j) continue;
       const back = out[i]!, fwd = out[j]!;
       if (back.likely !== null || fwd.likely === true || !leans(back, 1) || !leans(fwd, -1)) continue;
+      if (compared++ >= MIRROR_MAX_PAIRS) return out;
       const mirrored = envelopeCorrelation(power[i]!, power[j]!, true);
       if (mirrored < MIRROR_MIN_CORRELATION) continue;
       if (mirrored - envelopeCorrelation(power[i]!, power[j]!, false) < MIRROR_MIN_MARGIN) continue;
