@@ -37,6 +37,10 @@ export const reversed: AnalysisOp<ReversedResult> = {
           (ch.gatedNotes ? `, leaving out ${ch.gatedNotes} note${ch.gatedNotes === 1 ? '' : 's'} that start and stop abruptly` : '')
         : ch.basis === 'long-ramp'
           ? 'one long swell straight into a hard stop, the shape of a decaying note played backwards'
+          : ch.basis === 'staggered-edges'
+            ? `${ch.staggeredStops ?? 0} hard stops whose frequency bands drop out one after another, as a natural attack builds up, read backwards; no hard start`
+          : ch.basis === 'mirrors-channel'
+            ? `its level follows channel ${ch.mirrorOf} played backwards, and of the two it is the one that swells into hard stops in ${Math.round((ch.bandsAgreeing ?? 0) * (ch.bands ?? 0))} of its ${ch.bands ?? 0} frequency bands while channel ${ch.mirrorOf} starts hard and fades`
           : ch.basis === 'bands-agree'
             ? `in ${Math.round((ch.bandsAgreeing ?? 0) * (ch.bands ?? 0))} of its ${ch.bands ?? 0} frequency bands the level fades in and cuts off (band skew ${(ch.bandSkew ?? 0).toFixed(2)}, median over the bands ${(ch.bandMedian ?? 0).toFixed(2)})`
             : ch.swellsIntoStops === 1

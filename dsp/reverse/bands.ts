@@ -248,3 +248,40 @@ export function bandHeterogeneity(b: BandDb, from: number, to: number): { bands:
   for (let i = 0; i < m; i++) q += w[i]! * (s[i]! - mean) ** 2;
   return { bands: m, ratio: q / (m - 1) };
 }
+
+/** Staggered edges (edgeStagger): the window on the loud side, a band's fall there, and how many bands. */
+const STAGGER_NEAR_FRAMES = 4;
+const STAGGER_FAR_FRAMES = 12;
+const STAGGER_GONE_DB = 12;
+const STAGGER_HELD_DB = 4;
+
+/**
+ * Is the hard edge at block `at` (a stop: blocks at … at + 2 fall by 15 dB or more; a start: they
+ * rise) staggered across the spectrum, the way a natural attack is? A struck, blown or bowed sound
+ * does not reach every partial at once — its bands arrive over tens of milliseconds (the low pipes
+ * of an organ speak late, a bow's noise precedes the note) — while a gain step, a cut or a gate
+ * moves every band at the same instant. Read on the loud side of the edge: for a start, from the
+ * first band frame wholly after it (frame at + 5) to 40–120 ms later; for a stop, from the last
+ * frame wholly before it (frame at) back to 40–120 ms earlier (so that time reversal maps one onto
+ * the other). Staggered: at least 3 bands (and a quarter of those sounding there) stand 12 dB or more
+ * below their level 40–120 ms away, while at least 2 bands are already within 4 dB of it.
+ */
+export function edgeStagger(b: BandDb, at: number, up: boolean): boolean {
+  const ref = up ? at + 5 : at;
+  if (ref < 0 || ref >= b.frames) return false;
+  let sounding = 0, gone = 0, held = 0;
+  for (let k = 0; k < b.bands; k++) {
+    if (!b.used[k]) continue;
+    let far = -Infinity;
+    for (let q = STAGGER_NEAR_FRAMES; q <= STAGGER_FAR_FRAMES; q++) {
+      const f = up ? ref + q : ref - q;
+      if (f >= 0 && f < b.frames) far = Math.max(far, b.db[f * b.bands + k]!);
+    }
+    if (far < -40) continue;
+    sounding++;
+    const d = far - b.db[ref * b.bands + k]!;
+    if (d >= STAGGER_GONE_DB) gone++;
+    else if (d <= STAGGER_HELD_DB) held++;
+  }
+  return gone >= 3 && gone >= 0.25 * sounding && held >= 2;
+}

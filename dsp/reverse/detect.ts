@@ -62,6 +62,17 @@
  *    reversed a forward excerpt faded in and cut off (every band fades in and cuts off once),
  *    which is what a reversed held note or a reversed legato chord sequence with a single cut
  *    looks like too — those stay "not determined".
+ *  - staggered edges (when none of the above decided): S ≥ 0.3, no hard start, at least 2 hard stops
+ *    staggered across the bands (bands.ts edgeStagger: in the 40–120 ms before the stop 3 or more
+ *    bands, a quarter of those sounding, fall away by 12 dB while 2 or more hold) and the band skew
+ *    agreeing (Sb ≥ 0.45, ≥ 90 % of ≥ 3 bands). A natural attack reaches its partials at different
+ *    moments (an organ's low partials speak late); a gain, a gate or an editor's cut moves every
+ *    band at once. Reversed held organ notes: each a swell from silence (the release, a gain), the
+ *    note, and the attack read backwards. On the corpus no forward channel without hard starts had
+ *    two staggered stops, and no excerpt faded in and cut off (1323 channels) was decided by this
+ *    rule; one cut alone, staggered or not, stays not determined (the cut of a faded-in cello or
+ *    violin melody excerpt is staggered when the excerpt ends just after a note change);
+ *  - one channel the mirror of another (decideMirroredPairs, after the channels were judged): see there.
  * Otherwise not determined. Sustained sampled notes and chords played backwards (organ, bowed
  * strings, choir, brass, pads: one swell from silence, the held sound, one cut) stay not
  * determined: measured on the corpus, the held part between the fade and the cut is the same
@@ -83,7 +94,7 @@ import { powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
 import { reclaim } from '../core/reclaim.ts';
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
-import { BandEnvelopes, bandAsymmetry, bandDb, bandHeterogeneity, segmentAgreement, type BandAsymmetry, type BandDb } from './bands.ts';
+import { BandEnvelopes, bandAsymmetry, bandDb, bandHeterogeneity, edgeStagger, segmentAgreement, type BandAsymmetry, type BandDb } from './bands.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
@@ -102,6 +113,9 @@ export interface ReversedChannel {
   readonly abruptStops: number;
   /** Swells into hard stops (free decays backwards) and decays after hard starts (forwards). */
   readonly swellsIntoStops?: number;
+  /** Hard edges staggered across the bands (bands.ts edgeStagger), as a natural attack is, and played backwards. */
+  readonly staggeredStarts?: number;
+  readonly staggeredStops?: number;
   /** Gated notes (a hard start and a hard stop with the level held between), left out of the counts. */
   readonly gatedNotes?: number;
   readonly decaysAfterStarts?: number;
@@ -119,11 +133,13 @@ export interface ReversedChannel {
   readonly rampBandSpread?: number;
   /** Which rule decided, or why nothing did. */
   readonly basis?: ReversedBasis;
+  /** For basis 'mirrors-channel': the 1-based channel whose level envelope this one's mirrors in time. */
+  readonly mirrorOf?: number;
   /** Calibrated on the real-material corpus; 0 when not determined. */
   readonly confidence?: number;
 }
 
-export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
+export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'long-ramp' | 'bands-agree' | 'staggered-edges' | 'mirrors-channel' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
 
 export interface ReversedResult {
   readonly channels: ReversedChannel[];
@@ -155,6 +171,12 @@ const RELEASE_DB = 12;
  * in every band) 0.4–4 — those are a fade, and one fade with one cut stays not determined.
  */
 const RAMP_BAND_SPREAD = 6;
+/** Mirrored channels (decideMirroredPairs): correlation against the other played backwards, margin over forwards, lags tried, band skew. */
+const MIRROR_MIN_CORRELATION = 0.85;
+const MIRROR_MIN_MARGIN = 0.5;
+const MIRROR_LAG_BLOCKS = 2;
+const MIRROR_BAND_SKEW = 0.45;
+const MIRROR_MAX_PAIRS = 16;
 
 /**
  * Per-channel block power envelope, grown as the source streams past. Sized for the source's
@@ -232,6 +254,8 @@ export interface Asymmetry {
   readonly decays: readonly Ramp[];
   /** t statistic of the 1 s segment scores (0 when fewer than 3 segments). */
   readonly segmentT: number;
+  /** The hard edges themselves: block `at` (the edge spans blocks at … at + 2) and whether it is a start. */
+  readonly edges: readonly { readonly at: number; readonly up: boolean }[];
 }
 
 function skewOf(db: Float64Array, from: number, to: number, active: number): { up: number; down: number; n: number; rises: number; falls: number } {
@@ -296,7 +320,7 @@ function ramp(smooth: Float64Array, j: number, dir: 1 | -1, limit: number): Ramp
 /** Every cue of one block-power envelope (see the module comment). */
 export function asymmetryScore(power: Float32Array): Asymmetry {
   const n = power.length;
-  const none = { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0, hardStarts: 0, hardStops: 0, openStarts: 0, openStops: 0, gatedNotes: 0, swells: [], decays: [], segmentT: 0 };
+  const none = { score: 0, activeBlocks: 0, largeRises: 0, largeFalls: 0, hardStarts: 0, hardStops: 0, openStarts: 0, openStops: 0, gatedNotes: 0, swells: [], decays: [], segmentT: 0, edges: [] };
   if (n < 2) return none;
   const db = new Float64Array(n);
   for (let i = 0; i < n; i++) db[i] = powerToDb(power[i]! + 1e-30);
@@ -366,7 +390,7 @@ export function asymmetryScore(power: Float32Array): Asymmetry {
       if (r) swells.push(r);
     }
   }
-  return { score, activeBlocks: all.n, largeRises: all.rises, largeFalls: all.falls, hardStarts, hardStops, openStarts, openStops, gatedNotes, swells, decays, segmentT };
+  return { score, activeBlocks: all.n, largeRises: all.rises, largeFalls: all.falls, hardStarts, hardStops, openStarts, openStops, gatedNotes, swells, decays, segmentT, edges };
 }
 
 export interface Verdict {
@@ -406,8 +430,13 @@ function bandsWin(s: number, bandSkew: number, bandMedian: number, share: number
   return s >= REVERSED_SCORE_THRESHOLD && stops >= 3 && stops > starts && bandSkew >= 0.45 && bandMedian >= 0.5 && bands >= 3 && share >= 0.9;
 }
 
+/** The staggered-edge rule for "reversed" (see the module comment); called mirrored for "forward". */
+function staggerWin(s: number, bandSkew: number, share: number, bands: number, staggeredStops: number, starts: number): boolean {
+  return s >= REVERSED_SCORE_THRESHOLD && starts === 0 && staggeredStops >= 2 && bandSkew >= 0.45 && bands >= 3 && share >= 0.9;
+}
+
 /** The decision for one channel from its cues (see the module comment). */
-export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry, moves?: (r: Ramp) => boolean): Verdict {
+export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry, moves?: (r: Ramp) => boolean, staggered?: { starts: number; stops: number }): Verdict {
   if (activeSeconds < REVERSED_MIN_ACTIVE_SECONDS) return { likely: null, basis: 'too-little-sound', confidence: 0 };
   const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.openStops, a.openStarts, a.swells, a.decays, moves);
   if (back && 'basis' in back) return { likely: true, ...back };
@@ -415,6 +444,8 @@ export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsym
   if (fwd && 'basis' in fwd) return { likely: false, ...fwd };
   if (b && bandsWin(a.score, b.score, b.bandMedian, b.positiveShare, b.bands, a.hardStops, a.hardStarts)) return { likely: true, basis: 'bands-agree', confidence: 0.7 };
   if (b && bandsWin(-a.score, -b.score, -b.bandMedian, b.negativeShare, b.bands, a.hardStarts, a.hardStops)) return { likely: false, basis: 'bands-agree', confidence: 0.7 };
+  if (b && staggered && staggerWin(a.score, b.score, b.positiveShare, b.bands, staggered.stops, a.hardStarts)) return { likely: true, basis: 'staggered-edges', confidence: 0.7 };
+  if (b && staggered && staggerWin(-a.score, -b.score, b.negativeShare, b.bands, staggered.starts, a.hardStops)) return { likely: false, basis: 'staggered-edges', confidence: 0.7 };
   const basis: ReversedBasis =
     a.hardStarts + a.hardStops === 0 ? 'no-hard-edges' : back || fwd ? 'fade-like' : Math.abs(a.score) >= REVERSED_SCORE_THRESHOLD ? 'cues-disagree' : 'thin';
   return { likely: null, basis, confidence: 0 };
@@ -458,7 +489,10 @@ export function judgeEnvelope(
     if (q === undefined) spreads.set(r, (q = rampBandSpread(bd, r)));
     return q;
   };
-  const v = judgeDirection(a, activeSeconds, bands, (r) => spread(r) >= RAMP_BAND_SPREAD);
+  // Hard edges whose bands cross them at different moments, as a natural attack's do.
+  let staggeredStarts = 0, staggeredStops = 0;
+  if (bd) for (const e of a.edges) if (edgeStagger(bd, e.at, e.up)) e.up ? staggeredStarts++ : staggeredStops++;
+  const v = judgeDirection(a, activeSeconds, bands, (r) => spread(r) >= RAMP_BAND_SPREAD, bd ? { starts: staggeredStarts, stops: staggeredStops } : undefined);
   const weighed = [...spreads.values()];
   return {
     likely: v.likely,
@@ -468,6 +502,8 @@ export function judgeEnvelope(
     abruptStarts: a.hardStarts,
     abruptStops: a.hardStops,
     swellsIntoStops: a.swells.length,
+    staggeredStarts,
+    staggeredStops,
     gatedNotes: a.gatedNotes,
     decaysAfterStarts: a.decays.length,
     segmentAgreement: a.segmentT,
@@ -505,5 +541,84 @@ export async function detectReversedChannels(source: AudioSource, onProgress?: (
     bandEnvs[c] = null;
     reclaim();
   }
-  return { channels };
+  return { channels: decideMirroredPairs(channels, envs.map((e) => e.values)) };
+}
+
+/**
+ * Pearson correlation of two channels' level envelopes (dB, floored as in asymmetryScore), block t
+ * of `a` against block t + lag of `b` — or, `mirrored`, against block n − 1 − t + lag of `b` — over
+ * the blocks where either is within 35 dB of its peak; the best over lags −2 … 2 (a reversal of a
+ * length that is not a whole number of blocks shifts the blocks by up to one). 0 with fewer than 30
+ * such blocks.
+ */
+export function envelopeCorrelation(a: Float32Array, b: Float32Array, mirrored: boolean): number {
+  // dB computed block by block (no whole-envelope copies beyond the peak's sort).
+  const pa = robustPeakDb(a), pb = robustPeakDb(b);
+  const level = (p: number, peak: number) => Math.max(powerToDb(p + 1e-30) - peak, -FLOOR_DB);
+  const n = b.length;
+  let best = -1;
+  for (let lag = -MIRROR_LAG_BLOCKS; lag <= MIRROR_LAG_BLOCKS; lag++) {
+    let m = 0, sa = 0, sb = 0, saa = 0, sbb = 0, sab = 0;
+    for (let t = 0; t < a.length; t++) {
+      const k = mirrored ? n - 1 - t + lag : t + lag;
+      if (k < 0 || k >= n) continue;
+      const x = level(a[t]!, pa), y = level(b[k]!, pb);
+      if (Math.max(x, y) < -ACTIVE_DB) continue;
+      m++;
+      sa += x; sb += y; saa += x * x; sbb += y * y; sab += x * y;
+    }
+    if (m < 30) continue;
+    const cov = sab / m - (sa / m) * (sb / m), va = saa / m - (sa / m) ** 2, vb = sbb / m - (sb / m) ** 2;
+    if (va > 0 && vb > 0) best = Math.max(best, cov / Math.sqrt(va * vb));
+  }
+  return Math.max(0, best);
+}
+
+/** The robust peak (99th percentile) of block powers, in dB, as asymmetryScore takes it. */
+function robustPeakDb(power: Float32Array): number {
+  const n = power.length;
+  if (n === 0) return 0;
+  const sorted = Float32Array.from(power).sort();
+  return powerToDb(sorted[Math.min(n - 1, Math.floor(0.99 * (n - 1)))]! + 1e-30);
+}
+
+/** Leans towards "reversed" (sign +1) or "forward" (−1) on the broadband and the band cues together. */
+function leans(c: ReversedChannel, sign: 1 | -1): boolean {
+  const s = sign * (c.skew ?? 0), sb = sign * (c.bandSkew ?? 0);
+  // bandsAgreeing is the share leaning the reported way, towards reversed when not determined
+  // (1 − that share counts the bands leaning forward and those with no lean at all).
+  const share = sign === 1 || c.likely === false ? (c.bandsAgreeing ?? 0) : 1 - (c.bandsAgreeing ?? 1);
+  const [stops, starts] = sign === 1 ? [c.abruptStops, c.abruptStarts] : [c.abruptStarts, c.abruptStops];
+  return s >= REVERSED_SCORE_THRESHOLD && sb >= MIRROR_BAND_SKEW && share >= 0.9 && (c.bands ?? 0) >= 3 && stops > starts;
+}
+
+/**
+ * Two channels whose level envelopes are each other's mirror image in time (correlation ≥ 0.85
+ * against the other played backwards, at least 0.5 more than forwards) carry the same programme,
+ * one of them backwards: stereo programme played forwards has its channels' envelopes in step
+ * (on the corpus the mirrored correlation exceeded the forward one by at most −0.02, a clip of
+ * chords that reads almost the same both ways, whose forward correlation was 1). Which one is
+ * reversed is then the one question left, and each channel's own lean answers it twice over:
+ * when one leans reversed and the other forward on both the broadband and the band cues (≥ 90 %
+ * of the bands), the first plays backwards and the second forwards. Decides only channels left
+ * undetermined by their own evidence.
+ */
+export function decideMirroredPairs(channels: readonly ReversedChannel[], power: readonly Float32Array[]): ReversedChannel[] {
+  const out = channels.slice();
+  // Bounded work on many-channel files: at most MIRROR_MAX_PAIRS pairs are compared.
+  let compared = 0;
+  for (let i = 0; i < out.length; i++) {
+    for (let j = 0; j < out.length; j++) {
+      if (i === j) continue;
+      const back = out[i]!, fwd = out[j]!;
+      if (back.likely !== null || fwd.likely === true || !leans(back, 1) || !leans(fwd, -1)) continue;
+      if (compared++ >= MIRROR_MAX_PAIRS) return out;
+      const mirrored = envelopeCorrelation(power[i]!, power[j]!, true);
+      if (mirrored < MIRROR_MIN_CORRELATION) continue;
+      if (mirrored - envelopeCorrelation(power[i]!, power[j]!, false) < MIRROR_MIN_MARGIN) continue;
+      out[i] = { ...back, likely: true, score: back.skew ?? back.score, basis: 'mirrors-channel', mirrorOf: fwd.channel, confidence: 0.8 };
+      if (fwd.likely === null) out[j] = { ...fwd, likely: false, score: fwd.skew ?? fwd.score, basis: 'mirrors-channel', mirrorOf: back.channel, bandsAgreeing: 1 - (fwd.bandsAgreeing ?? 1), confidence: 0.8 };
+    }
+  }
+  return out;
 }

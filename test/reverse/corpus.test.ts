@@ -8,7 +8,8 @@ import { beforeAll, describe, expect, it } from 'vitest';
 import { loadCorpus, type CorpusClip } from '../corpus/index.ts';
 import { openAudio } from '../../main/io/reader.ts';
 import { MemorySource, readAll } from '../../dsp/source.ts';
-import { REVERSED_BLOCK_SECONDS, REVERSED_SCORE_THRESHOLD, detectReversedChannels, type ReversedChannel } from '../../dsp/reverse/detect.ts';
+import { reversed } from '../../dsp/ops/reversed.ts';
+import { REVERSED_BLOCK_SECONDS, REVERSED_SCORE_THRESHOLD, detectReversedChannels, envelopeCorrelation, type ReversedChannel } from '../../dsp/reverse/detect.ts';
 
 interface Loaded {
   clip: CorpusClip;
@@ -94,6 +95,37 @@ describe('reversed channels on real recordings', () => {
     const excerpt = loop.channels.map((c) => c.slice(at, at + len));
     expect((await judge(excerpt.map(flip), loop.sampleRateHz)).map((c) => c.likely)).toEqual([true, true]);
     expect((await judge(excerpt, loop.sampleRateHz)).map((c) => c.likely)).toEqual([false, false]);
+  });
+
+  it('tells which channel of a stereo recording is the other played backwards (sustained chords, a strum)', async () => {
+    // Source: construction — one channel of a real recording replaced by the exact reversal of
+    // its samples (x[::-1], whole 10 ms blocks). Played wholly backwards these recordings are "not
+    // determined" (one swell, one cut); with one channel reversed the two envelopes are each
+    // other's mirror image, which stereo programme played forwards never is, and each channel's
+    // own lean says which of the two is backwards.
+    for (const id of ['choir-melody', 'guitar-steel-strum']) {
+      const { channels: [l, r], sampleRateHz } = clean.find((c) => c.clip.id === id)!;
+      expect((await judge([flip(l!), flip(r!)], sampleRateHz)).map((c) => c.likely)).toEqual([null, null]);
+      const second = await judge([l!, flip(r!)], sampleRateHz);
+      console.log('[reversed] ' + line(id + ' right reversed', second[0]!) + '; ' + line('', second[1]!));
+      expect(second.map((c) => [c.likely, c.basis, c.mirrorOf])).toEqual([[false, 'mirrors-channel', 2], [true, 'mirrors-channel', 1]]);
+      // The finding names the channel, says why, and offers to reverse that channel only.
+      const res = await detectReversedChannels(new MemorySource([l!, flip(r!)], sampleRateHz));
+      const warn = reversed.findings!(res, { sampleRateHz, channelCount: 2, frames: l!.length }).filter((f) => f.severity === 'warn');
+      expect(warn.map((f) => [f.title, f.suggestion])).toEqual([['Channel 2 plays backwards', { op: 'reverse', params: { channels: [2] } }]]);
+      expect(warn[0]!.sentence).toMatch(/follows channel 1 played backwards/);
+      const first = await judge([flip(l!), r!], sampleRateHz);
+      expect(first.map((c) => [c.likely, c.basis])).toEqual([[true, 'mirrors-channel'], [false, 'mirrors-channel']]);
+      // The envelopes: in step forwards (the recording's two channels), mirrored after one reversal.
+      const env = (x: Float64Array) => {
+        const b = Math.round(REVERSED_BLOCK_SECONDS * sampleRateHz), p = new Float32Array(x.length / b);
+        for (let i = 0; i < p.length; i++) for (let k = 0; k < b; k++) p[i]! += x[i * b + k]! ** 2 / b;
+        return p;
+      };
+      const el = env(l!), er = env(r!), erBack = env(flip(r!));
+      expect(envelopeCorrelation(el, er, false)).toBeGreaterThan(0.8);
+      expect(envelopeCorrelation(el, erBack, true)).toBeCloseTo(envelopeCorrelation(el, er, false), 6);
+    }
   });
 
   it('does not call an edit reversed: excerpts faded in and cut off, padded with silence', async () => {

@@ -133,6 +133,50 @@ describe('reversed detection on synthetic references', () => {
     console.log('[reversed] fade-in and cut:\n  ' + lines.join('\n  '));
   });
 
+  it('reads organ-like notes whose low partials speak late as forward, and backwards as reversed; gated notes stay undetermined', async () => {
+    // Source: construction (heldNotes below) and exact reversal of its samples. A pipe's low
+    // partials build up tens of milliseconds after its upper ones (common practice: the attack
+    // transient of flue pipes, the "speech" of a pipe), so the onset is staggered across the bands;
+    // each note ends in a release that is a gain (40 dB over 0.8 s, every band together). Played
+    // backwards: two swells from silence (the releases, band-uniform — the shape of a fade), each
+    // held and ending in a hard stop whose bands drop out one after another. With every partial
+    // starting at once (a gate, or an editor's cut read backwards) the same notes give no
+    // staggered edge, and played backwards they are one fade and one cut twice: not determined.
+    const heldNotes = (lateSeconds: number) => {
+      const n = Math.round(6 * FS);
+      const x = new Float64Array(n);
+      for (const [t0, f0] of [[0.3, 110], [3.2, 98]] as const) {
+        const hold = 1.6, release = 0.8;
+        for (let k = 1; k <= 8; k++) {
+          for (const [f, a] of [[f0 * k, 1 / k], [1.5 * f0 * k, 0.7 / k]] as const) {
+            const start = t0 + (k <= 2 ? lateSeconds : 0);
+            for (let i = Math.round(start * FS); i < Math.round((t0 + hold + release) * FS); i++) {
+              const t = i / FS;
+              const g = t < t0 + hold ? 1 : 10 ** ((-40 * (t - t0 - hold)) / release / 20);
+              // Each late partial rises over 5 ms (no click), then holds.
+              const rise = Math.min(1, (t - start) / 0.005);
+              x[i]! += 0.05 * a * g * rise * Math.sin(2 * Math.PI * f * t);
+            }
+          }
+        }
+      }
+      return x;
+    };
+    const staggered = heldNotes(0.08), gated = heldNotes(0);
+    const f = await judge(staggered), b = await judge(flip(staggered));
+    const gf = await judge(gated), gb = await judge(flip(gated));
+    console.log('[reversed] ' + [line('staggered notes', f), line('backwards', b), line('gated notes', gf), line('backwards', gb)].join('\n  '));
+    expect([f.likely, f.basis, f.staggeredStarts]).toEqual([false, 'staggered-edges', 2]);
+    expect([b.likely, b.basis, b.staggeredStops]).toEqual([true, 'staggered-edges', 2]);
+    const res = await detectReversedChannels(new MemorySource([flip(staggered)], FS));
+    const warn = reversed.findings!(res, { sampleRateHz: FS, channelCount: 1, frames: staggered.length });
+    expect(warn.map((w) => [w.severity, w.title])).toEqual([['warn', 'Channel 1 plays backwards']]);
+    expect(warn[0]!.sentence).toMatch(/bands drop out one after another/);
+    expect(gf.staggeredStarts).toBe(0);
+    expect(gb.staggeredStops).toBe(0);
+    expect(gb.likely).not.toBe(true);
+  });
+
   it('never calls forward drums with a reversed-cymbal swell into the downbeat reversed', async () => {
     // Source: construction. A common production effect: a cymbal (noise decaying over 2 s) played
     // backwards swells into the first hit of forward drums (hard attacks, 150 ms decays). The

@@ -292,8 +292,10 @@ describe('band cue (dsp/reverse/bands.ts)', () => {
     // of the forward chords leans forward and every band of the reversed ones leans reversed; but
     // the reversed sequence has one hard stop only (the first attack), the shape of a forward
     // excerpt faded in and cut off, so the band rule (≥ 3 hard stops) does not decide it.
+    // Each channel judged on its own (in one stereo source the two mirror each other, which decides them: below).
     const x = legatoChords(9);
-    const [fwd, rev] = (await detectReversedChannels(new MemorySource([x, flip(x)], FS))).channels;
+    const [fwd] = (await detectReversedChannels(new MemorySource([x], FS))).channels;
+    const [rev] = (await detectReversedChannels(new MemorySource([flip(x)], FS))).channels;
     console.log(`[reversed] legato chords: forward ${fwd!.likely} (${fwd!.basis}, band skew ${fwd!.bandSkew?.toFixed(2)}, median ${fwd!.bandMedian?.toFixed(2)}), reversed ${rev!.likely} (${rev!.basis}, band skew ${rev!.bandSkew?.toFixed(2)}, median ${rev!.bandMedian?.toFixed(2)})`);
     expect(rev!.bandSkew!).toBeGreaterThan(0.45);
     expect(rev!.bandMedian!).toBeGreaterThan(0.5);
@@ -302,5 +304,10 @@ describe('band cue (dsp/reverse/bands.ts)', () => {
     expect(rev!.abruptStops).toBeLessThan(3);
     expect(rev!.likely).toBe(null);
     expect(fwd!.likely).not.toBe(true);
+    // Source: construction — the same samples as the two channels of one source: channel 2 is
+    // channel 1 read backwards, so their envelopes mirror each other, and of the two it is the one
+    // that leans reversed.
+    const pair = (await detectReversedChannels(new MemorySource([x, flip(x)], FS))).channels;
+    expect(pair.map((c) => [c.likely, c.basis])).toEqual([[false, 'mirrors-channel'], [true, 'mirrors-channel']]);
   });
 });
