@@ -175,6 +175,7 @@ export class PhaseLocker {
     // with a bin 2–3 bins away more than 25 dB larger is a side lobe of that partial (Hann: −31 dB
     // and below), not a partial of its own: it joins the partial's region.
     let count = 0, top = 0;
+    const hann = this.#hann;
     for (let k = 2; k < last - 1; k++) if (pw[k]! > top) top = pw[k]!;
     const weakLevel = top * WEAK_PEAK;
     for (let k = 2; k < last - 1; k++) {
@@ -182,8 +183,10 @@ export class PhaseLocker {
       if (!(v > pw[k - 1]! && v >= pw[k + 1]! && v > 0)) continue;
       const l2 = pw[k - 2]!, r2 = pw[k + 2]!;
       if (v < weakLevel && (v < l2 || v < r2)) continue;
-      const lobe = SIDE_LOBE * v;
-      if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
+      if (hann) {
+        const lobe = SIDE_LOBE * v;
+        if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
+      }
       peaks[count++] = k;
     }
     if (count === 0) return false;
