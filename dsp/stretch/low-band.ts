@@ -34,6 +34,9 @@ import { PackedStft } from './packed-stft.ts';
 import { PhaseLocker } from './phase-lock.ts';
 import { InputRing, type OverlapAddRing } from './rings.ts';
 
+/** The 4-term Blackman–Harris window's cosine coefficients (Harris 1978, −92 dB; dsp/core/windows.ts). */
+const BLACKMAN_HARRIS = [0.35875, 0.48829, 0.14128, 0.01168] as const;
+
 /** Top of the low band's crossover (Hz) at rates of 10 kHz and more, and the crossover's width. */
 export const LOW_BAND_TOP_HZ = 4000;
 const CROSSOVER_HZ = 500;
@@ -161,7 +164,7 @@ export class LowBand {
     const active = (this.#active = Math.min(nl / 2 + 1, Math.ceil((f2 * d * nl) / fs) + 8));
     this.#stft = new PackedStft(nl, options.channelCount, bh, bh.map((w) => w / (olaSum * nl)), active);
     this.#olaWeights = bh.map((w) => w * w);
-    this.#lock = new PhaseLocker(nl, this.hop, options.channelCount, active);
+    this.#lock = new PhaseLocker(nl, this.hop, options.channelCount, active, BLACKMAN_HARRIS);
     const bins = nl / 2 + 1;
     this.#mask = new Float64Array(bins);
     this.#gain = new Float64Array(bins);
