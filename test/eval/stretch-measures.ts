@@ -326,16 +326,38 @@ export function findHits(x: Float64Array, rateHz: number): number[] {
 const ltas = (x: Float64Array, rateHz: number) => thirdOctaveDb(powerSpectrum(x, 8192), rateHz, 300, 3500);
 
 /**
+ * The band the original occupies, Hz: 100 Hz blocks of its long-term spectrum (Welch, 8192-point
+ * Hann) within 40 dB of the loudest block, from the lowest such block's lower edge to the highest
+ * one's upper edge (a telephone recording stored at 16 or 44.1 kHz ends near 3.9 kHz).
+ */
+export function occupiedBandHz(x: Float64Array, rateHz: number): [number, number] {
+  const p = powerSpectrum(x, 8192);
+  const binHz = rateHz / 8192, per = Math.max(1, Math.round(100 / binHz));
+  const blocks: number[] = [];
+  for (let k = 1; k + per <= p.length; k += per) {
+    let e = 0;
+    for (let j = k; j < k + per; j++) e += p[j]!;
+    blocks.push(e / per);
+  }
+  const top = Math.max(...blocks);
+  let lo = 0, hi = blocks.length - 1;
+  while (lo < hi && blocks[lo]! < top * 1e-4) lo++;
+  while (hi > lo && blocks[hi]! < top * 1e-4) hi--;
+  return [(1 + lo * per) * binHz, (1 + (hi + 1) * per) * binHz];
+}
+
+/**
  * Spectral envelope deviation of a transposed voice: third-octave long-term spectra of input and
  * output from 315 Hz to 3.15 kHz (bands 300 Hz–3.5 kHz), their difference with its mean removed
  * (a level change is no envelope change); the largest |deviation|, dB. A transposition by
  * `factor` fills an output band [lo, hi] from the input's [lo/factor, hi/factor]; a band whose
- * source reaches above the input's Nyquist frequency has nothing to be made from (an 8 kHz
- * recording transposed down leaves its top bands empty) and is not judged.
+ * source reaches outside the band the original occupies (`occupiedBandHz`) has nothing to be made
+ * from (a telephone recording transposed down leaves its top band empty) and is not judged.
  */
 export function envelopeDeviationDb(x: Float64Array, y: Float64Array, rateHz: number, factor = 1): number {
   const a0 = ltas(x, rateHz), b0 = ltas(y, rateHz);
-  const judged = a0.map((band) => (band.centreHz * 2 ** (1 / 6)) / factor < rateHz / 2);
+  const [occLo, occHi] = occupiedBandHz(x, rateHz);
+  const judged = a0.map((band) => (band.centreHz * 2 ** (-1 / 6)) / factor >= occLo && (band.centreHz * 2 ** (1 / 6)) / factor <= occHi);
   const a = a0.filter((_, i) => judged[i]), b = b0.filter((_, i) => judged[i]);
   const d = a.map((band, i) => b[i]!.db - band.db);
   const mean = d.reduce((s, v) => s + v, 0) / d.length;
