@@ -1,17 +1,14 @@
 /**
  * The low band of the time-stretcher, with four times the time span of the main analysis window
  * (≈ 340–370 ms at 44.1/48 kHz) and a low-side-lobe window, so that partials two main bins apart
- * (≈ 21–23 Hz) below 3.5–4 kHz are resolved and phase-locked each on its own: with the main window
- * a weak partial 2–3 bins from a strong one is no peak of its own, or one read through the strong
- * one's main lobe, and is turned with the strong one's frequency (pulled toward it, with stray
- * lines between: on real piano notes the unison strings' and inharmonic partials' pairs at 1–4 kHz
- * left lines 25–50 dB down when the band ended at 300 Hz). This is a two-band multi-resolution
+ * (≈ 21–23 Hz) at 20–300 Hz are resolved and phase-locked each on its own: with the main window a
+ * weak partial 2–3 bins from a strong one is no peak of its own and is turned with the strong one's
+ * frequency (pulled toward it, with stray lines between). This is a two-band multi-resolution
  * phase vocoder (a longer window below a crossover; window length by band as in Bonada 2000,
  * "Automatic technique in frequency domain for near-lossless time-scale modification of audio",
  * ICMC 2000).
  *
- * - The input is low-passed and decimated by D (fs/D ≥ 2.4·f₂: 11.025/12 kHz at 44.1/48/96 kHz,
- *   D = 1 at 16 kHz and below; a zero-phase Kaiser-windowed sinc,
+ * - The input is low-passed and decimated by D (fs/D ≈ 3 kHz; a zero-phase Kaiser-windowed sinc,
  *   100 dB stop band from fs/D − f₂, so every alias lands above the crossover), analysed with a
  *   4-term Blackman–Harris window (−92 dB side lobes, main lobe ±4 bins; Harris 1978, "On the use
  *   of windows for harmonic analysis with the DFT", Proc. IEEE 66(1)) of 4N/D points at hop
@@ -19,8 +16,7 @@
  *   to the sixth), phase-locked like the main band (only the bins up to f₂ and the main lobe beyond
  *   it), weighted by the crossover, overlap-added, and interpolated back to fs with the same kernel.
  *   Its frames fall on every other main frame and take that frame's analysis position α.
- * - Crossover: m_L = 1 below f₁, 0 above f₂, a raised cosine between; f₂ = min(4 kHz, 0.4·fs),
- *   f₁ = f₂ − 500 Hz (`lowBandEdges`).
+ * - Crossover: m_L = 1 below f₁, 0 above f₂, a raised cosine between.
  * - Onsets: a long window would spread an attack over its whole length (pre-echo). A low-band frame
  *   with an onset within ¾ of its window (in the input or in the output; the start counts as one)
  *   is dropped (weight 0), and the main band carries the low band there: it is weighted by
@@ -37,20 +33,9 @@ import { InputRing, type OverlapAddRing } from './rings.ts';
 /** The 4-term Blackman–Harris window's cosine coefficients (Harris 1978, −92 dB; dsp/core/windows.ts). */
 const BLACKMAN_HARRIS = [0.35875, 0.48829, 0.14128, 0.01168] as const;
 
-/** Top of the low band's crossover (Hz) at rates of 10 kHz and more, and the crossover's width. */
-export const LOW_BAND_TOP_HZ = 4000;
-const CROSSOVER_HZ = 500;
-
-/** Crossover edges at a sample rate: the low band takes everything below f1, nothing above f2 (Hz). */
-export interface LowBandEdges {
-  readonly f1: number;
-  readonly f2: number;
-}
-
-export function lowBandEdges(sampleRateHz: number): LowBandEdges {
-  const f2 = Math.min(LOW_BAND_TOP_HZ, 0.4 * sampleRateHz);
-  return { f1: f2 - CROSSOVER_HZ, f2 };
-}
+/** Crossover: the low band takes everything below F1, nothing above F2 (Hz). */
+export const LOW_BAND_F1_HZ = 180;
+export const LOW_BAND_F2_HZ = 300;
 
 export interface LowBandOptions {
   readonly sampleRateHz: number;
@@ -63,11 +48,10 @@ export interface LowBandOptions {
 }
 
 /** Crossover weight of the low band at f (Hz). */
-export function lowBandWeight(f: number, edges: LowBandEdges): number {
-  const { f1, f2 } = edges;
-  if (f <= f1) return 1;
-  if (f >= f2) return 0;
-  return 0.5 * (1 + Math.cos((Math.PI * (f - f1)) / (f2 - f1)));
+export function lowBandWeight(f: number): number {
+  if (f <= LOW_BAND_F1_HZ) return 1;
+  if (f >= LOW_BAND_F2_HZ) return 0;
+  return 0.5 * (1 + Math.cos((Math.PI * (f - LOW_BAND_F1_HZ)) / (LOW_BAND_F2_HZ - LOW_BAND_F1_HZ)));
 }
 
 export class LowBand {
@@ -118,15 +102,14 @@ export class LowBand {
     const fs = options.sampleRateHz, n = options.mainFftSize;
     this.channelCount = options.channelCount;
     this.ratio = options.ratio;
-    const edges = lowBandEdges(fs), f2 = edges.f2;
-    const d = (this.decimation = Math.min(n / 8, Math.max(1, 2 ** Math.floor(Math.log2(fs / (2.4 * f2))))));
+    const d = (this.decimation = Math.min(n / 8, Math.max(1, 2 ** Math.round(Math.log2(fs / 3000)))));
     const nl = (this.fftSize = (4 * n) / d);
     this.hop = nl / 8;
     this.hopFull = n / 2;
     this.halfFull = (nl * d) / 2;
     // Lowpass: pass to F2, stop from fs/D − F2 (Kaiser design, 100 dB).
-    const stopHz = fs / d - f2;
-    const taps = d === 1 ? new Float64Array([1]) : kaiserLowpass(fs, f2, stopHz, 100);
+    const stopHz = fs / d - LOW_BAND_F2_HZ;
+    const taps = d === 1 ? new Float64Array([1]) : kaiserLowpass(fs, LOW_BAND_F2_HZ, stopHz, 100);
     const len = taps.length;
     const l = (this.#half = (len - 1) / 2);
     this.#taps = taps;
@@ -161,14 +144,14 @@ export class LowBand {
     let olaSum = 0;
     for (let i = 0; i < nl; i += this.hop) olaSum += bh[i]! * bh[i]!;
     // Only bins up to the crossover (and the ±4-bin main lobe beyond it) are processed.
-    const active = (this.#active = Math.min(nl / 2 + 1, Math.ceil((f2 * d * nl) / fs) + 8));
+    const active = (this.#active = Math.min(nl / 2 + 1, Math.ceil((LOW_BAND_F2_HZ * d * nl) / fs) + 8));
     this.#stft = new PackedStft(nl, options.channelCount, bh, bh.map((w) => w / (olaSum * nl)), active);
     this.#olaWeights = bh.map((w) => w * w);
     this.#lock = new PhaseLocker(nl, this.hop, options.channelCount, active, BLACKMAN_HARRIS);
     const bins = nl / 2 + 1;
     this.#mask = new Float64Array(bins);
     this.#gain = new Float64Array(bins);
-    for (let k = 0; k < bins; k++) this.#mask[k] = lowBandWeight((k * fs) / d / nl, edges);
+    for (let k = 0; k < bins; k++) this.#mask[k] = lowBandWeight((k * fs) / d / nl);
     const perChannel = () => Array.from({ length: options.channelCount }, () => new Float64Array(nl + 2));
     this.#xw = perChannel();
     this.#xwPrev = perChannel();

@@ -31,7 +31,7 @@ import { CHUNK, InputRing, OverlapAddRing } from './rings.ts';
 import { PackedStft } from './packed-stft.ts';
 import { PhaseLocker } from './phase-lock.ts';
 import { TransientTracker } from './transients.ts';
-import { LowBand, lowBandEdges, lowBandWeight } from './low-band.ts';
+import { LowBand, lowBandWeight, LOW_BAND_F2_HZ } from './low-band.ts';
 
 import { MAX_RATIO, MIN_RATIO } from './limits.ts';
 export { MAX_RATIO, MIN_RATIO };
@@ -45,7 +45,7 @@ export interface TimeStretchOptions {
   readonly fftSize?: number;
   /** Keep onsets sharp (default true). */
   readonly transients?: boolean;
-  /** Low band with a four times longer window below 3.5–4 kHz (default true; off at ratio 1). */
+  /** Low band with a four times longer window below 180–300 Hz (default true; off at ratio 1). */
   readonly lowBand?: boolean;
   /**
    * If set, the spectral envelope is pre-warped so that after a resampling that multiplies every
@@ -151,7 +151,7 @@ export class TimeStretcher {
     this.#input = new InputRing(channelCount, n + 2 + gridSpacing + 2 * commitDistance + 2 * zoneHalf + this.#tracker.span + CHUNK + lowReach);
     // The low band needs ratio ≠ 1 (ratio 1 is the identity) and a crossover below fs/2.
     const low = (this.#low =
-      options.lowBand !== false && ratio !== 1 && sampleRateHz >= 4000
+      options.lowBand !== false && ratio !== 1 && sampleRateHz > 8 * LOW_BAND_F2_HZ
         ? new LowBand({ sampleRateHz, channelCount, ratio, mainFftSize: n, inputSpan: this.#input.capacity })
         : null);
     const onOnset = options.onOnset;
@@ -165,9 +165,8 @@ export class TimeStretcher {
     this.#reach = low ? Math.max(n / 2, low.reachFull) : n / 2;
     this.#tail = low ? Math.max(n / 2, low.halfFull + low.hopFull) : n / 2;
     let highBins = 0;
-    const edges = lowBandEdges(sampleRateHz);
-    while (low && highBins < bins && (highBins * sampleRateHz) / n < edges.f2) highBins++;
-    this.#lowMask = Float64Array.from({ length: highBins }, (_, k) => lowBandWeight((k * sampleRateHz) / n, edges));
+    while (low && highBins < bins && (highBins * sampleRateHz) / n < LOW_BAND_F2_HZ) highBins++;
+    this.#lowMask = Float64Array.from({ length: highBins }, (_, k) => lowBandWeight((k * sampleRateHz) / n));
     this.#lookahead = low ? 2 * low.halfFull + low.decimation : 0;
 
     const perChannel = () => Array.from({ length: channelCount }, () => new Float64Array(n + 2));
