@@ -30,6 +30,9 @@ import { PackedStft } from './packed-stft.ts';
 import { PhaseLocker } from './phase-lock.ts';
 import { InputRing, type OverlapAddRing } from './rings.ts';
 
+/** The 4-term Blackman–Harris window's cosine coefficients (Harris 1978, −92 dB; dsp/core/windows.ts). */
+const BLACKMAN_HARRIS = [0.35875, 0.48829, 0.14128, 0.01168] as const;
+
 /** Crossover: the low band takes everything below F1, nothing above F2 (Hz). */
 export const LOW_BAND_F1_HZ = 180;
 export const LOW_BAND_F2_HZ = 300;
@@ -144,7 +147,7 @@ export class LowBand {
     const active = (this.#active = Math.min(nl / 2 + 1, Math.ceil((LOW_BAND_F2_HZ * d * nl) / fs) + 8));
     this.#stft = new PackedStft(nl, options.channelCount, bh, bh.map((w) => w / (olaSum * nl)), active);
     this.#olaWeights = bh.map((w) => w * w);
-    this.#lock = new PhaseLocker(nl, this.hop, options.channelCount, active);
+    this.#lock = new PhaseLocker(nl, this.hop, options.channelCount, active, BLACKMAN_HARRIS);
     const bins = nl / 2 + 1;
     this.#mask = new Float64Array(bins);
     this.#gain = new Float64Array(bins);
@@ -281,11 +284,12 @@ export class LowBand {
     const a = Math.round(alpha / this.decimation);
     const lock = this.#lock, xw = this.#xw, y = this.#y;
     this.#stft.analyze(this.#input, a, xw, this.#power);
+    const dropped = weight === 0 && mainRotRe !== null && mainRotIm !== null;
     if (!this.#prevValid) {
       lock.reset();
-      lock.rotateHeld(xw, y);
-    } else if (!lock.lock(this.#power, xw, this.#xwPrev, y, a - this.#prevA)) lock.rotateHeld(xw, y);
-    if (weight === 0 && mainRotRe && mainRotIm) {
+      if (!dropped) lock.rotateHeld(xw, y);
+    } else if (!dropped && !lock.lock(this.#power, xw, this.#xwPrev, y, a - this.#prevA)) lock.rotateHeld(xw, y);
+    if (dropped) {
       // Take over the main band's rotations (bin of the same frequency), corrected for the
       // rounding of α to the decimated grid: φ_in here is the phase at a·D, not at α.
       const bins = this.#active, rr = lock.rotRe, ri = lock.rotIm;
@@ -299,7 +303,12 @@ export class LowBand {
         rr[k] = mr * cr - mi * ci;
         ri[k] = mr * ci + mi * cr;
       }
-      lock.rotateHeld(xw, y);
+    }
+    if (weight === 0) {
+      // Nothing of this frame is heard (its weight is 0): only its spectrum (the next frame's
+      // previous one) and rotations carry on.
+      this.#finishFrame(sigma, a, xw);
+      return;
     }
     const m = this.#mask, bins = this.#active;
     const g = this.#gain;
@@ -320,6 +329,11 @@ export class LowBand {
       }
     }
     this.#synthesize(sigma / this.decimation);
+    this.#finishFrame(sigma, a, xw);
+  }
+
+  /** This frame becomes the previous one. */
+  #finishFrame(sigma: number, a: number, xw: Float64Array[]): void {
     const t = this.#xwPrev;
     this.#xwPrev = xw;
     this.#xw = t;

@@ -55,8 +55,16 @@ export class PhaseLocker {
   #stepDelta = NaN;
   readonly #peaks: Int32Array;
 
-  /** Leakage correction for a periodic Hann analysis window (see `#correctLeakage`). */
+  /** The Hann main band's rules: side lobes within 3 bins, the weak-peak refinement (see `lock`, `#refineWeak`). */
   readonly #hann: boolean;
+  /**
+   * Leakage correction (`#correctLeakage`) for a periodic cosine-sum window w = Σ (−1)^s a_s cos(2πsn/N):
+   * c[S + s] = (−1)^s a_|s|/2 (c[S] = a₀), S the number of cosine terms after the first; null: none.
+   */
+  readonly #kernel: Float64Array | null;
+  readonly #terms: number;
+  /** A peak nearer than this (bins) to another overlaps its main lobe: its X(k_p) is not its own. */
+  readonly #nearBins: number;
   readonly #peakFreq: Float64Array; // per peak: frequency (bins), NaN when not corrected
   readonly #regionLo: Int32Array;
   readonly #oldRe: Float64Array; // per peak: its rotation before this frame
@@ -64,7 +72,14 @@ export class PhaseLocker {
   readonly #regionHi: Int32Array;
   readonly #inv: Float64Array; // 1/sin(πx/N) over the bins one correction reaches
 
-  constructor(fftSize: number, synthesisHop: number, channelCount: number, activeBins = fftSize / 2 + 1, hannLeakage = false) {
+  /**
+   * `window`: 'hann' (the main band: Hann leakage correction and its rules), the coefficients
+   * a₀…a_S of another periodic cosine-sum analysis window (its leakage corrected; Blackman–Harris
+   * in the low band), or null (no correction).
+   */
+  constructor(fftSize: number, synthesisHop: number, channelCount: number, activeBins = fftSize / 2 + 1, window: 'hann' | readonly number[] | null = null) {
+    const hannLeakage = window === 'hann';
+    const coefs = window === 'hann' ? [0.5, 0.5] : window;
     this.fftSize = fftSize;
     this.synthesisHop = synthesisHop;
     this.channelCount = channelCount;
@@ -79,12 +94,16 @@ export class PhaseLocker {
     this.rotIm = new Float64Array(bins);
     this.#peaks = new Int32Array(bins);
     this.#hann = hannLeakage;
-    this.#peakFreq = new Float64Array(hannLeakage ? bins : 0);
-    this.#regionLo = new Int32Array(hannLeakage ? bins : 0);
-    this.#oldRe = new Float64Array(hannLeakage ? bins : 0);
-    this.#oldIm = new Float64Array(hannLeakage ? bins : 0);
-    this.#regionHi = new Int32Array(hannLeakage ? bins : 0);
-    this.#inv = new Float64Array(2 * MAX_REACH + 5);
+    const terms = (this.#terms = coefs ? coefs.length - 1 : 0);
+    this.#kernel = coefs ? Float64Array.from({ length: 2 * terms + 1 }, (_, i) => (i === terms ? coefs[0]! : ((i - terms) % 2 ? -1 : 1) * 0.5 * coefs[Math.abs(i - terms)]!)) : null;
+    this.#nearBins = hannLeakage ? 4 : terms + 2; // Hann 4 (main lobe ±2), Blackman–Harris 5 (±4)
+    const leak = coefs !== null;
+    this.#peakFreq = new Float64Array(leak ? bins : 0);
+    this.#regionLo = new Int32Array(leak ? bins : 0);
+    this.#oldRe = new Float64Array(leak ? bins : 0);
+    this.#oldIm = new Float64Array(leak ? bins : 0);
+    this.#regionHi = new Int32Array(leak ? bins : 0);
+    this.#inv = new Float64Array(2 * MAX_REACH + 2 * terms + 5);
   }
 
   /** Every rotation back to 1 (the output takes the analysis phases). */
@@ -175,6 +194,7 @@ export class PhaseLocker {
     // with a bin 2–3 bins away more than 25 dB larger is a side lobe of that partial (Hann: −31 dB
     // and below), not a partial of its own: it joins the partial's region.
     let count = 0, top = 0;
+    const hann = this.#hann, leak = this.#kernel !== null;
     for (let k = 2; k < last - 1; k++) if (pw[k]! > top) top = pw[k]!;
     const weakLevel = top * WEAK_PEAK;
     for (let k = 2; k < last - 1; k++) {
@@ -182,8 +202,10 @@ export class PhaseLocker {
       if (!(v > pw[k - 1]! && v >= pw[k + 1]! && v > 0)) continue;
       const l2 = pw[k - 2]!, r2 = pw[k + 2]!;
       if (v < weakLevel && (v < l2 || v < r2)) continue;
-      const lobe = SIDE_LOBE * v;
-      if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
+      if (hann) {
+        const lobe = SIDE_LOBE * v;
+        if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
+      }
       peaks[count++] = k;
     }
     if (count === 0) return false;
@@ -198,10 +220,18 @@ export class PhaseLocker {
     let regionStart = 0;
     for (let p = 0; p < count; p++) {
       const kp = peaks[p]!;
-      // Coarse frequency offset (bins): Grandke's Hann interpolation on the larger neighbour.
-      const up = pw[kp + 1]! >= pw[kp - 1]!;
-      const a = Math.sqrt((up ? pw[kp + 1]! : pw[kp - 1]!) / pw[kp]!);
-      const delta = (up ? 1 : -1) * ((2 * a - 1) / (a + 1));
+      // Coarse frequency offset (bins): Grandke's Hann interpolation on the larger neighbour;
+      // other windows: a parabola through the three log powers (common practice).
+      let delta: number;
+      if (hann) {
+        const up = pw[kp + 1]! >= pw[kp - 1]!;
+        const a = Math.sqrt((up ? pw[kp + 1]! : pw[kp - 1]!) / pw[kp]!);
+        delta = (up ? 1 : -1) * ((2 * a - 1) / (a + 1));
+      } else {
+        const l = Math.log(pw[kp - 1]! + 1e-300), c0 = Math.log(pw[kp]!), r = Math.log(pw[kp + 1]! + 1e-300);
+        const den = l - 2 * c0 + r;
+        delta = den < 0 ? Math.max(-0.5, Math.min(0.5, (0.5 * (l - r)) / den)) : 0;
+      }
       let cr: number, ci: number;
       if (pw[kp]! >= weak) {
         let w: number;
@@ -225,7 +255,7 @@ export class PhaseLocker {
         }
         omega[kp] = w;
         // A steady partial (the fine and coarse offsets agree) is corrected for leakage.
-        if (this.#hann) this.#peakFreq[p] = Math.abs(w / binRad - kp - delta) < 0.25 ? w / binRad : NaN;
+        if (leak) this.#peakFreq[p] = Math.abs(w / binRad - kp - delta) < 0.25 ? w / binRad : NaN;
         const phi = wrap(advance * w);
         cr = Math.cos(phi);
         ci = Math.sin(phi);
@@ -238,9 +268,9 @@ export class PhaseLocker {
         cr = sr * fr - si * fi;
         ci = sr * fi + si * fr;
         omega[kp] = (kp + q / FRACTION_STEPS) * binRad;
-        if (this.#hann) this.#peakFreq[p] = NaN;
+        if (leak) this.#peakFreq[p] = NaN;
       }
-      if (this.#hann) {
+      if (leak) {
         this.#oldRe[p] = rr[kp]!;
         this.#oldIm[p] = ri[kp]!;
       }
@@ -268,14 +298,14 @@ export class PhaseLocker {
           out[2 * k + 1] = re * ni + im * nr;
         }
       }
-      if (this.#hann) {
+      if (leak) {
         this.#regionLo[p] = regionStart;
         this.#regionHi[p] = regionEnd;
       }
       regionStart = regionEnd + 1;
     }
-    if (this.#hann && advance !== 0) {
-      if (hopIn > 0) this.#refineWeak(pw, xw, xp, y, count, hopIn, advance, top * WEAK_PEAK);
+    if (leak && advance !== 0) {
+      if (hann && hopIn > 0) this.#refineWeak(pw, xw, xp, y, count, hopIn, advance, top * WEAK_PEAK);
       this.#correctLeakage(pw, xw, y, count, top);
     }
     // DC and Nyquist stay real (the two-channels-per-FFT packing needs real spectra there).
@@ -423,25 +453,31 @@ export class PhaseLocker {
       // X(k_p) must be this partial's: no peak within 3 bins that is less than 40 dB below it (a closer
       // one's main lobe overlaps, and neither amplitude nor frequency can be read at k_p).
       const near = pw[kp]! * 1e-4;
-      if ((p > 0 && kp - peaks[p - 1]! < 4 && pw[peaks[p - 1]!]! > near) || (p + 1 < count && peaks[p + 1]! - kp < 4 && pw[peaks[p + 1]!]! > near)) continue;
-      // Reach: (1/(πd³))²·pw < 1e-8·top (−80 dB).
-      const reach = Math.min(MAX_REACH, Math.ceil(Math.pow((1e8 * pw[kp]!) / top, 1 / 6) / Math.cbrt(Math.PI)));
+      const nb = this.#nearBins, terms = this.#terms;
+      if ((p > 0 && kp - peaks[p - 1]! < nb && pw[peaks[p - 1]!]! > near) || (p + 1 < count && peaks[p + 1]! - kp < nb && pw[peaks[p + 1]!]! > near)) continue;
+      // Reach: Hann (1/(πd³))²·pw < 1e-8·top (−80 dB); other windows (side lobes ≤ −92 dB: Blackman–Harris)
+      // the main lobe and one bin.
+      const reach = terms === 1 ? Math.min(MAX_REACH, Math.ceil(Math.pow((1e8 * pw[kp]!) / top, 1 / 6) / Math.cbrt(Math.PI))) : terms + 2;
       const from = Math.max(1, kp - reach), to = Math.min(last - 1, kp + reach);
       const rlo = lo[p]!, rhi = hi[p]!;
       if (from >= rlo && to <= rhi) continue;
       let d0 = f - kp;
       const frac = d0 - Math.round(d0);
       if (Math.abs(frac) < 1e-6) d0 += frac >= 0 ? 1e-6 : -1e-6; // B has removable poles at whole δ
-      // inv[i] = 1/sin(π(δ₀ − m)/N) for m = from − kp − 1 + i.
-      const m0 = from - kp - 1;
+      // inv[i] = 1/sin(π(δ₀ − m)/N) for m = from − kp − S + i (S = 1 for Hann).
+      const m0 = from - kp - terms;
       // y = π(δ₀ − m)/N: |y| < 0.05 for N ≥ 2048, where sin y = y − y³/6 + y⁵/120 to double
       // precision (next term y⁷/5040); |y| < 0.34 at N = 256, relative error < 3e-7.
-      for (let i = 0, m = m0; m <= to - kp + 1; i++, m++) {
+      for (let i = 0, m = m0; m <= to - kp + terms; i++, m++) {
         const a = piN * (d0 - m), a2 = a * a;
         inv[i] = 1 / (a * (1 - a2 * (1 / 6 - a2 / 120)));
       }
       // B(x) = ½t(x) − ¼e^{jπ/N}t(x − 1) − ¼e^{−jπ/N}t(x + 1), t = 1/sin(π·/N); x = δ₀ − m is
       // inv[m − m0], x − 1 the next entry, x + 1 the one before. B(δ₀) at m = 0:
+      if (terms !== 1) {
+        this.#correctCosineSum(xw, y, kp, d0, from, to, m0, lo[p]!, hi[p]!);
+        continue;
+      }
       const i0 = -m0;
       const b0r = 0.5 * inv[i0]! - 0.25 * cN * (inv[i0 + 1]! + inv[i0 - 1]!);
       const b0i = -0.25 * sN * (inv[i0 + 1]! - inv[i0 - 1]!);
@@ -469,6 +505,52 @@ export class PhaseLocker {
         const t = er * cN - ei * sN;
         ei = er * sN + ei * cN;
         er = t;
+      }
+    }
+  }
+
+  /**
+   * `#correctLeakage` for a cosine-sum window of S > 1 terms after the first: with
+   * w = Σ_s (−1)^s a_s cos(2πsn/N) and D the Dirichlet kernel, W(δ) = Σ_s c_s D(δ − s) (c as in
+   * #kernel), and since D(δ − s) = e^{jπδ(N−1)/N} sin(πδ)·e^{jπs/N}/sin(π(δ − s)/N) (the signs
+   * (−1)^s of sin and of e^{−jπs} cancel), W(δ) = e^{jπδ(N−1)/N} sin(πδ)·B(δ) with
+   * B(δ) = Σ_s c_s e^{jπs/N}/sin(π(δ − s)/N) (Hann: the kernel in `#correctLeakage`). `inv` holds
+   * 1/sin(π(δ₀ − m)/N) from m0 = from − k_p − S.
+   */
+  #correctCosineSum(xw: readonly Float64Array[], y: readonly Float64Array[], kp: number, d0: number, from: number, to: number, m0: number, rlo: number, rhi: number): void {
+    const n = this.fftSize, c = this.#kernel!, terms = this.#terms, inv = this.#inv, channels = this.channelCount;
+    const rr = this.rotRe, ri = this.rotIm;
+    const piN = Math.PI / n;
+    const bAt = (i: number, out: Float64Array) => {
+      let re = 0, im = 0;
+      for (let s = -terms; s <= terms; s++) {
+        const t = c[s + terms]! * inv[i + s]!;
+        re += t * Math.cos(piN * s);
+        im += t * Math.sin(piN * s);
+      }
+      out[0] = re;
+      out[1] = im;
+    };
+    const b = this.#kr;
+    bAt(-m0, b); // B(δ₀): m = 0
+    const b0n = b[0]! * b[0]! + b[1]! * b[1]!;
+    const qr = b[0]! / b0n, qi = -b[1]! / b0n; // 1/B(δ₀)
+    const pr = rr[kp]!, pi = ri[kp]!;
+    for (let k = from; k <= to; k++) {
+      if (k >= rlo && k <= rhi) continue;
+      const m = k - kp;
+      bAt(m - m0, b);
+      // ρ = e^{jπm/N}·B(δ₀ − m)/B(δ₀); then (R_p − R(k))·ρ.
+      const ar = b[0]! * qr - b[1]! * qi, ai = b[0]! * qi + b[1]! * qr;
+      const er = Math.cos(piN * m), ei = Math.sin(piN * m);
+      const rhoR = er * ar - ei * ai, rhoI = er * ai + ei * ar;
+      const dr = pr - rr[k]!, di = pi - ri[k]!;
+      const gr = dr * rhoR - di * rhoI, gi = dr * rhoI + di * rhoR;
+      for (let ch = 0; ch < channels; ch++) {
+        const x = xw[ch]!, out = y[ch]!;
+        const xr = x[2 * kp]!, xi = x[2 * kp + 1]!;
+        out[2 * k]! += xr * gr - xi * gi;
+        out[2 * k + 1]! += xr * gi + xi * gr;
       }
     }
   }

@@ -137,7 +137,7 @@ export class TimeStretcher {
     this.fftSize = this.#n = n;
     this.synthesisHop = this.#hs = n / 4;
     const bins = (this.#bins = n / 2 + 1);
-    this.#lock = new PhaseLocker(n, this.#hs, channelCount, n / 2 + 1, true);
+    this.#lock = new PhaseLocker(n, this.#hs, channelCount, n / 2 + 1, 'hann');
 
     const hs = this.#hs;
     const zoneHalf = n / 2 + n / 16; // frames containing the onset, plus 1/16 N for its uncertainty

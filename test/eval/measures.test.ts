@@ -5,6 +5,7 @@
 import { describe, expect, it } from 'vitest';
 import { bandDeviationDb, echoReductionDb, offsetTrack, residualSpeedPercent, thirdOctaveDb, powerSpectrum } from './measures.ts';
 import { numbersFromJson, numbersToJson } from './pool.ts';
+import { occupiedBandHz } from './stretch-measures.ts';
 import { delayExact } from '../helpers/delay.ts';
 import { gaussian, seededRng } from '../helpers/rng.ts';
 
@@ -66,5 +67,17 @@ describe('correction measures', () => {
     const times = Array.from({ length: 40 }, (_, i) => 0.5 + 0.25 * i);
     const r = residualSpeedPercent({ times, offsets: times.map((t) => 1e-3 + 2e-4 * t) });
     for (const p of r.percent) expect(p).toBeCloseTo(0.02, 10);
+  });
+});
+
+describe('the band a recording occupies (keep-formants judging)', () => {
+  it('sines at 250, 1000 and 3000 Hz at 16 kHz occupy the 100 Hz blocks from 201 to 3090 Hz', () => {
+    // Source: construction (nothing outside the three sines; Hann leakage 40 dB down within a few
+    // 1.95 Hz bins, so only the blocks holding them count); blocks of 51 bins from bin 1.
+    const fs = 16000;
+    const x = Float64Array.from({ length: 4 * fs }, (_, i) => [250, 1000, 3000].reduce((s, f) => s + Math.sin((2 * Math.PI * f * i) / fs), 0));
+    const [lo, hi] = occupiedBandHz(x, fs);
+    expect(lo).toBeCloseTo((1 + 2 * 51) * (fs / 8192), 6);
+    expect(hi).toBeCloseTo((1 + 31 * 51) * (fs / 8192), 6);
   });
 });

@@ -9,6 +9,9 @@
  *   partial is the largest local maximum within half the distance to its nearest expected
  *   neighbour (at most ±100 cents), its frequency refined by a parabola through the log magnitudes
  *   of the three top bins (common practice), and reported as cents against where it belongs.
+ * - Levels: a partial's amplitude is the parabola's vertex through the same three log-magnitude
+ *   bins (common practice), divided by the window's sum (Σw, the coherent gain), so that windows
+ *   of different lengths compare.
  * - Spurious lines: the largest local maximum outside ±6 bins of the unpadded window (the main
  *   lobe is ±4 bins) of every expected partial, in dB re the strongest partial.
  * - Onsets: the first sample at which the envelope (|x| through a 0.5 ms maximum) reaches half
@@ -43,6 +46,8 @@ export interface LineSpectrum {
   binHz: number;
   /** Padding factor. */
   pad: number;
+  /** Σw of the window (amplitude A·Σw/2 at a sinusoid's peak). */
+  windowSum: number;
 }
 
 /** Blackman–Harris spectrum of x[from, from + length), zero-padded `pad`× to a power of two. */
@@ -56,7 +61,9 @@ export function lineSpectrum(x: Float64Array, rateHz: number, from: number, leng
   fft.realTransform(out, buf);
   const power = new Float64Array(size / 2 + 1);
   for (let k = 0; k <= size / 2; k++) power[k] = out[2 * k]! ** 2 + out[2 * k + 1]! ** 2;
-  return { power, binHz: rateHz / size, pad: size / length };
+  let windowSum = 0;
+  for (let i = 0; i < length; i++) windowSum += w[i]!;
+  return { power, binHz: rateHz / size, pad: size / length, windowSum };
 }
 
 export interface PartialReading {
@@ -66,6 +73,8 @@ export interface PartialReading {
   cents: number;
   /** Level re the strongest partial, dB. */
   levelDb: number;
+  /** Amplitude of the sinusoid (peak), dB re 1 (NaN when not found). */
+  amplitudeDb: number;
 }
 
 export interface LineReport {
@@ -83,7 +92,7 @@ export function readLines(x: Float64Array, rateHz: number, expectedHz: readonly 
   const p = s.power;
   const db = (v: number) => 10 * Math.log10(v + 1e-300);
   const sorted = [...expectedHz].sort((a, b) => a - b);
-  const found: { hz: number; power: number; bin: number }[] = [];
+  const found: { hz: number; power: number; bin: number; ampDb: number }[] = [];
   for (const f of expectedHz) {
     const i = sorted.indexOf(f);
     const gapLo = i > 0 ? f - sorted[i - 1]! : Infinity, gapHi = i + 1 < sorted.length ? sorted[i + 1]! - f : Infinity;
@@ -93,18 +102,20 @@ export function readLines(x: Float64Array, rateHz: number, expectedHz: readonly 
       if (p[k]! >= p[k - 1]! && p[k]! >= p[k + 1]! && (best < 0 || p[k]! > p[best]!)) best = k;
     }
     if (best < 0) {
-      found.push({ hz: NaN, power: 0, bin: -1 });
+      found.push({ hz: NaN, power: 0, bin: -1, ampDb: NaN });
       continue;
     }
     const a = db(p[best - 1]!), b = db(p[best]!), c = db(p[best + 1]!);
     const den = a - 2 * b + c;
     const d = den < 0 ? (0.5 * (a - c)) / den : 0;
-    found.push({ hz: (best + d) * s.binHz, power: p[best]!, bin: best });
+    // Vertex of the parabola (dB of |X|²); the amplitude is 2|X|/Σw.
+    const peakDb = b - 0.25 * (a - c) * d;
+    found.push({ hz: (best + d) * s.binHz, power: p[best]!, bin: best, ampDb: peakDb + 20 * Math.log10(2 / s.windowSum) });
   }
   const top = Math.max(...found.map((q) => q.power));
   const partials = expectedHz.map((f, i) => {
     const q = found[i]!;
-    return { expectedHz: f, measuredHz: q.hz, cents: 1200 * Math.log2(q.hz / f), levelDb: db(q.power) - db(top) };
+    return { expectedHz: f, measuredHz: q.hz, cents: 1200 * Math.log2(q.hz / f), levelDb: db(q.power) - db(top), amplitudeDb: q.ampDb };
   });
   // Spurious: local maxima outside ±6 unpadded bins of every expected partial (and of the
   // partial actually found, in case it moved).
@@ -211,6 +222,8 @@ export function readOnsets(input: Float64Array, output: Float64Array, rateHz: nu
 export interface PartialsReport {
   /** Largest |cents| of the input's partials, found in the output at f·k. */
   worstCents: number;
+  /** Largest |level change| of those partials, dB (output amplitude against the input's). */
+  worstLevelDb: number;
   /** Partials compared. */
   partials: number;
   /** Strongest line in the output with none ≥ 10 dB louder (relative) in the input at f/k, dB re the strongest. */
@@ -234,8 +247,11 @@ function peaksOf(p: Float64Array, half: number, from: number, to: number): [numb
  * Partials of a steady stretch x[from, from + length) against y[yFrom, yFrom + length), every
  * frequency × `factor` (1 for a stretch, 2^(s/12) for a transposition): the input's local maxima
  * (over its main lobe, ±4 bins) within 50 dB of its strongest, 20 Hz … `maxHz`, at most `count`.
+ * Levels: the output's window spans length/`ratio` of the input (a stretch by `ratio` slows every
+ * partial's amplitude envelope by it: decays and beats), so each partial's amplitude in the output
+ * is compared with the input's through a window of length/ratio about the same centre.
  */
-export function comparePartials(x: Float64Array, y: Float64Array, rateHz: number, from: number, yFrom: number, length: number, factor: number, maxHz = 5000, count = 12): PartialsReport {
+export function comparePartials(x: Float64Array, y: Float64Array, rateHz: number, from: number, yFrom: number, length: number, factor: number, maxHz = 5000, count = 12, ratio = 1): PartialsReport {
   const a = lineSpectrum(x, rateHz, from, length), b = lineSpectrum(y, rateHz, yFrom, length);
   const lobe = Math.round(4 * a.pad);
   const db = (v: number) => 10 * Math.log10(v + 1e-300);
@@ -244,6 +260,15 @@ export function comparePartials(x: Float64Array, y: Float64Array, rateHz: number
   const chosen = inPeaks.filter(([, v]) => db(v) >= db(topIn) - 50).sort((p, q) => q[1] - p[1]).slice(0, count).map(([k]) => k * a.binHz);
   const expected = chosen.map((f) => f * factor);
   const lines = chosen.length ? readLines(y, rateHz, expected, yFrom, length) : null;
+  const inLength = Math.round(length / ratio);
+  const levelsIn = chosen.length ? readLines(x, rateHz, chosen, Math.round(from + length / 2 - inLength / 2), inLength) : null;
+  let worstLevelDb = chosen.length ? 0 : NaN;
+  if (lines && levelsIn) {
+    for (let i = 0; i < chosen.length; i++) {
+      const d = Math.abs(lines.partials[i]!.amplitudeDb - levelsIn.partials[i]!.amplitudeDb);
+      worstLevelDb = Math.max(worstLevelDb, Number.isFinite(d) ? d : Infinity);
+    }
+  }
   // New lines: output maxima (over the main lobe) whose relative level beats the input's at f/k by 10 dB.
   const outPeaks = peaksOf(b.power, lobe, Math.ceil((20 * factor) / b.binHz), Math.floor((maxHz * factor) / b.binHz));
   const topOut = Math.max(...outPeaks.map(([, v]) => v), 1e-300);
@@ -259,7 +284,7 @@ export function comparePartials(x: Float64Array, y: Float64Array, rateHz: number
       newHz = k * b.binHz;
     }
   }
-  return { worstCents: lines ? lines.worstCents : NaN, partials: chosen.length, newLineDb: newDb, newLineHz: newHz };
+  return { worstCents: lines ? lines.worstCents : NaN, worstLevelDb, partials: chosen.length, newLineDb: newDb, newLineHz: newHz };
 }
 
 /**
@@ -301,12 +326,39 @@ export function findHits(x: Float64Array, rateHz: number): number[] {
 const ltas = (x: Float64Array, rateHz: number) => thirdOctaveDb(powerSpectrum(x, 8192), rateHz, 300, 3500);
 
 /**
+ * The band the original occupies, Hz: 100 Hz blocks of its long-term spectrum (Welch, 8192-point
+ * Hann) within 40 dB of the loudest block, from the lowest such block's lower edge to the highest
+ * one's upper edge (a telephone recording stored at 16 or 44.1 kHz ends near 3.9 kHz).
+ */
+export function occupiedBandHz(x: Float64Array, rateHz: number): [number, number] {
+  const p = powerSpectrum(x, 8192);
+  const binHz = rateHz / 8192, per = Math.max(1, Math.round(100 / binHz));
+  const blocks: number[] = [];
+  for (let k = 1; k + per <= p.length; k += per) {
+    let e = 0;
+    for (let j = k; j < k + per; j++) e += p[j]!;
+    blocks.push(e / per);
+  }
+  const top = Math.max(...blocks);
+  let lo = 0, hi = blocks.length - 1;
+  while (lo < hi && blocks[lo]! < top * 1e-4) lo++;
+  while (hi > lo && blocks[hi]! < top * 1e-4) hi--;
+  return [(1 + lo * per) * binHz, (1 + (hi + 1) * per) * binHz];
+}
+
+/**
  * Spectral envelope deviation of a transposed voice: third-octave long-term spectra of input and
  * output from 315 Hz to 3.15 kHz (bands 300 Hz–3.5 kHz), their difference with its mean removed
- * (a level change is no envelope change); the largest |deviation|, dB.
+ * (a level change is no envelope change); the largest |deviation|, dB. A transposition by
+ * `factor` fills an output band [lo, hi] from the input's [lo/factor, hi/factor]; a band whose
+ * source reaches outside the band the original occupies (`occupiedBandHz`) has nothing to be made
+ * from (a telephone recording transposed down leaves its top band empty) and is not judged.
  */
-export function envelopeDeviationDb(x: Float64Array, y: Float64Array, rateHz: number): number {
-  const a = ltas(x, rateHz), b = ltas(y, rateHz);
+export function envelopeDeviationDb(x: Float64Array, y: Float64Array, rateHz: number, factor = 1): number {
+  const a0 = ltas(x, rateHz), b0 = ltas(y, rateHz);
+  const [occLo, occHi] = occupiedBandHz(x, rateHz);
+  const judged = a0.map((band) => (band.centreHz * 2 ** (-1 / 6)) / factor >= occLo && (band.centreHz * 2 ** (1 / 6)) / factor <= occHi);
+  const a = a0.filter((_, i) => judged[i]), b = b0.filter((_, i) => judged[i]);
   const d = a.map((band, i) => b[i]!.db - band.db);
   const mean = d.reduce((s, v) => s + v, 0) / d.length;
   return Math.max(...d.map((v) => Math.abs(v - mean)));

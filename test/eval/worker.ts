@@ -80,8 +80,9 @@ async function correct(t: CorrectTask): Promise<CorrectionResult> {
         const from = Math.round(0.6 * rate);
         const len = Math.min(Math.round(2.5 * rate), reference.length - from - Math.round(0.6 * rate));
         const yFrom = Math.round(ratio * (from + len / 2) - len / 2);
-        const r = comparePartials(reference, output, rate, from, yFrom, len, factor);
+        const r = comparePartials(reference, output, rate, from, yFrom, len, factor, 5000, 12, ratio);
         metrics.worstCents = r.worstCents;
+        metrics.worstLevelDb = r.worstLevelDb;
         metrics.newLineDb = r.newLineDb;
         metrics.newLineHz = r.newLineHz;
         metrics.partials = r.partials;
@@ -95,7 +96,7 @@ async function correct(t: CorrectTask): Promise<CorrectionResult> {
         metrics.preEchoRiseDb = Math.max(...o.map((q) => q.preEchoRiseDb));
         metrics.attackDb = Math.min(...o.map((q) => q.attackDb));
       } else {
-        metrics.envelopeDb = envelopeDeviationDb(reference, output, rate);
+        metrics.envelopeDb = envelopeDeviationDb(reference, output, rate, factor);
       }
     } else {
       const track = offsetTrack(output, reference, rate);
