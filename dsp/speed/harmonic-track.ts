@@ -162,24 +162,53 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   for (let s = first; s + winLen - 1 <= last; s += hop) starts.push(s);
   const W = starts.length;
   const taper = hann(winLen);
-  const sumTaper = taper.reduce((a, b) => a + b, 0);
   const qWin = taperNoise(taper, layout.correlation);
   const all = hann(usable);
   const qAll = taperNoise(all, layout.correlation);
 
-  // Noise variance per track sample: median over the windows of the tapered mean power (an
-  // overestimate when the line itself is strong, which only makes the statistics conservative).
+  // Noise variance per track sample, from the density near the line: per window, the median of
+  // the tapered, zero-padded periodogram over ±6 Hz of the track (each bin divided by the
+  // tracks' own noise shape R(f) = Σ_ℓ ρ(ℓ)·cos(2πfℓ/fb) for white input, so that the decimation
+  // filter's droop does not bias it), ÷ ln 2 (median ÷ mean of an exponential power) ÷ the taper's
+  // noise gain; then the median over the windows. What the track band holds farther out — a
+  // low note's partial a few hertz from the hum — leaks next to nothing into a 4-s fit at the
+  // line, so it is not counted as noise there (the whole track power would count it in full).
   const sigma2 = new Float64Array(H);
-  for (let j = 0; j < H; j++) {
-    const t = set.tracks[j]!;
-    const pw: number[] = [];
-    for (const st of starts) {
-      let s = 0;
-      for (let k = 0; k < winLen; k++) s += taper[k]! * (t.re[st + k]! ** 2 + t.im[st + k]! ** 2);
-      pw.push(s / sumTaper);
+  {
+    const nfft = Math.max(64, nextPowerOfTwo(2 * winLen));
+    const plan = new FftPlan(nfft);
+    const buf = new Float64Array(2 * nfft), spec = new Float64Array(2 * nfft);
+    const band = Math.min(6, 0.4 * fb);
+    const bins: number[] = [];
+    const shape: number[] = [];
+    const rho = layout.correlation;
+    for (let i = 0; i < nfft; i++) {
+      const f = ((i + nfft / 2) % nfft) - nfft / 2;
+      const hz = (f / nfft) * fb;
+      if (Math.abs(hz) > band) continue;
+      let r = rho[0]!;
+      for (let l = 1; l < rho.length; l++) r += 2 * rho[l]! * Math.cos((2 * Math.PI * hz * l) / fb);
+      bins.push(i);
+      shape.push(Math.max(r, 1e-6));
     }
-    pw.sort((a, b) => a - b);
-    sigma2[j] = Math.max(pw[pw.length >> 1]!, 1e-300);
+    const vals = new Float64Array(bins.length);
+    for (let j = 0; j < H; j++) {
+      const t = set.tracks[j]!;
+      const pw: number[] = [];
+      for (const st of starts) {
+        buf.fill(0);
+        for (let k = 0; k < winLen; k++) {
+          buf[2 * k] = taper[k]! * t.re[st + k]!;
+          buf[2 * k + 1] = taper[k]! * t.im[st + k]!;
+        }
+        plan.forward(buf, spec);
+        for (let b = 0; b < bins.length; b++) vals[b] = (spec[2 * bins[b]!]! ** 2 + spec[2 * bins[b]! + 1]! ** 2) / shape[b]!;
+        vals.sort();
+        pw.push(vals[vals.length >> 1]! / Math.LN2 / qWin);
+      }
+      pw.sort((a, b) => a - b);
+      sigma2[j] = Math.max(pw[pw.length >> 1]!, 1e-300);
+    }
   }
   const wML = Array.from(sigma2, (s) => 1 / s);
   /** Harmonic-sum statistic with ML weights: Σ_h |Z_h|²/σ_h² (for refinement near a known peak). */
@@ -576,7 +605,9 @@ export function linePersistence(set: TrackSet, layout: TrackLayout, f0At: (t: nu
   const fb = layout.trackRateHz;
   const n = set.tracks[0]!.length;
   const T = n / fb;
-  const segLen = Math.max(4, Math.round(Math.min(2, Math.max(0.5, T / 16)) * fb));
+  // Segments of T/16 within 0.5–2 s (0.25 s in a clip shorter than 4 s, so that it still has
+  // eight of them).
+  const segLen = Math.max(4, Math.round(Math.min(2, Math.max(T < 4 ? 0.25 : 0.5, T / 16)) * fb));
   const S = Math.floor(n / segLen);
   const H = set.harmonics.length;
   const none = { segments: S, coverage: 0, inconsistentShare: 1, judged: 0, perHarmonic: set.harmonics.map(() => ({ coverage: 0, inconsistentShare: 1 })) };
