@@ -426,11 +426,12 @@ export function persistenceEvidence(harmonics: readonly number[], p: LinePersist
   if (!est.includes(1) && (est.length === 0 || est.reduce(gcd) !== 1)) return 0;
   if (p.coverage * p.segments < 6) return 0;
   const badShare = judgedCells > 0 ? badCells / judgedCells : 1;
-  // Mains hum is a series (odd harmonics often stronger, common practice): one line alone, with
-  // no second harmonic established beside it, is weaker evidence (a steady low component of the
-  // programme can be one line), so it is capped below 0.5.
-  const series = est.length >= 2 ? 1 : 0.55;
-  return series * clamp01((0.25 - badShare) / 0.1) * clamp01((p.coverage - 0.3) / 0.3);
+  return clamp01((0.25 - badShare) / 0.1) * clamp01((p.coverage - 0.3) / 0.3);
+}
+
+/** The harmonics `persistenceEvidence` counts as established (judged in ≥ 30 % of the segments, at their level in ≥ 85 %). */
+export function establishedHarmonics(harmonics: readonly number[], p: LinePersistence): number[] {
+  return harmonics.filter((_, j) => p.perHarmonic[j]!.coverage >= 0.3 && p.perHarmonic[j]!.inconsistentShare <= 0.15);
 }
 
 const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
