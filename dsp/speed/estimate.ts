@@ -84,13 +84,18 @@ function humEvidence(m: HumMeasurement): number {
  * Mains hum is a series of lines (odd harmonics often stronger, common practice). One line alone,
  * with no second harmonic of it established in this measurement or in another one of the same
  * fundamental (plain and quiet-weighted tracks see different parts of the file), is weaker
- * evidence (a steady low component of the programme can be one line): × 0.55, below 0.5.
+ * evidence (a steady low component of the programme can be one line): × 0.55, below 0.5,
+ * unless the line shows at its level in nearly every segment.
  */
 function seriesShown(m: HumMeasurement, all: readonly HumMeasurement[], durationSeconds: number): number {
   const tol = Math.max(5e-4 * m.meanFundamentalHz, 2 / durationSeconds);
   const shown = (x: HumMeasurement) => establishedHarmonics(x.harmonicsUsed, x.persistence).length >= 2;
   if (shown(m)) return 1;
-  return all.some((o) => o !== m && Math.abs(o.meanFundamentalHz - m.meanFundamentalHz) <= tol && shown(o)) ? 1 : 0.55;
+  if (all.some((o) => o !== m && Math.abs(o.meanFundamentalHz - m.meanFundamentalHz) <= tol && shown(o))) return 1;
+  // A hum that is one pure line (filtered, or its harmonics masked) must then show in nearly every
+  // segment at its level: judged in ≥ 95 % of them, off its level in ≤ 5 %.
+  const f = m.persistence.perHarmonic[m.harmonicsUsed.indexOf(1)];
+  return f && f.coverage >= 0.95 && f.inconsistentShare <= 0.05 ? 1 : 0.55;
 }
 
 /**
