@@ -382,7 +382,29 @@ export class HumTracker {
   }
 
 
-  #measureGroup(g: TrackGroup, sampleRateHz: number): HumMeasurement | null {
+  #measureGroup(g: TrackGroup, sampleRateHz: number, again = true): HumMeasurement | null {
+    const m = this.#measureOnce(g, sampleRateHz);
+    if (!m || !again) return m;
+    // Each harmonic of hum tells the same story (one level through the file, one frequency ratio).
+    // A harmonic the segment check contradicts (judged in ≥ 30 % of the segments and off its level
+    // in > 30 % of those) is a note's partial sitting on it: measured with the others, its h²
+    // weight would pull the frequency. The series is measured again without it (the fundamental
+    // always stays: persistenceEvidence judges it).
+    const bad = m.harmonicsUsed.filter((h, j) => {
+      const x = m.persistence.perHarmonic[j]!;
+      return h !== 1 && x.coverage >= 0.3 && x.inconsistentShare > 0.3;
+    });
+    if (bad.length === 0) return m;
+    const keep = g.harmonics.map((h, j) => (bad.includes(h) ? -1 : j)).filter((j) => j >= 0);
+    if (!keep.some((j) => g.harmonics[j] === 1)) return m;
+    const again2 = this.#measureOnce(
+      { candidate: g.candidate, harmonics: keep.map((j) => g.harmonics[j]!), weights: keep.map((j) => g.weights[j]!), tracks: keep.map((j) => g.tracks[j]!) },
+      sampleRateHz,
+    );
+    return again2 ?? m;
+  }
+
+  #measureOnce(g: TrackGroup, sampleRateHz: number): HumMeasurement | null {
     const { set, layout } = this.#setAndLayout(g, sampleRateHz);
     const m = measureSeries(set, layout);
     if (!m) return null;
