@@ -77,7 +77,11 @@ function humEvidence(m: HumMeasurement): number {
   // only in the long run, where a loop repeats) does not: full weight up to 6 % of the judged
   // cells off the level, none from 10 %.
   const level = m.quiet ? clamp01((0.1 - m.persistence.inconsistentShare) / 0.04) : 1;
-  return detection * steady * level * persistenceEvidence(m.harmonicsUsed, m.persistence);
+  // The fundamental is mains hum's strongest line. When it cannot be judged (a note or a loop's
+  // ringing beside it) the series is inferred from its upper harmonics alone, which a drum loop's
+  // lines (at multiples of its repetition rate) can also supply: × 0.9, below the 0.9 claims.
+  const fundamentalShown = establishedHarmonics(m.harmonicsUsed, m.persistence).includes(1) ? 1 : 0.9;
+  return fundamentalShown * detection * steady * level * persistenceEvidence(m.harmonicsUsed, m.persistence);
 }
 
 /**
