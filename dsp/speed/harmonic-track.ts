@@ -162,24 +162,53 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   for (let s = first; s + winLen - 1 <= last; s += hop) starts.push(s);
   const W = starts.length;
   const taper = hann(winLen);
-  const sumTaper = taper.reduce((a, b) => a + b, 0);
   const qWin = taperNoise(taper, layout.correlation);
   const all = hann(usable);
   const qAll = taperNoise(all, layout.correlation);
 
-  // Noise variance per track sample: median over the windows of the tapered mean power (an
-  // overestimate when the line itself is strong, which only makes the statistics conservative).
+  // Noise variance per track sample, from the density near the line: per window, the median of
+  // the tapered, zero-padded periodogram over ±6 Hz of the track (each bin divided by the
+  // tracks' own noise shape R(f) = Σ_ℓ ρ(ℓ)·cos(2πfℓ/fb) for white input, so that the decimation
+  // filter's droop does not bias it), ÷ ln 2 (median ÷ mean of an exponential power) ÷ the taper's
+  // noise gain; then the median over the windows. What the track band holds farther out — a
+  // low note's partial a few hertz from the hum — leaks next to nothing into a 4-s fit at the
+  // line, so it is not counted as noise there (the whole track power would count it in full).
   const sigma2 = new Float64Array(H);
-  for (let j = 0; j < H; j++) {
-    const t = set.tracks[j]!;
-    const pw: number[] = [];
-    for (const st of starts) {
-      let s = 0;
-      for (let k = 0; k < winLen; k++) s += taper[k]! * (t.re[st + k]! ** 2 + t.im[st + k]! ** 2);
-      pw.push(s / sumTaper);
+  {
+    const nfft = Math.max(64, nextPowerOfTwo(2 * winLen));
+    const plan = new FftPlan(nfft);
+    const buf = new Float64Array(2 * nfft), spec = new Float64Array(2 * nfft);
+    const band = Math.min(6, 0.4 * fb);
+    const bins: number[] = [];
+    const shape: number[] = [];
+    const rho = layout.correlation;
+    for (let i = 0; i < nfft; i++) {
+      const f = ((i + nfft / 2) % nfft) - nfft / 2;
+      const hz = (f / nfft) * fb;
+      if (Math.abs(hz) > band) continue;
+      let r = rho[0]!;
+      for (let l = 1; l < rho.length; l++) r += 2 * rho[l]! * Math.cos((2 * Math.PI * hz * l) / fb);
+      bins.push(i);
+      shape.push(Math.max(r, 1e-6));
     }
-    pw.sort((a, b) => a - b);
-    sigma2[j] = Math.max(pw[pw.length >> 1]!, 1e-300);
+    const vals = new Float64Array(bins.length);
+    for (let j = 0; j < H; j++) {
+      const t = set.tracks[j]!;
+      const pw: number[] = [];
+      for (const st of starts) {
+        buf.fill(0);
+        for (let k = 0; k < winLen; k++) {
+          buf[2 * k] = taper[k]! * t.re[st + k]!;
+          buf[2 * k + 1] = taper[k]! * t.im[st + k]!;
+        }
+        plan.forward(buf, spec);
+        for (let b = 0; b < bins.length; b++) vals[b] = (spec[2 * bins[b]!]! ** 2 + spec[2 * bins[b]! + 1]! ** 2) / shape[b]!;
+        vals.sort();
+        pw.push(vals[vals.length >> 1]! / Math.LN2 / qWin);
+      }
+      pw.sort((a, b) => a - b);
+      sigma2[j] = Math.max(pw[pw.length >> 1]!, 1e-300);
+    }
   }
   const wML = Array.from(sigma2, (s) => 1 / s);
   /** Harmonic-sum statistic with ML weights: Σ_h |Z_h|²/σ_h² (for refinement near a known peak). */
@@ -545,6 +574,75 @@ export function goldenMax(f: (x: number) => number, lo: number, hi: number, iter
   return (lo + hi) / 2;
 }
 
+/** Σ_k c_k·z_k·e^{−jω(k − centre)} over one segment. */
+function segmentAt(re: TrackArray, im: TrackArray, start: number, c: Float64Array, centre: number, w: number): [number, number] {
+  let zr = 0, zi = 0;
+  const dc = Math.cos(w), ds = -Math.sin(w);
+  let cr = Math.cos(w * centre), ci = Math.sin(w * centre);
+  for (let k = 0; k < c.length; k++) {
+    const a = re[start + k]!, b = im[start + k]!;
+    zr += c[k]! * (a * cr - b * ci);
+    zi += c[k]! * (a * ci + b * cr);
+    const t = cr * dc - ci * ds;
+    ci = cr * ds + ci * dc;
+    cr = t;
+  }
+  return [zr, zi];
+}
+
+/**
+ * The line at angular offset w0 fitted together with the strongest component between 1.25 and
+ * 4.5 bins from it, when that component is a clear peak (≥ 10 × the median of the offsets
+ * searched). Least squares with taper weights c (symmetric about the centre, so the basis
+ * products γ(Δ) = Σ c·cos(Δ·(k − centre)) are real): a·Σc + b·γ = Z₁, a·γ + b·Σc = Z₂. Returns
+ * the line's amplitude a and the probes' summed power on the residual, or null.
+ */
+function jointWithNeighbour(
+  re: TrackArray, im: TrackArray, start: number, c: Float64Array, sc: number, centre: number, segLen: number, w0: number,
+  probes: readonly number[], fitRe: Float64Array, fitIm: Float64Array,
+): { re: number; im: number; probe: number } | null {
+  const binW = (2 * Math.PI) / segLen;
+  const offs: number[] = [], pows: number[] = [];
+  for (let b = -4.5; b <= 4.5 + 1e-9; b += 0.25) {
+    if (Math.abs(b) < 1.25) continue;
+    const [zr, zi] = segmentAt(re, im, start, c, centre, w0 + b * binW);
+    offs.push(b);
+    pows.push(zr * zr + zi * zi);
+  }
+  let at = 0;
+  for (let i = 1; i < pows.length; i++) if (pows[i]! > pows[at]!) at = i;
+  const sorted = [...pows].sort((x, y) => x - y);
+  if (!(pows[at]! >= 10 * sorted[sorted.length >> 1]!)) return null;
+  // Parabolic refinement in log power between grid neighbours on the same side.
+  let b2 = offs[at]!;
+  if (at > 0 && at < pows.length - 1 && Math.abs(offs[at + 1]! - offs[at - 1]!) < 0.51) {
+    const l = Math.log(pows[at - 1]! + 1e-300), m = Math.log(pows[at]! + 1e-300), r = Math.log(pows[at + 1]! + 1e-300);
+    const den = l - 2 * m + r;
+    if (den < 0) b2 += Math.max(-0.5, Math.min(0.5, (0.5 * (l - r)) / den)) * 0.25;
+  }
+  const w2 = w0 + b2 * binW;
+  const gamma = (d: number) => {
+    let v = 0;
+    for (let k = 0; k < c.length; k++) v += c[k]! * Math.cos(d * (k - centre));
+    return v;
+  };
+  const [z1r, z1i] = [fitRe[0]!, fitIm[0]!];
+  const [z2r, z2i] = segmentAt(re, im, start, c, centre, w2);
+  const g12 = gamma(w2 - w0);
+  const det = sc * sc - g12 * g12;
+  if (!(det > 1e-6 * sc * sc)) return null;
+  const ar = (sc * z1r - g12 * z2r) / det, ai = (sc * z1i - g12 * z2i) / det;
+  const br = (sc * z2r - g12 * z1r) / det, bi = (sc * z2i - g12 * z1i) / det;
+  let probe = 0;
+  for (let p = 0; p < probes.length; p++) {
+    const wp = w0 + probes[p]! * binW;
+    const ga = gamma(w0 - wp), gb = gamma(w2 - wp);
+    const rr = fitRe[p + 1]! - ar * ga - br * gb, ri = fitIm[p + 1]! - ai * ga - bi * gb;
+    probe += rr * rr + ri * ri;
+  }
+  return { re: ar, im: ai, probe };
+}
+
 /** How a line behaves through the file, segment by segment (see `linePersistence`). */
 export interface LinePersistence {
   /** Segments looked at (they tile the whole track). */
@@ -576,7 +674,9 @@ export function linePersistence(set: TrackSet, layout: TrackLayout, f0At: (t: nu
   const fb = layout.trackRateHz;
   const n = set.tracks[0]!.length;
   const T = n / fb;
-  const segLen = Math.max(4, Math.round(Math.min(2, Math.max(0.5, T / 16)) * fb));
+  // Segments of T/16 within 0.5–2 s (0.25 s in a clip shorter than 4 s, so that it still has
+  // eight of them).
+  const segLen = Math.max(4, Math.round(Math.min(2, Math.max(T < 4 ? 0.25 : 0.5, T / 16)) * fb));
   const S = Math.floor(n / segLen);
   const H = set.harmonics.length;
   const none = { segments: S, coverage: 0, inconsistentShare: 1, judged: 0, perHarmonic: set.harmonics.map(() => ({ coverage: 0, inconsistentShare: 1 })) };
@@ -648,7 +748,21 @@ export function linePersistence(set: TrackSet, layout: TrackLayout, f0At: (t: nu
       } else {
         let probe = 0;
         for (let p = 1; p <= PROBES.length; p++) probe += fitRe[p]! ** 2 + fitIm[p]! ** 2;
-        amp[s * H + j] = Math.hypot(fitRe[0]!, fitIm[0]!) / sc;
+        let ar = fitRe[0]! / sc, ai = fitIm[0]! / sc;
+        // A strong partial beside the line (a low note a few hertz from the hum) lifts the probes
+        // far more than it leaks into the line's fit. When the probes would hide the line, the
+        // strongest component off the line (±1.25…4.5 bins) is found and fitted jointly with the
+        // line (weighted least squares with two exponentials), and the probes are read on what is
+        // left: the note's partial is subtracted, not counted as noise.
+        if (probe / PROBES.length > (fitRe[0]! ** 2 + fitIm[0]! ** 2) / 16) {
+          const two = jointWithNeighbour(t.re, t.im, start, c, sc, centre, segLen, w0, PROBES, fitRe, fitIm);
+          if (two) {
+            ar = two.re;
+            ai = two.im;
+            probe = two.probe;
+          }
+        }
+        amp[s * H + j] = Math.hypot(ar, ai);
         sig[s * H + j] = Math.sqrt(probe / PROBES.length / 2) / sc;
       }
     }

@@ -30,6 +30,7 @@ import { WelchAccumulator } from '../core/welch.ts';
 import { Decimator } from '../core/decimate.ts';
 import { HeterodyneTrack } from './heterodyne.ts';
 import { QuietGain, QuietWeighting } from './quiet-weight.ts';
+import { SteadySpectrum } from './steady-spectrum.ts';
 import { speedPrior } from './standard.ts';
 import { linePersistence, measureSeries, trackNoiseCorrelation, type LinePersistence, type SeriesMeasurement, type TrackLayout, type TrackSet } from './harmonic-track.ts';
 
@@ -71,6 +72,8 @@ export interface HumCandidate {
   harmonicSnrDb: number[];
   /** Found in the quiet-weighted spectrum, and measured on quiet-weighted tracks. */
   quiet?: boolean;
+  /** Found in the spectrum of what is always there (./steady-spectrum.ts); measured on plain tracks. */
+  steady?: boolean;
 }
 
 export interface HumHypothesis {
@@ -108,6 +111,7 @@ export class HumSearch {
   readonly #welch: WelchAccumulator;
   readonly #welchQuiet: WelchAccumulator;
   readonly #quiet: QuietWeighting;
+  readonly #steady: SteadySpectrum;
   #quietDone = false;
 
   constructor(sampleRateHz: number, totalFrames: number) {
@@ -120,12 +124,14 @@ export class HumSearch {
     this.#welch = new WelchAccumulator({ sampleRateHz: this.decimatedRateHz, channelCount: 1, fftSize: fft, window: 'hann' });
     this.#welchQuiet = new WelchAccumulator({ sampleRateHz: this.decimatedRateHz, channelCount: 1, fftSize: fft, window: 'hann' });
     this.#quiet = new QuietWeighting(this.decimatedRateHz);
+    this.#steady = new SteadySpectrum(this.decimatedRateHz, len, Math.min(0.4 * this.decimatedRateHz, MAX_HARMONIC_HZ * 1.1));
   }
 
   push(mono: Float64Array): void {
     const y = this.#dec.process(mono);
     if (!y.length) return;
     this.#welch.push([y]);
+    this.#steady.push(y);
     const q = this.#quiet.push(y);
     if (q.length) this.#welchQuiet.push([q]);
   }
@@ -145,26 +151,41 @@ export class HumSearch {
 
   /**
    * Candidates, best first, from the plain spectrum, then from the quiet-weighted one (marked
-   * `quiet`). `mainsHz` restricts the fundamental range. `floorAt(hz, quiet)` is the spectrum's
-   * noise floor at a frequency.
+   * `quiet`), then from the spectrum of what is always there (marked `steady`; those the plain
+   * spectrum already gave are left out). `mainsHz` restricts the fundamental range.
+   * `floorAt(hz, quiet)` is the spectrum's noise floor at a frequency.
    */
   candidates(mainsHz?: 50 | 60, maxCount = 6): { candidates: HumCandidate[]; floorAt: (hz: number, quiet?: boolean) => number } {
     this.#finishQuiet();
-    const plain = spectrumCandidates(this.#welch, this.decimatedRateHz, mainsHz, maxCount, false);
+    const fsd = this.decimatedRateHz;
+    const w = this.#welch.result(), wq = this.#welchQuiet.result();
+    const plain = spectrumCandidates(w.meanPower[0]!, w.binWidthHz, fsd, mainsHz, maxCount, {});
     // As many from the quiet spectrum: an exactly repeating drum loop puts steady lines of its own
     // there (at multiples of its repetition rate), and fewer candidates can leave only such a line
     // measured, with nothing to show that another line is as credible.
-    const quiet = spectrumCandidates(this.#welchQuiet, this.decimatedRateHz, mainsHz, maxCount, true);
-    return { candidates: [...plain.candidates, ...quiet.candidates], floorAt: (hz, q) => (q ? quiet.floorAt(hz) : plain.floorAt(hz)) };
+    const quiet = spectrumCandidates(wq.meanPower[0]!, wq.binWidthHz, fsd, mainsHz, maxCount, { quiet: true });
+    const sp = this.#steady.result();
+    // Ranked on what is always there, each bin counted in proportion to how steadily it is there:
+    // weight clamp((low/mean − 0.25)/0.5) (1 for a line at one level, about 0.2 for a partial
+    // decaying by 10 dB through the file, 0 for one that comes and goes).
+    const steadyWeight = sp ? Float64Array.from(sp.low, (v, k) => clamp01((v / Math.max(sp.mean[k]!, 1e-300) - 0.25) / 0.5)) : null;
+    const steady = sp
+      ? spectrumCandidates(sp.low, this.#steady.binWidthHz, fsd, mainsHz, STEADY_CANDIDATES, { steady: true }, steadyWeight!).candidates.filter(
+          (c) => !plain.candidates.some((p) => Math.abs(c.fundamentalHz / p.fundamentalHz - 1) < 0.003),
+        )
+      : [];
+    return { candidates: [...plain.candidates, ...quiet.candidates, ...steady], floorAt: (hz, q) => (q ? quiet.floorAt(hz) : plain.floorAt(hz)) };
   }
 }
 
+/** Candidates taken from the spectrum of what is always there. */
+const STEADY_CANDIDATES = 6;
+
 function spectrumCandidates(
-  welch: WelchAccumulator, fsd: number, mainsHz: 50 | 60 | undefined, maxCount: number, quiet: boolean,
+  p: Float64Array, bw: number, fsd: number, mainsHz: 50 | 60 | undefined, maxCount: number, mark: { quiet?: true; steady?: true },
+  /** Per-bin weight of the SNR in the ranking (default 1). */
+  binWeight?: Float64Array,
 ): { candidates: HumCandidate[]; floorAt: (hz: number) => number } {
-  const w = welch.result();
-  const p = w.meanPower[0]!;
-  const bw = w.binWidthHz;
 
   const kLo = Math.max(2, Math.floor(8 / bw));
   const kHi = Math.min(p.length - 3, Math.floor(Math.min(0.4 * fsd, MAX_HARMONIC_HZ * 1.1) / bw));
@@ -202,6 +223,11 @@ function spectrumCandidates(
     if (k < kLo || k + 1 > kHi) return 0;
     return Math.max(p[k]! / floorBin(k), p[k + 1]! / floorBin(k + 1));
   };
+  /** The ranking weight at frequency f (largest of the two bins around it). */
+  const weightAt = (f: number): number => {
+    const k = Math.floor(f / bw);
+    return binWeight && k + 1 < binWeight.length ? Math.max(binWeight[k]!, binWeight[k + 1]!) : 0;
+  };
   // Harmonic-sum statistic over the first H harmonics (H ∈ {3, 6, 12}): under noise alone each
   // term p/median is exponential with mean 1/ln 2, so the sum of H terms has mean H/ln 2 and
   // standard deviation √H/ln 2; candidates rank by the best z-score.
@@ -219,10 +245,10 @@ function spectrumCandidates(
     for (let h = 1; h <= hMax; h++) {
       const r = h === 1 ? p[k]! / floorBin(k) : ratioAt(h * f0);
       harmonicSnrDb.push(10 * Math.log10(Math.max(r, 1e-12)));
-      sum += Math.min(r, 1000);
+      sum += Math.min(r, 1000) * (binWeight ? weightAt(h * f0) : 1);
       if (h === 3 || h === 6 || h === 12 || h === hMax) score = Math.max(score, (sum - h * mu) / (Math.sqrt(h) * mu));
     }
-    found.push({ fundamentalHz: f0, score, harmonicSnrDb, ...(quiet ? { quiet: true } : {}) });
+    found.push({ fundamentalHz: f0, score, harmonicSnrDb, ...mark });
   }
   found.sort((a, b) => b.score - a.score);
   // Keep distinct fundamentals. Multiples and sub-multiples of a better candidate stay: the
@@ -317,17 +343,18 @@ export class HumTracker {
     // A cheap look first, at each candidate's coarse frequency: a series whose fundamental is not
     // at one level through the file, or that can hardly be seen anywhere, cannot be hum
     // (persistenceEvidence), so the costly measurement is spared; of the rest the MAX_MEASURED
-    // that persist best are measured, from the plain and from the quiet-weighted tracks each.
+    // that persist best are measured from each of the three searches (plain, quiet-weighted, steady).
     const coarse = this.#groups.map((g) => {
       const { set, layout } = this.#setAndLayout(g, sampleRateHz);
       const lp = linePersistence(set, layout, () => g.candidate.fundamentalHz);
       return persistenceEvidence(g.harmonics, lp);
     });
     const chosen = new Set<number>();
-    for (const quiet of [false, true]) {
+    const kind = (c: HumCandidate) => (c.quiet ? 'quiet' : c.steady ? 'steady' : 'plain');
+    for (const k of ['plain', 'quiet', 'steady']) {
       coarse
         .map((e, i) => ({ e, i }))
-        .filter((x) => x.e > 0 && !!this.#groups[x.i]!.candidate.quiet === quiet)
+        .filter((x) => x.e > 0 && kind(this.#groups[x.i]!.candidate) === k)
         .sort((a, b) => b.e - a.e || a.i - b.i)
         .slice(0, MAX_MEASURED)
         .forEach((x) => chosen.add(x.i));
@@ -355,7 +382,29 @@ export class HumTracker {
   }
 
 
-  #measureGroup(g: TrackGroup, sampleRateHz: number): HumMeasurement | null {
+  #measureGroup(g: TrackGroup, sampleRateHz: number, again = true): HumMeasurement | null {
+    const m = this.#measureOnce(g, sampleRateHz);
+    if (!m || !again) return m;
+    // Each harmonic of hum tells the same story (one level through the file, one frequency ratio).
+    // A harmonic the segment check contradicts (judged in ≥ 30 % of the segments and off its level
+    // in > 30 % of those) is a note's partial sitting on it: measured with the others, its h²
+    // weight would pull the frequency. The series is measured again without it (the fundamental
+    // always stays: persistenceEvidence judges it).
+    const bad = m.harmonicsUsed.filter((h, j) => {
+      const x = m.persistence.perHarmonic[j]!;
+      return h !== 1 && x.coverage >= 0.3 && x.inconsistentShare > 0.3;
+    });
+    if (bad.length === 0) return m;
+    const keep = g.harmonics.map((h, j) => (bad.includes(h) ? -1 : j)).filter((j) => j >= 0);
+    if (!keep.some((j) => g.harmonics[j] === 1)) return m;
+    const again2 = this.#measureOnce(
+      { candidate: g.candidate, harmonics: keep.map((j) => g.harmonics[j]!), weights: keep.map((j) => g.weights[j]!), tracks: keep.map((j) => g.tracks[j]!) },
+      sampleRateHz,
+    );
+    return again2 ?? m;
+  }
+
+  #measureOnce(g: TrackGroup, sampleRateHz: number): HumMeasurement | null {
     const { set, layout } = this.#setAndLayout(g, sampleRateHz);
     const m = measureSeries(set, layout);
     if (!m) return null;
@@ -400,6 +449,11 @@ export function persistenceEvidence(harmonics: readonly number[], p: LinePersist
   if (p.coverage * p.segments < 6) return 0;
   const badShare = judgedCells > 0 ? badCells / judgedCells : 1;
   return clamp01((0.25 - badShare) / 0.1) * clamp01((p.coverage - 0.3) / 0.3);
+}
+
+/** The harmonics `persistenceEvidence` counts as established (judged in ≥ 30 % of the segments, at their level in ≥ 85 %). */
+export function establishedHarmonics(harmonics: readonly number[], p: LinePersistence): number[] {
+  return harmonics.filter((_, j) => p.perHarmonic[j]!.coverage >= 0.3 && p.perHarmonic[j]!.inconsistentShare <= 0.15);
 }
 
 const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
