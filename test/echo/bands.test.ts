@@ -5,7 +5,7 @@
  * both halves of the passages compared (detect.ts, ptBandsDisagree and ptHalvesDisagree).
  */
 import { describe, expect, it } from 'vitest';
-import { analyseEcho, bandVerdict, ptBandsDisagree, ptHalvesDisagree } from '../../dsp/echo/detect.ts';
+import { analyseEcho, bandVerdict, FEW_FRAMES, FEW_FRAMES_CONFIDENCE, ptBandsDisagree, ptHalvesDisagree } from '../../dsp/echo/detect.ts';
 import { echoBands, frameEvidence } from '../../dsp/echo/evidence.ts';
 import { MemorySource } from '../../dsp/source.ts';
 import { addEchoes, delayExact } from '../helpers/delay.ts';
@@ -99,6 +99,20 @@ describe('band-by-band reading of a reflection', () => {
     // The lowest band alone may disagree (a low note's few partials).
     expect(bandVerdict([band(125, -0.2), band(250, 0.2), band(500, 0.19)], 0.2, '12.2')).toBeNull();
   });
+});
+
+describe('thin frame evidence', () => {
+  it('a long reflection in a short file (under 10 frames of 4·τ) stands, at confidence ≤ 0.8', async () => {
+    // Source: truth by construction, y = x + 0.4·x(t − 450 ms) by the DFT shift theorem on 12 s
+    // of voice-like material: frames 4·τ long leave fewer than 10 of them.
+    const { x } = voiceLike({ sampleRateHz: fs, seconds: 12, seed: 3 });
+    const r = (await analyseEcho(new MemorySource([addEchoes(x, [{ delaySamples: 0.45 * fs, gain: 0.4 }])], fs))).reflection;
+    expect(r.evidence).not.toBeNull();
+    expect(r.evidence!.frames).toBeLessThan(FEW_FRAMES);
+    expect(r.present).toBe(true);
+    expect(Math.abs(r.delaySeconds! - 0.45) * fs).toBeLessThanOrEqual(0.1);
+    expect(r.confidence).toBeLessThanOrEqual(FEW_FRAMES_CONFIDENCE);
+  }, 60_000);
 });
 
 describe('print-through: one level in every band and through the file', () => {
