@@ -117,6 +117,8 @@ export interface PrintThroughResult {
   z: number;
   /** Whether the full-rate refinement ran (otherwise the values come from the ≈4 kHz search). */
   refined: boolean;
+  /** The refinement's band gains and the two halves' gains and scores (print-through.ts), when it ran. */
+  detail: { bandGains: Array<number | null>; halves: Array<{ gain: number; z: number }> | null } | null;
 }
 
 export interface EchoAnalysis {
@@ -182,7 +184,69 @@ export const floorDisagrees = (q: number, g: number): boolean => Math.abs(q - g)
  */
 export const SHARE_RANGE: readonly [number, number] = [0.75, 1.25];
 
-const noPrintThrough = (): PrintThroughResult => ({ present: false, reason: null, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false });
+/**
+ * Largest band reading allowed against the gain ĝ measured on the whole programme: |b| ≤
+ * BAND_OVER·|ĝ| + 0.05. A frame reads a reflection at most at its full gain (less for strong
+ * ones: the window keeps only part of the echo, and the log compresses it); on the corpus true
+ * reflections of 0.2–0.9 read at most 1.15·|ĝ| + 0.03 in any band. A drone's or a held chord's
+ * partials that happen to fall on the ripple's crests read far more (a sitar's 12.2 ms: 0.97
+ * against 0.22; an organ note held twice, 28 ms: −0.59 against −0.30; a held bass C2 whose period
+ * 15.3 ms passed for a reflection beside a true one at 148 ms: 2.0 against 0.59). It costs a true
+ * reflection on a held organ B1 (9.0 ms / −0.3 read −1.18 below 1 kHz): held harmonic notes leave
+ * deep valleys between their partials, and where they fall on the ripple is chance.
+ */
+export const BAND_OVER = 1.5;
+/**
+ * Smallest band reading, as a share of the largest, in the bands above the lowest one with
+ * programme (where a low note's few partials sample the ripple only at their own frequencies, so
+ * that band can read anything: a piano B1 with a true 30.8 ms / 0.9 reflection read −0.56 there).
+ * True reflections read 0.26 and more; a rhythm or chord read as one has bands at 0 or of the
+ * other sign (a funk loop's half beat, 227 ms: +0.28…+0.48 in the middle, −0.99 at the top).
+ */
+export const BAND_MIN_SHARE = 0.2;
+
+/**
+ * The band-by-band test of a reflection at gain ĝ (evidence.ts, `bands`): one gain in every band
+ * with programme, of the sign of ĝ and not far above it (that part also with one band only).
+ * Null when it holds, else the verdict with its reason.
+ */
+export function bandVerdict(
+  bands: FrameEvidence['bands'],
+  gain: number,
+  ms: string,
+): { present: boolean | null; reason: string } | null {
+  const b = bands.filter((x): x is typeof x & { gain: number; gainStd: number } => x.gain !== null && x.gainStd !== null);
+  const hz = (x: (typeof b)[number]) => `${Math.round(x.loHz)}–${Math.round(x.hiHz)} Hz`;
+  // Each band's reading is taken at its median's lower (upper) end, two standard errors away.
+  const over = b.find((x) => Math.abs(x.gain) - 2 * x.gainStd > BAND_OVER * Math.abs(gain) + 0.05);
+  if (over) {
+    return {
+      present: false,
+      reason: `at ${ms} ms the ${hz(over)} band reads ${over.gain.toFixed(3)}, far more than the ${gain.toFixed(3)} measured over the whole programme: the partials of a held note or drone, not a reflection (which has one gain in every band)`,
+    };
+  }
+  if (b.length < 2) return null;
+  const upper = b.length >= 3 ? b.slice(1) : b;
+  const top = Math.max(...upper.map((x) => Math.abs(x.gain) - 2 * x.gainStd));
+  const off = upper.find((x) => x.gain * Math.sign(gain) + 2 * x.gainStd < BAND_MIN_SHARE * top);
+  if (off) {
+    return {
+      present: false,
+      reason: `at ${ms} ms the bands disagree (${upper.map((x) => `${hz(x)}: ${x.gain.toFixed(3)}`).join(', ')}; overall ${gain.toFixed(3)}): a rhythm, chord or repeat in part of the spectrum, not a reflection, which delays the whole programme with one gain`,
+    };
+  }
+  return null;
+}
+
+/**
+ * Below this many frames with programme the frame evidence is thin (long delays in short files:
+ * frames are 4·τ long), and a reflection found is reported with at most FEW_FRAMES_CONFIDENCE.
+ * On the corpus a contrabass's chords read 453.6 ms / 0.047 from 5 frames at confidence 1.
+ */
+export const FEW_FRAMES = 10;
+export const FEW_FRAMES_CONFIDENCE = 0.8;
+
+const noPrintThrough = (): PrintThroughResult => ({ present: false, reason: null, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false, detail: null });
 
 /**
  * The coarse candidates in the order they are looked at: significant peaks strongest first, then
@@ -216,6 +280,43 @@ function chooseExcerpt(energies: readonly number[], fs: number, frames: number, 
   }
   const start = Math.min(bestStart * fs, frames - length);
   return { start, end: start + length };
+}
+
+/**
+ * Largest level difference, dB, between the copy's readings in the low and middle bands
+ * (100–700 Hz, 0.7–2 kHz), and between the two halves of the frame pairs. On the corpus true
+ * print-through at −40…−60 dB read within 1 dB across those bands and 2.4 dB between the halves;
+ * the programme's own likeness at 2–4 s (a sitar's chords, a pad's sweep, a sea sound played
+ * twice) read 11–18 dB apart.
+ */
+export const PT_LEVEL_SPREAD_DB = 6;
+/** How far the high band (2–5 kHz) may read above the louder of the two others, dB: tape prints its highs less, not more. */
+export const PT_HIGH_OVER_DB = 3;
+
+const levelOf = (g: number) => 20 * Math.log10(Math.max(1e-12, Math.abs(g)));
+
+/** Why the print-through band gains (low, mid, high; null where empty) are not one copy's, or null. */
+export function ptBandsDisagree(bandGains: ReadonlyArray<number | null>): string | null {
+  const [lo, mid, hi] = bandGains;
+  if (lo != null && mid != null && Math.abs(levelOf(lo) - levelOf(mid)) > PT_LEVEL_SPREAD_DB) {
+    return `reads ${levelOf(lo).toFixed(1)} dB at 100–700 Hz and ${levelOf(mid).toFixed(1)} dB at 0.7–2 kHz`;
+  }
+  const ref = Math.max(lo != null ? levelOf(lo) : -Infinity, mid != null ? levelOf(mid) : -Infinity);
+  if (hi != null && Number.isFinite(ref) && levelOf(hi) > ref + PT_HIGH_OVER_DB) {
+    return `reads ${levelOf(hi).toFixed(1)} dB at 2–5 kHz, above the ${ref.toFixed(1)} dB below 2 kHz`;
+  }
+  return null;
+}
+
+/** Why the two halves' readings of a copy at gain g are not one copy's, or null. */
+export function ptHalvesDisagree(halves: ReadonlyArray<{ gain: number; z: number }>, g: number): string | null {
+  const [a, b] = halves;
+  if (!a || !b) return null;
+  if (Math.sign(a.gain) !== Math.sign(g) || Math.sign(b.gain) !== Math.sign(g) || Math.abs(levelOf(a.gain) - levelOf(b.gain)) > PT_LEVEL_SPREAD_DB) {
+    const read = (h: { gain: number }) => `${levelOf(h.gain).toFixed(1)} dB${h.gain * g < 0 ? ' of the opposite polarity' : ''}`;
+    return `reads ${read(a)} in the earlier half of the passages compared and ${read(b)} in the later one`;
+  }
+  return null;
 }
 
 /** Runs the whole analysis. */
@@ -356,6 +457,8 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
             // 0.55), so there the older rule, the median's size against ĝ, decides.
             // (Where most frames are locked the few others must show the echo more clearly.)
             verdict = { present: false, reason: `the peak at ${ms} ms comes from a few moments (a repeated note, hit or phrase), not from the whole programme as a reflection would` };
+          } else if (bandVerdict(evidence.bands, gain, ms) !== null) {
+            verdict = bandVerdict(evidence.bands, gain, ms);
           } else if (pair !== null && (pair * Math.sign(gain) < 0.4 * Math.abs(gain) - 0.2 || pair * Math.sign(gain) > 2 * Math.abs(gain) + 0.05)) {
             // (The later frame's own new sounds dilute the pair regression, most for weak echoes
             // on sparse notes: a music box's 61.7 ms / 0.35 reads −0.035; a strong one must
@@ -370,7 +473,9 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         if (f) filter = { firstTapSamples: f.kernel.offset, firstTapDelaySeconds: f.kernel.offset / fs, taps: Array.from(f.kernel.taps) };
       }
     }
-    const confidence = confidenceFromZ(z);
+    // With fewer than FEW_FRAMES frames the frame-by-frame checks are medians of a handful of
+    // readings: the claim may stand, but not with a confidence of 0.9 or more.
+    const confidence = Math.min(confidenceFromZ(z), evidence !== null && evidence.frames < FEW_FRAMES ? FEW_FRAMES_CONFIDENCE : 1);
     return {
       present: verdict ? verdict.present : confidence >= 0.5,
       reason: verdict ? verdict.reason : null,
@@ -458,6 +563,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
       let confidence = confidenceFromZ(pick.z);
       let lagSamples = pick.lag * pt.factor, gain = pick.gain, refinedOk = false;
       let verdict: { present: boolean | null; reason: string } | null = null;
+      let detail: PrintThroughResult['detail'] = null;
       if (confidence >= 0.5) {
         // Print-through is a faint copy of the loud passages in the quiet ones (about −40 to
         // −65 dB, highs reduced): the full-rate look must confirm the copy the coarse search saw,
@@ -468,6 +574,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         if (!r || !(Math.abs(r.lagSamples - lagSamples) <= 1.5 * pt.factor) || !(r.gain !== 0)) {
           verdict = { present: false, reason: 'the copy seen in the coarse search is not confirmed at the full rate' };
         } else {
+          detail = { bandGains: r.bandGains, halves: r.halves };
           lagSamples = r.lagSamples;
           gain = r.gain;
           refinedOk = true;
@@ -482,6 +589,10 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
             verdict = { present: false, reason: `a copy ${when} at ${db.toFixed(1)} dB is far too strong for print-through (about −40 to −65 dB): the programme repeating itself` };
           } else if (bands.length >= 2 && agree < bands.length) {
             verdict = { present: false, reason: `the likeness ${when} is not broadband (${agree} of ${bands.length} bands agree): a sound's own tail or a repeated note, not a copy from the tape` };
+          } else if (ptBandsDisagree(r.bandGains) !== null) {
+            verdict = { present: false, reason: `the copy ${when} ${ptBandsDisagree(r.bandGains)}: a copy from the tape has one level in every band (its highs at most somewhat lower), this is the programme's own likeness` };
+          } else if (r.halves !== null && ptHalvesDisagree(r.halves, gain) !== null) {
+            verdict = { present: false, reason: `the copy ${when} ${ptHalvesDisagree(r.halves, gain)}: a copy from the tape is there at one level through the file, this likeness is in one place (a sound or texture repeated)` };
           } else if (db < PRINT_THROUGH_MIN_DB) {
             verdict = { present: null, reason: `a copy ${when} at ${db.toFixed(1)} dB is too faint to stand behind` };
           }
@@ -498,6 +609,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         confidence: verdict ? Math.min(confidence, 0.49) : confidence,
         z: pick.z,
         refined: refinedOk,
+        detail,
       };
     }
   }

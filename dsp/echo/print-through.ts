@@ -296,6 +296,12 @@ export interface RefinedLag {
    * its own attack only at its partials, with their own phases.
    */
   bandGains: Array<number | null>;
+  /**
+   * The gain at the common lag from the earlier and the later half of the frame pairs (in time
+   * order), with each half's z: a copy from the tape is there at one level through the file; a
+   * likeness between two moments of the programme is in one place.
+   */
+  halves: Array<{ gain: number; z: number }> | null;
 }
 
 /**
@@ -324,6 +330,8 @@ export async function refinePrintThrough(
   const fq = new Float64Array(n), fl = new Float64Array(n);
   const Q = new Float64Array(n + 2), L = new Float64Array(n + 2);
   const S = new Float64Array(n + 2), E = new Float64Array(n / 2 + 1), V = new Float64Array(n / 2 + 1);
+  // The later half of the pairs also on its own (the earlier half is the whole less this).
+  const S2 = new Float64Array(n + 2), E2 = new Float64Array(n / 2 + 1), V2 = new Float64Array(n / 2 + 1);
   const blockFull = masks.blockSamples * factor;
   const allSet = (mask: Uint8Array, from: number, to: number) => {
     const b0 = Math.floor(from / blockFull), b1 = Math.floor((to - 1) / blockFull);
@@ -331,6 +339,13 @@ export async function refinePrintThrough(
     for (let b = b0; b <= b1; b++) if (!mask[b]) return false;
     return true;
   };
+  // The pairs there will be, from the masks alone (to split them into two halves in time).
+  let total = 0;
+  for (let p = 0; ; p += hop) {
+    if (Math.min(p, p + t0) < 0) continue;
+    if (Math.max(p, p + t0) + n > source.frames) break;
+    if (allSet(masks.quiet, p, p + n) && allSet(masks.loud, p + t0, p + t0 + n)) total++;
+  }
   // Sliding buffer of full-rate samples.
   const span = Math.abs(t0) + n;
   let buf = new Float64Array(span + 131072);
@@ -358,6 +373,15 @@ export async function refinePrintThrough(
           S[2 * k + 1]! += qi * lr - qr * li;
           E[k]! += lr * lr + li * li;
           V[k]! += (qr * qr + qi * qi) * (lr * lr + li * li);
+        }
+        if (pairs >= total / 2) {
+          for (let k = 0; k <= n / 2; k++) {
+            const qr = Q[2 * k]!, qi = Q[2 * k + 1]!, lr = L[2 * k]!, li = L[2 * k + 1]!;
+            S2[2 * k]! += qr * lr + qi * li;
+            S2[2 * k + 1]! += qi * lr - qr * li;
+            E2[k]! += lr * lr + li * li;
+            V2[k]! += (qr * qr + qi * qi) * (lr * lr + li * li);
+          }
         }
         pairs++;
       }
@@ -432,7 +456,19 @@ export async function refinePrintThrough(
     }
     bandGains.push(kHi > kLo && be > 0.02 * eSum ? br / be : null);
   }
-  return { lagSamples: t0 + bestD, gain: re / eSum, pairs, z: vSum > 0 ? re / Math.sqrt(0.5 * vSum) : 0, bandGains };
+  // The two halves at the common lag: the later from S2, the earlier as the whole less the later.
+  let re2 = 0, e2 = 0, var2 = 0;
+  for (let k = 0; k <= n / 2; k++) {
+    const w = (2 * Math.PI * k) / n;
+    re2 += S2[2 * k]! * Math.cos(w * bestD) + S2[2 * k + 1]! * Math.sin(w * bestD);
+    e2 += E2[k]!;
+    var2 += V2[k]!;
+  }
+  const e1 = eSum - e2, re1 = re - re2, var1 = vSum - var2;
+  const halves = e1 > 0 && e2 > 0 && var1 > 0 && var2 > 0
+    ? [{ gain: re1 / e1, z: re1 / Math.sqrt(0.5 * var1) }, { gain: re2 / e2, z: re2 / Math.sqrt(0.5 * var2) }]
+    : null;
+  return { lagSamples: t0 + bestD, gain: re / eSum, pairs, z: vSum > 0 ? re / Math.sqrt(0.5 * vSum) : 0, bandGains, halves };
 }
 
 /**
