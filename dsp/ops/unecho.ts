@@ -144,13 +144,14 @@ export const unecho = defineCorrection({
       const rf = a.reflection, pt = a.printThrough;
       if (rf.present === true && rf.delaySeconds !== null && rf.gain !== null) {
         echoes.push({ kind: 'reflection', delaySeconds: rf.delaySeconds, gain: rf.gain, source: 'measured', filter: rf.filter ?? undefined });
-      } else if (rf.present === null && rf.reason) {
-        left.push(`reflection not determined: ${rf.reason}`);
+      } else if (rf.reason) {
+        // A peak was seen and not cancelled: say so, and why (not determined, or set aside).
+        left.push(`reflection ${rf.present === null ? 'not determined' : 'set aside'}: ${rf.reason}`);
       }
       if (pt.present === true && pt.delaySeconds !== null && pt.gain !== null) {
         echoes.push({ kind: 'print-through', delaySeconds: pt.delaySeconds, gain: pt.gain, source: 'measured' });
-      } else if (pt.present === null && pt.reason) {
-        left.push(`print-through not determined: ${pt.reason}`);
+      } else if (pt.reason) {
+        left.push(`print-through ${pt.present === null ? 'not determined' : 'set aside'}: ${pt.reason}`);
       }
       if (!echoes.length) {
         throw new NotFoundError(

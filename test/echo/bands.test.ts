@@ -8,6 +8,8 @@ import { describe, expect, it } from 'vitest';
 import { analyseEcho, bandVerdict, FEW_FRAMES, FEW_FRAMES_CONFIDENCE, ptBandsDisagree, ptHalvesDisagree } from '../../dsp/echo/detect.ts';
 import { echoBands, frameEvidence } from '../../dsp/echo/evidence.ts';
 import { MemorySource } from '../../dsp/source.ts';
+import { unecho } from '../../dsp/ops/unecho.ts';
+import { silentContext } from '../../dsp/ops/types.ts';
 import { addEchoes, delayExact } from '../helpers/delay.ts';
 import { voiceLike } from '../helpers/voice.ts';
 
@@ -88,6 +90,19 @@ describe('band-by-band reading of a reflection', () => {
     expect(v).not.toBeNull();
     expect(v!.present).toBe(false);
   });
+
+  it('unecho cancels the print-through it found and says which peak it left, and why', async () => {
+    // Source: by construction — one 2 s phrase heard again 200 ms later at 0.5 (a repeat in a
+    // few moments, which a reflection is not) plus a −40 dB copy of everything 1.5 s before
+    // (print-through, by the DFT shift theorem; negative delay = before).
+    const lag = 0.2 * fs, pt = Math.pow(10, -40 / 20);
+    const y = Float64Array.from(x);
+    for (let i = 3 * fs; i < 5 * fs; i++) y[i + lag]! += 0.5 * x[i]!;
+    const z = addEchoes(y, [{ delaySamples: -1.5 * fs, gain: pt }]);
+    const r = await unecho.prepare(new MemorySource([z], fs), {}, silentContext);
+    expect(String(r.resolved.cancelled)).toMatch(/^print-through 1\.50\d* s before/);
+    expect(String(r.resolved.left)).toMatch(/^reflection set aside: /);
+  }, 60_000);
 
   it('a band reading far above the whole-programme gain is set aside', () => {
     // Source: the rule's definition (|b| − 2σ > 1.5·|ĝ| + 0.05), on made-up readings.
