@@ -133,7 +133,7 @@ export class CoarseEchoSearch {
       // to compare, so the peak keeps its score and the frame-by-frame look (evidence.ts,
       // with frames a few τ long) decides. Scoring it 0 hid a 148 ms / 0.9 reflection on a
       // 3.9 s bass note behind the note's own 15.3 ms period.
-      const bothHalves = s.accumulator.halfMeanLogSpectrum(0, scratch.log) !== null && s.accumulator.halfMeanLogSpectrum(1, scratch.log) !== null;
+      const bothHalves = s.accumulator.hasBothHalves;
       const zHalf = found.map((p) => (bothHalves ? Infinity : s.accumulator.frames <= 1 ? p.z / Math.SQRT2 : 0));
       // The halves one after the other, in the same arrays (2^20-point cepstra at 384 kHz).
       for (const which of [0, 1] as const) {

@@ -237,6 +237,11 @@ export class LogSpectrumAccumulator {
     this.#frames++;
   }
 
+  /** Whether both halves (even and odd analysed frames) were kept and hold frames. */
+  get hasBothHalves(): boolean {
+    return this.#halves !== null && this.#halfFrames[0] > 0 && this.#halfFrames[1] > 0;
+  }
+
   /** Mean log power of the even (0) or odd (1) analysed frames, or null if not kept / empty. */
   halfMeanLogSpectrum(which: 0 | 1, into?: Float64Array): Float64Array | null {
     const h = this.#halves?.[which];

@@ -367,20 +367,20 @@ export async function refinePrintThrough(
         }
         plan.realForward(fq, Q);
         plan.realForward(fl, L);
+        // Every pair adds to the sums; the later half of the pairs to the second set too.
+        const later = pairs >= total / 2;
         for (let k = 0; k <= n / 2; k++) {
           const qr = Q[2 * k]!, qi = Q[2 * k + 1]!, lr = L[2 * k]!, li = L[2 * k + 1]!;
-          S[2 * k]! += qr * lr + qi * li;
-          S[2 * k + 1]! += qi * lr - qr * li;
-          E[k]! += lr * lr + li * li;
-          V[k]! += (qr * qr + qi * qi) * (lr * lr + li * li);
-        }
-        if (pairs >= total / 2) {
-          for (let k = 0; k <= n / 2; k++) {
-            const qr = Q[2 * k]!, qi = Q[2 * k + 1]!, lr = L[2 * k]!, li = L[2 * k + 1]!;
-            S2[2 * k]! += qr * lr + qi * li;
-            S2[2 * k + 1]! += qi * lr - qr * li;
-            E2[k]! += lr * lr + li * li;
-            V2[k]! += (qr * qr + qi * qi) * (lr * lr + li * li);
+          const cr = qr * lr + qi * li, ci = qi * lr - qr * li, el = lr * lr + li * li, v = (qr * qr + qi * qi) * el;
+          S[2 * k]! += cr;
+          S[2 * k + 1]! += ci;
+          E[k]! += el;
+          V[k]! += v;
+          if (later) {
+            S2[2 * k]! += cr;
+            S2[2 * k + 1]! += ci;
+            E2[k]! += el;
+            V2[k]! += v;
           }
         }
         pairs++;

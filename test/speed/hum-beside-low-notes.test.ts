@@ -19,37 +19,15 @@ import { silentContext } from '../../dsp/ops/types.ts';
 import { validateParams } from '../../dsp/ops/params.ts';
 import { speed } from '../../dsp/ops/speed.ts';
 import { SteadySpectrum } from '../../dsp/speed/steady-spectrum.ts';
-import { add, hum, noteHz, pinkNoise, rmsFor } from './synth.ts';
+import { add, decayingNote, hum, noteHz, pinkNoise, rmsFor } from './synth.ts';
 
 const fs = 48000;
 // Hum as the corpus adds it: 1, 2, 3, 5 at 0, −14, −6, −12 dB (odd-heavy, common practice).
 const REL = [1, 10 ** (-14 / 20), 10 ** (-6 / 20), 0, 10 ** (-12 / 20)];
 
-/** A plucked low note: 10 partials at 1/h, attack 5 ms, exponential decay τ, starting at `at` s. */
-function pluck(n: number, f: number, amp: number, tau: number, at = 0.1): Float64Array {
-  const x = new Float64Array(n);
-  for (let i = Math.round(at * fs); i < n; i++) {
-    const t = i / fs - at;
-    const env = amp * Math.exp(-t / tau) * Math.min(1, t / 0.005);
-    let v = 0;
-    for (let h = 1; h <= 10; h++) v += Math.sin(2 * Math.PI * h * f * t + 0.7 * h) / h;
-    x[i]! += env * v;
-  }
-  return x;
-}
-
-/** A held note: 10 partials at 1/h, 20 ms attack, exponential decay τ, starting at 0.1 s. */
-function held(n: number, f: number, amp: number, tau: number): Float64Array {
-  const x = new Float64Array(n);
-  for (let i = Math.round(0.1 * fs); i < n; i++) {
-    const t = i / fs - 0.1;
-    const env = amp * Math.exp(-t / tau) * Math.min(1, t / 0.02);
-    let v = 0;
-    for (let h = 1; h <= 10; h++) v += Math.sin(2 * Math.PI * h * f * t + 0.7 * h) / h;
-    x[i]! += env * v;
-  }
-  return x;
-}
+/** A plucked low note (5 ms attack) and a held one (20 ms attack): 10 partials at 1/h. */
+const pluck = (n: number, f: number, amp: number, tau: number, at = 0.1) => decayingNote(n, fs, f, amp, tau, { startSeconds: at });
+const held = (n: number, f: number, amp: number, tau: number) => decayingNote(n, fs, f, amp, tau, { attackSeconds: 0.02 });
 
 const run = (x: Float64Array) => speed.run(new MemorySource([x], fs), validateParams(speed.params, {}), silentContext);
 

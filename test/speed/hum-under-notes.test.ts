@@ -13,21 +13,13 @@ import { MemorySource } from '../../dsp/source.ts';
 import { silentContext } from '../../dsp/ops/types.ts';
 import { validateParams } from '../../dsp/ops/params.ts';
 import { speed } from '../../dsp/ops/speed.ts';
-import { add, hum, noteHz, pinkNoise, rmsFor } from './synth.ts';
+import { add, decayingNote, hum, noteHz, pinkNoise, rmsFor } from './synth.ts';
 
 const fs = 44100;
 
-function heldNote(n: number, f: number, amp: number, tau: number, at = 0.2): Float64Array {
-  const x = new Float64Array(n);
-  for (let i = Math.round(at * fs); i < n; i++) {
-    const t = i / fs - at;
-    const env = amp * Math.exp(-t / tau) * Math.min(1, t / 0.005);
-    let v = 0;
-    for (let h = 1; h <= 8; h++) v += Math.sin(2 * Math.PI * h * f * t + h) / h;
-    x[i]! += env * v;
-  }
-  return x;
-}
+/** A held note: 8 partials at 1/h, 5 ms attack, exponential decay τ. */
+const heldNote = (n: number, f: number, amp: number, tau: number, at = 0.2) =>
+  decayingNote(n, fs, f, amp, tau, { startSeconds: at, partials: 8, phaseStep: 1 });
 
 const run = (x: Float64Array) => speed.run(new MemorySource([x], fs), validateParams(speed.params, {}), silentContext);
 

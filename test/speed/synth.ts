@@ -118,3 +118,27 @@ export function programme(n: number, fs: number, factor: number, seed = 3, cents
   const room = pinkNoise(n, seed + 100, rmsFor(-40));
   return normalizeRms(add(m, room), rmsFor(-20));
 }
+
+/**
+ * A struck or held low note: `partials` harmonics at amplitude 1/h and phase h·phaseStep, a linear
+ * attack over `attackSeconds`, then exponential decay with time constant τ, starting at
+ * `startSeconds`.
+ */
+export function decayingNote(
+  n: number,
+  fs: number,
+  f: number,
+  amp: number,
+  tauSeconds: number,
+  { startSeconds = 0.1, attackSeconds = 0.005, partials = 10, phaseStep = 0.7 } = {},
+): Float64Array {
+  const x = new Float64Array(n);
+  for (let i = Math.round(startSeconds * fs); i < n; i++) {
+    const t = i / fs - startSeconds;
+    const env = amp * Math.exp(-t / tauSeconds) * Math.min(1, t / attackSeconds);
+    let v = 0;
+    for (let h = 1; h <= partials; h++) v += Math.sin(2 * Math.PI * h * f * t + phaseStep * h) / h;
+    x[i]! += env * v;
+  }
+  return x;
+}
