@@ -3,7 +3,7 @@
  * dsp/azimuth/delay.ts), their coherence, the first null of the mono sum, and — given the tape
  * speed and the track spacing — the equivalent head azimuth error in arc-minutes.
  */
-import { defineAnalysis, type Finding } from './types.ts';
+import { defineAnalysis, type FindingDraft } from './types.ts';
 import { ParameterError } from '../errors.ts';
 import type { DelayEstimate } from '../azimuth/delay.ts';
 
@@ -124,13 +124,13 @@ export const azimuth = defineAnalysis<AzimuthResult>()({
     };
   },
   findings(r, facts) {
-    const out: Finding[] = [];
+    const out: FindingDraft[] = [];
     const d = r.delaySeconds;
     const lagging = d >= 0 ? 'Channel 2 lags channel 1' : 'Channel 1 lags channel 2';
     const angle = r.azimuthArcMinutes !== null ? ` At ${r.tapeSpeedIps} ips with tracks ${r.trackSpacingMm} mm apart that is ${Math.abs(r.azimuthArcMinutes).toFixed(1)} arc-minutes of azimuth error.` : '';
     if (r.verdict === null) {
       out.push({
-        op: 'azimuth', title: 'Channels too different to judge azimuth', severity: 'info', value: Math.round(r.coherence * 100) / 100,
+        title: 'Channels too different to judge azimuth', severity: 'info', value: Math.round(r.coherence * 100) / 100,
         sentence: `The two channels share little common signal (coherence ${r.coherence.toFixed(2)}), so azimuth cannot be judged from this programme; a mono section or a line-up tone would show it.`,
       });
       return out;
@@ -138,7 +138,7 @@ export const azimuth = defineAnalysis<AzimuthResult>()({
     if (r.verdict === 'programme' && Math.abs(d) >= 2e-6) {
       const ms = Math.abs(d) >= 1e-3;
       out.push({
-        op: 'azimuth', title: `Channels differ (${ms ? `${(Math.abs(d) * 1000).toFixed(2)} ms` : us(Math.abs(d))} apart on average)`, severity: 'info',
+        title: `Channels differ (${ms ? `${(Math.abs(d) * 1000).toFixed(2)} ms` : us(Math.abs(d))} apart on average)`, severity: 'info',
         value: Math.round(d * 1e7) / 10, unit: 'µs',
         sentence:
           `The channels are not two tracks of the same signal with a time offset: ${Math.abs(d) > r.headLimitSeconds ? `their delay of ${ms ? `${(Math.abs(d) * 1000).toFixed(2)} ms` : us(Math.abs(d))} is more than a playback head can make${r.tapeSpeedIps !== null && r.trackSpacingMm !== null ? ` at ${r.tapeSpeedIps} ips with tracks ${r.trackSpacingMm} mm apart` : ''}, and ` : ''}` +
@@ -149,7 +149,7 @@ export const azimuth = defineAnalysis<AzimuthResult>()({
     const nullHz = r.monoNullHz;
     if (nullHz === null || Math.abs(d) < 2e-6) {
       out.push({
-        op: 'azimuth', title: `Channels aligned (${us(d)})`, severity: 'ok', value: Math.round(d * 1e7) / 10, unit: 'µs',
+        title: `Channels aligned (${us(d)})`, severity: 'ok', value: Math.round(d * 1e7) / 10, unit: 'µs',
         sentence: r.verdict === 'head'
           ? `The channels line up within ${us(Math.abs(d))}: the head azimuth is good.${angle}`
           : `The channels line up within ${us(Math.abs(d))} on average; they carry different programme (stereo), so that says little about the head — check azimuth on a mono section or a line-up tone.`,
@@ -158,7 +158,6 @@ export const azimuth = defineAnalysis<AzimuthResult>()({
     }
     const audible = nullHz < Math.min(20000, facts.sampleRateHz / 2);
     out.push({
-      op: 'azimuth',
       title: `${lagging} by ${us(Math.abs(d))}`,
       sentence:
         `${lagging} by ${us(Math.abs(d))} (${Math.abs(r.delaySamples).toFixed(2)} samples) at every frequency, with the same programme on both (coherence ${r.coherence.toFixed(2)}): head azimuth error.${angle} ` +

@@ -7,9 +7,9 @@
  * source's metadata is kept (WAV chunks byte for byte; FLAC tags and AIFF text chunks as RIFF
  * INFO) and the run is added to the BWF coding history.
  */
-import type { CorrectionOp } from './types.ts';
+import { defineCorrection } from './types.ts';
 
-export const convert: CorrectionOp = {
+export const convert = defineCorrection({
   kind: 'correction',
   name: 'convert',
   title: 'Convert',
@@ -27,4 +27,4 @@ export const convert: CorrectionOp = {
   history() {
     return 'reelwright convert';
   },
-};
+});

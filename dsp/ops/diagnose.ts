@@ -37,6 +37,11 @@ export const factsOf = (s: AudioSource): SourceFacts => ({
 });
 
 /** The JSON sections one analysis contributes (its `key`, or what its toJson returns). */
+/** The analysis's findings on this result, each carrying the analysis's name. */
+export function findingsOf<R>(op: AnalysisOp<R>, result: R, facts: SourceFacts): Finding[] {
+  return (op.findings?.(result, facts) ?? []).map((f) => ({ ...f, op: op.name }));
+}
+
 export function analysisJson<R>(op: AnalysisOp<R>, result: R): Record<string, unknown> {
   return op.toJson ? op.toJson(result) : { [op.key]: result };
 }
@@ -63,7 +68,7 @@ export async function diagnose(source: AudioSource, ctx: OpContext, options: Dia
       const params = validateParams(op.params, options.params?.[op.name] ?? {});
       const result = await op.run(input, params, sub);
       Object.assign(part.sections, analysisJson(op, result));
-      part.findings.push(...(op.findings?.(result, facts) ?? []));
+      part.findings.push(...findingsOf(op, result, facts));
     } catch (e) {
       if (e instanceof NotFoundError || e instanceof ParameterError) part.notes.push({ op: op.name, reason: e.message });
       else throw e;

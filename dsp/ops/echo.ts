@@ -6,7 +6,7 @@
 import type { EchoAnalysis } from '../echo/detect.ts';
 
 const algorithms = () => import('../echo/detect.ts');
-import { defineAnalysis, type Finding } from './types.ts';
+import { defineAnalysis, type FindingDraft } from './types.ts';
 import { numberOf, objectOf, roundTo, sectionNumber } from './sections.ts';
 import { gainToDb } from '../units.ts';
 
@@ -78,13 +78,12 @@ export const echo = defineAnalysis<EchoAnalysis>()({
     };
   },
   findings(r) {
-    const out: Finding[] = [];
+    const out: FindingDraft[] = [];
     const rf = r.reflection;
     if (rf.present === true && rf.delaySeconds !== null && rf.gain !== null) {
       const ms = rf.delaySeconds * 1000;
       const db = gainToDb(rf.gain);
       out.push({
-        op: 'echo',
         title: `Reflection ${ms.toFixed(1)} ms after the direct sound`,
         sentence:
           `A reflection ${ms.toFixed(1)} ms after the direct sound at ${db.toFixed(1)} dB` +
@@ -108,7 +107,6 @@ export const echo = defineAnalysis<EchoAnalysis>()({
       });
     } else if (rf.present === null && rf.reason) {
       out.push({
-        op: 'echo',
         title: 'Reflection not determined',
         sentence: `Not determined: ${rf.reason}.`,
         confidence: 0,
@@ -123,7 +121,6 @@ export const echo = defineAnalysis<EchoAnalysis>()({
             'programme does not have: noise added after a reflection shows this once the reflection is cancelled; it stays at the level of that noise.'
           : '';
       out.push({
-        op: 'echo',
         title: 'No single strong reflection',
         sentence:
           `No single strong reflection was found between ${(r.rangeSeconds[0] * 1000).toFixed(1)} ms and ${(r.rangeSeconds[1] * 1000).toFixed(0)} ms.${floor}` +
@@ -134,12 +131,11 @@ export const echo = defineAnalysis<EchoAnalysis>()({
     }
     const pt = r.printThrough;
     if (pt.present === null && pt.reason) {
-      out.push({ op: 'echo', title: 'Print-through not determined', sentence: `Not determined: ${pt.reason}.`, confidence: 0, severity: 'info' });
+      out.push({ title: 'Print-through not determined', sentence: `Not determined: ${pt.reason}.`, confidence: 0, severity: 'info' });
     }
     if (pt.present === true && pt.delaySeconds !== null && pt.levelDb !== null && pt.gain !== null) {
       const when = pt.delaySeconds < 0 ? 'before' : 'after';
       out.push({
-        op: 'echo',
         title: `Print-through ${Math.abs(pt.delaySeconds).toFixed(2)} s ${when} loud passages`,
         sentence:
           `A faint copy of the loud passages ${Math.abs(pt.delaySeconds).toFixed(2)} s ${when} them at ${pt.levelDb.toFixed(1)} dB: ` +

@@ -4,7 +4,7 @@
  * automatically (dsp/flutter/locate.ts), FM-demodulated (demodulate.ts) and measured with the
  * standard weighting and a two-sigma reading (weighting.ts, meter.ts).
  */
-import { defineAnalysis, type Finding } from './types.ts';
+import { defineAnalysis, type FindingDraft } from './types.ts';
 import type { FlutterFigures } from '../flutter/meter.ts';
 
 const algorithms = async () => {
@@ -67,11 +67,10 @@ export const flutter = defineAnalysis<FlutterResult>()({
     };
   },
   findings(r) {
-    const out: Finding[] = [];
+    const out: FindingDraft[] = [];
     const rate = r.dominantRateHz;
     const severity = r.weightedPeakPercent > 0.25 ? 'fail' : r.weightedPeakPercent > 0.1 ? 'warn' : 'ok';
     out.push({
-      op: 'flutter',
       title: `Wow and flutter ±${pct(r.weightedPeakPercent)} weighted`,
       sentence:
         `The ${r.toneHz} Hz test tone (${r.segment.startSeconds.toFixed(1)}–${r.segment.endSeconds.toFixed(1)} s) wavers by ±${pct(r.weightedPeakPercent)} weighted (two-sigma, IEC 60386), ` +
@@ -83,7 +82,6 @@ export const flutter = defineAnalysis<FlutterResult>()({
     });
     if (r.driftPercent > 0.05) {
       out.push({
-        op: 'flutter',
         title: `Speed drifts ±${pct(r.driftPercent, 2)}`,
         sentence: `Over the tone the speed wanders slowly by up to ±${pct(r.driftPercent, 2)} (changes slower than about half a second).`,
         value: Math.round(r.driftPercent * 1000) / 1000,
@@ -94,7 +92,6 @@ export const flutter = defineAnalysis<FlutterResult>()({
     if (Math.abs(r.meanSpeedErrorPercent) > 0.2) {
       const dir = r.meanSpeedErrorPercent > 0 ? 'fast' : 'slow';
       out.push({
-        op: 'flutter',
         title: `Tone reads ${r.measuredToneHz.toFixed(1)} Hz: ${Math.abs(r.meanSpeedErrorPercent).toFixed(2)} % ${dir}`,
         sentence: `The ${r.toneHz} Hz tone plays at ${r.measuredToneHz.toFixed(1)} Hz, so the transfer ran ${Math.abs(r.meanSpeedErrorPercent).toFixed(2)} % ${dir} (if the tone was recorded on pitch).`,
         value: Math.round(r.meanSpeedErrorPercent * 1000) / 1000,

@@ -3,7 +3,7 @@
  * and the number of samples at full scale (clipped). Levels: a full-scale sine peaks at 0 dBFS,
  * so its RMS reads −3.01 dBFS (AES17 convention).
  */
-import type { AnalysisOp, Finding } from './types.ts';
+import { defineAnalysis, type FindingDraft } from './types.ts';
 import { gainToDb, powerToDb } from '../units.ts';
 
 export interface ChannelStats {
@@ -26,7 +26,7 @@ export function clipThreshold(bitsPerSample: number | undefined, sampleFormat: '
   return (full - 1) / full;
 }
 
-export const info: AnalysisOp<InfoResult> = {
+export const info = defineAnalysis<InfoResult>()({
   kind: 'analysis',
   name: 'info',
   key: 'info',
@@ -79,11 +79,10 @@ export const info: AnalysisOp<InfoResult> = {
     return { channels };
   },
   findings(result) {
-    const out: Finding[] = [];
+    const out: FindingDraft[] = [];
     for (const ch of result.channels) {
       if (ch.clippedSamples > 0) {
         out.push({
-          op: 'info',
           title: `Channel ${ch.channel}: ${ch.clippedSamples} samples at full scale`,
           sentence: `Channel ${ch.channel} has ${ch.clippedSamples} samples at full scale, which usually means the transfer clipped.`,
           value: ch.clippedSamples,
@@ -93,7 +92,6 @@ export const info: AnalysisOp<InfoResult> = {
       }
       if (Math.abs(ch.dcOffset) > 0.001) {
         out.push({
-          op: 'info',
           title: `Channel ${ch.channel}: DC offset ${(ch.dcOffset * 100).toFixed(2)} % of full scale`,
           sentence: `Channel ${ch.channel} sits off centre by ${(ch.dcOffset * 100).toFixed(2)} % of full scale (a DC offset from the converter or the playback chain).`,
           value: ch.dcOffset,
@@ -103,4 +101,4 @@ export const info: AnalysisOp<InfoResult> = {
     }
     return out;
   },
-};
+});

@@ -5,7 +5,7 @@
  * inside programme), level dips (listed for listening), silence at head and tail, and the effective bandwidth (in the numbers only: the `spectrum` analysis words the
  * bandwidth finding). Methods: dsp/levels/.
  */
-import { defineAnalysis, type Finding } from './types.ts';
+import { defineAnalysis, type FindingDraft } from './types.ts';
 import { clipThreshold } from './info.ts';
 import type { LevelsResult } from '../levels/analyze.ts';
 
@@ -82,10 +82,8 @@ export const levels = defineAnalysis<LevelsResult>()({
     );
   },
   findings(r) {
-    const out: Finding[] = [];
-    const op = 'levels';
+    const out: FindingDraft[] = [];
     out.push({
-      op,
       title: `Loudness ${f1(r.loudnessLufs)} LUFS, true peak ${f1(r.truePeakDbtp)} dBTP`,
       sentence: `The whole file measures ${f1(r.loudnessLufs)} LUFS integrated loudness (ITU-R BS.1770) with a highest true peak of ${f1(r.truePeakDbtp)} dBTP and a loudness range of ${r.loudnessRangeLu.toFixed(1)} LU.`,
       value: Number.isFinite(r.loudnessLufs) ? Math.round(r.loudnessLufs * 10) / 10 : 'silent',
@@ -96,13 +94,13 @@ export const levels = defineAnalysis<LevelsResult>()({
     for (const ch of r.channels) {
       if (!(ch.peakDbfs > -60)) {
         out.push({
-          op, title: `Channel ${ch.channel} is silent`, severity: 'warn', value: Number.isFinite(ch.peakDbfs) ? Math.round(ch.peakDbfs) : 'no signal', unit: 'dBFS',
+          title: `Channel ${ch.channel} is silent`, severity: 'warn', value: Number.isFinite(ch.peakDbfs) ? Math.round(ch.peakDbfs) : 'no signal', unit: 'dBFS',
           sentence: `Channel ${ch.channel} never rises above ${f1(ch.peakDbfs)} dBFS: check the cable, the head and the track selection.`,
         });
       }
       if (ch.clippedRunCount > 0) {
         out.push({
-          op, title: `Channel ${ch.channel} clipped ${ch.clippedRunCount} times`, severity: 'warn', value: ch.clippedRunCount, unit: 'runs',
+          title: `Channel ${ch.channel} clipped ${ch.clippedRunCount} times`, severity: 'warn', value: ch.clippedRunCount, unit: 'runs',
           sentence: `Channel ${ch.channel} sits at full scale for runs of several samples ${ch.clippedRunCount} times (${ch.clippedSamples} samples in all): the transfer level was too high; redo it with less gain.`,
         });
       }
@@ -111,7 +109,7 @@ export const levels = defineAnalysis<LevelsResult>()({
       const d = r.dropouts[0]!;
       const n = r.dropouts.length;
       out.push({
-        op, title: `${n} dropout${n > 1 ? 's' : ''} (digital silence)`, severity: 'warn', value: n, unit: 'dropouts',
+        title: `${n} dropout${n > 1 ? 's' : ''} (digital silence)`, severity: 'warn', value: n, unit: 'dropouts',
         sentence: `The audio is exact digital silence for ${ms(d.durationSeconds)} at ${d.startSeconds.toFixed(3)} s${n > 1 ? ` and ${n - 1} more time${n > 2 ? 's' : ''}` : ''} while the programme runs on either side: a transfer fault (a lost buffer, a damaged file or a bad edit), not the recording. Transfer that part again.`,
       });
     }
@@ -119,15 +117,15 @@ export const levels = defineAnalysis<LevelsResult>()({
       const d = r.levelDips[0]!;
       const n = r.levelDips.length;
       out.push({
-        op, title: `${n} brief level dip${n > 1 ? 's' : ''}`, severity: 'info', value: n, unit: 'dips',
+        title: `${n} brief level dip${n > 1 ? 's' : ''}`, severity: 'info', value: n, unit: 'dips',
         sentence: `The level falls suddenly by ${d.depthDb.toFixed(0)} dB for ${ms(d.durationSeconds)} at ${d.startSeconds.toFixed(2)} s${n > 1 ? ` and ${n - 1} more time${n > 2 ? 's' : ''}` : ''} inside steady programme. That may be a tape dropout (the tape leaving the head) or simply a gap in the playing — a pause between notes or a stop consonant; the level alone cannot tell, so listen there.`,
       });
     }
     if (r.silence.allSilent) {
-      out.push({ op, title: 'No signal', severity: 'fail', sentence: `The whole file stays below ${r.silence.thresholdDbfs} dBFS.` });
+      out.push({ title: 'No signal', severity: 'fail', sentence: `The whole file stays below ${r.silence.thresholdDbfs} dBFS.` });
     } else if (r.silence.headSeconds + r.silence.tailSeconds > 0) {
       out.push({
-        op, title: `Silence: ${r.silence.headSeconds.toFixed(1)} s at the head, ${r.silence.tailSeconds.toFixed(1)} s at the tail`, severity: 'info', value: r.silence.headSeconds, unit: 's',
+        title: `Silence: ${r.silence.headSeconds.toFixed(1)} s at the head, ${r.silence.tailSeconds.toFixed(1)} s at the tail`, severity: 'info', value: r.silence.headSeconds, unit: 's',
         sentence: `The file starts with ${r.silence.headSeconds.toFixed(1)} s and ends with ${r.silence.tailSeconds.toFixed(1)} s below ${r.silence.thresholdDbfs} dBFS.`,
       });
     }

@@ -8,12 +8,12 @@ import type { ReversedResult } from '../reverse/detect.ts';
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from '../reverse/limits.ts';
 
 const algorithms = () => import('../reverse/detect.ts');
-import type { AnalysisOp, Finding } from './types.ts';
+import { defineAnalysis, type FindingDraft } from './types.ts';
 import { arrayOf, objectOf, type Sections } from './sections.ts';
 
 const reversedChannels = (s: Sections): number | undefined => arrayOf(objectOf(s.reversed)?.channels)?.filter((c) => objectOf(c)?.likely === true).length;
 
-export const reversed: AnalysisOp<ReversedResult> = {
+export const reversed = defineAnalysis<ReversedResult>()({
   kind: 'analysis',
   name: 'reversed',
   key: 'reversed',
@@ -30,7 +30,7 @@ export const reversed: AnalysisOp<ReversedResult> = {
     return { reversed: { channels: result.channels.map(({ channel, likely, score }) => ({ channel, likely, score })) } };
   },
   findings(result) {
-    const out: Finding[] = [];
+    const out: FindingDraft[] = [];
     const evidence = (ch: ReversedResult['channels'][number]) =>
       ch.basis === 'many-events'
         ? `${ch.likely ? ch.abruptStops : ch.abruptStarts} hard ${ch.likely ? 'stops' : 'starts'} against ${ch.likely ? ch.abruptStarts : ch.abruptStops} hard ${ch.likely ? 'starts' : 'stops'}` +
@@ -49,7 +49,6 @@ export const reversed: AnalysisOp<ReversedResult> = {
     for (const ch of result.channels) {
       if (ch.likely === true) {
         out.push({
-          op: 'reversed',
           title: `Channel ${ch.channel} plays backwards`,
           sentence: `Channel ${ch.channel} swells into its sounds and stops them abruptly — the signature of a recording played in reverse (score ${ch.score.toFixed(2)}; ${evidence(ch)}).`,
           value: ch.score,
@@ -72,7 +71,6 @@ export const reversed: AnalysisOp<ReversedResult> = {
               ? `its level steps lean one way (skew ${(ch.skew ?? ch.score).toFixed(2)}) but too few of its sounds say which way (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops${ch.gatedNotes ? `, ${ch.gatedNotes} of them notes that start and stop abruptly, which read the same either way round` : ''}) — slow attacks with quick releases (winds, bowed strings, organ, fades) look like this either way round`
               : `too few independent sounds agree (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops, skew ${(ch.skew ?? ch.score).toFixed(2)})`;
       out.push({
-        op: 'reversed',
         title: `Direction of channel ${ch.channel} not determined`,
         sentence: `Whether channel ${ch.channel} plays backwards is not determined: ${why}. Listen to it.`,
         severity: 'info',
@@ -80,7 +78,6 @@ export const reversed: AnalysisOp<ReversedResult> = {
     }
     if (out.length === 0) {
       out.push({
-        op: 'reversed',
         title: 'No channel plays backwards',
         sentence: `Every channel starts its sounds abruptly and lets them die away, as sound played forwards does (scores ${result.channels.map((c) => c.score.toFixed(2)).join(', ')}; ${REVERSED_SCORE_THRESHOLD} or more would mean reversed, below 0 reads as forward).`,
         severity: 'ok',
@@ -97,4 +94,4 @@ export const reversed: AnalysisOp<ReversedResult> = {
       defaultRule: { failAt: 1, comment: 'Channels that are likely recorded in the other direction.' },
     },
   ],
-};
+});

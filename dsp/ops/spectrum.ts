@@ -10,7 +10,7 @@
  *
  * Long files are estimated from at most MAX_FRAMES evenly spaced frames (see welchSpectrum).
  */
-import { defineAnalysis, type Finding } from './types.ts';
+import { defineAnalysis, type FindingDraft } from './types.ts';
 const algorithms = async () => {
   const [{ welchSpectrum }, { isPowerOfTwo }, { bandwidthSpectrum, effectiveBandwidthHz, announcedBandwidthLevels }] = await Promise.all([
     import('../core/welch.ts'), import('../core/fft.ts'), import('../levels/spectrum.ts'),
@@ -111,10 +111,9 @@ export const spectrum = defineAnalysis<SpectrumResult>()({
   },
   findings(result, facts) {
     const nyquist = facts.sampleRateHz / 2;
-    const out: Finding[] = [];
+    const out: FindingDraft[] = [];
     const bw = result.bandwidthHz;
     out.push({
-      op: 'spectrum',
       title: `Effective bandwidth ${(bw / 1000).toFixed(1)} kHz`,
       sentence:
         bw < 0.5 * nyquist

@@ -7,8 +7,7 @@
  * estimators).
  */
 import { NotFoundError } from '../errors.ts';
-import { num, str } from './params.ts';
-import type { AnalysisOp, Finding, ParamValues } from './types.ts';
+import { defineAnalysis, type FindingDraft } from './types.ts';
 import type { SpeedOptions, SpeedResult } from '../speed/estimate.ts';
 
 const algorithms = () => import('../speed/estimate.ts');
@@ -18,14 +17,13 @@ export type { SpeedResult } from '../speed/estimate.ts';
 
 const pct = (factor: number) => Math.abs((factor - 1) * 100);
 
-function speedOptions(params: ParamValues): SpeedOptions {
-  const mains = str(params, 'mainsHz');
-  return { mainsHz: mains === '50' ? 50 : mains === '60' ? 60 : undefined, toneHz: num(params, 'toneHz') };
+function speedOptions(params: { readonly mainsHz?: '50' | '60'; readonly toneHz?: number }): SpeedOptions {
+  return { mainsHz: params.mainsHz === '50' ? 50 : params.mainsHz === '60' ? 60 : undefined, toneHz: params.toneHz };
 }
 
 const METHOD_WORDS = { hum: 'mains hum', tone: 'the reference tone', tuning: 'the tuning of the music' } as const;
 
-export const speed: AnalysisOp<SpeedResult> = {
+export const speed = defineAnalysis<SpeedResult>()({
   kind: 'analysis',
   name: 'speed',
   key: 'speed',
@@ -72,12 +70,11 @@ export const speed: AnalysisOp<SpeedResult> = {
     return result;
   },
   findings(r) {
-    const out: Finding[] = [];
+    const out: FindingDraft[] = [];
     if (r.method === null) {
       // The reason is the estimator's last note; no correction is offered.
       const why = r.notes[r.notes.length - 1] ?? 'no evidence strong enough to measure the playing speed';
       out.push({
-        op: 'speed',
         title: 'Speed not determined',
         sentence: why.charAt(0).toUpperCase() + why.slice(1) + '.',
         confidence: r.confidence,
@@ -91,7 +88,6 @@ export const speed: AnalysisOp<SpeedResult> = {
     const within = Math.max(2 * u, 0.1);
     if (pct(r.factor) <= within) {
       out.push({
-        op: 'speed',
         title: 'Right speed',
         sentence: `The recording plays at its recorded speed (factor ${r.factor.toFixed(4)}, within ±${within.toFixed(2)} %), measured from ${how}.`,
         value: r.factor,
@@ -103,7 +99,6 @@ export const speed: AnalysisOp<SpeedResult> = {
       const dir = r.factor > 1 ? 'fast' : 'slow';
       const pair = r.standardPair ? ` It looks ${r.standardPair}.` : '';
       out.push({
-        op: 'speed',
         title: `Played ${pct(r.factor).toFixed(2)} % ${dir}`,
         sentence:
           `The recording plays ${pct(r.factor).toFixed(2)} % ${dir} (factor ${r.factor.toFixed(4)}, ${r.cents >= 0 ? '+' : ''}${r.cents.toFixed(1)} cents, ±${u.toPrecision(2)} %), measured from ${how}; ` +
@@ -117,7 +112,6 @@ export const speed: AnalysisOp<SpeedResult> = {
     }
     if (drift > 0.1) {
       out.push({
-        op: 'speed',
         title: `Speed drifts ${drift.toFixed(2)} %`,
         sentence: `The speed changes by ${drift.toFixed(2)} % through the file (slow drift of the playback machine); following the measured curve removes it.`,
         value: drift,
@@ -129,7 +123,7 @@ export const speed: AnalysisOp<SpeedResult> = {
     }
     // Ambiguities the user can settle with an option.
     for (const n of r.notes.filter((x) => x.includes('give --'))) {
-      out.push({ op: 'speed', title: 'Note', sentence: n.charAt(0).toUpperCase() + n.slice(1) + '.', severity: 'info' });
+      out.push({ title: 'Note', sentence: n.charAt(0).toUpperCase() + n.slice(1) + '.', severity: 'info' });
     }
     return out;
   },
@@ -160,4 +154,4 @@ export const speed: AnalysisOp<SpeedResult> = {
       defaultRule: { warnAt: 10, failAt: 30, comment: 'Speed error of the transfer in cents (only when the speed analysis is at least 50 % confident).' },
     },
   ],
-};
+});

@@ -60,9 +60,13 @@ export interface SourceFacts {
 }
 
 /** A plain-language finding for `diagnose`, the editor's findings list and the batch report. */
-export interface Finding {
-  /** The analysis that produced it (its verb). */
+export interface Finding extends FindingDraft {
+  /** The analysis that produced it (its verb), stamped by `findingsOf`. */
   readonly op: string;
+}
+
+/** A finding as an analysis writes it: everything but the analysis's name. */
+export interface FindingDraft {
   /** Short title: "Played 2 % fast". */
   readonly title: string;
   /** One plain sentence for a supervisor or an engineer. */
@@ -107,8 +111,11 @@ export interface AnalysisOp<R = unknown> extends OperationBase {
    * printed as `{ [key]: result }` unless this returns the keys itself.
    */
   toJson?(result: R): Record<string, unknown>;
-  /** Plain-language findings for diagnose / editor / report. */
-  findings?(result: R, facts: SourceFacts): Finding[];
+  /**
+   * Plain-language findings for diagnose / editor / report. Each is written without its `op`:
+   * `findingsOf` (dsp/ops/diagnose.ts) stamps the analysis's own name on every one.
+   */
+  findings?(result: R, facts: SourceFacts): FindingDraft[];
   /** Renders the result (and optionally a second result to compare) as a file: `--out NAME.svg|.csv`. */
   render?(result: R, format: 'svg' | 'csv', compareWith?: R): string;
   /** Before/after comparison for `--compare OTHER` and the editor's compare view. */

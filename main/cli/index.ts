@@ -7,7 +7,7 @@ import path from 'node:path';
 import { existsSync, writeFileSync } from 'node:fs';
 import { operations, findOperation } from '../../dsp/ops/registry.ts';
 import { validateParams } from '../../dsp/ops/params.ts';
-import { analysisJson, diagnose, factsOf } from '../../dsp/ops/diagnose.ts';
+import { analysisJson, diagnose, factsOf, findingsOf } from '../../dsp/ops/diagnose.ts';
 import type { AnalysisOp, CorrectionOp, Finding, OpContext, Operation, ParamSpec } from '../../dsp/ops/types.ts';
 import { CancelledError, InputError, NotFoundError, ParameterError } from '../../dsp/errors.ts';
 import { openAudio } from '../io/reader.ts';
@@ -142,7 +142,7 @@ async function runAnalysis(op: AnalysisOp, argv: string[]): Promise<number> {
     const info = { ...file.info };
     if (op.name === 'info') info.audioMd5 = await file.audioMd5();
     const output: Record<string, unknown> = { file: info, ...analysisJson(op, result) };
-    const findings = op.findings?.(result, facts) ?? [];
+    const findings = findingsOf(op, result, facts);
 
     let other: OpenedAudio | undefined;
     const comparePath = args.flags.get('compare');

@@ -18,6 +18,7 @@ import type { Browser, Page } from 'playwright-core';
 import { corrections, findOperation } from '../../dsp/ops/registry.ts';
 import { parseHistoryLine } from '../../dsp/formats/index.ts';
 import { validateParams } from '../../dsp/ops/params.ts';
+import { findingsOf } from '../../dsp/ops/diagnose.ts';
 import { silentContext, type AnalysisOp, type CorrectionOp, type Finding, type ParamValues } from '../../dsp/ops/types.ts';
 import { MemorySource, collectBlocks, readAll } from '../../dsp/source.ts';
 import { openAudio } from '../../main/io/index.ts';
@@ -96,7 +97,7 @@ describe('editor in web mode', () => {
       expect(analysisNames.length, 'a finding that suggests a correction').toBeGreaterThan(0);
       const analysis = findOperation(analysisNames[0]!) as AnalysisOp;
       const result = await analysis.run(source, validateParams(analysis.params, {}), silentContext);
-      const finding = analysis.findings!(result, facts).find((f: Finding) => f.suggestion && findOperation(f.suggestion.op)?.kind === 'correction')!;
+      const finding = findingsOf(analysis, result, facts).find((f: Finding) => f.suggestion && findOperation(f.suggestion.op)?.kind === 'correction')!;
       expect(finding, `${analysis.name} suggests a correction`).toBeDefined();
       correction = findOperation(finding.suggestion!.op) as CorrectionOp;
       params = validateParams(correction.params, finding.suggestion!.params);

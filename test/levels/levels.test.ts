@@ -7,6 +7,7 @@ import { MemorySource } from '../../dsp/source.ts';
 import { levels, type LevelsResult } from '../../dsp/ops/levels.ts';
 import { silentContext } from '../../dsp/ops/types.ts';
 import { validateParams } from '../../dsp/ops/params.ts';
+import { findingsOf } from '../../dsp/ops/diagnose.ts';
 import { FftPlan } from '../../dsp/core/fft.ts';
 import { seededRng, gaussian } from '../helpers/rng.ts';
 
@@ -97,7 +98,7 @@ describe('levels: dropouts and level dips', () => {
     expect(Math.abs(c.startSeconds - 5.0)).toBeLessThan(0.002);
     expect(Math.abs(c.durationSeconds - 0.3)).toBeLessThan(0.002);
     expect(c.depthDb).toBeGreaterThan(60);
-    const f = levels.findings!(res, { sampleRateHz: FS, channelCount: 2, frames: n });
+    const f = findingsOf(levels, res, { sampleRateHz: FS, channelCount: 2, frames: n });
     // A dip in the level alone may be a gap in the playing: listed for listening, not a fault.
     expect(f.some((x) => x.title === '3 brief level dips' && x.severity === 'info')).toBe(true);
     expect(f.some((x) => x.op === 'levels' && x.severity === 'warn')).toBe(false);
@@ -124,7 +125,7 @@ describe('levels: dropouts and level dips', () => {
     });
     expect(res.dropouts[0]!.channels).toEqual([1]);
     expect(res.dropouts[1]!.channels).toEqual([1, 2]);
-    const f = levels.findings!(res, { sampleRateHz: FS, channelCount: 2, frames: n });
+    const f = findingsOf(levels, res, { sampleRateHz: FS, channelCount: 2, frames: n });
     expect(f.some((x) => x.title === '3 dropouts (digital silence)' && x.severity === 'warn')).toBe(true);
   });
 

@@ -49,7 +49,7 @@ const crest: AnalysisOp<CrestResult> = {
     const rms = Math.sqrt(sum / Math.max(1, n));
     return { peak, rms, crestFactorDb: 20 * Math.log10(peak / rms) };
   },
-  findings: (r) => [{ op: 'crest', title: `Crest factor ${r.crestFactorDb.toFixed(1)} dB`, sentence: `Peaks stand ${r.crestFactorDb.toFixed(1)} dB above the RMS level.`, severity: 'info' }],
+  findings: (r) => [{ title: `Crest factor ${r.crestFactorDb.toFixed(1)} dB`, sentence: `Peaks stand ${r.crestFactorDb.toFixed(1)} dB above the RMS level.`, severity: 'info' }],
   columns: [{ header: 'crestFactorDb', get: (s) => roundTo(sectionNumber(s, 'crest', 'crestFactorDb'), 2) }],
   overview: [{ heading: 'Crest dB', text: (s) => sectionNumber(s, 'crest', 'crestFactorDb')?.toFixed(1) ?? '—' }],
   metrics: [
