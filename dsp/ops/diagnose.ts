@@ -36,12 +36,12 @@ export const factsOf = (s: AudioSource): SourceFacts => ({
   frames: s.frames,
 });
 
-/** The JSON sections one analysis contributes (its `key`, or what its toJson returns). */
-/** The analysis's findings on this result, each carrying the analysis's name. */
+/** The analysis's findings on this result, each carrying the analysis's name (first, as in the JSON before). */
 export function findingsOf<R>(op: AnalysisOp<R>, result: R, facts: SourceFacts): Finding[] {
-  return (op.findings?.(result, facts) ?? []).map((f) => ({ ...f, op: op.name }));
+  return (op.findings?.(result, facts) ?? []).map((f) => ({ op: op.name, ...f }));
 }
 
+/** The JSON sections one analysis contributes (its `key`, or what its toJson returns). */
 export function analysisJson<R>(op: AnalysisOp<R>, result: R): Record<string, unknown> {
   return op.toJson ? op.toJson(result) : { [op.key]: result };
 }
