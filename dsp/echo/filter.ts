@@ -94,7 +94,7 @@ export async function fitReflectionFilter(
   // at 96 kHz with an exact 61.8 ms / 0.2 read it as a 32-tap "filter"). Filled from their
   // neighbours they are flat, and the residual is read from the bins with programme alone: its
   // cepstrum is then the taps' over that share of the band, about the share times the taps.
-  const gate = await combinedGate(source, framing, options, options.gateNoise ?? false);
+  const gate = await combinedGate(source, framing, options, options.gateNoise ?? false, single.delaySamples);
   let live = 1;
   if (gate) {
     let dead = 0;
