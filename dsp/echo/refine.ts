@@ -27,7 +27,6 @@ import { type FitResult, fitSingleEcho, fitWindows, scratchFor, undoCancellation
 import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { MixScratch, mixBlock } from './mix.ts';
-import { pitchLocked } from './evidence.ts';
 
 export interface Excerpt {
   /** First frame analysed. */
@@ -51,8 +50,8 @@ export interface RefineOptions {
   /** Frames to leave out (quietFrames(), for the framing in use), or null for none. */
   quiet?: { fftSize: number; frames: Uint8Array | null };
   /**
-   * Leave out frames whose own periodicity puts a peak at this delay (samples; evidence.ts,
-   * pitchLocked): a note whose period is τ, τ/k or k·τ samples the ripple only at its crests and
+   * Leave out frames whose own periodicity puts a peak at this delay (samples;
+   * lockedAwayFromTau): a note whose period is τ, τ/k or k·τ samples the ripple only at its crests and
    * pulls the fit. Unused when fewer than four frames would remain.
    */
   lockTau?: number;
@@ -262,16 +261,41 @@ export async function cancelledCepstrum(
 }
 
 /**
- * Frames to keep when leaving out those whose own period puts a peak at τ (evidence.ts,
- * pitchLock), judged on the frames of the signal cancelled with the current estimate. A frame
- * whose strongest peak sits at τ itself counts as a note of period τ only when it also has the
- * note's positive second rahmonic at 2τ (pitchLock's test for frames that still hold the echo,
- * whose own second rahmonic is −g²/2): the cancelled frames' peak at τ alone is also what is
- * left of the echo in that frame, and leaving out the frames where it came out high took the
- * rest low. On Festival voices most frames went (131 of 190 at 2.9 ms / −0.45, 83 of 93 at
- * 13.2 ms / 0.65) and the gains read −0.479 and 0.639; with the rahmonic asked for, 64 of 190
- * and −0.465, 0.642, and 37.7 ms / −0.45 read −0.455 instead of −0.460. (A cello at 4.1 ms /
- * −0.3, whose note is at τ, reads −0.3036 instead of −0.2998: still within 1.2 %.)
+ * Whether a frame's own period puts a peak at τ, judged without the quefrencies within 3 samples
+ * of τ: the frame's strongest detrended peak over 1–40 ms away from τ (the detrending and the
+ * 0.1 threshold of evidence.ts, pitchLock) lies at τ/k or k·τ, k = 2…8 (a note of period τ
+ * shows its second rahmonic at 2τ).
+ */
+export function lockedAwayFromTau(c: Float64Array, tau: number, fs: number): boolean {
+  const n2 = c.length / 2;
+  const lo = Math.max(8, Math.floor(0.001 * fs)), hi = Math.min(Math.floor(0.04 * fs), n2 - 20);
+  if (hi <= lo) return false;
+  let best = -Infinity, bestQ = -1;
+  for (let q = lo; q <= hi; q++) {
+    if (Math.abs(q - tau) <= 3) continue;
+    const v = c[q]! - 0.125 * (c[q - 6]! + c[q - 5]! + c[q - 4]! + c[q - 3]! + c[q + 3]! + c[q + 4]! + c[q + 5]! + c[q + 6]!);
+    if (v > best) {
+      best = v;
+      bestQ = q;
+    }
+  }
+  if (bestQ < 0 || !(best > 0.1)) return false;
+  const near = (a: number, b: number) => Math.abs(a - b) <= Math.max(1.5, 0.02 * b);
+  for (let k = 2; k <= 8; k++) if (near(bestQ, tau / k) || near(bestQ, k * tau)) return true;
+  return false;
+}
+
+/**
+ * Frames to keep when leaving out those whose own period puts a peak at τ, judged on the frames
+ * of the signal cancelled with the current estimate, without looking at the cepstrum near τ
+ * (lockedAwayFromTau). What is left of the echo in a cancelled frame sits at τ, so any test that
+ * reads the frame's peak at τ chooses frames by the very residual being measured: leaving out
+ * those where it came out high takes the rest low. Asking for the note's positive second rahmonic
+ * as well (evidence.ts, pitchLock) reduced that but did not remove it: on Festival voices 2.9 ms /
+ * −0.45 read −0.454, 13.2 ms / 0.65 read 0.642, 37.7 ms / −0.45 read −0.455, and a trumpet's
+ * 4.1 ms / 0.5 read 0.492; with τ left out of the test, −0.447, 0.653, −0.4503 and 0.4955 (a
+ * voice at 30.2 ms / 0.5: 0.4999 → 0.5010). A frame of period τ still goes: its strongest peak
+ * away from τ is its second rahmonic at 2τ.
  */
 export function lockedByPeriod(n: number, tau: number, fs: number): { accept(frameLog: Float64Array): boolean } {
   const plan = sharedPlan(n);
@@ -283,7 +307,7 @@ export function lockedByPeriod(n: number, tau: number, fs: number): { accept(fra
         half[2 * k + 1] = 0;
       }
       plan.realInverse(half, cep);
-      return !pitchLocked(cep, tau, fs, false);
+      return !lockedAwayFromTau(cep, tau, fs);
     },
   };
 }
