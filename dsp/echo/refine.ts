@@ -648,7 +648,12 @@ export async function refineSingleEcho(
     fit = fitSingleEcho(data, framing.fftSize, { delaySamples: tau, gain: g }, { windows, searchSamples: pass === 0 ? (options.searchSamples ?? 0) : 0 });
     if (work.reach) {
       // The bins with programme carry only part of the fit (programmeReach): the full step.
-      fit = { ...fit, gain: gc + (fit.gain - gc) / work.reach.gain, delaySamples: tau + (fit.delaySamples - tau) / work.reach.delay };
+      // (Divided by a small share, a step can run far off: no more than a sample per pass, or
+      // the first pass's search span. Unbounded, the noise-gated refinement of a sub-millisecond
+      // peak on a spoken prompt went to −18 samples and stopped the analysis with an error.)
+      const span = Math.max(1, pass === 0 ? (options.searchSamples ?? 0) : 0);
+      const step = Math.max(-span, Math.min(span, (fit.delaySamples - tau) / work.reach.delay));
+      fit = { ...fit, gain: gc + (fit.gain - gc) / work.reach.gain, delaySamples: tau + step };
     }
     options.onPass?.(pass, fit, framing.fftSize);
     // Fixed-point step on τ; secant step on g for G(g') = fit(g') − g' = 0.
