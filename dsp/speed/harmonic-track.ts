@@ -80,6 +80,8 @@ const CURVE_HALF_SECONDS = 15;
 const CHIRP_MAX_SECONDS = 2 * CURVE_HALF_SECONDS;
 /** A window farther than this many scatters from the line through the others is set aside. */
 const OUTLIER_SCATTERS = 5;
+/** A window whose harmonic-sum statistic exceeds this many times the median one is flooded by a transient. */
+const FLOOD_RATIO = 10;
 
 /** Noise correlation between track samples ℓ apart for a boxcar(D)^R decimator. */
 export function trackNoiseCorrelation(factor: number, order: number): Float64Array {
@@ -360,9 +362,16 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   let curveMean = f0s.reduce((a, b) => a + b, 0) / W;
   const independent = Math.max(1, (W * hop) / winLen);
   // Steadiness: a line that is there all the time has a median window statistic close to its mean;
-  // a note that comes and goes has a median far below its mean.
+  // a note that comes and goes has a median far below its mean. A window flooded by a transient
+  // (a note's attack or a thump leaking onto the line: over FLOOD_RATIO × the median) is left out
+  // of the mean, the largest first, at most a tenth of the windows: one burst says nothing about
+  // whether the line is there in the others, while a note that comes and goes floods more
+  // windows than that and still reads unsteady.
   const sortedSums = [...snrSums].sort((a, b) => a - b);
-  const steadiness = Math.min(1, sortedSums[sortedSums.length >> 1]! / (snrSums.reduce((a, b) => a + b, 0) / W));
+  const medianSum = sortedSums[sortedSums.length >> 1]!;
+  const floods = Math.min(Math.floor(W / 10), sortedSums.filter((v) => v > FLOOD_RATIO * medianSum).length);
+  const counted = sortedSums.slice(0, W - floods);
+  const steadiness = Math.min(1, medianSum / (counted.reduce((a, b) => a + b, 0) / counted.length));
 
   // 3. Drift: a straight line through a reliable curve, significant against its scatter.
   let drifting = false;

@@ -460,6 +460,21 @@ export function persistenceEvidence(harmonics: readonly number[], p: LinePersist
   return clamp01((0.25 - badShare) / 0.1) * clamp01((p.coverage - 0.3) / 0.3);
 }
 
+/**
+ * Of the cells of the harmonics judged in ≥ 30 % of the segments (those `persistenceEvidence`
+ * weighs), the share off the line's level; 1 when none is judged that often. A harmonic glimpsed
+ * in a segment or two (a drum's ringing passing over it) says nothing about the series' level.
+ */
+export function judgedInconsistentShare(p: LinePersistence): number {
+  let judged = 0, bad = 0;
+  for (const x of p.perHarmonic) {
+    if (x.coverage < 0.3) continue;
+    judged += x.coverage;
+    bad += x.coverage * x.inconsistentShare;
+  }
+  return judged > 0 ? bad / judged : 1;
+}
+
 /** The harmonics `persistenceEvidence` counts as established (judged in ≥ 30 % of the segments, at their level in ≥ 85 %). */
 export function establishedHarmonics(harmonics: readonly number[], p: LinePersistence): number[] {
   return harmonics.filter((_, j) => p.perHarmonic[j]!.coverage >= 0.3 && p.perHarmonic[j]!.inconsistentShare <= 0.15);
