@@ -13,7 +13,7 @@
 import { CancelledError, NotFoundError, ParameterError } from '../errors.ts';
 import type { AudioSource } from '../source.ts';
 import type { OpContext } from '../context.ts';
-import { HumSearch, HumTracker, establishedHarmonics, humHypotheses, persistenceEvidence, type HumMeasurement } from './hum.ts';
+import { HumSearch, HumTracker, establishedHarmonics, humHypotheses, judgedInconsistentShare, persistenceEvidence, type HumMeasurement } from './hum.ts';
 import { ToneRefiner, ToneScanner, toneHypotheses, type ToneMeasurement } from './tone.ts';
 import { TuningScanner, type TuningMeasurement } from './tuning.ts';
 import { standardPairText } from './standard.ts';
@@ -62,6 +62,8 @@ export interface SpeedOptions {
 }
 
 const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
+/** A quiet-weighted series this close (relative) to a stronger hum series is read as its sideband. */
+const SIDEBAND_SHARE = 0.05;
 
 /**
  * Evidence (0–1) that a measured series is mains hum: it must stand clearly above noise (coherent
@@ -75,8 +77,9 @@ function humEvidence(m: HumMeasurement): number {
   // Under quiet weights the bursts no longer blur the segments' readings, so hum shows at its one
   // level in nearly every judged segment; a drum's ringing that each hit starts again (steady
   // only in the long run, where a loop repeats) does not: full weight up to 6 % of the judged
-  // cells off the level, none from 10 %.
-  const level = m.quiet ? clamp01((0.1 - m.persistence.inconsistentShare) / 0.04) : 1;
+  // cells off the level, none from 10 % (counting the harmonics judged in ≥ 30 % of the
+  // segments, as persistenceEvidence does).
+  const level = m.quiet ? clamp01((0.1 - judgedInconsistentShare(m.persistence)) / 0.04) : 1;
   // The fundamental is mains hum's strongest line. When it cannot be judged (a note or a loop's
   // ringing beside it) the series is inferred from its upper harmonics alone, which a drum loop's
   // lines (at multiples of its repetition rate) can also supply: × 0.9, below the 0.9 claims.
@@ -207,9 +210,16 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
       // A candidate whose strength comes mostly from harmonics of a stronger series that is hum
       // (a sub-multiple such as 100/3 Hz, or 60 Hz beside 100 Hz buzz) is that series seen again:
       // drop it. A series that is not hum itself drops nothing.
+      // Quiet weighting multiplies the stream by weights that rise and fall with the programme's
+      // bursts, which puts copies of every line at the bursts' rates beside it (amplitude
+      // modulation sidebands, common practice): a quiet-weighted series within 5 % of a stronger
+      // hum series is that series' sideband, not a second mains frequency.
+      const above = (m: HumMeasurement) => m.detectionDb - m.noiseDetectionDb;
+      const sideband = (c: (typeof usable)[number], b: (typeof usable)[number]) =>
+        c.m.quiet && Math.abs(c.m.meanFundamentalHz / b.m.meanFundamentalHz - 1) <= SIDEBAND_SHARE && above(b.m) > above(c.m);
       const kept: typeof usable = [];
       for (const c of usable) {
-        if (!kept.some((b) => b.evidence >= 0.5 && sharedShare(c.m, b.m, N / fs) >= 0.5)) kept.push(c);
+        if (!kept.some((b) => b.evidence >= 0.5 && (sharedShare(c.m, b.m, N / fs) >= 0.5 || sideband(c, b)))) kept.push(c);
       }
       // Several steady lines can each look like hum (a pure test tone, an electronic whine): rank
       // them by evidence × the plausibility of the speed they imply, and let the winner keep only

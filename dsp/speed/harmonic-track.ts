@@ -78,6 +78,10 @@ const CURVE_HALF_WINDOWS = 4;
 const CURVE_HALF_SECONDS = 15;
 /** Up to this length a drifting series is one straight line, fitted coherently (fitChirp). */
 const CHIRP_MAX_SECONDS = 2 * CURVE_HALF_SECONDS;
+/** A window farther than this many scatters from the line through the others is set aside. */
+const OUTLIER_SCATTERS = 5;
+/** A window whose harmonic-sum statistic exceeds this many times the median one is flooded by a transient. */
+const FLOOD_RATIO = 10;
 
 /** Noise correlation between track samples ℓ apart for a boxcar(D)^R decimator. */
 export function trackNoiseCorrelation(factor: number, order: number): Float64Array {
@@ -314,21 +318,60 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
   }
   const times = starts.map((s) => layout.timeOf(s + (winLen - 1) / 2));
   const f0s = Array.from(deltas, (d) => f0c + d);
-  let curveMean = f0s.reduce((a, b) => a + b, 0) / W;
   let scatter: number;
   if (W >= 3) {
-    const d = f0s.slice(1).map((v, i) => Math.abs(v - f0s[i]!)).sort((a, b) => a - b);
-    scatter = Math.max((1.4826 * d[d.length >> 1]!) / Math.SQRT2, 1e-9 * f0c);
+    // Window-to-window scatter: the median absolute deviation of the first differences about
+    // their median (× 1.4826, the normal consistency factor; ÷ √2, a difference of two windows),
+    // so that a real trend (which shifts every difference alike) and a few windows a passing
+    // note pulled off the line do not count as scatter (Rousseeuw & Croux 1993, the MAD).
+    const d = f0s.slice(1).map((v, i) => v - f0s[i]!).sort((a, b) => a - b);
+    const med = d[d.length >> 1]!;
+    const dev = d.map((v) => Math.abs(v - med)).sort((a, b) => a - b);
+    scatter = Math.max((1.4826 * dev[dev.length >> 1]!) / Math.SQRT2, 1e-9 * f0c);
   } else {
     scatter = step;
   }
-  const independent = Math.max(1, (W * hop) / winLen);
+  // Windows a passing note pulled off the curve (more than OUTLIER_SCATTERS scatters from the
+  // local straight line through the windows within ±15 s, the one the curve follows) are set
+  // aside, the farthest first, at most a quarter of them; each then reads the local line through
+  // the others (so that the curve, its drift and its mean still weigh every second of the file
+  // alike: a ramp's mean is not moved by which windows were set aside).
+  const curveHalf = Math.max(CURVE_HALF_WINDOWS, Math.round((CURVE_HALF_SECONDS * fb) / hop));
+  const kept: boolean[] = new Array<boolean>(W).fill(true);
   const reliableShare = reliable.filter(Boolean).length / W;
-  // Steadiness: a line that is there all the time has a median window statistic close to its mean;
-  // a note that comes and goes has a median far below its mean.
-  const sortedSums = [...snrSums].sort((a, b) => a - b);
-  const steadiness = Math.min(1, sortedSums[sortedSums.length >> 1]! / (snrSums.reduce((a, b) => a + b, 0) / W));
   const curveReliable = reliableShare >= 0.6;
+  if (curveReliable && W >= 4) {
+    for (let dropped = 0; dropped < Math.floor(W / 4); dropped++) {
+      const fit = localLineFit(times, f0s, kept, curveHalf);
+      let far = -1, farDist = 0;
+      for (let w = 0; w < W; w++) {
+        const dist = Math.abs(f0s[w]! - fit[w]!);
+        if (kept[w] && dist > farDist) {
+          farDist = dist;
+          far = w;
+        }
+      }
+      if (far < 0 || farDist <= OUTLIER_SCATTERS * scatter) break;
+      kept[far] = false;
+    }
+    if (kept.includes(false)) {
+      const fit = localLineFit(times, f0s, kept, curveHalf);
+      for (let w = 0; w < W; w++) if (!kept[w] && Number.isFinite(fit[w]!)) f0s[w] = fit[w]!;
+    }
+  }
+  let curveMean = f0s.reduce((a, b) => a + b, 0) / W;
+  const independent = Math.max(1, (W * hop) / winLen);
+  // Steadiness: a line that is there all the time has a median window statistic close to its mean;
+  // a note that comes and goes has a median far below its mean. A window flooded by a transient
+  // (a note's attack or a thump leaking onto the line: over FLOOD_RATIO × the median) is left out
+  // of the mean, the largest first, at most a tenth of the windows: one burst says nothing about
+  // whether the line is there in the others, while a note that comes and goes floods more
+  // windows than that and still reads unsteady.
+  const sortedSums = [...snrSums].sort((a, b) => a - b);
+  const medianSum = sortedSums[sortedSums.length >> 1]!;
+  const floods = Math.min(Math.floor(W / 10), sortedSums.filter((v) => v > FLOOD_RATIO * medianSum).length);
+  const counted = sortedSums.slice(0, W - floods);
+  const steadiness = Math.min(1, medianSum / (counted.reduce((a, b) => a + b, 0) / counted.length));
 
   // 3. Drift: a straight line through a reliable curve, significant against its scatter.
   let drifting = false;
@@ -453,7 +496,7 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
       ? chirp
         ? times.map((t) => f0c + chirp.offsetHz + chirp.slopeHzPerSecond * (t - chirp.centreSeconds))
         : drifting
-        ? smoothLinear(times, f0s, Math.max(CURVE_HALF_WINDOWS, Math.round((CURVE_HALF_SECONDS * fb) / hop)))
+        ? smoothLinear(times, f0s, curveHalf)
         : times.map(() => mean)
       : [],
     detectionDb,
@@ -524,6 +567,39 @@ function fitChirp(
     ba = goldenMax((a) => S(bd, a), ba - aStep, ba + aStep, 16);
   }
   return { offsetHz: bd, slopeHzPerSecond: ba, centreSeconds, harmonicPower: set.harmonics.map((_, j) => power(j, bd, ba)) };
+}
+
+/**
+ * line_i(t_i) for each point: line_i the least-squares straight line through the points marked
+ * in `use` among the ±half neighbours of i (by index; prefix sums, O(n)); NaN where fewer than two
+ * such points.
+ */
+export function localLineFit(t: readonly number[], y: readonly number[], use: readonly boolean[], half: number): Float64Array {
+  const n = y.length;
+  // Prefix sums of 1, t, y, t², t·y over the points in use, t and y taken about their first value
+  // (better conditioned).
+  const t0 = t[0] ?? 0, y0 = y[0] ?? 0;
+  const P = new Float64Array(5 * (n + 1));
+  for (let i = 0; i < n; i++) {
+    const u = use[i] ? 1 : 0, a = t[i]! - t0, b = y[i]! - y0;
+    P[5 * (i + 1)] = P[5 * i]! + u;
+    P[5 * (i + 1) + 1] = P[5 * i + 1]! + u * a;
+    P[5 * (i + 1) + 2] = P[5 * i + 2]! + u * b;
+    P[5 * (i + 1) + 3] = P[5 * i + 3]! + u * a * a;
+    P[5 * (i + 1) + 4] = P[5 * i + 4]! + u * a * b;
+  }
+  const out = new Float64Array(n).fill(NaN);
+  for (let i = 0; i < n; i++) {
+    const lo = Math.max(0, i - half), hi = Math.min(n - 1, i + half);
+    const g = (k: number) => P[5 * (hi + 1) + k]! - P[5 * lo + k]!;
+    const m = g(0);
+    if (m < 2) continue;
+    const tm = g(1) / m, ym = g(2) / m;
+    const sxx = g(3) - m * tm * tm, sxy = g(4) - m * tm * ym;
+    const slope = sxx > 0 ? sxy / sxx : 0;
+    out[i] = y0 + ym + slope * (t[i]! - t0 - tm);
+  }
+  return out;
 }
 
 /**

@@ -57,6 +57,8 @@ const MAX_HARMONIC_HZ = 700;
 const MAX_HARMONICS = 10;
 /** Candidates measured in full (the best persisting at their coarse frequency). */
 const MAX_MEASURED = 3;
+/** Rounds of measuring again without the harmonics a measurement contradicts. */
+const PRUNE_ROUNDS = 4;
 
 export interface HumPeak {
   frequencyHz: number;
@@ -382,26 +384,33 @@ export class HumTracker {
   }
 
 
-  #measureGroup(g: TrackGroup, sampleRateHz: number, again = true): HumMeasurement | null {
-    const m = this.#measureOnce(g, sampleRateHz);
-    if (!m || !again) return m;
+  #measureGroup(g: TrackGroup, sampleRateHz: number): HumMeasurement | null {
+    let m = this.#measureOnce(g, sampleRateHz);
     // Each harmonic of hum tells the same story (one level through the file, one frequency ratio).
     // A harmonic the segment check contradicts (judged in ≥ 30 % of the segments and off its level
     // in > 30 % of those) is a note's partial sitting on it: measured with the others, its h²
     // weight would pull the frequency. The series is measured again without it (the fundamental
-    // always stays: persistenceEvidence judges it).
-    const bad = m.harmonicsUsed.filter((h, j) => {
-      const x = m.persistence.perHarmonic[j]!;
-      return h !== 1 && x.coverage >= 0.3 && x.inconsistentShare > 0.3;
-    });
-    if (bad.length === 0) return m;
-    const keep = g.harmonics.map((h, j) => (bad.includes(h) ? -1 : j)).filter((j) => j >= 0);
-    if (!keep.some((j) => g.harmonics[j] === 1)) return m;
-    const again2 = this.#measureOnce(
-      { candidate: g.candidate, harmonics: keep.map((j) => g.harmonics[j]!), weights: keep.map((j) => g.weights[j]!), tracks: keep.map((j) => g.tracks[j]!) },
-      sampleRateHz,
-    );
-    return again2 ?? m;
+    // always stays: persistenceEvidence judges it), and again while the new measurement (along
+    // its own curve) contradicts another harmonic it used, at most PRUNE_ROUNDS times.
+    let cur = g;
+    for (let round = 0; m && round < PRUNE_ROUNDS; round++) {
+      const mm: HumMeasurement = m;
+      const bad = mm.harmonicsUsed.filter((h, j) => {
+        const x = mm.persistence.perHarmonic[j]!;
+        return h !== 1 && x.coverage >= 0.3 && x.inconsistentShare > 0.3;
+      });
+      if (bad.length === 0) break;
+      const keep = cur.harmonics.map((h, j) => (bad.includes(h) ? -1 : j)).filter((j) => j >= 0);
+      if (!keep.some((j) => cur.harmonics[j] === 1)) break;
+      const next: TrackGroup = {
+        candidate: cur.candidate, harmonics: keep.map((j) => cur.harmonics[j]!), weights: keep.map((j) => cur.weights[j]!), tracks: keep.map((j) => cur.tracks[j]!),
+      };
+      const again = this.#measureOnce(next, sampleRateHz);
+      if (!again) break;
+      cur = next;
+      m = again;
+    }
+    return m;
   }
 
   #measureOnce(g: TrackGroup, sampleRateHz: number): HumMeasurement | null {
@@ -449,6 +458,21 @@ export function persistenceEvidence(harmonics: readonly number[], p: LinePersist
   if (p.coverage * p.segments < 6) return 0;
   const badShare = judgedCells > 0 ? badCells / judgedCells : 1;
   return clamp01((0.25 - badShare) / 0.1) * clamp01((p.coverage - 0.3) / 0.3);
+}
+
+/**
+ * Of the cells of the harmonics judged in ≥ 30 % of the segments (those `persistenceEvidence`
+ * weighs), the share off the line's level; 1 when none is judged that often. A harmonic glimpsed
+ * in a segment or two (a drum's ringing passing over it) says nothing about the series' level.
+ */
+export function judgedInconsistentShare(p: LinePersistence): number {
+  let judged = 0, bad = 0;
+  for (const x of p.perHarmonic) {
+    if (x.coverage < 0.3) continue;
+    judged += x.coverage;
+    bad += x.coverage * x.inconsistentShare;
+  }
+  return judged > 0 ? bad / judged : 1;
 }
 
 /** The harmonics `persistenceEvidence` counts as established (judged in ≥ 30 % of the segments, at their level in ≥ 85 %). */
