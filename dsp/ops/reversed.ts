@@ -44,7 +44,7 @@ export const reversed = defineAnalysis<ReversedResult>()({
           : ch.basis === 'bands-agree'
             ? `in ${Math.round((ch.bandsAgreeing ?? 0) * (ch.bands ?? 0))} of its ${ch.bands ?? 0} frequency bands the level fades in and cuts off (band skew ${(ch.bandSkew ?? 0).toFixed(2)}, median over the bands ${(ch.bandMedian ?? 0).toFixed(2)})`
             : ch.swellsIntoStops === 1
-              ? 'one swell straight into a hard stop and no decay after a hard start'
+              ? 'one swell straight into a hard stop, rising fastest in its high frequency bands as a decaying note played backwards does, and no decay after a hard start; one sound only'
               : `${ch.swellsIntoStops ?? 0} swells straight into hard stops and no decay after a hard start`;
     for (const ch of result.channels) {
       if (ch.likely === true) {
@@ -66,7 +66,9 @@ export const reversed = defineAnalysis<ReversedResult>()({
           : ch.basis === 'no-hard-edges'
             ? 'its sounds neither start nor stop abruptly (sustained or steady material), so their shape does not tell the direction'
             : ch.basis === 'fade-like'
-              ? `its one ${ch.abruptStops > ch.abruptStarts ? 'swell into a hard stop' : 'decay after a hard start'} moves every frequency band together (band spread ${(ch.rampBandSpread ?? 0).toFixed(1)}), as a fade applied as a gain does, while a free decay has a rate of its own in each band — one fade and one cut read the same either way round`
+              ? (ch.rampBandSpread ?? 0) < 6
+                ? `its one ${ch.abruptStops > ch.abruptStarts ? 'swell into a hard stop' : 'decay after a hard start'} moves every frequency band together (band spread ${(ch.rampBandSpread ?? 0).toFixed(1)}), as a fade applied as a gain does, while a free decay has a rate of its own in each band — one fade and one cut read the same either way round`
+                : `its ${ch.abruptStops > ch.abruptStarts ? 'swell into a hard stop' : 'decay after a hard start'} does not have its high frequency bands ${ch.abruptStops > ch.abruptStarts ? 'rising' : 'falling'} fastest (rank correlation of band rate with frequency ${(ch.rampBandTilt ?? 0).toFixed(2)}), as a decaying note${ch.abruptStops > ch.abruptStarts ? ' played backwards' : ''} does; ${ch.abruptStops > ch.abruptStarts ? "a forward note's own decay under a fade-in" : 'a note played backwards under a fade-out'} looks like this — one fade and one cut read the same either way round`
             : ch.basis === 'cues-disagree'
               ? `its level steps lean one way (skew ${(ch.skew ?? ch.score).toFixed(2)}) but too few of its sounds say which way (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops${ch.gatedNotes ? `, ${ch.gatedNotes} of them notes that start and stop abruptly, which read the same either way round` : ''}) — slow attacks with quick releases (winds, bowed strings, organ, fades) look like this either way round`
               : `too few independent sounds agree (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops, skew ${(ch.skew ?? ch.score).toFixed(2)})`;

@@ -285,3 +285,58 @@ export function edgeStagger(b: BandDb, at: number, up: boolean): boolean {
   }
   return gone >= 3 && gone >= 0.25 * sounding && held >= 2;
 }
+
+/**
+ * Which way the bands' rates lean across the spectrum over frames [from, to): each used band's
+ * level fitted with a straight line (dB against time, as in bandHeterogeneity), and Spearman's rank
+ * correlation of the slopes with the bands' frequencies (−1 … 1; 0 with fewer than 4 bands).
+ * A gain — an editor's fade of any curve — adds the same dB to every band and leaves this order
+ * alone. The higher partials of a struck or plucked string die away faster than the lower ones
+ * (from memory: Fletcher & Rossing, The Physics of Musical Instruments, §2 and §12 — losses grow
+ * with frequency), so a free decay has the slopes falling with frequency (correlation near −1),
+ * and the same decay played backwards has them rising (near +1) — however it was faded.
+ * `relativeSpread`: the mean rate of the top third of the bands less that of the bottom third,
+ * over the size of the mean rate of all (signed as the correlation is).
+ */
+export function bandRateTilt(b: BandDb, from: number, to: number): { bands: number; correlation: number; relativeSpread: number } {
+  const lo = Math.max(0, from), hi = Math.min(b.frames, to);
+  const slopes: number[] = [];
+  for (let k = 0; k < b.bands; k++) {
+    if (!b.used[k]) continue;
+    let n = 0, st = 0, sy = 0, stt = 0, sty = 0;
+    for (let t = lo; t < hi; t++) {
+      const y = b.db[t * b.bands + k]!;
+      if (y <= -FLOOR_DB + 10) continue;
+      n++; st += t; sy += y; stt += t * t; sty += t * y;
+    }
+    if (n < 30) continue;
+    const sxx = stt - (st * st) / n;
+    if (sxx <= 0) continue;
+    slopes.push((sty - (st * sy) / n) / sxx);
+  }
+  const m = slopes.length;
+  if (m < 4) return { bands: m, correlation: 0, relativeSpread: 0 };
+  // Ranks of the slopes (ties share their mean rank) against ranks 0 … m − 1 of the bands.
+  const order = slopes.map((v, i) => [v, i] as const).sort((x, y) => x[0] - y[0]);
+  const rank = new Float64Array(m);
+  for (let i = 0; i < m; ) {
+    let j = i;
+    while (j + 1 < m && order[j + 1]![0] === order[i]![0]) j++;
+    for (let q = i; q <= j; q++) rank[order[q]![1]] = (i + j) / 2;
+    i = j + 1;
+  }
+  const mean = (m - 1) / 2;
+  let sxy = 0, sxx = 0, syy = 0;
+  for (let i = 0; i < m; i++) {
+    sxy += (i - mean) * (rank[i]! - mean);
+    sxx += (i - mean) ** 2;
+    syy += (rank[i]! - mean) ** 2;
+  }
+  // How far apart the rates of the top and bottom thirds of the bands lie, relative to the rate
+  // of the whole: small when a fade carries the ramp (it adds the same rate to every band).
+  const third = Math.max(1, Math.floor(m / 3));
+  const meanOf = (xs: number[]) => xs.reduce((p, v) => p + v, 0) / xs.length;
+  const overall = meanOf(slopes);
+  const relativeSpread = overall !== 0 ? (meanOf(slopes.slice(m - third)) - meanOf(slopes.slice(0, third))) / Math.abs(overall) : 0;
+  return { bands: m, correlation: syy > 0 ? sxy / Math.sqrt(sxx * syy) : 0, relativeSpread };
+}
