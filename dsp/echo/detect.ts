@@ -43,9 +43,12 @@ export const PRINT_THROUGH_RANGE_SECONDS: readonly [number, number] = [0.3, 4];
 /**
  * Levels a tape's print-through can have relative to the passage it copies: about −40 to −65 dB
  * (REFERENCES.md §4; common practice), with margin. A copy at −10 or −20 dB is the music
- * repeating itself; one under −80 dB is below what a transfer can show reliably.
+ * repeating itself; one under −80 dB is below what a transfer can show reliably. The upper cap
+ * leaves 4 dB over the strongest print-through: on the real-material corpus true copies at −40 dB
+ * read −39.8 … −41.0 dB, while a pad's, a clarinet melody's and a band loop's own repetition read
+ * −31.7 … −35.9 dB (−30 let them through).
  */
-export const PRINT_THROUGH_MAX_DB = -30;
+export const PRINT_THROUGH_MAX_DB = -36;
 export const PRINT_THROUGH_MIN_DB = -80;
 
 /**
@@ -204,6 +207,13 @@ export const BAND_OVER = 1.5;
  * other sign (a funk loop's half beat, 227 ms: +0.28…+0.48 in the middle, −0.99 at the top).
  */
 export const BAND_MIN_SHARE = 0.2;
+/**
+ * How far a band above the lowest may read on the other side of zero, as a share of |ĝ|: a
+ * reflection has the sign of ĝ in every band. On the corpus, 129 true reflections read at worst
+ * −0.034·|ĝ| in any such band; a brass melody's own 30.2 ms peak (ĝ = −0.082) read +0.021 at
+ * 0.5–1 kHz (+0.26·|ĝ|) and a saxophone's chords −0.8·|ĝ|.
+ */
+export const BAND_OPPOSITE = 0.15;
 
 /**
  * The band-by-band test of a reflection at gain ĝ (evidence.ts, `bands`): one gain in every band
@@ -228,7 +238,7 @@ export function bandVerdict(
   if (b.length < 2) return null;
   const upper = b.length >= 3 ? b.slice(1) : b;
   const top = Math.max(...upper.map((x) => Math.abs(x.gain) - 2 * x.gainStd));
-  const off = upper.find((x) => x.gain * Math.sign(gain) + 2 * x.gainStd < BAND_MIN_SHARE * top);
+  const off = upper.find((x) => x.gain * Math.sign(gain) + 2 * x.gainStd < BAND_MIN_SHARE * top || x.gain * Math.sign(gain) < -BAND_OPPOSITE * Math.abs(gain));
   if (off) {
     return {
       present: false,
@@ -245,6 +255,13 @@ export function bandVerdict(
  */
 export const FEW_FRAMES = 10;
 export const FEW_FRAMES_CONFIDENCE = 0.8;
+/**
+ * Below FEW_FRAMES frames, the smallest |ĝ| reported at all: a handful of frames can vouch for a
+ * strong reflection, not for a weak one. On the corpus, 16 true reflections found from 5–9 frames
+ * had |ĝ| ≥ 0.098; the programme's own peaks read from so few (contrabass and cello chords,
+ * 390–482 ms; a pad; saxophone chords) had |ĝ| ≤ 0.048.
+ */
+export const FEW_FRAMES_MIN_GAIN = 0.07;
 
 const noPrintThrough = (): PrintThroughResult => ({ present: false, reason: null, delaySeconds: null, levelDb: null, gain: null, confidence: 0, z: 0, refined: false, detail: null });
 
@@ -437,10 +454,18 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
               present: null,
               reason: `${ms} ms is a whole number of periods of the note${evidence.locked > 1 ? 's' : ''} played in ${Math.round((100 * evidence.locked) / evidence.frames)} % of the frames; a pitch period is not evidence of a reflection, and too little else is played to tell`,
             };
-          } else if (!gateNoise && spread !== null && Math.sign(spread) === Math.sign(gain) && evidence.share !== null && evidence.share > SHARE_RANGE[1]) {
+          } else if (evidence.frames < FEW_FRAMES && Math.abs(gain) < FEW_FRAMES_MIN_GAIN) {
+            verdict = {
+              present: null,
+              reason: `a peak at ${ms} ms of gain ${gain.toFixed(3)}, but only ${evidence.frames} frames with programme: too few to tell so weak a reflection from the sound's own structure`,
+            };
+          } else if (spread !== null && Math.sign(spread) === Math.sign(gain) && evidence.share !== null && evidence.share > SHARE_RANGE[1]) {
             // Cancelling at ĝ leaves the frames' peak at τ in place: a rhythm or repeat at τ, or a
             // reflection stronger than measured (Festival speech with 61.8 ms / 0.2 measured
             // 0.11 reads 1.76; a band loop at its beat 1.5–1.8). Either way nothing to act on.
+            // Also where noise was added after the reflection (gateNoise): that noise carries the
+            // inverse echo once cancelled and lowers the share, never raises it (a held organ
+            // note at 3 periods, 25.6 ms, read 4.9 there and passed for a reflection).
             verdict = {
               present: null,
               reason: `the peak at ${ms} ms is still there after cancelling it at ${gain.toFixed(3)}: a rhythm or repeat at that interval, or a reflection stronger than measured; not determined`,

@@ -5,7 +5,7 @@
  * both halves of the passages compared (detect.ts, ptBandsDisagree and ptHalvesDisagree).
  */
 import { describe, expect, it } from 'vitest';
-import { analyseEcho, bandVerdict, FEW_FRAMES, FEW_FRAMES_CONFIDENCE, ptBandsDisagree, ptHalvesDisagree } from '../../dsp/echo/detect.ts';
+import { analyseEcho, bandVerdict, PRINT_THROUGH_MAX_DB, FEW_FRAMES, FEW_FRAMES_CONFIDENCE, FEW_FRAMES_MIN_GAIN, ptBandsDisagree, ptHalvesDisagree } from '../../dsp/echo/detect.ts';
 import { echoBands, frameEvidence } from '../../dsp/echo/evidence.ts';
 import { MemorySource } from '../../dsp/source.ts';
 import { unecho } from '../../dsp/ops/unecho.ts';
@@ -113,6 +113,12 @@ describe('band-by-band reading of a reflection', () => {
     expect(bandVerdict([band(125, 0.2), band(250, -0.1), band(500, 0.19)], 0.2, '12.2')?.present).toBe(false);
     // The lowest band alone may disagree (a low note's few partials).
     expect(bandVerdict([band(125, -0.2), band(250, 0.2), band(500, 0.19)], 0.2, '12.2')).toBeNull();
+    // Source: the rule's definition (b·sign(ĝ) < −0.15·|ĝ| in a band above the lowest), on
+    // made-up readings with a wide spread (σ = 0.03), as a brass melody's 30.2 ms peak read them.
+    const wide = (loHz: number, gain: number) => ({ loHz, hiHz: 2 * loHz, gain, gainStd: 0.03, frames: 50 });
+    expect(bandVerdict([wide(125, -0.01), wide(500, 0.021), wide(1000, -0.106), wide(2000, -0.084), wide(4000, -0.116)], -0.082, '30.2')?.present).toBe(false);
+    // A band near zero is not the other sign (−0.1·|ĝ|: within the rule).
+    expect(bandVerdict([wide(125, -0.08), wide(500, 0.008), wide(1000, -0.09), wide(2000, -0.08)], -0.082, '30.2')).toBeNull();
   });
 });
 
@@ -127,6 +133,18 @@ describe('thin frame evidence', () => {
     expect(r.present).toBe(true);
     expect(Math.abs(r.delaySeconds! - 0.45) * fs).toBeLessThanOrEqual(0.1);
     expect(r.confidence).toBeLessThanOrEqual(FEW_FRAMES_CONFIDENCE);
+  }, 60_000);
+
+  it('a weak one from under 10 frames is not reported (|ĝ| under FEW_FRAMES_MIN_GAIN)', async () => {
+    // Source: truth by construction, y = x + 0.04·x(t − 450 ms) on the same 12 s: a reflection
+    // is there, but a handful of frames cannot tell one so weak from the sound's own structure.
+    const { x } = voiceLike({ sampleRateHz: fs, seconds: 12, seed: 3 });
+    const r = (await analyseEcho(new MemorySource([addEchoes(x, [{ delaySamples: 0.45 * fs, gain: 0.04 }])], fs))).reflection;
+    expect(FEW_FRAMES_MIN_GAIN).toBeGreaterThan(0.04);
+    expect(r.evidence!.frames).toBeLessThan(FEW_FRAMES);
+    // (Its peak is clear, z ≈ 19: without the rule it stood at confidence 0.8.)
+    expect(r.present).toBeNull();
+    expect(r.reason).toMatch(/frames/);
   }, 60_000);
 });
 
@@ -151,6 +169,17 @@ describe('print-through: one level in every band and through the file', () => {
     expect(r.present).toBe(true);
     expect(r.detail?.halves).not.toBeNull();
     for (const h of r.detail!.halves!) expect(Math.abs(20 * Math.log10(h.gain) - -40)).toBeLessThanOrEqual(2);
+  }, 60_000);
+
+  it('a copy at −33 dB throughout is too strong for print-through (over PRINT_THROUGH_MAX_DB)', async () => {
+    // Source: y = x + g·x(t + 1.5 s), g = 10^(−33/20), by the DFT shift theorem; print-through
+    // is about −40 to −65 dB (REFERENCES.md §4), so a −33 dB likeness is the programme's own.
+    const { x } = voiceLike({ sampleRateHz: fs, seconds: 10, seed: 21 });
+    const g = Math.pow(10, -33 / 20);
+    const r = (await analyseEcho(new MemorySource([addEchoes(x, [{ delaySamples: -1.5 * fs, gain: g }])], fs))).printThrough;
+    expect(PRINT_THROUGH_MAX_DB).toBeLessThan(-33);
+    expect(r.present).toBe(false);
+    expect(r.reason).toMatch(/too strong/);
   }, 60_000);
 
   it('a copy of one passage only (a phrase heard again, faintly) is not print-through', async () => {
