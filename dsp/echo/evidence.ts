@@ -63,6 +63,40 @@ function peakAt(c: Float64Array, q: number, signed: 1 | -1 | 0, halfWidth?: numb
 /** Threshold (natural-log power cepstrum units) for a frame's own pitch peak. */
 const PITCH_PEAK = 0.1;
 
+/** Two quefrencies (samples) that are the same period: within 1.5 samples or 2 %. */
+const nearQuefrency = (a: number, b: number) => Math.abs(a - b) <= Math.max(1.5, 0.02 * b);
+
+/** k when q ≈ τ/k, −k when q ≈ k·τ (k = 2…8), else 0. */
+export function periodMultiple(q: number, tau: number): number {
+  for (let k = 2; k <= 8; k++) {
+    if (nearQuefrency(q, tau / k)) return k;
+    if (nearQuefrency(q, k * tau)) return -k;
+  }
+  return 0;
+}
+
+/**
+ * A frame's pitch candidate: the strongest peak of its cepstrum over 1–40 ms after a short local
+ * baseline (the mean of the values 3–6 samples either side) is taken off, with its detrended
+ * value; quefrencies within `skipHalfWidth` samples of `skip` are not looked at. Null when the
+ * range is empty.
+ */
+export function strongestPitchPeak(c: Float64Array, fs: number, skip = -Infinity, skipHalfWidth = 0): { quefrency: number; detrended: number } | null {
+  const n2 = c.length / 2;
+  const lo = Math.max(8, Math.floor(0.001 * fs)), hi = Math.min(Math.floor(0.04 * fs), n2 - 20);
+  if (hi <= lo) return null;
+  let best = -Infinity, bestQ = -1;
+  for (let q = lo; q <= hi; q++) {
+    if (Math.abs(q - skip) <= skipHalfWidth) continue;
+    const v = c[q]! - 0.125 * (c[q - 6]! + c[q - 5]! + c[q - 4]! + c[q - 3]! + c[q + 3]! + c[q + 4]! + c[q + 5]! + c[q + 6]!);
+    if (v > best) {
+      best = v;
+      bestQ = q;
+    }
+  }
+  return bestQ < 0 ? null : { quefrency: bestQ, detrended: best };
+}
+
 /**
  * Whether a frame's cepstrum `c` (length N, of the log power spectrum) shows a periodicity that
  * puts a peak at `tau` by itself (see the module comment). `fs` sets the pitch range.
@@ -74,22 +108,12 @@ export function pitchLocked(c: Float64Array, tau: number, fs: number, echoRemove
 /** As pitchLocked, saying how: the frame's pitch period in samples and k (τ = k·P, or P = k·τ as −k), or null. */
 export function pitchLock(c: Float64Array, tau: number, fs: number, echoRemoved = false): { periodSamples: number; k: number } | null {
   const n2 = c.length / 2;
-  const lo = Math.max(8, Math.floor(0.001 * fs)), hi = Math.min(Math.floor(0.04 * fs), n2 - 20);
-  if (hi <= lo) return null;
   // The frame's pitch: the strongest detrended peak over the range (with a short local baseline).
-  let best = -Infinity, bestQ = -1;
-  for (let q = lo; q <= hi; q++) {
-    const v = c[q]! - 0.125 * (c[q - 6]! + c[q - 5]! + c[q - 4]! + c[q - 3]! + c[q + 3]! + c[q + 4]! + c[q + 5]! + c[q + 6]!);
-    if (v > best) {
-      best = v;
-      bestQ = q;
-    }
-  }
+  const bestQ = strongestPitchPeak(c, fs)?.quefrency ?? -1;
   if (bestQ < 0) return null;
   const strength = peakAt(c, bestQ, 1);
   if (!(strength > PITCH_PEAK)) return null;
-  const near = (a: number, b: number) => Math.abs(a - b) <= Math.max(1.5, 0.02 * b);
-  if (near(bestQ, tau)) {
+  if (nearQuefrency(bestQ, tau)) {
     // With the echo's own cepstrum taken out (echoRemoved), a peak left at τ is the source's.
     if (echoRemoved) return { periodSamples: bestQ, k: 1 };
     // Otherwise: a source periodic at τ has a positive rahmonic at 2τ, an echo −g²/2.
@@ -101,10 +125,8 @@ export function pitchLock(c: Float64Array, tau: number, fs: number, echoRemoved 
     // note's is positive and comparable to its first (about half of it on sustained bass notes).
     if (second + 0.5 * first * first > Math.max(0.06, 0.25 * Math.abs(first))) return { periodSamples: bestQ, k: 1 };
   }
-  for (let k = 2; k <= 8; k++) {
-    if (near(bestQ, tau / k)) return { periodSamples: bestQ, k };
-    if (near(bestQ, k * tau)) return { periodSamples: bestQ, k: -k };
-  }
+  const k = periodMultiple(bestQ, tau);
+  if (k !== 0) return { periodSamples: bestQ, k };
   return null;
 }
 

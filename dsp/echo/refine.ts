@@ -27,6 +27,7 @@ import { type FitResult, fitSingleEcho, fitWindows, scratchFor, undoCancellation
 import { type EchoKernel, kernelCentroid, singleEchoKernel } from './kernel.ts';
 import { LogSpectrumAccumulator } from './log-spectrum.ts';
 import { MixScratch, mixBlock } from './mix.ts';
+import { periodMultiple, strongestPitchPeak } from './evidence.ts';
 
 export interface Excerpt {
   /** First frame analysed. */
@@ -267,22 +268,8 @@ export async function cancelledCepstrum(
  * shows its second rahmonic at 2τ).
  */
 export function lockedAwayFromTau(c: Float64Array, tau: number, fs: number): boolean {
-  const n2 = c.length / 2;
-  const lo = Math.max(8, Math.floor(0.001 * fs)), hi = Math.min(Math.floor(0.04 * fs), n2 - 20);
-  if (hi <= lo) return false;
-  let best = -Infinity, bestQ = -1;
-  for (let q = lo; q <= hi; q++) {
-    if (Math.abs(q - tau) <= 3) continue;
-    const v = c[q]! - 0.125 * (c[q - 6]! + c[q - 5]! + c[q - 4]! + c[q - 3]! + c[q + 3]! + c[q + 4]! + c[q + 5]! + c[q + 6]!);
-    if (v > best) {
-      best = v;
-      bestQ = q;
-    }
-  }
-  if (bestQ < 0 || !(best > 0.1)) return false;
-  const near = (a: number, b: number) => Math.abs(a - b) <= Math.max(1.5, 0.02 * b);
-  for (let k = 2; k <= 8; k++) if (near(bestQ, tau / k) || near(bestQ, k * tau)) return true;
-  return false;
+  const peak = strongestPitchPeak(c, fs, tau, 3);
+  return peak !== null && peak.detrended > 0.1 && periodMultiple(peak.quefrency, tau) !== 0;
 }
 
 /**
