@@ -496,7 +496,7 @@ export function measureSeries(set: TrackSet, layout: TrackLayout, searchCells?: 
       ? chirp
         ? times.map((t) => f0c + chirp.offsetHz + chirp.slopeHzPerSecond * (t - chirp.centreSeconds))
         : drifting
-        ? smoothLinear(times, f0s, curveHalf)
+        ? Array.from(localLineFit(times, f0s, new Array<boolean>(W).fill(true), curveHalf), (v, i) => (Number.isFinite(v) ? v : f0s[i]!))
         : times.map(() => mean)
       : [],
     detectionDb,
@@ -598,31 +598,6 @@ export function localLineFit(t: readonly number[], y: readonly number[], use: re
     const sxx = g(3) - m * tm * tm, sxy = g(4) - m * tm * ym;
     const slope = sxx > 0 ? sxy / sxx : 0;
     out[i] = y0 + ym + slope * (t[i]! - t0 - tm);
-  }
-  return out;
-}
-
-/**
- * Local straight-line fit through the points within ±half neighbours (fewer at the ends):
- * removes window-to-window noise (÷√5 for half = 2) and leaves a linear drift untouched.
- */
-export function smoothLinear(t: readonly number[], y: readonly number[], half: number): number[] {
-  const n = y.length;
-  const out: number[] = [];
-  for (let i = 0; i < n; i++) {
-    const lo = Math.max(0, i - half), hi = Math.min(n - 1, i + half);
-    let st = 0, sy = 0;
-    for (let j = lo; j <= hi; j++) {
-      st += t[j]!;
-      sy += y[j]!;
-    }
-    const m = hi - lo + 1, tm = st / m, ym = sy / m;
-    let sxy = 0, sxx = 0;
-    for (let j = lo; j <= hi; j++) {
-      sxy += (t[j]! - tm) * (y[j]! - ym);
-      sxx += (t[j]! - tm) ** 2;
-    }
-    out.push(sxx > 0 ? ym + (sxy / sxx) * (t[i]! - tm) : ym);
   }
   return out;
 }
