@@ -35,17 +35,13 @@ export const reversed = defineAnalysis<ReversedResult>()({
       ch.basis === 'many-events'
         ? `${ch.likely ? ch.abruptStops : ch.abruptStarts} hard ${ch.likely ? 'stops' : 'starts'} against ${ch.likely ? ch.abruptStarts : ch.abruptStops} hard ${ch.likely ? 'starts' : 'stops'}` +
           (ch.gatedNotes ? `, leaving out ${ch.gatedNotes} note${ch.gatedNotes === 1 ? '' : 's'} that start and stop abruptly` : '')
-        : ch.basis === 'long-ramp'
-          ? 'one long swell straight into a hard stop, the shape of a decaying note played backwards'
-          : ch.basis === 'staggered-edges'
+        : ch.basis === 'staggered-edges'
             ? `${ch.staggeredStops ?? 0} hard stops whose frequency bands drop out one after another, as a natural attack builds up, read backwards; no hard start`
           : ch.basis === 'mirrors-channel'
             ? `its level follows channel ${ch.mirrorOf} played backwards, and of the two it is the one that swells into hard stops in ${Math.round((ch.bandsAgreeing ?? 0) * (ch.bands ?? 0))} of its ${ch.bands ?? 0} frequency bands while channel ${ch.mirrorOf} starts hard and fades`
           : ch.basis === 'bands-agree'
             ? `in ${Math.round((ch.bandsAgreeing ?? 0) * (ch.bands ?? 0))} of its ${ch.bands ?? 0} frequency bands the level fades in and cuts off (band skew ${(ch.bandSkew ?? 0).toFixed(2)}, median over the bands ${(ch.bandMedian ?? 0).toFixed(2)})`
-            : ch.swellsIntoStops === 1
-              ? 'one swell straight into a hard stop, rising fastest in its high frequency bands as a decaying note played backwards does, and no decay after a hard start; one sound only'
-              : `${ch.swellsIntoStops ?? 0} swells straight into hard stops and no decay after a hard start`;
+            : `${ch.swellsIntoStops ?? 0} swells straight into hard stops and no decay after a hard start`;
     for (const ch of result.channels) {
       if (ch.likely === true) {
         out.push({
@@ -69,6 +65,8 @@ export const reversed = defineAnalysis<ReversedResult>()({
               ? (ch.rampBandSpread ?? 0) < 6
                 ? `its one ${ch.abruptStops > ch.abruptStarts ? 'swell into a hard stop' : 'decay after a hard start'} moves every frequency band together (band spread ${(ch.rampBandSpread ?? 0).toFixed(1)}), as a fade applied as a gain does, while a free decay has a rate of its own in each band — one fade and one cut read the same either way round`
                 : `its ${ch.abruptStops > ch.abruptStarts ? 'swell into a hard stop' : 'decay after a hard start'} does not have its high frequency bands ${ch.abruptStops > ch.abruptStarts ? 'rising' : 'falling'} fastest (rank correlation of band rate with frequency ${(ch.rampBandTilt ?? 0).toFixed(2)}), as a decaying note${ch.abruptStops > ch.abruptStarts ? ' played backwards' : ''} does; ${ch.abruptStops > ch.abruptStarts ? "a forward note's own decay under a fade-in" : 'a note played backwards under a fade-out'} looks like this — one fade and one cut read the same either way round`
+            : ch.basis === 'one-ramp'
+              ? `its one ${ch.abruptStops > ch.abruptStarts ? 'swell into a hard stop' : 'decay after a hard start'} is one sound only: it has the shape of a decaying note${ch.abruptStops > ch.abruptStarts ? ' played backwards' : ''}, but ${ch.abruptStops > ch.abruptStarts ? 'a forward sound faded in and cut off' : 'a sound played backwards, faded out and cut in,'} can look the same in its level and in its frequency bands, and no other sound says which way round it is`
             : ch.basis === 'cues-disagree'
               ? `its level steps lean one way (skew ${(ch.skew ?? ch.score).toFixed(2)}) but too few of its sounds say which way (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops${ch.gatedNotes ? `, ${ch.gatedNotes} of them notes that start and stop abruptly, which read the same either way round` : ''}) — slow attacks with quick releases (winds, bowed strings, organ, fades) look like this either way round`
               : `too few independent sounds agree (${ch.abruptStarts} hard starts, ${ch.abruptStops} hard stops, skew ${(ch.skew ?? ch.score).toFixed(2)})`;

@@ -205,8 +205,10 @@ describe('reversed-channel detection', () => {
       expect([r.swellsIntoStops, r.decaysAfterStarts]).toEqual([f.decaysAfterStarts, f.swellsIntoStops]);
       expect(r.likely).toBe(f.likely === null ? null : !f.likely);
     }
-    // One exponential decay after a hard start (a struck note): forward, from its shape alone.
-    expect(judgeEnvelope(decaying)).toMatchObject({ likely: false, basis: 'ramps-at-edges', decaysAfterStarts: 1 });
+    // One exponential decay after a hard start (a struck note) is one sound only: not determined,
+    // as its mirror image (one swell into a hard stop, which a fade-in then a cut can also give) is.
+    expect(judgeEnvelope(decaying)).toMatchObject({ likely: null, basis: 'one-ramp', decaysAfterStarts: 1 });
+    expect(judgeEnvelope(decaying.slice().reverse())).toMatchObject({ likely: null, basis: 'one-ramp', swellsIntoStops: 1 });
   });
 
   it('suggests reversing the channel it found, and applying the suggestion clears the finding', async () => {
