@@ -190,12 +190,19 @@ export async function estimateSpeed(source: AudioSource, options: SpeedOptions, 
   if (hum) {
     const { candidates: hc, floorAt } = hum.candidates(options.mainsHz);
     if (hc.length > 0) {
-      const tracker = new HumTracker(fs, hc.map((candidate) => ({ candidate, floorAt: (hz: number) => floorAt(hz, candidate.quiet) })), hum.quietWeights());
+      const tracker = new HumTracker(fs, hc.map((candidate) => ({ candidate, floorAt: (hz: number) => floorAt(hz, candidate.quiet) })), hum.quietWeights(), source.channelCount === 2);
+      let side = new Float64Array(65536);
       let d2 = 0;
       for await (const block of source.blocks()) {
         aborted();
         if (mono.length < block[0]!.length) mono = new Float64Array(block[0]!.length);
-        tracker.push(monoMix(block, mono));
+        if (block.length === 2) {
+          const n = block[0]!.length;
+          if (side.length < n) side = new Float64Array(n);
+          const l = block[0]!, r = block[1]!, sd = side.subarray(0, n);
+          for (let i = 0; i < n; i++) sd[i] = 0.5 * (l[i]! - r[i]!);
+          tracker.push(monoMix(block, mono), sd);
+        } else tracker.push(monoMix(block, mono));
         d2 += block[0]!.length;
         ctx.progress(0.5 + 0.4 * (d2 / N));
       }

@@ -39,6 +39,8 @@ interface TrackGroup {
   harmonics: number[];
   weights: number[];
   tracks: HeterodyneTrack[];
+  /** The fundamental's track of the side signal (L − R)/2 (two-channel streams only; quiet-weighted for a quiet candidate). */
+  side?: HeterodyneTrack;
 }
 
 /** Frame weights from the search pass (see ./quiet-weight.ts). */
@@ -300,10 +302,17 @@ export class HumTracker {
   readonly #gain: QuietGain | null;
   readonly #gainTrack: HeterodyneTrack | null;
   readonly #candidates: HumCandidate[];
+  readonly #sideDec: Decimator | null;
+  readonly #sideGain: QuietGain | null;
 
-  constructor(sampleRateHz: number, candidates: { candidate: HumCandidate; floorAt: (hz: number) => number }[], quiet?: QuietWeights) {
+  constructor(
+    sampleRateHz: number, candidates: { candidate: HumCandidate; floorAt: (hz: number) => number }[], quiet?: QuietWeights,
+    /** Two channels: the side signal is pushed too, for the per-channel check of the fundamental. */
+    stereo = false,
+  ) {
     const D = humDecimation(sampleRateHz);
     this.#dec = new Decimator(D, DECIM_ORDER);
+    this.#sideDec = stereo ? new Decimator(D, DECIM_ORDER) : null;
     this.decimatedRateHz = sampleRateHz / D;
     this.#trackDecim = Math.max(1, Math.round(this.decimatedRateHz / TRACK_RATE_HZ));
     this.trackRateHz = this.decimatedRateHz / this.#trackDecim;
@@ -311,6 +320,7 @@ export class HumTracker {
     const anyQuiet = candidates.some((c) => c.candidate.quiet);
     this.#gain = anyQuiet && quiet ? new QuietGain(quiet.weights, quiet.frameLength) : null;
     this.#gainTrack = this.#gain ? new HeterodyneTrack(0, this.#trackDecim, TRACK_ORDER) : null;
+    this.#sideGain = this.#sideDec && anyQuiet && quiet ? new QuietGain(quiet.weights, quiet.frameLength) : null;
     for (const { candidate, floorAt } of candidates) {
       if (candidate.quiet && !this.#gain) continue;
       const f0 = candidate.fundamentalHz;
@@ -325,11 +335,20 @@ export class HumTracker {
       // Relative weights only matter; normalise to the largest.
       const wMax = Math.max(...weights);
       const tracks = harmonics.map((h) => new HeterodyneTrack((h * f0) / this.decimatedRateHz, this.#trackDecim, TRACK_ORDER));
-      this.#groups.push({ candidate, harmonics, weights: weights.map((w) => w / wMax), tracks });
+      const side = this.#sideDec ? new HeterodyneTrack(f0 / this.decimatedRateHz, this.#trackDecim, TRACK_ORDER) : undefined;
+      this.#groups.push({ candidate, harmonics, weights: weights.map((w) => w / wMax), tracks, ...(side ? { side } : {}) });
     }
   }
 
-  push(mono: Float64Array): void {
+  /** `side`: (L − R)/2 of a two-channel stream, beside its mono mix (L + R)/2. */
+  push(mono: Float64Array, side?: Float64Array): void {
+    if (side && this.#sideDec) {
+      const ys = this.#sideDec.process(side);
+      if (ys.length) {
+        const qs = this.#sideGain?.apply(ys).weighted;
+        for (const g of this.#groups) g.side?.push(g.candidate.quiet && qs ? qs : ys);
+      }
+    }
     const y = this.#dec.process(mono);
     if (!y.length) return;
     const q = this.#gain?.apply(y);
@@ -426,8 +445,35 @@ export class HumTracker {
       layout,
       f0At,
     );
+    if (g.side && g.harmonics[0] === 1 && channelContradicts(set, layout, g.tracks[0]!, g.side, f0At)) return null;
     return { ...m, fundamentalHz: g.candidate.fundamentalHz, harmonics: g.harmonics, score: g.candidate.score, persistence, quiet: !!g.candidate.quiet };
   }
+}
+
+/**
+ * Mains hum comes from the electrics: the same line, at one level, in each channel. A note whose
+ * time-mirror sits in the other channel (one channel reversed) holds one level in the mono mix
+ * (decay plus rise) but rises or decays in each channel. The fundamental's track of each channel
+ * (mono ± side, the tracks being linear) is checked segment by segment (`linePersistence`): a
+ * channel where the line is judged in ≥ 30 % of the segments and off its level in > 15 % of them
+ * contradicts hum. A channel without the line (hum in one channel only) is not judged, so says
+ * nothing.
+ */
+function channelContradicts(
+  set: TrackSet, layout: TrackLayout, mono: HeterodyneTrack, side: HeterodyneTrack, f0At: (t: number) => number,
+): boolean {
+  const n = Math.min(mono.length, side.length);
+  for (const sign of [1, -1]) {
+    const re = new Float32Array(n), im = new Float32Array(n);
+    for (let i = 0; i < n; i++) {
+      re[i] = mono.re[i]! + sign * side.re[i]!;
+      im[i] = mono.im[i]! + sign * side.im[i]!;
+    }
+    const p = linePersistence({ fundamentalHz: set.fundamentalHz, harmonics: [1], weights: [1], tracks: [{ re, im, length: n }], ...(set.gain ? { gain: set.gain } : {}) }, layout, f0At);
+    const x = p.perHarmonic[0]!;
+    if (x.coverage >= 0.3 && x.inconsistentShare > 0.15) return true;
+  }
+  return false;
 }
 
 const gcd = (a: number, b: number): number => (b === 0 ? a : gcd(b, a % b));
