@@ -1,14 +1,17 @@
 /**
  * The low band of the time-stretcher, with four times the time span of the main analysis window
  * (≈ 340–370 ms at 44.1/48 kHz) and a low-side-lobe window, so that partials two main bins apart
- * (≈ 21–23 Hz) at 20–300 Hz are resolved and phase-locked each on its own: with the main window a
- * weak partial 2–3 bins from a strong one is no peak of its own and is turned with the strong one's
- * frequency (pulled toward it, with stray lines between). This is a two-band multi-resolution
+ * (≈ 21–23 Hz) below 3.5–4 kHz are resolved and phase-locked each on its own: with the main window
+ * a weak partial 2–3 bins from a strong one is no peak of its own, or one read through the strong
+ * one's main lobe, and is turned with the strong one's frequency (pulled toward it, with stray
+ * lines between: on real piano notes the unison strings' and inharmonic partials' pairs at 1–4 kHz
+ * left lines 25–50 dB down when the band ended at 300 Hz). This is a two-band multi-resolution
  * phase vocoder (a longer window below a crossover; window length by band as in Bonada 2000,
  * "Automatic technique in frequency domain for near-lossless time-scale modification of audio",
  * ICMC 2000).
  *
- * - The input is low-passed and decimated by D (fs/D ≈ 3 kHz; a zero-phase Kaiser-windowed sinc,
+ * - The input is low-passed and decimated by D (fs/D ≥ 2.4·f₂: 11.025/12 kHz at 44.1/48/96 kHz,
+ *   D = 1 at 16 kHz and below; a zero-phase Kaiser-windowed sinc,
  *   100 dB stop band from fs/D − f₂, so every alias lands above the crossover), analysed with a
  *   4-term Blackman–Harris window (−92 dB side lobes, main lobe ±4 bins; Harris 1978, "On the use
  *   of windows for harmonic analysis with the DFT", Proc. IEEE 66(1)) of 4N/D points at hop
@@ -16,13 +19,20 @@
  *   to the sixth), phase-locked like the main band (only the bins up to f₂ and the main lobe beyond
  *   it), weighted by the crossover, overlap-added, and interpolated back to fs with the same kernel.
  *   Its frames fall on every other main frame and take that frame's analysis position α.
- * - Crossover: m_L = 1 below f₁, 0 above f₂, a raised cosine between.
+ * - Crossover: m_L = 1 below f₁, 0 above f₂, a raised cosine between; f₂ = min(4 kHz, 0.4·fs),
+ *   f₁ = f₂ − 500 Hz (`lowBandEdges`).
  * - Onsets: a long window would spread an attack over its whole length (pre-echo). A low-band frame
  *   with an onset within ¾ of its window (in the input or in the output; the start counts as one)
  *   is dropped (weight 0), and the main band carries the low band there: it is weighted by
  *   1 − m_L·G(σ), G the share of the low band the frames around σ carry. A dropped frame takes over
  *   the main band's rotations (at the bin of the same frequency), so that both bands give every
  *   partial the same phase when the low band comes back (no cancellation in the crossover).
+ * - Stationarity gate: a window this long smears partials that move (vibrato, glides) over their
+ *   track. A frame is dropped as at onsets when its partials move within its window: four
+ *   Blackman–Harris analyses a quarter of the window long across it, each peak's power centroid in
+ *   each, and the median over the peaks of the shift between neighbouring ones (`movementCents`);
+ *   vibrato shifts every partial the same way, a beating unresolved pair's centroid moves on its
+ *   own (the median stays near 0 on steady notes).
  */
 import { kaiserLowpass } from '../core/kaiser-sinc.ts';
 import { makeWindow } from '../core/windows.ts';
@@ -33,9 +43,34 @@ import { InputRing, type OverlapAddRing } from './rings.ts';
 /** The 4-term Blackman–Harris window's cosine coefficients (Harris 1978, −92 dB; dsp/core/windows.ts). */
 const BLACKMAN_HARRIS = [0.35875, 0.48829, 0.14128, 0.01168] as const;
 
-/** Crossover: the low band takes everything below F1, nothing above F2 (Hz). */
+/** The stationarity gate reads peaks above this frequency (Hz): below it a short window's bin is too wide. */
+export const GATE_FROM_HZ = 180;
+/**
+ * Frames whose partials move by more than this (cents, median over the peaks between neighbouring
+ * short analyses) are dropped. Measured: steady notes (piano, organ, bass, synthetic) 0–4.5 c;
+ * 220 Hz with ±10 / ±25 / ±50 c vibrato at 5.5 Hz, median 14 / 33 / 47 c.
+ */
+export const GATE_CENTS = 8;
+
+/** Crossover of the default low band: everything below F1, nothing above F2 (Hz). */
 export const LOW_BAND_F1_HZ = 180;
 export const LOW_BAND_F2_HZ = 300;
+/** Top of the wide low band's crossover (Hz) at rates of 10 kHz and more, and its width. */
+export const WIDE_LOW_BAND_TOP_HZ = 4000;
+const WIDE_CROSSOVER_HZ = 500;
+
+/** Crossover edges: the low band takes everything below f1, nothing above f2 (Hz). */
+export interface LowBandEdges {
+  readonly f1: number;
+  readonly f2: number;
+}
+
+/** The default band's edges (180–300 Hz), or the wide band's (f₂ = min(4 kHz, 0.4·fs), f₁ = f₂ − 500 Hz). */
+export function lowBandEdges(sampleRateHz: number, wide = false): LowBandEdges {
+  if (!wide) return { f1: LOW_BAND_F1_HZ, f2: LOW_BAND_F2_HZ };
+  const f2 = Math.min(WIDE_LOW_BAND_TOP_HZ, 0.4 * sampleRateHz);
+  return { f1: f2 - WIDE_CROSSOVER_HZ, f2 };
+}
 
 export interface LowBandOptions {
   readonly sampleRateHz: number;
@@ -45,13 +80,16 @@ export interface LowBandOptions {
   readonly mainFftSize: number;
   /** Capacity of the main input ring (the decimated ring holds the same span). */
   readonly inputSpan: number;
+  /** The wide band (up to 3.5–4 kHz) with the stationarity gate; default the band below 180–300 Hz. */
+  readonly wide?: boolean;
 }
 
 /** Crossover weight of the low band at f (Hz). */
-export function lowBandWeight(f: number): number {
-  if (f <= LOW_BAND_F1_HZ) return 1;
-  if (f >= LOW_BAND_F2_HZ) return 0;
-  return 0.5 * (1 + Math.cos((Math.PI * (f - LOW_BAND_F1_HZ)) / (LOW_BAND_F2_HZ - LOW_BAND_F1_HZ)));
+export function lowBandWeight(f: number, edges: LowBandEdges): number {
+  const { f1, f2 } = edges;
+  if (f <= f1) return 1;
+  if (f >= f2) return 0;
+  return 0.5 * (1 + Math.cos((Math.PI * (f - f1)) / (f2 - f1)));
 }
 
 export class LowBand {
@@ -64,6 +102,9 @@ export class LowBand {
   readonly halfFull: number;
   readonly channelCount: number;
   readonly ratio: number;
+  readonly sampleRateHz: number;
+  /** The wide band, gated by stationarity. */
+  readonly wide: boolean;
   readonly #taps: Float64Array; // lowpass, 2L+1 taps, Σ = 1
   readonly #half: number; // L
   readonly #input: InputRing; // decimated input
@@ -97,19 +138,30 @@ export class LowBand {
   readonly #span: number; // values of v one output block reads
   readonly #win: Float64Array;
   readonly #flatTaps: Float64Array; // D × span: phase r's taps at win positions
+  // Stationarity gate: four short analyses (a quarter of the window each) across a frame's window.
+  readonly #gateStft: PackedStft;
+  readonly #gateSpectra: Float64Array[];
+  readonly #gatePower: Float64Array[];
+  readonly #gateBins: number;
+  readonly #gateCache = new Map<number, number>();
+  readonly #gateShifts: number[][] = [[], [], []];
 
   constructor(options: LowBandOptions) {
     const fs = options.sampleRateHz, n = options.mainFftSize;
     this.channelCount = options.channelCount;
     this.ratio = options.ratio;
-    const d = (this.decimation = Math.min(n / 8, Math.max(1, 2 ** Math.round(Math.log2(fs / 3000)))));
+    this.sampleRateHz = fs;
+    const wide = (this.wide = options.wide === true);
+    const edges = lowBandEdges(fs, wide), f2 = edges.f2;
+    // fs/D ≈ 3 kHz for the default band; fs/D ≥ 2.4·f₂ for the wide one.
+    const d = (this.decimation = Math.min(n / 8, Math.max(1, wide ? 2 ** Math.floor(Math.log2(fs / (2.4 * f2))) : 2 ** Math.round(Math.log2(fs / 3000)))));
     const nl = (this.fftSize = (4 * n) / d);
     this.hop = nl / 8;
     this.hopFull = n / 2;
     this.halfFull = (nl * d) / 2;
     // Lowpass: pass to F2, stop from fs/D − F2 (Kaiser design, 100 dB).
-    const stopHz = fs / d - LOW_BAND_F2_HZ;
-    const taps = d === 1 ? new Float64Array([1]) : kaiserLowpass(fs, LOW_BAND_F2_HZ, stopHz, 100);
+    const stopHz = fs / d - f2;
+    const taps = d === 1 ? new Float64Array([1]) : kaiserLowpass(fs, f2, stopHz, 100);
     const len = taps.length;
     const l = (this.#half = (len - 1) / 2);
     this.#taps = taps;
@@ -144,14 +196,20 @@ export class LowBand {
     let olaSum = 0;
     for (let i = 0; i < nl; i += this.hop) olaSum += bh[i]! * bh[i]!;
     // Only bins up to the crossover (and the ±4-bin main lobe beyond it) are processed.
-    const active = (this.#active = Math.min(nl / 2 + 1, Math.ceil((LOW_BAND_F2_HZ * d * nl) / fs) + 8));
+    const active = (this.#active = Math.min(nl / 2 + 1, Math.ceil((f2 * d * nl) / fs) + 8));
     this.#stft = new PackedStft(nl, options.channelCount, bh, bh.map((w) => w / (olaSum * nl)), active);
     this.#olaWeights = bh.map((w) => w * w);
     this.#lock = new PhaseLocker(nl, this.hop, options.channelCount, active, BLACKMAN_HARRIS);
+    const ng = nl / 4;
+    const bhShort = makeWindow('blackman-harris', ng);
+    this.#gateBins = Math.min(ng / 2 + 1, Math.ceil((edges.f2 * d * ng) / fs) + 4);
+    this.#gateStft = new PackedStft(ng, options.channelCount, bhShort, bhShort, this.#gateBins);
+    this.#gateSpectra = Array.from({ length: options.channelCount }, () => new Float64Array(ng + 2));
+    this.#gatePower = Array.from({ length: 4 }, () => new Float64Array(ng / 2 + 1));
     const bins = nl / 2 + 1;
     this.#mask = new Float64Array(bins);
     this.#gain = new Float64Array(bins);
-    for (let k = 0; k < bins; k++) this.#mask[k] = lowBandWeight((k * fs) / d / nl);
+    for (let k = 0; k < bins; k++) this.#mask[k] = lowBandWeight((k * fs) / d / nl, edges);
     const perChannel = () => Array.from({ length: options.channelCount }, () => new Float64Array(nl + 2));
     this.#xw = perChannel();
     this.#xwPrev = perChannel();
@@ -228,7 +286,8 @@ export class LowBand {
    * Weight of the low-band frame at output σ taken from input α: 0 when an onset lies within
    * three quarters of its window, in the input or in the output (the long window would disperse
    * the attack over its length: pre-echo), else 1; the main band takes over what the low band
-   * drops. (Blackman–Harris at ¾ of the half-window: w² ≈ −66 dB.)
+   * drops. (Blackman–Harris at ¾ of the half-window: w² ≈ −66 dB.) Also 0 where the partials
+   * move within the window (`movementCents` above GATE_CENTS; one decision per frame, cached).
    */
   frameWeight(sigma: number, alpha: number): number {
     const on = this.#onsetT, off = this.#onsetOffset, reach = 0.75 * this.halfFull;
@@ -237,7 +296,66 @@ export class LowBand {
       if (Math.abs(s0 - sigma) <= reach || Math.abs(t0 - alpha) <= reach) return 0;
       if (t0 > alpha + reach && s0 > sigma + reach) break;
     }
-    return 1;
+    if (!this.wide) return 1;
+    const cache = this.#gateCache;
+    let g = cache.get(sigma);
+    if (g === undefined) {
+      g = this.movementCents(alpha) <= GATE_CENTS ? 1 : 0;
+      cache.set(sigma, g);
+      if (cache.size > 64) for (const key of cache.keys()) if (key < sigma - 8 * this.halfFull) cache.delete(key);
+    }
+    return g;
+  }
+
+  /**
+   * How far the partials move within the window of a frame at input α (cents): four
+   * Blackman–Harris analyses a quarter of the window long, centred at α ± ⅛ and ± ⅜ of the window;
+   * each peak (above GATE_FROM_HZ, within 50 dB of the strongest) gets its power centroid (±3 bins)
+   * in each; for each of the three neighbouring pairs the median over the peaks of the centroid's
+   * shift in cents; the largest of the three. Fewer than three peaks: 0 (nothing to judge by).
+   */
+  movementCents(alpha: number): number {
+    const d = this.decimation, nl = this.fftSize, a = Math.round(alpha / d);
+    const bins = this.#gateBins, pw = this.#gatePower;
+    for (let i = 0; i < 4; i++) this.#gateStft.analyze(this.#input, a + ((2 * i - 3) * nl) / 8, this.#gateSpectra, pw[i]!);
+    let top = 0;
+    for (let k = 1; k < bins - 1; k++) {
+      const m = pw[0]![k]! + pw[1]![k]! + pw[2]![k]! + pw[3]![k]!;
+      if (m > top) top = m;
+    }
+    if (!(top > 0)) return 0;
+    const kLow = Math.max(4, Math.ceil((GATE_FROM_HZ * d * nl) / 4 / this.sampleRateHz));
+    const shifts = this.#gateShifts;
+    for (let i = 0; i < 3; i++) shifts[i]!.length = 0;
+    for (let k = kLow; k < bins - 4; k++) {
+      const m = pw[0]![k]! + pw[1]![k]! + pw[2]![k]! + pw[3]![k]!;
+      if (m < top * 1e-5) continue;
+      const ml = pw[0]![k - 1]! + pw[1]![k - 1]! + pw[2]![k - 1]! + pw[3]![k - 1]!;
+      const mr = pw[0]![k + 1]! + pw[1]![k + 1]! + pw[2]![k + 1]! + pw[3]![k + 1]!;
+      if (!(m > ml && m >= mr)) continue;
+      let prev = 0;
+      for (let i = 0; i < 4; i++) {
+        const p = pw[i]!;
+        let sw = 0, sk = 0;
+        for (let b = k - 3; b <= k + 3; b++) {
+          sw += p[b]!;
+          sk += b * p[b]!;
+        }
+        const c = sw > 0 ? sk / sw : k;
+        if (i > 0) shifts[i - 1]!.push(((1200 / Math.LN2) * (c - prev)) / k);
+        prev = c;
+      }
+    }
+    // Vibrato moves every partial the same way; a beating pair's centroid moves on its own.
+    let worst = 0;
+    if (shifts[0]!.length >= 3) {
+      for (let i = 0; i < 3; i++) {
+        const v = shifts[i]!.sort((x, y) => x - y);
+        const med = v.length & 1 ? v[v.length >> 1]! : 0.5 * (v[v.length / 2 - 1]! + v[v.length / 2]!);
+        worst = Math.max(worst, Math.abs(med));
+      }
+    }
+    return worst;
   }
 
   /** Forgets onsets wholly before output σ − 2 analysis lengths. */

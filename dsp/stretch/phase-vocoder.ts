@@ -31,7 +31,7 @@ import { CHUNK, InputRing, OverlapAddRing } from './rings.ts';
 import { PackedStft } from './packed-stft.ts';
 import { PhaseLocker } from './phase-lock.ts';
 import { TransientTracker } from './transients.ts';
-import { LowBand, lowBandWeight, LOW_BAND_F2_HZ } from './low-band.ts';
+import { LowBand, lowBandEdges, lowBandWeight, LOW_BAND_F2_HZ } from './low-band.ts';
 
 import { MAX_RATIO, MIN_RATIO } from './limits.ts';
 export { MAX_RATIO, MIN_RATIO };
@@ -47,6 +47,12 @@ export interface TimeStretchOptions {
   readonly transients?: boolean;
   /** Low band with a four times longer window below 180–300 Hz (default true; off at ratio 1). */
   readonly lowBand?: boolean;
+  /**
+   * The long-window band reaches 3.5–4 kHz (close steady partials resolved there too), dropped
+   * where partials move within its window (stationarity gate, see low-band.ts). Default false:
+   * it costs about a quarter more CPU time.
+   */
+  readonly wideLowBand?: boolean;
   /**
    * If set, the spectral envelope is pre-warped so that after a resampling that multiplies every
    * frequency by this factor the envelope (formants) is back where it was.
@@ -151,8 +157,8 @@ export class TimeStretcher {
     this.#input = new InputRing(channelCount, n + 2 + gridSpacing + 2 * commitDistance + 2 * zoneHalf + this.#tracker.span + CHUNK + lowReach);
     // The low band needs ratio ≠ 1 (ratio 1 is the identity) and a crossover below fs/2.
     const low = (this.#low =
-      options.lowBand !== false && ratio !== 1 && sampleRateHz > 8 * LOW_BAND_F2_HZ
-        ? new LowBand({ sampleRateHz, channelCount, ratio, mainFftSize: n, inputSpan: this.#input.capacity })
+      options.lowBand !== false && ratio !== 1 && sampleRateHz > (options.wideLowBand ? 4000 : 8 * LOW_BAND_F2_HZ)
+        ? new LowBand({ sampleRateHz, channelCount, ratio, mainFftSize: n, inputSpan: this.#input.capacity, wide: options.wideLowBand === true })
         : null);
     const onOnset = options.onOnset;
     this.#map.onAccept = low
@@ -162,11 +168,14 @@ export class TimeStretcher {
         }
       : onOnset;
     this.#output = new OverlapAddRing(channelCount, low ? 2 * n + 4 * low.halfFull + 4 * low.hopFull : 2 * n);
-    this.#reach = low ? Math.max(n / 2, low.reachFull) : n / 2;
+    // The low band's stationarity gate reads the input around the α of frames up to half its
+    // window ahead of σ.
+    this.#reach = low ? Math.max(n / 2, low.reachFull + (low.wide ? Math.ceil(low.halfFull * Math.max(1, 1 / ratio)) + low.hopFull : 0)) : n / 2;
     this.#tail = low ? Math.max(n / 2, low.halfFull + low.hopFull) : n / 2;
     let highBins = 0;
-    while (low && highBins < bins && (highBins * sampleRateHz) / n < LOW_BAND_F2_HZ) highBins++;
-    this.#lowMask = Float64Array.from({ length: highBins }, (_, k) => lowBandWeight((k * sampleRateHz) / n));
+    const edges = lowBandEdges(sampleRateHz, options.wideLowBand === true);
+    while (low && highBins < bins && (highBins * sampleRateHz) / n < edges.f2) highBins++;
+    this.#lowMask = Float64Array.from({ length: highBins }, (_, k) => lowBandWeight((k * sampleRateHz) / n, edges));
     this.#lookahead = low ? 2 * low.halfFull + low.decimation : 0;
 
     const perChannel = () => Array.from({ length: channelCount }, () => new Float64Array(n + 2));
