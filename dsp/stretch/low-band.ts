@@ -138,6 +138,8 @@ export class LowBand {
   readonly #span: number; // values of v one output block reads
   readonly #win: Float64Array;
   readonly #flatTaps: Float64Array; // D × span: phase r's taps at win positions
+  /** The same taps four phases at a time, interleaved: [(g·span + i)·4 + j] = phase 4g + j's tap i (D a multiple of 4; else empty). */
+  readonly #quadTaps: Float64Array;
   // Stationarity gate: four short analyses (a quarter of the window each) across a frame's window.
   readonly #gateStft: PackedStft;
   readonly #gateSpectra: Float64Array[];
@@ -187,6 +189,11 @@ export class LowBand {
     for (let r = 0; r < d; r++) {
       const tp = this.#phaseTaps[r]!, off = this.#phaseStart[r]! - jLow;
       for (let i = 0; i < tp.length; i++) this.#flatTaps[r * this.#span + off + i] = tp[i]!;
+    }
+    this.#quadTaps = new Float64Array(d % 4 === 0 ? d * this.#span : 0);
+    for (let r = 0; r < this.#quadTaps.length / this.#span; r++) {
+      const g = r >> 2, j = r & 3;
+      for (let i = 0; i < this.#span; i++) this.#quadTaps[(g * this.#span + i) * 4 + j] = this.#flatTaps[r * this.#span + i]!;
     }
     this.#input = new InputRing(options.channelCount, options.inputSpan / d + 2 * nl + 4 * this.hop);
     // Blackman–Harris for analysis and synthesis; at hop N/8 the overlap-add of w² is constant.
@@ -247,6 +254,20 @@ export class LowBand {
       if (ended ? centre - l >= written : centre + l >= written) break;
       const lo = centre - l;
       const inside = lo >= 0 && centre + l < written;
+      if (inside && this.channelCount === 2 && (lo & fm) + taps.length <= fm + 1) {
+        // Both channels in one pass over the taps (each sum in the same order as below).
+        const r0 = full.rings[0]!, r1 = full.rings[1]!, at = centre & fm;
+        let v0 = taps[l]! * r0[at]!, v1 = taps[l]! * r1[at]!;
+        for (let i = 1; i <= l; i++) {
+          const h = taps[l + i]!;
+          v0 += h * (r0[at + i]! + r0[at - i]!);
+          v1 += h * (r1[at + i]! + r1[at - i]!);
+        }
+        dec.rings[0]![m & decMask] = v0;
+        dec.rings[1]![m & decMask] = v1;
+        dec.written = m + 1;
+        continue;
+      }
       for (let c = 0; c < this.channelCount; c++) {
         const r = full.rings[c]!;
         let v = 0;
@@ -478,9 +499,9 @@ export class LowBand {
   addTo(out: OverlapAddRing, from: number, to: number): void {
     if (to <= from) return;
     const d = this.decimation, shift = Math.log2(d), mask = this.#outMask, omask = out.mask;
-    const span = this.#span, flat = this.#flatTaps, win = this.#win;
-    // For one q = ⌊t/D⌋ the values v[q − jLow − i], i < span, are gathered once into `win` and
-    // shared by the D outputs of that q; each phase's taps are laid out over the same span.
+    const span = this.#span, flat = this.#flatTaps, quad = this.#quadTaps, win = this.#win;
+    // For one q = ⌊t/D⌋ the values v[q − jLow − i], i < span, are shared by the D outputs of that
+    // q; each phase's taps are laid out over the same span.
     const jLow = this.#jLow;
     for (let c = 0; c < this.channelCount; c++) {
       const v = this.#out[c]!, o = out.rings[c]!;
@@ -488,12 +509,37 @@ export class LowBand {
       while (t < to) {
         const qb = t >> shift;
         const base = qb - jLow;
-        for (let i = 0; i < span; i++) win[i] = v[(base - i) & mask]!;
-        const stop = Math.min(to, (qb + 1) << shift);
+        // v[q − jLow − i] is src[off − i]: read in place, or gathered into `win` where the span wraps.
+        let src = v, off = base & mask;
+        if (off < span - 1) {
+          for (let i = 0; i < span; i++) win[span - 1 - i] = v[(base - i) & mask]!;
+          src = win;
+          off = span - 1;
+        }
+        const end = (qb + 1) << shift, stop = Math.min(to, end);
+        if (quad.length > 0 && t === qb << shift && stop === end) {
+          // The D outputs of this q four phases at a time (each sum in the same order as below).
+          for (let g = 0, at = 0; g < d; g += 4, at += 4 * span) {
+            let a0 = 0, a1 = 0, a2 = 0, a3 = 0;
+            for (let i = 0, b = at; i < span; i++, b += 4) {
+              const x = src[off - i]!;
+              a0 += quad[b]! * x;
+              a1 += quad[b + 1]! * x;
+              a2 += quad[b + 2]! * x;
+              a3 += quad[b + 3]! * x;
+            }
+            o[(t + g) & omask]! += a0;
+            o[(t + g + 1) & omask]! += a1;
+            o[(t + g + 2) & omask]! += a2;
+            o[(t + g + 3) & omask]! += a3;
+          }
+          t = stop;
+          continue;
+        }
         for (; t < stop; t++) {
           const at = (t & (d - 1)) * span;
           let acc = 0;
-          for (let i = 0; i < span; i++) acc += flat[at + i]! * win[i]!;
+          for (let i = 0; i < span; i++) acc += flat[at + i]! * src[off - i]!;
           o[t & omask]! += acc;
         }
       }
