@@ -36,6 +36,7 @@
  */
 import { kaiserLowpass } from '../core/kaiser-sinc.ts';
 import { makeWindow } from '../core/windows.ts';
+import { polyphaseWasm, type PolyphaseWasm } from '../core/polyphase-wasm.ts';
 import { PackedStft } from './packed-stft.ts';
 import { PhaseLocker } from './phase-lock.ts';
 import { InputRing, type OverlapAddRing } from './rings.ts';
@@ -140,6 +141,8 @@ export class LowBand {
   readonly #flatTaps: Float64Array; // D × span: phase r's taps at win positions
   /** The same taps four phases at a time, interleaved: [(g·span + i)·4 + j] = phase 4g + j's tap i (D a multiple of 4; else empty). */
   readonly #quadTaps: Float64Array;
+  /** The WebAssembly SIMD kernel for whole blocks of D outputs (same numbers), or null. */
+  readonly #simd: PolyphaseWasm | null;
   // Stationarity gate: four short analyses (a quarter of the window each) across a frame's window.
   readonly #gateStft: PackedStft;
   readonly #gateSpectra: Float64Array[];
@@ -195,6 +198,7 @@ export class LowBand {
       const g = r >> 2, j = r & 3;
       for (let i = 0; i < this.#span; i++) this.#quadTaps[(g * this.#span + i) * 4 + j] = this.#flatTaps[r * this.#span + i]!;
     }
+    this.#simd = this.#quadTaps.length > 0 ? polyphaseWasm() : null;
     this.#input = new InputRing(options.channelCount, options.inputSpan / d + 2 * nl + 4 * this.hop);
     // Blackman–Harris for analysis and synthesis; at hop N/8 the overlap-add of w² is constant.
     // (Hop N/4 with a Hann²/Blackman–Harris synthesis window would halve the frames but leaves
@@ -506,8 +510,18 @@ export class LowBand {
     for (let c = 0; c < this.channelCount; c++) {
       const v = this.#out[c]!, o = out.rings[c]!;
       let t = from;
+      const simd = this.#simd;
       while (t < to) {
         const qb = t >> shift;
+        if (simd && t === qb << shift && (qb + 1) << shift <= to) {
+          // Whole blocks of D outputs in the WebAssembly kernel (the sums below, in the same order).
+          const blocks = Math.min(1024, (to >> shift) - qb);
+          const at = simd.interpolate(quad, span, v, mask, qb - jLow - span + 1, blocks);
+          const heap = simd.heap, count = blocks << shift;
+          for (let i = 0; i < count; i++) o[(t + i) & omask]! += heap[at + i]!;
+          t += count;
+          continue;
+        }
         const base = qb - jLow;
         // v[q − jLow − i] is src[off − i]: read in place, or gathered into `win` where the span wraps.
         let src = v, off = base & mask;
