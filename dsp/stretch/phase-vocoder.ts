@@ -45,12 +45,12 @@ export interface TimeStretchOptions {
   readonly fftSize?: number;
   /** Keep onsets sharp (default true). */
   readonly transients?: boolean;
-  /** Low band with a four times longer window below 180–300 Hz (default true; off at ratio 1). */
+  /** Low band with a four times longer window (below 3.5–4 kHz, see `wideLowBand`; default true; off at ratio 1). */
   readonly lowBand?: boolean;
   /**
    * The long-window band reaches 3.5–4 kHz (close steady partials resolved there too), dropped
-   * where partials move within its window (stationarity gate, see low-band.ts). Default false:
-   * it costs about a quarter more CPU time.
+   * where partials move within its window (stationarity gate, see low-band.ts). Default true;
+   * false keeps the band below 180–300 Hz (for comparison).
    */
   readonly wideLowBand?: boolean;
   /**
@@ -155,10 +155,11 @@ export class TimeStretcher {
 
     const lowReach = ratio !== 1 ? Math.ceil(4 * (4 * n) * Math.max(1, 1 / ratio)) : 0; // the low band's look-ahead, input samples
     this.#input = new InputRing(channelCount, n + 2 + gridSpacing + 2 * commitDistance + 2 * zoneHalf + this.#tracker.span + CHUNK + lowReach);
+    const wide = options.wideLowBand !== false;
     // The low band needs ratio ≠ 1 (ratio 1 is the identity) and a crossover below fs/2.
     const low = (this.#low =
-      options.lowBand !== false && ratio !== 1 && sampleRateHz > (options.wideLowBand ? 4000 : 8 * LOW_BAND_F2_HZ)
-        ? new LowBand({ sampleRateHz, channelCount, ratio, mainFftSize: n, inputSpan: this.#input.capacity, wide: options.wideLowBand === true })
+      options.lowBand !== false && ratio !== 1 && sampleRateHz > (wide ? 4000 : 8 * LOW_BAND_F2_HZ)
+        ? new LowBand({ sampleRateHz, channelCount, ratio, mainFftSize: n, inputSpan: this.#input.capacity, wide })
         : null);
     const onOnset = options.onOnset;
     this.#map.onAccept = low
@@ -173,7 +174,7 @@ export class TimeStretcher {
     this.#reach = low ? Math.max(n / 2, low.reachFull + (low.wide ? Math.ceil(low.halfFull * Math.max(1, 1 / ratio)) + low.hopFull : 0)) : n / 2;
     this.#tail = low ? Math.max(n / 2, low.halfFull + low.hopFull) : n / 2;
     let highBins = 0;
-    const edges = lowBandEdges(sampleRateHz, options.wideLowBand === true);
+    const edges = lowBandEdges(sampleRateHz, wide);
     while (low && highBins < bins && (highBins * sampleRateHz) / n < edges.f2) highBins++;
     this.#lowMask = Float64Array.from({ length: highBins }, (_, k) => lowBandWeight((k * sampleRateHz) / n, edges));
     this.#lookahead = low ? 2 * low.halfFull + low.decimation : 0;
