@@ -17,7 +17,7 @@
  * Where WebAssembly or its SIMD extension is missing (or compiling throws, as Chromium does for
  * synchronous compiles on its main thread), `wasmFft()` returns null and fft.ts uses its own kernels.
  */
-import { assemble, F64, Fn, I32, V128 } from './wasm-assembler.ts';
+import { assemble, F64, Fn, I32, instantiateStandalone, V128 } from './wasm-assembler.ts';
 
 // ---------------------------------------------------------------------------------------------
 // Minimal typings: dsp/ compiles against lib ES2022 only, which does not declare WebAssembly.
@@ -25,11 +25,6 @@ import { assemble, F64, Fn, I32, V128 } from './wasm-assembler.ts';
 interface WasmMemory {
   readonly buffer: ArrayBuffer;
   grow(deltaPages: number): number;
-}
-interface WasmApi {
-  validate(bytes: Uint8Array): boolean;
-  Module: new (bytes: Uint8Array) => object;
-  Instance: new (module: object, imports?: object) => { readonly exports: Record<string, unknown> };
 }
 
 /** The exported kernels. All pointers are byte offsets into the module's memory. */
@@ -491,16 +486,7 @@ let instance: WasmFft | null | undefined;
 /** The shared SIMD kernels, or null where WebAssembly SIMD cannot be used. */
 export function wasmFft(): WasmFft | null {
   if (instance !== undefined) return instance;
-  instance = null;
-  const api = (globalThis as unknown as { WebAssembly?: WasmApi }).WebAssembly;
-  if (!api) return null;
-  try {
-    const bytes = fftModuleBytes();
-    if (!api.validate(bytes)) return null;
-    const inst = new api.Instance(new api.Module(bytes), {});
-    instance = new WasmFft(inst.exports as unknown as Kernels);
-  } catch {
-    instance = null;
-  }
+  const exports = instantiateStandalone(fftModuleBytes());
+  instance = exports ? new WasmFft(exports as unknown as Kernels) : null;
   return instance;
 }

@@ -10,16 +10,11 @@
  * Memory: one module instance with its own linear memory (only grows); callers copy v in, run
  * `interpolate` and read y out before the next call.
  */
-import { assemble, F64, Fn, I32, V128 } from './wasm-assembler.ts';
+import { assemble, F64, Fn, I32, instantiateStandalone, V128 } from './wasm-assembler.ts';
 
 interface WasmMemory {
   readonly buffer: ArrayBuffer;
   grow(deltaPages: number): number;
-}
-interface WasmApi {
-  validate(bytes: Uint8Array): boolean;
-  Module: new (bytes: Uint8Array) => object;
-  Instance: new (module: object, imports?: object) => { readonly exports: Record<string, unknown> };
 }
 
 interface Kernels {
@@ -153,16 +148,7 @@ let instance: PolyphaseWasm | null | undefined;
 /** The shared kernel, or null where WebAssembly SIMD cannot be used. */
 export function polyphaseWasm(): PolyphaseWasm | null {
   if (instance !== undefined) return instance;
-  instance = null;
-  const api = (globalThis as unknown as { WebAssembly?: WasmApi }).WebAssembly;
-  if (!api) return null;
-  try {
-    const bytes = polyphaseModuleBytes();
-    if (!api.validate(bytes)) return null;
-    const inst = new api.Instance(new api.Module(bytes), {});
-    instance = new PolyphaseWasm(inst.exports as unknown as Kernels);
-  } catch {
-    instance = null;
-  }
+  const exports = instantiateStandalone(polyphaseModuleBytes());
+  instance = exports ? new PolyphaseWasm(exports as unknown as Kernels) : null;
   return instance;
 }

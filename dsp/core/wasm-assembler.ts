@@ -196,3 +196,24 @@ export function assemble(fns: readonly (readonly [string, Fn])[], memory: Module
   ];
   return new Uint8Array(bytes);
 }
+
+interface WasmApi {
+  validate(bytes: Uint8Array): boolean;
+  Module: new (bytes: Uint8Array) => object;
+  Instance: new (module: object, imports?: object) => { readonly exports: Record<string, unknown> };
+}
+
+/**
+ * The exports of a module that imports nothing (it defines its own memory), or null where
+ * WebAssembly is missing or rejects the bytes (for instance no SIMD).
+ */
+export function instantiateStandalone(bytes: Uint8Array): Record<string, unknown> | null {
+  const api = (globalThis as unknown as { WebAssembly?: WasmApi }).WebAssembly;
+  if (!api) return null;
+  try {
+    if (!api.validate(bytes)) return null;
+    return new api.Instance(new api.Module(bytes), {}).exports;
+  } catch {
+    return null;
+  }
+}

@@ -143,7 +143,7 @@ export class LowBand {
   readonly #quadTaps: Float64Array;
   /** The WebAssembly SIMD kernel for whole blocks of D outputs (same numbers), or null. */
   readonly #simd: PolyphaseWasm | null;
-  // Stationarity gate: four short analyses (a quarter of the window each) across a frame's window.
+  // Stationarity gate: four short analyses, each a quarter of the long frame, across that frame.
   readonly #gateStft: PackedStft;
   readonly #gateSpectra: Float64Array[];
   readonly #gatePower: Float64Array[];
