@@ -120,6 +120,22 @@ describe('band-by-band reading of a reflection', () => {
     // A band near zero is not the other sign (−0.1·|ĝ|: within the rule).
     expect(bandVerdict([wide(125, -0.08), wide(500, 0.008), wide(1000, -0.09), wide(2000, -0.08)], -0.082, '30.2')).toBeNull();
   });
+
+  it('every band far below both ĝ and the frames\' median is set aside; bands as low as a diluted median are not', () => {
+    // Source: the rule's definition (largest |b| + 2σ < 0.5·min(|ĝ|, |median|) with three or more
+    // bands), on the readings of two corpus clips: a band loop's hi-hat eighth notes at 305 ms
+    // (ĝ 0.324, frame median 0.351, bands 125 Hz–8 kHz at most 0.077: no reflection, the repeat is
+    // above 8 kHz) and trombone chords with a true 37.8 ms / 0.65 reflection (frame median 0.205,
+    // bands 0.212, 0.032, −0.019, 0.183: the frames read a strong reflection low, all alike).
+    const b = (loHz: number, gain: number, gainStd: number) => ({ loHz, hiHz: 2 * loHz, gain, gainStd, frames: 17 });
+    const loop = [b(125, -0.027, 0.016), b(250, 0.023, 0.006), b(500, 0.005, 0.006), b(1000, 0.026, 0.01), b(2000, 0.046, 0.01), b(4000, 0.077, 0.013)];
+    expect(bandVerdict(loop, 0.324, '305.0', 0.351)?.present).toBe(false);
+    expect(bandVerdict(loop, 0.324, '305.0', 0.351)?.reason).toMatch(/every band with programme reads far less/);
+    const trombone = [b(124, 0.212, 0.011), b(495, 0.032, 0.021), b(990, -0.019, 0.032), b(1981, 0.183, 0.016)];
+    expect(bandVerdict(trombone, 0.646, '37.8', 0.205)?.reason ?? '').not.toMatch(/every band with programme reads far less/);
+    // Without the median the comparison is with ĝ alone (0.234 < 0.5·0.646).
+    expect(bandVerdict(trombone, 0.646, '37.8')?.reason).toMatch(/every band with programme reads far less/);
+  });
 });
 
 describe('thin frame evidence', () => {
