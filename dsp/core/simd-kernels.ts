@@ -2,6 +2,10 @@
  * Small WebAssembly SIMD kernels for the resampler's and the echo canceller's inner loops (two doubles per instruction):
  *  - dot1(h, x, n, out):        out[0] = Σ_k h[k]·x[k]
  *  - dot2(h, x0, x1, n, out):   out[0] = Σ h[k]·x0[k], out[1] = Σ h[k]·x1[k] (coefficients loaded once)
+ *  - dot2Run(bank, n, den, advInt, advRem, phase, x0, x1, count, out): `count` dot2 calls along a
+ *                               polyphase bank (coefficients at bank + 8·phase·n), the signals
+ *                               stepping by advInt (+1 when phase wraps past den) frames each, the
+ *                               pairs of sums at out + 16·k (the same sums as dot2, one call)
  *  - farrow(tab, mu, n, out):   out[k] = ((c3·μ + c2)·μ + c1)·μ + c0, table laid out per pair of taps as
  *                               [c0 c0' c1 c1' c2 c2' c3 c3'] (8 doubles per two taps)
  *  - farrowDot2(tab, mu, x0, x1, n, out): the two above fused (coefficients never stored)
@@ -33,6 +37,7 @@ export interface SimdKernels {
   readonly f64: Float64Array;
   dot1(h: number, x: number, n: number, out: number): void;
   dot2(h: number, x0: number, x1: number, n: number, out: number): void;
+  dot2Run(bank: number, n: number, den: number, advInt: number, advRem: number, phase: number, x0: number, x1: number, count: number, out: number): void;
   farrow(tab: number, mu: number, n: number, out: number): void;
   farrowDot2(tab: number, mu: number, x0: number, x1: number, n: number, out: number): void;
   echoRun(taps: number, hist: number, x: number, nt: number, run: number): void;
@@ -111,6 +116,64 @@ function dot2Function(): Fn {
   hsum(f, a0).storeF64(0);
   f.get(out);
   hsum(f, a1).storeF64(8);
+  return f;
+}
+
+/** dot2Run: dot2's loop (the same operations in the same order) for `count` outputs in one call. */
+function dot2RunFunction(): Fn {
+  const f = new Fn([I32, I32, I32, I32, I32, I32, I32, I32, I32, I32]);
+  const bank = 0, n = 1, den = 2, advInt = 3, advRem = 4, phase = 5, x0 = 6, x1 = 7, count = 8, out = 9;
+  const i = f.local(I32), end = f.local(I32), h = f.local(I32), k = f.local(I32), step = f.local(I32);
+  const a0 = f.local(V128), b0 = f.local(V128), a1 = f.local(V128), b1 = f.local(V128), h01 = f.local(V128), h23 = f.local(V128);
+  const hAt = (off: number) => f.get(h).get(i).add().load(off);
+  const xAt = (p: number, off: number) => () => f.get(p).get(i).add().load(off);
+  const use = (v: number) => () => f.get(v);
+  f.get(n).i32(3).shl().set(end);
+  f.get(advInt).i32(3).shl().set(step);
+  f.until(
+    () => f.get(k).get(count).geU(),
+    () => {
+      f.get(bank).get(phase).get(n).mul().i32(3).shl().add().set(h);
+      f.i32(0).set(i);
+      zero(f, a0);
+      zero(f, b0);
+      zero(f, a1);
+      zero(f, b1);
+      f.until(
+        () => f.get(i).i32(32).add().get(end).gtU(),
+        () => {
+          hAt(0).set(h01);
+          hAt(16).set(h23);
+          mulAdd(f, a0, use(h01), xAt(x0, 0));
+          mulAdd(f, b0, use(h23), xAt(x0, 16));
+          mulAdd(f, a1, use(h01), xAt(x1, 0));
+          mulAdd(f, b1, use(h23), xAt(x1, 16));
+          f.get(i).i32(32).add().set(i);
+        },
+      );
+      f.get(i).get(end).ltU().if(() => {
+        hAt(0).set(h01);
+        mulAdd(f, a0, use(h01), xAt(x0, 0));
+        mulAdd(f, a1, use(h01), xAt(x1, 0));
+      });
+      f.get(a0).get(b0).vadd().set(a0);
+      f.get(a1).get(b1).vadd().set(a1);
+      f.get(out);
+      hsum(f, a0).storeF64(0);
+      f.get(out);
+      hsum(f, a1).storeF64(8);
+      f.get(out).i32(16).add().set(out);
+      f.get(x0).get(step).add().set(x0);
+      f.get(x1).get(step).add().set(x1);
+      f.get(phase).get(advRem).add().set(phase);
+      f.get(phase).get(den).geU().if(() => {
+        f.get(phase).get(den).sub().set(phase);
+        f.get(x0).i32(8).add().set(x0);
+        f.get(x1).i32(8).add().set(x1);
+      });
+      f.get(k).i32(1).add().set(k);
+    },
+  );
   return f;
 }
 
@@ -227,6 +290,7 @@ export function simdModuleBytes(): Uint8Array {
     [
       ['dot1', dot1Function()],
       ['dot2', dot2Function()],
+      ['dot2Run', dot2RunFunction()],
       ['farrow', farrowFunction()],
       ['farrowDot2', farrowDot2Function()],
       ['echoRun', echoRunFunction()],
@@ -252,11 +316,12 @@ export function createSimdKernels(bytes: number): SimdKernels | null {
     const e = instance.exports as unknown as {
       dot1: SimdKernels['dot1'];
       dot2: SimdKernels['dot2'];
+      dot2Run: SimdKernels['dot2Run'];
       farrow: SimdKernels['farrow'];
       farrowDot2: SimdKernels['farrowDot2'];
       echoRun: SimdKernels['echoRun'];
     };
-    return { f64: new Float64Array(memory.buffer), dot1: e.dot1, dot2: e.dot2, farrow: e.farrow, farrowDot2: e.farrowDot2, echoRun: e.echoRun };
+    return { f64: new Float64Array(memory.buffer), dot1: e.dot1, dot2: e.dot2, dot2Run: e.dot2Run, farrow: e.farrow, farrowDot2: e.farrowDot2, echoRun: e.echoRun };
   } catch {
     return null;
   }

@@ -5,6 +5,7 @@ import { ratioFromSpeedCurve, smoothCurve } from '../../dsp/core/speed-curve.ts'
 import { MemorySource, collectBlocks } from '../../dsp/source.ts';
 import { ParameterError } from '../../dsp/errors.ts';
 import { seededRng } from '../helpers/rng.ts';
+import { createSimdKernels } from '../../dsp/core/simd-kernels.ts';
 
 function runAll(r: Resampler, input: Float64Array[], blockFrames: number): Float64Array[] {
   const parts: Float64Array[][] = [];
@@ -178,4 +179,36 @@ describe('Resampler: WebAssembly SIMD and plain engines agree', () => {
       });
     }
   }
+});
+
+describe('SIMD dot2Run: a run of outputs in one call', () => {
+  // Source: exact identity — dot2Run performs dot2's operations in the same order for each output,
+  // so every sum must equal the one dot2 gives, bit for bit (tap counts that are and are not multiples of four, phase wraps).
+  it('equals dot2 called once per output along the bank', () => {
+    const k = createSimdKernels(8 * 20000)!;
+    expect(k).not.toBeNull();
+    const rng = seededRng(5);
+    const f = k.f64;
+    for (let i = 0; i < 12000; i++) f[i] = rng() - 0.5;
+    for (const [T, den, num] of [[16, 147, 160], [10, 7, 5], [24, 89, 106]] as const) {
+      const advInt = Math.floor(num / den), advRem = num - advInt * den;
+      const bank = 0, x0 = 8 * 6000, x1 = 8 * 9000, count = 60, out = 8 * 12000, one = 8 * 14000;
+      let phase = 3 % den;
+      k.dot2Run(bank, T, den, advInt, advRem, phase, x0, x1, count, out);
+      let p0 = x0, p1 = x1;
+      for (let i = 0; i < count; i++) {
+        k.dot2(bank + 8 * phase * T, p0, p1, T, one);
+        expect(f[12000 + 2 * i]).toBe(f[14000]);
+        expect(f[12000 + 2 * i + 1]).toBe(f[14001]);
+        p0 += 8 * advInt;
+        p1 += 8 * advInt;
+        phase += advRem;
+        if (phase >= den) {
+          phase -= den;
+          p0 += 8;
+          p1 += 8;
+        }
+      }
+    }
+  });
 });
