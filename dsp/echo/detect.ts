@@ -35,7 +35,7 @@ import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { releaseSharedPlans } from '../core/fft.ts';
 import { reclaim } from '../core/reclaim.ts';
 import { MixScratch, mixBlock } from './mix.ts';
-import { PrintThroughCollector, refinePrintThrough, searchPrintThrough, type LagCandidate } from './print-through.ts';
+import { PrintThroughCollector, refinePrintThroughLags, searchPrintThrough, type LagCandidate } from './print-through.ts';
 import { type Excerpt, MAX_CANCEL_GAIN, quietAndLoudGains, refineSingleEcho } from './refine.ts';
 
 export const DEFAULT_RANGE_SECONDS: readonly [number, number] = [0.0005, 0.5];
@@ -618,9 +618,33 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         // −65 dB, highs reduced): the full-rate look must confirm the copy the coarse search saw,
         // at its lag and strength, in every band, and at a level a tape can print.
         reclaim();
-        const r = await refinePrintThrough(source, channel, lagSamples, found.masks, pt.factor, { signal: options.signal, cancel: fullRateCancel });
-        const coarseDb = 20 * Math.log10(Math.max(1e-12, Math.abs(pick.gain)));
-        if (!r || !(Math.abs(r.lagSamples - lagSamples) <= 1.5 * pt.factor) || !(r.gain !== 0)) {
+        // The top coarse peak and its neighbours within ±35 ms, refined in one pass: on held chords
+        // the copy's correlation repeats every period of the notes and the decimated top can sit
+        // one period off. One period off, the harmonics still line up but the rest of the sound
+        // (bow and breath noise, inharmonic partials) does not, and that lives mostly high up: so
+        // a neighbour replaces the top only where it holds better at the full rate overall (z and
+        // level) and in the 2–5 kHz band, by at least 0.5 dB there. Where no band that high has
+        // programme (a held bass note) nothing tells the periods apart and the top stays.
+        const coarse = [{ lag: pick.lag, gain: pick.gain, z: pick.z }, ...(pick.neighbours ?? [])];
+        const refined = await refinePrintThroughLags(source, channel, coarse.map((c) => c.lag * pt.factor), found.masks, pt.factor, { signal: options.signal, cancel: fullRateCancel });
+        const confirmed = (i: number) => {
+          const ri = refined[i];
+          return ri && Math.abs(ri.lagSamples - coarse[i]!.lag * pt.factor) <= 1.5 * pt.factor && ri.gain !== 0 ? ri : null;
+        };
+        const top = confirmed(0);
+        let r = top, coarseGain = pick.gain;
+        for (let i = 1; top && i < coarse.length; i++) {
+          const ri = confirmed(i);
+          const hiTop = r!.bandGains[2], hi = ri?.bandGains[2];
+          if (!ri || hiTop == null || hi == null || Math.sign(hi) !== Math.sign(ri.gain) || Math.sign(ri.gain) !== Math.sign(r!.gain)) continue;
+          if (Math.abs(ri.z) > Math.abs(r!.z) && Math.abs(ri.gain) > Math.abs(r!.gain) && 20 * Math.log10(Math.abs(hi) / Math.abs(hiTop)) >= 0.5) {
+            r = ri;
+            coarseGain = coarse[i]!.gain;
+            lagSamples = coarse[i]!.lag * pt.factor;
+          }
+        }
+        const coarseDb = 20 * Math.log10(Math.max(1e-12, Math.abs(coarseGain)));
+        if (!r) {
           verdict = { present: false, reason: 'the copy seen in the coarse search is not confirmed at the full rate' };
         } else {
           detail = { bandGains: r.bandGains, halves: r.halves };
@@ -632,7 +656,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
           // Bands where the loud passages have energy (with one band only there is nothing to compare).
           const bands = r.bandGains.filter((b): b is number => b !== null);
           const agree = bands.filter((b) => Math.sign(b) === Math.sign(gain) && Math.abs(b) >= 0.25 * Math.abs(gain)).length;
-          if (Math.sign(gain) !== Math.sign(pick.gain) || Math.abs(db - coarseDb) > 6) {
+          if (Math.sign(gain) !== Math.sign(coarseGain) || Math.abs(db - coarseDb) > 6) {
             verdict = { present: false, reason: `the copy ${when} reads ${db.toFixed(1)} dB at the full rate against ${coarseDb.toFixed(1)} dB in the coarse search: not one consistent copy` };
           } else if (db > PRINT_THROUGH_MAX_DB) {
             verdict = { present: false, reason: `a copy ${when} at ${db.toFixed(1)} dB is far too strong for print-through (about −40 to −65 dB): the programme repeating itself` };
@@ -645,7 +669,9 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
           } else if (db < PRINT_THROUGH_MIN_DB) {
             verdict = { present: null, reason: `a copy ${when} at ${db.toFixed(1)} dB is too faint to stand behind` };
           }
-          confidence = Math.min(confidence, confidenceFromZ(r.z));
+          // The top's own full-rate score caps it too: picking the best of several lags must not
+          // make the finding more certain than the first look.
+          confidence = Math.min(confidence, confidenceFromZ(r.z), confidenceFromZ(top!.z));
         }
       }
       const present = verdict ? verdict.present : confidence >= 0.5;

@@ -134,7 +134,18 @@ export interface LagCandidate {
   gain: number;
   /** |C| over its robust spread across lags. */
   z: number;
+  /**
+   * Other local peaks of |C| within ±35 ms of this one, of at least 0.6 of its height (strongest
+   * first, at most 3). On periodic programme (held chords) the copy's correlation repeats every
+   * period of the notes, and the decimated search can put its top one period off the true lag;
+   * the full-rate refinement looks at these too and keeps the one that holds best.
+   */
+  neighbours?: Array<{ lag: number; gain: number; z: number }>;
 }
+
+/** How far from the coarse top peak (s) and how high (share of it) other peaks are looked at again. */
+const NEIGHBOUR_SECONDS = 0.035;
+const NEIGHBOUR_SHARE = 0.6;
 
 export interface PrintThroughSearch {
   pre: LagCandidate | null;
@@ -266,12 +277,23 @@ export function searchPrintThrough(
       }
     }
     if (bv < 0) return null;
-    // Parabolic interpolation of |C| around the peak.
-    const y0 = Math.abs(at(zc, bk - 1)), y1 = bv, y2 = Math.abs(at(zc, bk + 1));
-    const den = y0 - 2 * y1 + y2;
-    const frac = den < 0 ? Math.max(-0.5, Math.min(0.5, (0.5 * (y0 - y2)) / den)) : 0;
-    const dd = at(d, bk);
-    return { lag: bk + frac, gain: dd > 0 ? at(c, bk) / dd : 0, z: bv / sigma };
+    // Parabolic interpolation of |C| around a peak.
+    const peakAt = (k: number) => {
+      const y0 = Math.abs(at(zc, k - 1)), y1 = Math.abs(at(zc, k)), y2 = Math.abs(at(zc, k + 1));
+      const den = y0 - 2 * y1 + y2;
+      const frac = den < 0 ? Math.max(-0.5, Math.min(0.5, (0.5 * (y0 - y2)) / den)) : 0;
+      const dd = at(d, k);
+      return { lag: k + frac, gain: dd > 0 ? at(c, k) / dd : 0, z: y1 / sigma };
+    };
+    const neighbours: Array<{ lag: number; gain: number; z: number }> = [];
+    const reach = Math.round(NEIGHBOUR_SECONDS * rateHz);
+    for (let k = bk - reach; k <= bk + reach; k++) {
+      if (Math.abs(k - bk) <= 2 || !lagOk(k) || !lagOk(k - 1) || !lagOk(k + 1)) continue;
+      const v = Math.abs(at(zc, k));
+      if (v >= NEIGHBOUR_SHARE * bv && v >= Math.abs(at(zc, k - 1)) && v > Math.abs(at(zc, k + 1))) neighbours.push(peakAt(k));
+    }
+    neighbours.sort((p1, p2) => p2.z - p1.z);
+    return { ...peakAt(bk), neighbours: neighbours.slice(0, 3) };
   };
   return { pre: best(1), post: best(-1), masks };
 }
@@ -320,18 +342,46 @@ export async function refinePrintThrough(
   factor: number,
   options: { signal?: { readonly aborted: boolean }; searchSamples?: number; cancel?: EchoKernel | null } = {},
 ): Promise<RefinedLag | null> {
+  return (await refinePrintThroughLags(source, channel, [coarseLagSamples], masks, factor, options))[0] ?? null;
+}
+
+/** Per-lag sums of the refinement (one set per coarse lag looked at). */
+interface LagSums {
+  t0: number;
+  /** Pairs there will be, from the masks alone (to split them into two halves in time). */
+  total: number;
+  /** Next frame position (start of the quiet frame). */
+  pos: number;
+  pairs: number;
+  S: Float64Array;
+  E: Float64Array;
+  V: Float64Array;
+  /** The later half of the pairs also on its own (the earlier half is the whole less this). */
+  S2: Float64Array;
+  E2: Float64Array;
+  V2: Float64Array;
+}
+
+/**
+ * `refinePrintThrough` at several coarse lags in one streaming pass (the top of the coarse search
+ * and its neighbouring peaks); one result per lag, in order.
+ */
+export async function refinePrintThroughLags(
+  source: AudioSource,
+  channel: number,
+  coarseLagsSamples: readonly number[],
+  masks: Masks,
+  factor: number,
+  options: { signal?: { readonly aborted: boolean }; searchSamples?: number; cancel?: EchoKernel | null } = {},
+): Promise<Array<RefinedLag | null>> {
   const canceller = options.cancel ? new EchoCanceller(options.cancel) : null;
   const fs = source.sampleRateHz;
   const n = nextPowerOfTwo(Math.round(0.04 * fs));
   const hop = n / 2;
-  const t0 = Math.round(coarseLagSamples);
   const win = makeWindow('hann', n);
   const plan = sharedPlan(n);
   const fq = new Float64Array(n), fl = new Float64Array(n);
   const Q = new Float64Array(n + 2), L = new Float64Array(n + 2);
-  const S = new Float64Array(n + 2), E = new Float64Array(n / 2 + 1), V = new Float64Array(n / 2 + 1);
-  // The later half of the pairs also on its own (the earlier half is the whole less this).
-  const S2 = new Float64Array(n + 2), E2 = new Float64Array(n / 2 + 1), V2 = new Float64Array(n / 2 + 1);
   const blockFull = masks.blockSamples * factor;
   const allSet = (mask: Uint8Array, from: number, to: number) => {
     const b0 = Math.floor(from / blockFull), b1 = Math.floor((to - 1) / blockFull);
@@ -339,24 +389,31 @@ export async function refinePrintThrough(
     for (let b = b0; b <= b1; b++) if (!mask[b]) return false;
     return true;
   };
-  // The pairs there will be, from the masks alone (to split them into two halves in time).
-  let total = 0;
-  for (let p = 0; ; p += hop) {
-    if (Math.min(p, p + t0) < 0) continue;
-    if (Math.max(p, p + t0) + n > source.frames) break;
-    if (allSet(masks.quiet, p, p + n) && allSet(masks.loud, p + t0, p + t0 + n)) total++;
-  }
+  const lags: LagSums[] = coarseLagsSamples.map((lag) => {
+    const t0 = Math.round(lag);
+    let total = 0;
+    for (let p = 0; ; p += hop) {
+      if (Math.min(p, p + t0) < 0) continue;
+      if (Math.max(p, p + t0) + n > source.frames) break;
+      if (allSet(masks.quiet, p, p + n) && allSet(masks.loud, p + t0, p + t0 + n)) total++;
+    }
+    return {
+      t0, total, pos: 0, pairs: 0,
+      S: new Float64Array(n + 2), E: new Float64Array(n / 2 + 1), V: new Float64Array(n / 2 + 1),
+      S2: new Float64Array(n + 2), E2: new Float64Array(n / 2 + 1), V2: new Float64Array(n / 2 + 1),
+    };
+  });
   // Sliding buffer of full-rate samples.
-  const span = Math.abs(t0) + n;
+  const span = Math.max(0, ...lags.map((l) => Math.abs(l.t0))) + n;
   let buf = new Float64Array(span + 131072);
   let bufStart = 0, bufLen = 0;
-  let pos = 0; // next frame position (start of the quiet frame)
-  let pairs = 0;
-  const process = (final: boolean) => {
+  const process = (st: LagSums) => {
+    const { t0, S, E, V, S2, E2, V2 } = st;
     for (;;) {
+      const pos = st.pos;
       const lo = Math.min(pos, pos + t0), hi = Math.max(pos, pos + t0) + n;
       if (lo < 0) {
-        pos += hop;
+        st.pos += hop;
         continue;
       }
       if (hi > bufStart + bufLen) break;
@@ -368,7 +425,7 @@ export async function refinePrintThrough(
         plan.realForward(fq, Q);
         plan.realForward(fl, L);
         // Every pair adds to the sums; the later half of the pairs to the second set too.
-        const later = pairs >= total / 2;
+        const later = st.pairs >= st.total / 2;
         for (let k = 0; k <= n / 2; k++) {
           const qr = Q[2 * k]!, qi = Q[2 * k + 1]!, lr = L[2 * k]!, li = L[2 * k + 1]!;
           const cr = qr * lr + qi * li, ci = qi * lr - qr * li, el = lr * lr + li * li, v = (qr * qr + qi * qi) * el;
@@ -383,11 +440,10 @@ export async function refinePrintThrough(
             V2[k]! += v;
           }
         }
-        pairs++;
+        st.pairs++;
       }
-      pos += hop;
+      st.pos += hop;
     }
-    void final;
   };
   const mix = new MixScratch();
   for await (const block of source.blocks({ reusable: true })) {
@@ -395,7 +451,8 @@ export async function refinePrintThrough(
     const mono = mixBlock(block, channel, mix);
     if (canceller) canceller.process(mono, mono);
     // Drop what no future frame needs.
-    const keepFrom = Math.min(pos, pos + t0);
+    let keepFrom = Infinity;
+    for (const st of lags) keepFrom = Math.min(keepFrom, st.pos, st.pos + st.t0);
     const drop = Math.max(0, Math.min(bufLen, keepFrom - bufStart));
     if (drop > 0) {
       buf.copyWithin(0, drop, bufLen);
@@ -409,9 +466,14 @@ export async function refinePrintThrough(
     }
     buf.set(mono, bufLen);
     bufLen += mono.length;
-    process(false);
+    for (const st of lags) process(st);
   }
-  process(true);
+  return lags.map((st) => finishRefinement(st, n, fs, factor, options.searchSamples));
+}
+
+/** The refined lag, gain, z, band gains and halves from one lag's sums. */
+function finishRefinement(st: LagSums, n: number, fs: number, factor: number, searchSamples: number | undefined): RefinedLag | null {
+  const { t0, pairs, S, E, V, S2, E2, V2 } = st;
   if (pairs < 4) return null;
   let eSum = 0;
   for (let k = 0; k <= n / 2; k++) eSum += E[k]!;
@@ -428,7 +490,7 @@ export async function refinePrintThrough(
     }
     return [re, im];
   };
-  const range = options.searchSamples ?? factor * 1.5;
+  const range = searchSamples ?? factor * 1.5;
   let bestD = 0, bestV = -1;
   const step = 0.02;
   for (let dlt = -range; dlt <= range + 1e-9; dlt += step) {

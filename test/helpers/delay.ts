@@ -8,7 +8,7 @@
 import { nextPowerOfTwo, sharedPlan } from '../../dsp/core/fft.ts';
 
 /** x delayed by `delaySamples` (any real value, negative = advanced), same length, zeros shifted in. */
-export function delayExact(x: Float64Array, delaySamples: number): Float64Array {
+export function delayExact(x: Float64Array, delaySamples: number, lowpass: { cutoffHz: number; sampleRateHz: number } | null = null): Float64Array {
   const n = x.length;
   const size = nextPowerOfTwo(n + Math.ceil(Math.abs(delaySamples)) + 4096);
   const plan = sharedPlan(size);
@@ -20,7 +20,10 @@ export function delayExact(x: Float64Array, delaySamples: number): Float64Array 
   plan.realForward(padded, spec);
   for (let k = 0; k <= size / 2; k++) {
     const ang = (-2 * Math.PI * k * delaySamples) / size;
-    const c = Math.cos(ang), s = Math.sin(ang);
+    // Optional zero-phase low-pass: the magnitude of a 2nd-order Butterworth run forwards and
+    // backwards, |H|² = 1/(1 + (f/fc)⁴) (Butterworth's maximally flat response, analog prototype).
+    const w = lowpass ? 1 / (1 + Math.pow((k * lowpass.sampleRateHz) / size / lowpass.cutoffHz, 4)) : 1;
+    const c = w * Math.cos(ang), s = w * Math.sin(ang);
     const re = spec[2 * k]!, im = spec[2 * k + 1]!;
     if (k === size / 2) {
       spec[2 * k] = re * c;
@@ -35,11 +38,17 @@ export function delayExact(x: Float64Array, delaySamples: number): Float64Array 
   return out.slice(lead, lead + n);
 }
 
-/** y = x + Σ gᵢ·x(n − dᵢ): the contract's echo model with any number of echoes (d < 0: pre-echo). */
-export function addEchoes(x: Float64Array, echoes: ReadonlyArray<{ delaySamples: number; gain: number }>): Float64Array {
+/**
+ * y = x + Σ gᵢ·x(n − dᵢ): the contract's echo model with any number of echoes (d < 0: pre-echo);
+ * an echo with `lowpass` is low-passed first (a tape's print-through has its highs reduced).
+ */
+export function addEchoes(
+  x: Float64Array,
+  echoes: ReadonlyArray<{ delaySamples: number; gain: number; lowpass?: { cutoffHz: number; sampleRateHz: number } }>,
+): Float64Array {
   const y = Float64Array.from(x);
   for (const e of echoes) {
-    const d = delayExact(x, e.delaySamples);
+    const d = delayExact(x, e.delaySamples, e.lowpass ?? null);
     for (let i = 0; i < y.length; i++) y[i]! += e.gain * d[i]!;
   }
   return y;
