@@ -32,7 +32,7 @@ import { type FrameEvidence, frameEvidence } from './evidence.ts';
 import { fitReflectionFilter } from './filter.ts';
 import { fitSingleEcho, releaseFitScratch } from './fit.ts';
 import { type EchoKernel, singleEchoKernel } from './kernel.ts';
-import { releaseSharedPlans } from '../core/fft.ts';
+import { nextPowerOfTwo, releaseSharedPlans } from '../core/fft.ts';
 import { reclaim } from '../core/reclaim.ts';
 import { MixScratch, mixBlock } from './mix.ts';
 import { PrintThroughCollector, refinePrintThroughLags, searchPrintThrough, type LagCandidate } from './print-through.ts';
@@ -186,6 +186,39 @@ export const floorDisagrees = (q: number, g: number): boolean => Math.abs(q - g)
  * their beat (250, 300 ms) 1.3–1.8, held organ notes 1.19.
  */
 export const SHARE_RANGE: readonly [number, number] = [0.75, 1.25];
+
+/**
+ * Frame length, in multiples of τ, of the second frame-by-frame reading (LONG_FRAMES_MAX_FFT the
+ * most), and the median it must reach, as a share of |ĝ|. The default frames of about 4·τ put
+ * the echo's ripple at a period of about 4 bins, the width of the Hann window's main lobe: a
+ * tonal partial's leakage carries the ripple's value at the partial over a whole period, so a
+ * sparse tonal frame reads a true reflection at a fraction of ĝ (celesta 30.3 ms / 0.9: median
+ * 0.20·ĝ at 8192 points, 0.46 at 16384, 0.86 at 32768; celesta 37.9 ms / 0.66: 0.24 → 0.88;
+ * jazz guitar 31.0 ms / 0.46: 0.16 → 0.64), while the programme's own repeat stays where it was
+ * (a clean trombone chord's 25.8 ms: 0.09 → 0.06, share 0.33 → 0.09).
+ */
+export const LONG_FRAMES_FACTOR = 16;
+export const LONG_FRAMES_MAX_FFT = 65536;
+export const LONG_FRAMES_MIN_MEDIAN = 0.5;
+
+/**
+ * Whether a peak the frames of about 4·τ refuse as a few moments' repeat reads as a reflection in
+ * frames of about 16·τ: at least FEW_FRAMES frames with programme, four unlocked ones, the median
+ * of the same sign as ĝ and at least LONG_FRAMES_MIN_MEDIAN·|ĝ|, the share inside SHARE_RANGE.
+ * Where 16·τ would exceed LONG_FRAMES_MAX_FFT it is not tried (too few frames in a clip).
+ */
+async function holdsInLongFrames(
+  source: AudioSource,
+  delaySamples: number,
+  gain: number,
+  options: { channel: number; start: number; end: number; signal?: { readonly aborted: boolean } },
+): Promise<boolean> {
+  const fftSize = nextPowerOfTwo(Math.ceil(LONG_FRAMES_FACTOR * (delaySamples + 16)));
+  if (fftSize > LONG_FRAMES_MAX_FFT) return false;
+  const e = await frameEvidence(source, delaySamples, gain, { ...options, fftSize });
+  if (e.frames < FEW_FRAMES || e.frames - e.locked < 4 || e.medianGain === null || e.share === null) return false;
+  return Math.sign(e.medianGain) === Math.sign(gain) && Math.abs(e.medianGain) >= LONG_FRAMES_MIN_MEDIAN * Math.abs(gain) && e.share >= SHARE_RANGE[0] && e.share <= SHARE_RANGE[1];
+}
 
 /**
  * Largest band reading allowed against the gain ĝ measured on the whole programme: |b| ≤
@@ -495,8 +528,9 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
               reason: `the peak at ${ms} ms is still there after cancelling it at ${gain.toFixed(3)}: a rhythm or repeat at that interval, or a reflection stronger than measured; not determined`,
             };
           } else if (
-            spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : gateNoise ? 0.35 : 0.2) * Math.abs(gain) ||
-            (!gateNoise && (evidence.share === null || !(evidence.share >= SHARE_RANGE[0] && evidence.share <= SHARE_RANGE[1])))
+            (spread === null || Math.sign(spread) !== Math.sign(gain) || Math.abs(spread) < (unlocked < 0.2 * evidence.frames ? 0.5 : gateNoise ? 0.35 : 0.2) * Math.abs(gain) ||
+              (!gateNoise && (evidence.share === null || !(evidence.share >= SHARE_RANGE[0] && evidence.share <= SHARE_RANGE[1])))) &&
+            !(await holdsInLongFrames(source, delay, gain, { channel, start: excerpt.start, end: excerpt.end, signal: options.signal }))
           ) {
             // A reflection is in every frame, so cancelling it leaves the frames without a peak
             // at τ (share ≈ 1); a repeat is in a few, and cancelling puts an inverse echo into

@@ -223,10 +223,11 @@ export async function frameEvidence(
   source: AudioSource,
   tau: number,
   gain: number,
-  options: { channel: number; start: number; end: number; signal?: { readonly aborted: boolean } },
+  options: { channel: number; start: number; end: number; signal?: { readonly aborted: boolean }; fftSize?: number },
 ): Promise<FrameEvidence> {
   const fs = source.sampleRateHz;
-  const n = Math.max(4096, nextPowerOfTwo(Math.ceil(4 * (tau + 16))));
+  // Frames of about 4·τ by default; `fftSize` (a power of two, at least that) for longer ones.
+  const n = Math.max(4096, nextPowerOfTwo(Math.ceil(4 * (tau + 16))), options.fftSize ?? 0);
   const hop = n / 2;
   const plan = sharedPlan(n);
   const win = makeWindow('hann', n);
