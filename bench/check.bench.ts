@@ -22,8 +22,7 @@ import { analyses } from '../dsp/ops/registry.ts';
 import { validateParams } from '../dsp/ops/params.ts';
 import { silentContext } from '../dsp/ops/types.ts';
 import { NotFoundError } from '../dsp/errors.ts';
-import { fmt, line, mb, timeAsync, watchTree } from './util.ts';
-import { buildCli, isFresh, manifestPath } from '../bin/build-cli.mjs';
+import { ensureFreshCli, fmt, line, mb, timeAsync, watchTree } from './util.ts';
 
 const FS = 96000;
 const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
@@ -80,13 +79,7 @@ export default async function run(): Promise<void> {
     // command and the check process it waits for). Peak memory follows the whole process tree.
     // A development checkout whose sources changed since the build would rebuild it inside the
     // timed command (esbuild's ~90 MB counted in the peak): rebuild first, outside the measurement.
-    let fresh = false;
-    try {
-      fresh = isFresh(JSON.parse(fs.readFileSync(manifestPath, 'utf8')));
-    } catch {
-      // not built yet
-    }
-    if (!fresh) await buildCli({ clean: false, quiet: true });
+    await ensureFreshCli({ clean: false });
     const cmd = [process.execPath, path.join(ROOT, 'bin/reelwright.mjs'), 'check', file, '--jobs', '1', '--quiet', '--json', path.join(tmp, 'r.json')];
     const shell = `${cmd.map((a) => `'${a}'`).join(' ')} >/dev/null; code=$?; echo "$code $(cut -d')' -f2 /proc/$$/stat)"`;
     const pin = spawnSync('taskset', ['-c', '0', 'true']).status === 0;

@@ -11,9 +11,9 @@ import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { buildCli, isFresh, manifestPath, outDir } from '../bin/build-cli.mjs';
+import { outDir } from '../bin/build-cli.mjs';
 import { CHECK_PROCESS_FLAGS } from '../main/check/thread.ts';
-import { fmt, line } from './util.ts';
+import { ensureFreshCli, fmt, line } from './util.ts';
 
 const root = path.resolve(import.meta.dirname, '..');
 const demo = 'assets/demo/thornbury-reel7.wav';
@@ -74,8 +74,7 @@ async function workerStart(entry: URL, runs = 7): Promise<number> {
 }
 
 export default async function bench(): Promise<void> {
-  const manifest = fs.existsSync(manifestPath) ? JSON.parse(fs.readFileSync(manifestPath, 'utf8')) : null;
-  if (!manifest || !isFresh(manifest)) await buildCli({ clean: true, quiet: true });
+  await ensureFreshCli({ clean: true });
   const bin = [process.execPath, 'bin/reelwright.mjs'];
   const bare = timeCommand([process.execPath, '-e', '0']);
   // CPU time (user + system) is printed too: on a loaded machine it stays put while wall time grows.

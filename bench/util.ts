@@ -1,6 +1,7 @@
 /** Helpers for the benches: timing, memory, and running the same work in numpy/scipy. */
 import { spawnSync } from 'node:child_process';
 import fs from 'node:fs';
+import { buildCli, isFresh, manifestPath } from '../bin/build-cli.mjs';
 
 export function timeIt(fn: () => void, minSeconds = 1): { seconds: number; runs: number } {
   fn(); // warm-up
@@ -123,4 +124,18 @@ function nameOf(pid: number): string {
   } catch {
     return '?';
   }
+}
+
+/**
+ * Rebuilds the command line's JavaScript build when it is missing or older than its sources, so a
+ * bench that times `bin/reelwright.mjs` does not time (or count the memory of) the rebuild.
+ */
+export async function ensureFreshCli(options: { clean: boolean }): Promise<void> {
+  let fresh = false;
+  try {
+    fresh = isFresh(JSON.parse(fs.readFileSync(manifestPath, 'utf8')));
+  } catch {
+    // not built yet
+  }
+  if (!fresh) await buildCli({ clean: options.clean, quiet: true });
 }
