@@ -121,7 +121,7 @@ export interface PrintThroughResult {
   /** Whether the full-rate refinement ran (otherwise the values come from the ≈4 kHz search). */
   refined: boolean;
   /** The refinement's band gains and the two halves' gains and scores (print-through.ts), when it ran. */
-  detail: { bandGains: Array<number | null>; halves: Array<{ gain: number; z: number }> | null } | null;
+  detail: { bandGains: Array<number | null>; halves: Array<{ gain: number; z: number }> | null; middle: { gain: number; std: number; pairs: number } | null } | null;
 }
 
 export interface EchoAnalysis {
@@ -389,6 +389,27 @@ export function ptHalvesDisagree(halves: ReadonlyArray<{ gain: number; z: number
   if (Math.sign(a.gain) !== Math.sign(g) || Math.sign(b.gain) !== Math.sign(g) || Math.abs(levelOf(a.gain) - levelOf(b.gain)) > PT_LEVEL_SPREAD_DB) {
     const read = (h: { gain: number }) => `${levelOf(h.gain).toFixed(1)} dB${h.gain * g < 0 ? ' of the opposite polarity' : ''}`;
     return `reads ${read(a)} in the earlier half of the passages compared and ${read(b)} in the later one`;
+  }
+  return null;
+}
+
+/** Standard deviations and ratio beyond which the middle passages' gain is not the quiet passages' one. */
+export const PT_MIDDLE_SIGMAS = 4;
+export const PT_MIDDLE_RATIO = 1.4;
+
+/**
+ * Why the gain read under the middle passages (15–30 dB under the loud ones) is not that of a copy
+ * at gain g read under the quiet ones, or null. A copy from the tape lies under every passage at
+ * one gain; a sound that repeats itself while it fades (a sampled sustain loop) reads more where
+ * its repeat is louder. On the corpus a looped applause sample read 1.78 times its quiet gain at
+ * 7.2 standard deviations (its backwards copy 1.66 at 5.8); true copies read within 1 deviation.
+ */
+export function ptMiddleDisagrees(middle: { gain: number; std: number; pairs: number } | null, g: number): string | null {
+  if (!middle || !(middle.std > 0) || g === 0) return null;
+  const ratio = middle.gain / g;
+  const off = Math.abs(middle.gain - g) / middle.std;
+  if (off > PT_MIDDLE_SIGMAS && (ratio > PT_MIDDLE_RATIO || ratio < 1 / PT_MIDDLE_RATIO)) {
+    return `reads ${ratio.toFixed(2)} times as strong under the louder passages (${off.toFixed(1)} standard deviations off, ${middle.pairs} passages)`;
   }
   return null;
 }
@@ -681,7 +702,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         if (!r) {
           verdict = { present: false, reason: 'the copy seen in the coarse search is not confirmed at the full rate' };
         } else {
-          detail = { bandGains: r.bandGains, halves: r.halves };
+          detail = { bandGains: r.bandGains, halves: r.halves, middle: r.middle };
           lagSamples = r.lagSamples;
           gain = r.gain;
           refinedOk = true;
@@ -700,6 +721,8 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
             verdict = { present: false, reason: `the copy ${when} ${ptBandsDisagree(r.bandGains)}: a copy from the tape has one level in every band (its highs at most somewhat lower), this is the programme's own likeness` };
           } else if (r.halves !== null && ptHalvesDisagree(r.halves, gain) !== null) {
             verdict = { present: false, reason: `the copy ${when} ${ptHalvesDisagree(r.halves, gain)}: a copy from the tape is there at one level through the file, this likeness is in one place (a sound or texture repeated)` };
+          } else if (ptMiddleDisagrees(r.middle, gain) !== null) {
+            verdict = { present: false, reason: `the copy ${when} ${ptMiddleDisagrees(r.middle, gain)}: a copy from the tape has one level under quiet and louder passages alike, this is a sound repeating itself as it fades` };
           } else if (db < PRINT_THROUGH_MIN_DB) {
             verdict = { present: null, reason: `a copy ${when} at ${db.toFixed(1)} dB is too faint to stand behind` };
           }

@@ -82,6 +82,11 @@ export interface Masks {
   quiet: Uint8Array;
   /** Per block: 1 = loud passage. */
   loud: Uint8Array;
+  /**
+   * Per block: 1 = between quiet and loud (15–30 dB under the loud reference). A copy from the
+   * tape is in these blocks too, at the same gain as in the quiet ones; used to test that.
+   */
+  middle: Uint8Array;
   /** Level of the loud reference (95th percentile of block RMS), dBFS-like (RMS re 1). */
   referenceDb: number;
   quietFraction: number;
@@ -91,7 +96,7 @@ export interface Masks {
 /**
  * Quiet and loud masks on 10 ms blocks: loud = within 12 dB of the 95th-percentile block level;
  * quiet = 30 dB or more below it, with both neighbours quiet too (so the decay of a loud sound
- * does not count as quiet).
+ * does not count as quiet); middle = 15–30 dB below it.
  */
 export function makeMasks(x: Float32Array, rateHz: number): Masks {
   const bs = Math.max(1, Math.round(0.01 * rateHz));
@@ -104,11 +109,12 @@ export function makeMasks(x: Float32Array, rateHz: number): Masks {
   }
   const sorted = Float64Array.from(levels).sort();
   const ref = nb ? sorted[Math.min(nb - 1, Math.floor(0.95 * nb))]! : -300;
-  const loud = new Uint8Array(nb), quietRaw = new Uint8Array(nb), quiet = new Uint8Array(nb);
+  const loud = new Uint8Array(nb), quietRaw = new Uint8Array(nb), quiet = new Uint8Array(nb), middle = new Uint8Array(nb);
   let nl = 0, nq = 0;
   for (let b = 0; b < nb; b++) {
     if (levels[b]! >= ref - 12 && levels[b]! > -200) loud[b] = 1;
     if (levels[b]! <= ref - 30) quietRaw[b] = 1;
+    else if (levels[b]! <= ref - 15) middle[b] = 1;
   }
   // Quiet only well inside a quiet stretch: the soft onsets and decays of the sounds around it
   // would otherwise correlate with loud sounds of similar pitch elsewhere.
@@ -124,7 +130,7 @@ export function makeMasks(x: Float32Array, rateHz: number): Masks {
     nl += loud[b]!;
     nq += quiet[b]!;
   }
-  return { blockSamples: bs, quiet, loud, referenceDb: ref, quietFraction: nb ? nq / nb : 0, loudFraction: nb ? nl / nb : 0 };
+  return { blockSamples: bs, quiet, loud, middle, referenceDb: ref, quietFraction: nb ? nq / nb : 0, loudFraction: nb ? nl / nb : 0 };
 }
 
 export interface LagCandidate {
@@ -324,7 +330,19 @@ export interface RefinedLag {
    * likeness between two moments of the programme is in one place.
    */
   halves: Array<{ gain: number; z: number }> | null;
+  /**
+   * The gain at the common lag where the earlier frame is not quiet but 15–30 dB under the loud
+   * reference (`Masks.middle`; at most MIDDLE_PAIRS pairs, evenly spread), with its null standard
+   * deviation; null with fewer than 8 such pairs. A copy from the tape lies under those passages
+   * at the same gain as under the quiet ones (the programme there only adds spread); a sound that
+   * repeats itself while it fades (a sampled sustain loop, a decaying drone) reads a gain that
+   * follows the level of the passage instead.
+   */
+  middle: { gain: number; std: number; pairs: number } | null;
 }
+
+/** Most middle pairs used per lag (the rest are skipped evenly): enough for a 5 % reading of a copy's gain. */
+export const MIDDLE_PAIRS = 400;
 
 /**
  * Full-rate refinement of a print-through lag from the cross-spectrum of frame pairs: a quiet
@@ -360,6 +378,13 @@ interface LagSums {
   S2: Float64Array;
   E2: Float64Array;
   V2: Float64Array;
+  /** Middle pairs (quiet frame replaced by a middle one): every `stride`-th of them is used. */
+  stride: number;
+  seenMiddle: number;
+  pairsM: number;
+  SM: Float64Array;
+  EM: Float64Array;
+  VM: Float64Array;
 }
 
 /**
@@ -391,24 +416,36 @@ export async function refinePrintThroughLags(
   };
   const lags: LagSums[] = coarseLagsSamples.map((lag) => {
     const t0 = Math.round(lag);
-    let total = 0;
+    let total = 0, totalM = 0;
     for (let p = 0; ; p += hop) {
       if (Math.min(p, p + t0) < 0) continue;
       if (Math.max(p, p + t0) + n > source.frames) break;
-      if (allSet(masks.quiet, p, p + n) && allSet(masks.loud, p + t0, p + t0 + n)) total++;
+      if (!allSet(masks.loud, p + t0, p + t0 + n)) continue;
+      if (allSet(masks.quiet, p, p + n)) total++;
+      else if (allSet(masks.middle, p, p + n)) totalM++;
     }
     return {
       t0, total, pos: 0, pairs: 0,
       S: new Float64Array(n + 2), E: new Float64Array(n / 2 + 1), V: new Float64Array(n / 2 + 1),
       S2: new Float64Array(n + 2), E2: new Float64Array(n / 2 + 1), V2: new Float64Array(n / 2 + 1),
+      stride: Math.max(1, Math.ceil(totalM / MIDDLE_PAIRS)), seenMiddle: 0, pairsM: 0,
+      SM: new Float64Array(n + 2), EM: new Float64Array(n / 2 + 1), VM: new Float64Array(n / 2 + 1),
     };
   });
   // Sliding buffer of full-rate samples.
   const span = Math.max(0, ...lags.map((l) => Math.abs(l.t0))) + n;
   let buf = new Float64Array(span + 131072);
   let bufStart = 0, bufLen = 0;
+  const transformPair = (pos: number, t0: number) => {
+    for (let i = 0; i < n; i++) {
+      fq[i] = buf[pos - bufStart + i]! * win[i]!;
+      fl[i] = buf[pos + t0 - bufStart + i]! * win[i]!;
+    }
+    plan.realForward(fq, Q);
+    plan.realForward(fl, L);
+  };
   const process = (st: LagSums) => {
-    const { t0, S, E, V, S2, E2, V2 } = st;
+    const { t0, S, E, V, S2, E2, V2, SM, EM, VM } = st;
     for (;;) {
       const pos = st.pos;
       const lo = Math.min(pos, pos + t0), hi = Math.max(pos, pos + t0) + n;
@@ -417,13 +454,23 @@ export async function refinePrintThroughLags(
         continue;
       }
       if (hi > bufStart + bufLen) break;
-      if (allSet(masks.quiet, pos, pos + n) && allSet(masks.loud, pos + t0, pos + t0 + n)) {
-        for (let i = 0; i < n; i++) {
-          fq[i] = buf[pos - bufStart + i]! * win[i]!;
-          fl[i] = buf[pos + t0 - bufStart + i]! * win[i]!;
+      const loudAfter = allSet(masks.loud, pos + t0, pos + t0 + n);
+      if (loudAfter && allSet(masks.middle, pos, pos + n)) {
+        // (Middle and quiet blocks are disjoint.)
+        if (st.seenMiddle++ % st.stride === 0) {
+          transformPair(pos, t0);
+          for (let k = 0; k <= n / 2; k++) {
+            const qr = Q[2 * k]!, qi = Q[2 * k + 1]!, lr = L[2 * k]!, li = L[2 * k + 1]!;
+            const el = lr * lr + li * li;
+            SM[2 * k]! += qr * lr + qi * li;
+            SM[2 * k + 1]! += qi * lr - qr * li;
+            EM[k]! += el;
+            VM[k]! += (qr * qr + qi * qi) * el;
+          }
+          st.pairsM++;
         }
-        plan.realForward(fq, Q);
-        plan.realForward(fl, L);
+      } else if (loudAfter && allSet(masks.quiet, pos, pos + n)) {
+        transformPair(pos, t0);
         // Every pair adds to the sums; the later half of the pairs to the second set too.
         const later = st.pairs >= st.total / 2;
         for (let k = 0; k <= n / 2; k++) {
@@ -530,7 +577,16 @@ function finishRefinement(st: LagSums, n: number, fs: number, factor: number, se
   const halves = e1 > 0 && e2 > 0 && var1 > 0 && var2 > 0
     ? [{ gain: re1 / e1, z: re1 / Math.sqrt(0.5 * var1) }, { gain: re2 / e2, z: re2 / Math.sqrt(0.5 * var2) }]
     : null;
-  return { lagSamples: t0 + bestD, gain: re / eSum, pairs, z: vSum > 0 ? re / Math.sqrt(0.5 * vSum) : 0, bandGains, halves };
+  // The middle pairs at the same lag.
+  let reM = 0, eM = 0, varM = 0;
+  for (let k = 0; k <= n / 2; k++) {
+    const w = (2 * Math.PI * k) / n;
+    reM += st.SM[2 * k]! * Math.cos(w * bestD) + st.SM[2 * k + 1]! * Math.sin(w * bestD);
+    eM += st.EM[k]!;
+    varM += st.VM[k]!;
+  }
+  const middle = st.pairsM >= 8 && eM > 0 && varM > 0 ? { gain: reM / eM, std: Math.sqrt(0.5 * varM) / eM, pairs: st.pairsM } : null;
+  return { lagSamples: t0 + bestD, gain: re / eSum, pairs, z: vSum > 0 ? re / Math.sqrt(0.5 * vSum) : 0, bandGains, halves, middle };
 }
 
 /**
