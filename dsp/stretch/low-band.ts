@@ -27,6 +27,8 @@
  *   1 − m_L·G(σ), G the share of the low band the frames around σ carry. A dropped frame takes over
  *   the main band's rotations (at the bin of the same frequency), so that both bands give every
  *   partial the same phase when the low band comes back (no cancellation in the crossover).
+ * - Stops: a frame with a sound that stops into (near) silence within ¾ of its window is dropped
+ *   as at onsets (dsp/stretch/offsets.ts).
  * - Stationarity gate: a window this long smears partials that move (vibrato, glides) over their
  *   track. A frame is dropped as at onsets when its partials move within its window: four
  *   Blackman–Harris analyses a quarter of the window long across it, each peak's power centroid in
@@ -83,6 +85,11 @@ export interface LowBandOptions {
   readonly inputSpan: number;
   /** The wide band (up to 3.5–4 kHz) with the stationarity gate; default the band below 180–300 Hz. */
   readonly wide?: boolean;
+  /**
+   * Whether the full-rate input in [start, start + length) holds a sound that stops into
+   * (near) silence (dsp/stretch/offsets.ts); such frames are dropped as at onsets.
+   */
+  readonly stopInside?: (start: number, length: number) => boolean;
 }
 
 /** Crossover weight of the low band at f (Hz). */
@@ -148,7 +155,9 @@ export class LowBand {
   readonly #gateSpectra: Float64Array[];
   readonly #gatePower: Float64Array[];
   readonly #gateBins: number;
+  /** Per frame σ: 0 when its window holds a stop or its partials move, else 1 (the onset rule aside). */
   readonly #gateCache = new Map<number, number>();
+  readonly #stopInside: ((start: number, length: number) => boolean) | null;
   readonly #gateShifts: number[][] = [[], [], []];
 
   constructor(options: LowBandOptions) {
@@ -157,6 +166,7 @@ export class LowBand {
     this.ratio = options.ratio;
     this.sampleRateHz = fs;
     const wide = (this.wide = options.wide === true);
+    this.#stopInside = options.stopInside ?? null;
     const edges = lowBandEdges(fs, wide), f2 = edges.f2;
     // fs/D ≈ 3 kHz for the default band; fs/D ≥ 2.4·f₂ for the wide one.
     const d = (this.decimation = Math.min(n / 8, Math.max(1, wide ? 2 ** Math.floor(Math.log2(fs / (2.4 * f2))) : 2 ** Math.round(Math.log2(fs / 3000)))));
@@ -311,8 +321,10 @@ export class LowBand {
    * Weight of the low-band frame at output σ taken from input α: 0 when an onset lies within
    * three quarters of its window, in the input or in the output (the long window would disperse
    * the attack over its length: pre-echo), else 1; the main band takes over what the low band
-   * drops. (Blackman–Harris at ¾ of the half-window: w² ≈ −66 dB.) Also 0 where the partials
-   * move within the window (`movementCents` above GATE_CENTS; one decision per frame, cached).
+   * drops. (Blackman–Harris at ¾ of the half-window: w² ≈ −66 dB.) Also 0 when a sound stops
+   * into (near) silence within the same reach of α (`stopInside`: the long window would spread it
+   * over the silence after the stop, dsp/stretch/offsets.ts), and where the partials move within
+   * the window (`movementCents` above GATE_CENTS); one decision per frame, cached.
    */
   frameWeight(sigma: number, alpha: number): number {
     const on = this.#onsetT, off = this.#onsetOffset, reach = 0.75 * this.halfFull;
@@ -321,11 +333,12 @@ export class LowBand {
       if (Math.abs(s0 - sigma) <= reach || Math.abs(t0 - alpha) <= reach) return 0;
       if (t0 > alpha + reach && s0 > sigma + reach) break;
     }
-    if (!this.wide) return 1;
+    const stop = this.#stopInside;
+    if (!this.wide && !stop) return 1;
     const cache = this.#gateCache;
     let g = cache.get(sigma);
     if (g === undefined) {
-      g = this.movementCents(alpha) <= GATE_CENTS ? 1 : 0;
+      g = stop && stop(alpha - reach, 2 * reach) ? 0 : !this.wide || this.movementCents(alpha) <= GATE_CENTS ? 1 : 0;
       cache.set(sigma, g);
       if (cache.size > 64) for (const key of cache.keys()) if (key < sigma - 8 * this.halfFull) cache.delete(key);
     }

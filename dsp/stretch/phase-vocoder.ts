@@ -17,6 +17,9 @@
  *    phase reset), and all rotations are held through the zone, so the attack is copied unsmeared
  *    (phase reset at transients: Röbel 2003, "A new approach to transient processing in the phase
  *    vocoder", DAFx-03, there with bins classified by time reassignment, here by energy rise).
+ *  - Stops: a frame whose window holds a sound that stops into (near) silence takes the analysis
+ *    phase too, and the low band drops such frames, so the silence after it is not filled with the
+ *    sound's smear (dsp/stretch/offsets.ts).
  *  - Optional spectral-envelope correction for a later resampling by `formantFactor`
  *    (transpose --keep-formants): see dsp/stretch/envelope.ts.
  *
@@ -31,6 +34,7 @@ import { CHUNK, InputRing, OverlapAddRing } from './rings.ts';
 import { PackedStft } from './packed-stft.ts';
 import { PhaseLocker } from './phase-lock.ts';
 import { TransientTracker } from './transients.ts';
+import { BlockLevels } from './offsets.ts';
 import { LowBand, lowBandEdges, lowBandWeight, LOW_BAND_F2_HZ } from './low-band.ts';
 
 import { MAX_RATIO, MIN_RATIO } from './limits.ts';
@@ -112,6 +116,7 @@ export class TimeStretcher {
   // Time map and transients.
   readonly #map: TimeMap;
   readonly #tracker: TransientTracker;
+  readonly #levels: BlockLevels;
   #zone = -1;
   #frame = 0; // next synthesis frame; σ = (frame − 1)·H_s
 
@@ -155,11 +160,12 @@ export class TimeStretcher {
 
     const lowReach = ratio !== 1 ? Math.ceil(4 * (4 * n) * Math.max(1, 1 / ratio)) : 0; // the low band's look-ahead, input samples
     this.#input = new InputRing(channelCount, n + 2 + gridSpacing + 2 * commitDistance + 2 * zoneHalf + this.#tracker.span + CHUNK + lowReach);
+    const levels = (this.#levels = new BlockLevels(this.#input, n / 32, 2 * this.#input.capacity));
     const wide = options.wideLowBand !== false;
     // The low band needs ratio ≠ 1 (ratio 1 is the identity) and a crossover below fs/2.
     const low = (this.#low =
       options.lowBand !== false && ratio !== 1 && sampleRateHz > (wide ? 4000 : 8 * LOW_BAND_F2_HZ)
-        ? new LowBand({ sampleRateHz, channelCount, ratio, mainFftSize: n, inputSpan: this.#input.capacity, wide })
+        ? new LowBand({ sampleRateHz, channelCount, ratio, mainFftSize: n, inputSpan: this.#input.capacity, wide, stopInside: (start, length) => levels.stopInside(start, length) })
         : null);
     const onOnset = options.onOnset;
     this.#map.onAccept = low
@@ -169,9 +175,9 @@ export class TimeStretcher {
         }
       : onOnset;
     this.#output = new OverlapAddRing(channelCount, low ? 2 * n + 4 * low.halfFull + 4 * low.hopFull : 2 * n);
-    // The low band's stationarity gate reads the input around the α of frames up to half its
-    // window ahead of σ.
-    this.#reach = low ? Math.max(n / 2, low.reachFull + (low.wide ? Math.ceil(low.halfFull * Math.max(1, 1 / ratio)) + low.hopFull : 0)) : n / 2;
+    // The low band's stationarity gate and stop test read the input around the α of frames up to
+    // half its window ahead of σ; the stop test reads whole level blocks (one beyond the window's end).
+    this.#reach = low ? Math.max(n / 2, low.reachFull + Math.ceil(low.halfFull * Math.max(1, 1 / ratio)) + low.hopFull) : n / 2 + this.#levels.blockSize;
     this.#tail = low ? Math.max(n / 2, low.halfFull + low.hopFull) : n / 2;
     let highBins = 0;
     const edges = lowBandEdges(sampleRateHz, wide);
@@ -251,6 +257,7 @@ export class TimeStretcher {
     this.#tracker.run(this.#input, this.#ended);
     this.#tracker.commit(this.#map, written, this.#ended);
     this.#low?.decimate(this.#input, this.#ended);
+    this.#levels.update();
     this.#processFrames();
   }
 
@@ -299,7 +306,7 @@ export class TimeStretcher {
 
   /** One synthesis frame centred at output σ from the analysis frame centred at input α. */
   #frameAt(sigma: number, alpha: number, zoneOnset: number): void {
-    const lock = this.#lock;
+    const lock = this.#lock, n = this.#n;
     if (zoneOnset >= 0) {
       if (zoneOnset !== this.#zone) this.#enterZone(zoneOnset);
     } else {
@@ -307,7 +314,8 @@ export class TimeStretcher {
     }
     this.#stft.analyze(this.#input, alpha, this.#xw, this.#power);
     if (zoneOnset >= 0) lock.rotateHeld(this.#xw, this.#y);
-    else if (!this.#prevValid) {
+    else if (!this.#prevValid || this.#levels.stopInside(alpha - n / 2, n)) {
+      // The first frame, or a sound stops inside this window: the analysis phase (see offsets.ts).
       lock.reset();
       lock.rotateHeld(this.#xw, this.#y);
     } else if (!lock.lock(this.#power, this.#xw, this.#xwPrev, this.#y, alpha - this.#prevAlpha)) lock.rotateHeld(this.#xw, this.#y);
