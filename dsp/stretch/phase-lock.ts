@@ -54,7 +54,6 @@ export class PhaseLocker {
   readonly #fracIm: Float64Array;
   #stepDelta = NaN;
   readonly #peaks: Int32Array;
-  readonly #ends: Int32Array; // per peak but the last: its region's last bin
 
   /** The Hann main band's rules: side lobes within 3 bins, the weak-peak refinement (see `lock`, `#refineWeak`). */
   readonly #hann: boolean;
@@ -94,7 +93,6 @@ export class PhaseLocker {
     this.rotRe = new Float64Array(bins).fill(1);
     this.rotIm = new Float64Array(bins);
     this.#peaks = new Int32Array(bins);
-    this.#ends = new Int32Array(bins);
     this.#hann = hannLeakage;
     const terms = (this.#terms = coefs ? coefs.length - 1 : 0);
     this.#kernel = coefs ? Float64Array.from({ length: 2 * terms + 1 }, (_, i) => (i === terms ? coefs[0]! : ((i - terms) % 2 ? -1 : 1) * 0.5 * coefs[Math.abs(i - terms)]!)) : null;
@@ -199,26 +197,16 @@ export class PhaseLocker {
     const hann = this.#hann, leak = this.#kernel !== null;
     for (let k = 2; k < last - 1; k++) if (pw[k]! > top) top = pw[k]!;
     const weakLevel = top * WEAK_PEAK;
-    // Each region ends at the lowest bin between its peak and the next (the first of equal ones),
-    // found in the same pass: `low` is the lowest bin after the last peak so far.
-    const ends = this.#ends;
-    let low = 0;
     for (let k = 2; k < last - 1; k++) {
       const v = pw[k]!;
-      let peak = v > pw[k - 1]! && v >= pw[k + 1]! && v > 0;
-      if (peak) {
-        const l2 = pw[k - 2]!, r2 = pw[k + 2]!;
-        if (v < weakLevel && (v < l2 || v < r2)) peak = false;
-        else if (hann) {
-          const lobe = SIDE_LOBE * v;
-          if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) peak = false;
-        }
+      if (!(v > pw[k - 1]! && v >= pw[k + 1]! && v > 0)) continue;
+      const l2 = pw[k - 2]!, r2 = pw[k + 2]!;
+      if (v < weakLevel && (v < l2 || v < r2)) continue;
+      if (hann) {
+        const lobe = SIDE_LOBE * v;
+        if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
       }
-      if (peak) {
-        if (count > 0) ends[count - 1] = low;
-        peaks[count++] = k;
-        low = k;
-      } else if (count > 0 && v < pw[low]!) low = k;
+      peaks[count++] = k;
     }
     if (count === 0) return false;
     const hs = this.synthesisHop, n = this.fftSize;
@@ -292,10 +280,23 @@ export class PhaseLocker {
       nr *= g;
       ni *= g;
       // The region reaches the lowest bin between this peak and the next.
-      const regionEnd = p + 1 < count ? ends[p]! : last;
+      let regionEnd = last;
+      if (p + 1 < count) {
+        const next = peaks[p + 1]!;
+        regionEnd = kp;
+        for (let k = kp + 1; k < next; k++) if (pw[k]! < pw[regionEnd]!) regionEnd = k;
+      }
       for (let k = regionStart; k <= regionEnd; k++) {
         rr[k] = nr;
         ri[k] = ni;
+      }
+      for (let c = 0; c < channels; c++) {
+        const x = xw[c]!, out = y[c]!;
+        for (let k = regionStart; k <= regionEnd; k++) {
+          const re = x[2 * k]!, im = x[2 * k + 1]!;
+          out[2 * k] = re * nr - im * ni;
+          out[2 * k + 1] = re * ni + im * nr;
+        }
       }
       if (leak) {
         this.#regionLo[p] = regionStart;
@@ -303,8 +304,6 @@ export class PhaseLocker {
       }
       regionStart = regionEnd + 1;
     }
-    // The regions cover bins 0 … last: Y = X·e^{jθ} in one pass (the products of a pass per region).
-    this.rotateHeld(xw, y);
     if (leak && advance !== 0) {
       if (hann && hopIn > 0) this.#refineWeak(pw, xw, xp, y, count, hopIn, advance, top * WEAK_PEAK);
       this.#correctLeakage(pw, xw, y, count, top);
