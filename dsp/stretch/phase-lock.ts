@@ -48,11 +48,18 @@ export class PhaseLocker {
   readonly rotRe: Float64Array;
   readonly rotIm: Float64Array;
   // e^{jΔω_k} for the current Δ = H_s − H_a, and e^{jΔ·2π(q/64)/N} for q = −64…64 (weak peaks).
-  readonly #stepRe: Float64Array;
-  readonly #stepIm: Float64Array;
-  readonly #fracRe: Float64Array;
-  readonly #fracIm: Float64Array;
+  // Two sets of the tables (at a/b stretch ratios the rounded analysis hop alternates between
+  // two values): the one in use and the other; `#stepDelta` is the advance the one in use is for.
+  #stepRe: Float64Array;
+  #stepIm: Float64Array;
+  #fracRe: Float64Array;
+  #fracIm: Float64Array;
   #stepDelta = NaN;
+  #otherRe: Float64Array;
+  #otherIm: Float64Array;
+  #otherFracRe: Float64Array;
+  #otherFracIm: Float64Array;
+  #otherDelta = NaN;
   readonly #peaks: Int32Array;
 
   /** The Hann main band's rules: side lobes within 3 bins, the weak-peak refinement (see `lock`, `#refineWeak`). */
@@ -89,6 +96,10 @@ export class PhaseLocker {
     this.#stepIm = new Float64Array(bins);
     this.#fracRe = new Float64Array(2 * FRACTION_STEPS + 1);
     this.#fracIm = new Float64Array(2 * FRACTION_STEPS + 1);
+    this.#otherRe = new Float64Array(bins);
+    this.#otherIm = new Float64Array(bins);
+    this.#otherFracRe = new Float64Array(2 * FRACTION_STEPS + 1);
+    this.#otherFracIm = new Float64Array(2 * FRACTION_STEPS + 1);
     this.#omega = new Float64Array(bins);
     this.rotRe = new Float64Array(bins).fill(1);
     this.rotIm = new Float64Array(bins);
@@ -214,7 +225,7 @@ export class PhaseLocker {
     const channels = this.channelCount;
     const binRad = TWO_PI / n;
     const advance = hs - hopIn;
-    if (advance !== this.#stepDelta) this.#buildSteps(advance);
+    if (advance !== this.#stepDelta) this.#useSteps(advance);
     const stepRe = this.#stepRe, stepIm = this.#stepIm, fracRe = this.#fracRe, fracIm = this.#fracIm;
     const weak = top * WEAK_PEAK;
     let regionStart = 0;
@@ -555,10 +566,26 @@ export class PhaseLocker {
     }
   }
 
+  /** Swaps in the other set of tables, built for `advance` unless it already is. */
+  #useSteps(advance: number): void {
+    const re = this.#stepRe, im = this.#stepIm, fr = this.#fracRe, fi = this.#fracIm, delta = this.#stepDelta;
+    this.#stepRe = this.#otherRe;
+    this.#stepIm = this.#otherIm;
+    this.#fracRe = this.#otherFracRe;
+    this.#fracIm = this.#otherFracIm;
+    this.#stepDelta = this.#otherDelta;
+    this.#otherRe = re;
+    this.#otherIm = im;
+    this.#otherFracRe = fr;
+    this.#otherFracIm = fi;
+    this.#otherDelta = delta;
+    if (advance !== this.#stepDelta) this.#buildSteps(advance);
+  }
+
   /** Tables e^{jΔω_k} (by recurrence) and e^{jΔ·2π(q/64)/N} for the advance Δ = H_s − H_a. */
   #buildSteps(advance: number): void {
     this.#stepDelta = advance;
-    const n = this.fftSize, bins = this.#bins;
+    const n = this.fftSize, bins = this.#active; // only bins below `active` are read
     const a = (TWO_PI * advance) / n;
     const ur = Math.cos(a), ui = Math.sin(a);
     const sr = this.#stepRe, si = this.#stepIm;

@@ -30,7 +30,12 @@ export class InputRing {
     const mask = this.mask, from = this.written;
     for (let c = 0; c < this.rings.length; c++) {
       const src = block[c]!, ring = this.rings[c]!;
-      for (let i = 0; i < take; i++) ring[(from + i) & mask] = src[at + i]!;
+      // At most two contiguous pieces of the ring.
+      for (let done = 0; done < take; ) {
+        const idx = (from + done) & mask, len = Math.min(take - done, mask + 1 - idx);
+        ring.set(src.subarray(at + done, at + done + len), idx);
+        done += len;
+      }
     }
     this.written += take;
   }
