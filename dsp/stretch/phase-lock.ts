@@ -208,13 +208,18 @@ export class PhaseLocker {
     const hann = this.#hann, leak = this.#kernel !== null;
     for (let k = 2; k < last - 1; k++) if (pw[k]! > top) top = pw[k]!;
     const weakLevel = top * WEAK_PEAK;
+    // pw[k − 1] and pw[k] carried from bin to bin (`before`, `v`).
+    let before = pw[1]!, v = pw[2]!;
     for (let k = 2; k < last - 1; k++) {
-      const v = pw[k]!;
-      if (!(v > pw[k - 1]! && v >= pw[k + 1]! && v > 0)) continue;
+      const after = pw[k + 1]!, here = v;
+      const max = here > before && here >= after && here > 0;
+      before = here;
+      v = after;
+      if (!max) continue;
       const l2 = pw[k - 2]!, r2 = pw[k + 2]!;
-      if (v < weakLevel && (v < l2 || v < r2)) continue;
+      if (here < weakLevel && (here < l2 || here < r2)) continue;
       if (hann) {
-        const lobe = SIDE_LOBE * v;
+        const lobe = SIDE_LOBE * here;
         if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
       }
       peaks[count++] = k;
@@ -295,18 +300,40 @@ export class PhaseLocker {
       if (p + 1 < count) {
         const next = peaks[p + 1]!;
         regionEnd = kp;
-        for (let k = kp + 1; k < next; k++) if (pw[k]! < pw[regionEnd]!) regionEnd = k;
+        let low = pw[kp]!;
+        for (let k = kp + 1; k < next; k++) {
+          const e = pw[k]!;
+          if (e < low) {
+            low = e;
+            regionEnd = k;
+          }
+        }
       }
-      for (let k = regionStart; k <= regionEnd; k++) {
-        rr[k] = nr;
-        ri[k] = ni;
-      }
-      for (let c = 0; c < channels; c++) {
-        const x = xw[c]!, out = y[c]!;
+      if (channels === 2) {
+        // Both channels in one pass (the same products as below).
+        const x0 = xw[0]!, x1 = xw[1]!, o0 = y[0]!, o1 = y[1]!;
         for (let k = regionStart; k <= regionEnd; k++) {
-          const re = x[2 * k]!, im = x[2 * k + 1]!;
-          out[2 * k] = re * nr - im * ni;
-          out[2 * k + 1] = re * ni + im * nr;
+          rr[k] = nr;
+          ri[k] = ni;
+          const j = 2 * k;
+          const re0 = x0[j]!, im0 = x0[j + 1]!, re1 = x1[j]!, im1 = x1[j + 1]!;
+          o0[j] = re0 * nr - im0 * ni;
+          o0[j + 1] = re0 * ni + im0 * nr;
+          o1[j] = re1 * nr - im1 * ni;
+          o1[j + 1] = re1 * ni + im1 * nr;
+        }
+      } else {
+        for (let k = regionStart; k <= regionEnd; k++) {
+          rr[k] = nr;
+          ri[k] = ni;
+        }
+        for (let c = 0; c < channels; c++) {
+          const x = xw[c]!, out = y[c]!;
+          for (let k = regionStart; k <= regionEnd; k++) {
+            const re = x[2 * k]!, im = x[2 * k + 1]!;
+            out[2 * k] = re * nr - im * ni;
+            out[2 * k + 1] = re * ni + im * nr;
+          }
         }
       }
       if (leak) {
