@@ -539,7 +539,12 @@ export class LowBand {
           const blocks = Math.min(1024, (to >> shift) - qb);
           const at = simd.interpolate(quad, span, v, mask, qb - jLow - span + 1, blocks);
           const heap = simd.heap, count = blocks << shift;
-          for (let i = 0; i < count; i++) o[(t + i) & omask]! += heap[at + i]!;
+          for (let done = 0; done < count; ) {
+            // At most two contiguous pieces of the ring.
+            const base = (t + done) & omask, len = Math.min(count - done, omask + 1 - base), from = at + done;
+            for (let i = 0; i < len; i++) o[base + i]! += heap[from + i]!;
+            done += len;
+          }
           t += count;
           continue;
         }
