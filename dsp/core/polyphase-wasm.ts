@@ -24,6 +24,12 @@ interface Kernels {
    * Σ_{i<span} taps[(g·span + i)·4 + j]·src[b + span − 1 − i] (byte offsets; sums from i = 0).
    */
   interpolate(src: number, taps: number, dst: number, blocks: number, span: number, groups: number): void;
+  /**
+   * For m < count, with c = src + 16·(half + m·step) (two-channel frames of 16 bytes, interleaved):
+   * dst[16m] = h[0]·x[c] + Σ_{i=1…half} h[i]·(x[c + 16i] + x[c − 16i]) per lane, h the doubles at
+   * `taps` (the upper half h[L…2L] of a symmetric filter), sums from i = 1 up (byte offsets).
+   */
+  decimate2(src: number, taps: number, dst: number, count: number, half: number, step: number): void;
 }
 
 function interpolateFunction(): Fn {
@@ -70,9 +76,70 @@ function interpolateFunction(): Fn {
   return f;
 }
 
+function decimate2Function(): Fn {
+  const f = new Fn([I32, I32, I32, I32, I32, I32]);
+  const src = 0, taps = 1, dst = 2, count = 3, half = 4, step = 5;
+  const m = f.local(I32), c = f.local(I32), i = f.local(I32), tp = f.local(I32), pf = f.local(I32), pb = f.local(I32);
+  const s1 = f.local(I32), s2 = f.local(I32), s3 = f.local(I32), s4 = f.local(I32);
+  const h = f.local(V128), a0 = f.local(V128), a1 = f.local(V128), a2 = f.local(V128), a3 = f.local(V128);
+  const accs = [a0, a1, a2, a3];
+  const stepAt = (p: number, j: number) => {
+    f.get(p);
+    if (j > 0) f.get([0, s1, s2, s3][j]!).add();
+  };
+  f.get(step).i32(16).mul().set(s1); // bytes between neighbouring outputs' centres
+  f.get(s1).get(s1).add().set(s2);
+  f.get(s2).get(s1).add().set(s3);
+  f.get(s2).get(s2).add().set(s4);
+  f.get(src).get(half).i32(16).mul().add().set(c);
+  // One group of `n` outputs (centres c, c + s1, …): acc_j = h[0]·x[c_j], then per tap
+  // acc_j ← acc_j + h[i]·(x[c_j + i] + x[c_j − i]).
+  const group = (n: number) => {
+    f.get(taps).loadF64().splat().set(h);
+    for (let j = 0; j < n; j++) {
+      f.get(h);
+      stepAt(c, j);
+      f.load().vmul().set(accs[j]!);
+    }
+    f.get(c).i32(16).add().set(pf);
+    f.get(c).i32(16).sub().set(pb);
+    f.get(taps).i32(8).add().set(tp);
+    f.i32(1).set(i);
+    f.while(
+      () => f.get(half).get(i).geU(),
+      () => {
+        f.get(tp).loadF64().splat().set(h);
+        for (let j = 0; j < n; j++) {
+          f.get(accs[j]!).get(h);
+          stepAt(pf, j);
+          f.load();
+          stepAt(pb, j);
+          f.load().vadd().vmul().vadd().set(accs[j]!);
+        }
+        f.get(pf).i32(16).add().set(pf);
+        f.get(pb).i32(16).sub().set(pb);
+        f.get(tp).i32(8).add().set(tp);
+        f.get(i).i32(1).add().set(i);
+      },
+    );
+    for (let j = 0; j < n; j++) f.get(dst).get(accs[j]!).store(16 * j);
+    f.get(dst).i32(16 * n).add().set(dst);
+    f.get(m).i32(n).add().set(m);
+  };
+  f.while(() => f.get(m).i32(4).add().get(count).leU(), () => {
+    group(4);
+    f.get(c).get(s4).add().set(c);
+  });
+  f.while(() => f.get(m).get(count).ltU(), () => {
+    group(1);
+    f.get(c).get(s1).add().set(c);
+  });
+  return f;
+}
+
 /** The module's bytes (exported for a test that checks they validate). */
 export function polyphaseModuleBytes(): Uint8Array {
-  return assemble([['interpolate', interpolateFunction()]], { export: 'memory', initialPages: 1 });
+  return assemble([['interpolate', interpolateFunction()], ['decimate2', decimate2Function()]], { export: 'memory', initialPages: 1 });
 }
 
 export class PolyphaseWasm {
@@ -90,6 +157,13 @@ export class PolyphaseWasm {
   #dstSize = 0;
   /** Which taps array the taps area holds. */
   #loaded: Float64Array | null = null;
+  #decTaps = 0;
+  #decTapsSize = 0;
+  #decLoaded: Float64Array | null = null;
+  #frames = 0;
+  #framesSize = 0;
+  #pairs = 0;
+  #pairsSize = 0;
 
   constructor(kernels: Kernels) {
     this.kernels = kernels;
@@ -140,6 +214,43 @@ export class PolyphaseWasm {
     else for (let k = 0; k < values; k++) heap[s + k] = v[(first + k) & mask]!;
     this.kernels.interpolate(this.#src, this.#taps, this.#dst, blocks, span, d / 4);
     return this.#dst / 8;
+  }
+
+  /**
+   * Two channels decimated by `step` with the symmetric filter `taps` (2L + 1 taps, h[L − i] =
+   * h[L + i]): for m < count, with c = lo + L + m·step, out0[m] = h[L]·x0[c] + Σ_{i=1…L}
+   * h[L + i]·(x0[c + i] + x0[c − i]) and out1 the same on x1, the sums from i = 1 up; x0, x1 are
+   * rings (index & mask). Returns the index in `heap` of out0[0]; out1[m] is at +1, out_c[m] at
+   * +2m (valid until the next call). Do not change a taps array's values between calls.
+   */
+  decimate2(taps: Float64Array, x0: Float64Array, x1: Float64Array, mask: number, lo: number, step: number, count: number): number {
+    const l = (taps.length - 1) / 2, frames = (count - 1) * step + 2 * l + 1;
+    if (l + 1 > this.#decTapsSize) {
+      this.#decTapsSize = l + 1;
+      this.#decTaps = this.#alloc(l + 1);
+      this.#decLoaded = null;
+    }
+    if (2 * frames > this.#framesSize) {
+      this.#framesSize = Math.max(2 * frames, 2 * this.#framesSize);
+      this.#frames = this.#alloc(this.#framesSize);
+    }
+    if (2 * count > this.#pairsSize) {
+      this.#pairsSize = Math.max(2 * count, 2 * this.#pairsSize);
+      this.#pairs = this.#alloc(this.#pairsSize);
+    }
+    const heap = this.heap;
+    if (this.#decLoaded !== taps) {
+      heap.set(taps.subarray(l), this.#decTaps / 8);
+      this.#decLoaded = taps;
+    }
+    const s = this.#frames / 8;
+    for (let k = 0; k < frames; k++) {
+      const at = (lo + k) & mask;
+      heap[s + 2 * k] = x0[at]!;
+      heap[s + 2 * k + 1] = x1[at]!;
+    }
+    this.kernels.decimate2(this.#frames, this.#decTaps, this.#pairs, count, l, step);
+    return this.#pairs / 8;
   }
 }
 

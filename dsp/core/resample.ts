@@ -333,6 +333,13 @@ export class Resampler {
     else for (let c = 0; c < C; c++) out[c]![count] = dot1(h, hOff, T, this.#hist[c]!, start);
   }
 
+  #acc: Collector | null = null;
+  /** The output collector, emptied, with room for `capacity` frames. */
+  #collector(capacity: number): Collector {
+    this.#acc ??= new Collector(this.channelCount, capacity);
+    return this.#acc.begin(capacity);
+  }
+
   /** Feeds one planar block; returns the output frames that are complete so far. */
   process(block: Block): Float64Array[] {
     if (this.#finished) throw new ParameterError('Resampler.process after flush; call reset() first');
@@ -343,7 +350,7 @@ export class Resampler {
     for (const ch of block) {
       if (ch.length !== n) throw new ParameterError('all channels of a block must have the same length');
     }
-    const acc = new Collector(this.channelCount, this.#estimate(n));
+    const acc = this.#collector(this.#estimate(n));
     for (let i = 0; i < n; i += CHUNK) {
       const m = Math.min(CHUNK, n - i);
       this.#append(block, i, m);
@@ -356,7 +363,7 @@ export class Resampler {
   /** Ends the input: pads with silence and returns the remaining output frames. */
   flush(): Float64Array[] {
     if (this.#finished) return emptyBlock(this.channelCount, 0);
-    const acc = new Collector(this.channelCount, this.#estimate(this.#kMax + 2));
+    const acc = this.#collector(this.#estimate(this.#kMax + 2));
     let pad = this.#kMax + 2;
     const zeros = Array.from({ length: this.channelCount }, () => new Float64Array(Math.min(pad, CHUNK)));
     while (pad > 0) {
@@ -431,11 +438,12 @@ export class Resampler {
           if (count === 0) break;
           const start = base - Ku + 1 - origin;
           k.dot2Run(bankAt, T, den, advInt, advRem, phase, x0 + 8 * start, x1 + 8 * start, count, this.#runAt);
+          const out = acc.reserve(count), o0 = out[0]!, o1 = out[1]!, at = acc.count;
           for (let i = 0; i < count; i++) {
-            const out = acc.slot();
-            out[0]![acc.count] = run[2 * i]!;
-            out[1]![acc.count++] = run[2 * i + 1]!;
+            o0[at + i] = run[2 * i]!;
+            o1[at + i] = run[2 * i + 1]!;
           }
+          acc.count = at + count;
           base = b;
           phase = ph;
         }
@@ -545,26 +553,43 @@ export class Resampler {
 }
 
 /** Growable planar output for one process()/flush() call. */
+/** A collector's arrays are kept from call to call up to this many frames (2 MB a channel). */
+const KEEP_FRAMES = 1 << 18;
+
 class Collector {
   count = 0;
   #out: Float64Array[];
   constructor(readonly channelCount: number, capacity: number) {
     this.#out = emptyBlock(channelCount, Math.max(16, capacity));
   }
+  /** Starts a new call's output (the arrays are kept from call to call), room for `capacity` frames. */
+  begin(capacity: number): this {
+    this.count = 0;
+    if (capacity > this.#out[0]!.length) this.#out = emptyBlock(this.channelCount, capacity);
+    return this;
+  }
   /** The arrays to write frame `count` into (grown when full). */
   slot(): Float64Array[] {
-    if (this.count === this.#out[0]!.length) {
-      const cap = 2 * this.count;
-      this.#out = this.#out.map((o) => {
-        const g = new Float64Array(cap);
-        g.set(o);
-        return g;
-      });
-    }
+    if (this.count === this.#out[0]!.length) this.#grow(2 * this.count);
     return this.#out;
   }
+  /** The arrays to write frames `count` … `count + n − 1` into (grown when needed). */
+  reserve(n: number): Float64Array[] {
+    if (this.count + n > this.#out[0]!.length) this.#grow(Math.max(2 * this.#out[0]!.length, this.count + n));
+    return this.#out;
+  }
+  #grow(cap: number): void {
+    this.#out = this.#out.map((o) => {
+      const g = new Float64Array(cap);
+      g.set(o.subarray(0, this.count));
+      return g;
+    });
+  }
+  /** Copies of the frames written since `begin` (arrays longer than KEEP_FRAMES are let go). */
   result(): Float64Array[] {
-    return this.#out.map((o) => o.slice(0, this.count));
+    const r = this.#out.map((o) => o.slice(0, this.count));
+    if (this.#out[0]!.length > KEEP_FRAMES) this.#out = emptyBlock(this.channelCount, 16);
+    return r;
   }
 }
 

@@ -150,6 +150,8 @@ export class LowBand {
   readonly #quadTaps: Float64Array;
   /** The WebAssembly SIMD kernel for whole blocks of D outputs (same numbers), or null. */
   readonly #simd: PolyphaseWasm | null;
+  /** The WebAssembly SIMD kernel decimating two channels at once (same numbers), or null. */
+  readonly #simd2: PolyphaseWasm | null;
   // Stationarity gate: four short analyses, each a quarter of the long frame, across that frame.
   readonly #gateStft: PackedStft;
   readonly #gateSpectra: Float64Array[];
@@ -209,6 +211,7 @@ export class LowBand {
       for (let i = 0; i < this.#span; i++) this.#quadTaps[(g * this.#span + i) * 4 + j] = this.#flatTaps[r * this.#span + i]!;
     }
     this.#simd = this.#quadTaps.length > 0 ? polyphaseWasm() : null;
+    this.#simd2 = d > 1 && options.channelCount === 2 ? polyphaseWasm() : null;
     this.#input = new InputRing(options.channelCount, options.inputSpan / d + 2 * nl + 4 * this.hop);
     // Blackman–Harris for analysis and synthesis; at hop N/8 the overlap-add of w² is constant.
     // (Hop N/4 with a Hann²/Blackman–Harris synthesis window would halve the frames but leaves
@@ -263,6 +266,24 @@ export class LowBand {
     const d = this.decimation, l = this.#half, taps = this.#taps;
     const dec = this.#input, fm = full.mask, written = full.written;
     const decMask = dec.mask;
+    const simd = this.#simd2;
+    if (simd) {
+      // Runs of outputs whose taps lie within the written input, both channels in the two lanes
+      // of the WebAssembly kernel (each sum in the same order as below).
+      for (;;) {
+        const m = dec.written, centre = m * d;
+        if (centre - l < 0) break;
+        const count = Math.min(1024, Math.floor((written - 1 - l - centre) / d) + 1);
+        if (count <= 0) break;
+        const at = simd.decimate2(taps, full.rings[0]!, full.rings[1]!, fm, centre - l, d, count);
+        const heap = simd.heap, o0 = dec.rings[0]!, o1 = dec.rings[1]!;
+        for (let i = 0; i < count; i++) {
+          o0[(m + i) & decMask] = heap[at + 2 * i]!;
+          o1[(m + i) & decMask] = heap[at + 2 * i + 1]!;
+        }
+        dec.written = m + count;
+      }
+    }
     for (;;) {
       const m = dec.written, centre = m * d;
       if (ended ? centre - l >= written : centre + l >= written) break;
@@ -531,7 +552,12 @@ export class LowBand {
           const blocks = Math.min(1024, (to >> shift) - qb);
           const at = simd.interpolate(quad, span, v, mask, qb - jLow - span + 1, blocks);
           const heap = simd.heap, count = blocks << shift;
-          for (let i = 0; i < count; i++) o[(t + i) & omask]! += heap[at + i]!;
+          for (let done = 0; done < count; ) {
+            // At most two contiguous pieces of the ring.
+            const base = (t + done) & omask, len = Math.min(count - done, omask + 1 - base), from = at + done;
+            for (let i = 0; i < len; i++) o[base + i]! += heap[from + i]!;
+            done += len;
+          }
           t += count;
           continue;
         }

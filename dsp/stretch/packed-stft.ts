@@ -56,6 +56,17 @@ export class PackedStft {
     if (contiguous && this.#useReal) {
       // One real transform per channel (windowing and the split in the WebAssembly kernels).
       const base = start & mask;
+      if (this.channelCount === 2) {
+        // Both transforms first, then one pass for the power (the same sums as below).
+        const x0 = spectra[0]!, x1 = spectra[1]!;
+        this.#plan.realForwardWindowed(input.rings[0]!, base, w, x0);
+        this.#plan.realForwardWindowed(input.rings[1]!, base, w, x1);
+        for (let k = 0, j = 0; k <= half; k++, j += 2) {
+          const ar = x0[j]!, ai = x0[j + 1]!, br = x1[j]!, bi = x1[j + 1]!;
+          power[k] = ar * ar + ai * ai + (br * br + bi * bi);
+        }
+        return;
+      }
       for (let c = 0; c < this.channelCount; c++) {
         const x = spectra[c]!;
         this.#plan.realForwardWindowed(input.rings[c]!, base, w, x);

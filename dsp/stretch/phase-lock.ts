@@ -48,11 +48,18 @@ export class PhaseLocker {
   readonly rotRe: Float64Array;
   readonly rotIm: Float64Array;
   // e^{jΔω_k} for the current Δ = H_s − H_a, and e^{jΔ·2π(q/64)/N} for q = −64…64 (weak peaks).
-  readonly #stepRe: Float64Array;
-  readonly #stepIm: Float64Array;
-  readonly #fracRe: Float64Array;
-  readonly #fracIm: Float64Array;
+  // Two sets of the tables (at a/b stretch ratios the rounded analysis hop alternates between
+  // two values): the one in use and the other; `#stepDelta` is the advance the one in use is for.
+  #stepRe: Float64Array;
+  #stepIm: Float64Array;
+  #fracRe: Float64Array;
+  #fracIm: Float64Array;
   #stepDelta = NaN;
+  #otherRe: Float64Array;
+  #otherIm: Float64Array;
+  #otherFracRe: Float64Array;
+  #otherFracIm: Float64Array;
+  #otherDelta = NaN;
   readonly #peaks: Int32Array;
 
   /** The Hann main band's rules: side lobes within 3 bins, the weak-peak refinement (see `lock`, `#refineWeak`). */
@@ -89,6 +96,10 @@ export class PhaseLocker {
     this.#stepIm = new Float64Array(bins);
     this.#fracRe = new Float64Array(2 * FRACTION_STEPS + 1);
     this.#fracIm = new Float64Array(2 * FRACTION_STEPS + 1);
+    this.#otherRe = new Float64Array(bins);
+    this.#otherIm = new Float64Array(bins);
+    this.#otherFracRe = new Float64Array(2 * FRACTION_STEPS + 1);
+    this.#otherFracIm = new Float64Array(2 * FRACTION_STEPS + 1);
     this.#omega = new Float64Array(bins);
     this.rotRe = new Float64Array(bins).fill(1);
     this.rotIm = new Float64Array(bins);
@@ -197,13 +208,18 @@ export class PhaseLocker {
     const hann = this.#hann, leak = this.#kernel !== null;
     for (let k = 2; k < last - 1; k++) if (pw[k]! > top) top = pw[k]!;
     const weakLevel = top * WEAK_PEAK;
+    // pw[k − 1] and pw[k] carried from bin to bin (`before`, `v`).
+    let before = pw[1]!, v = pw[2]!;
     for (let k = 2; k < last - 1; k++) {
-      const v = pw[k]!;
-      if (!(v > pw[k - 1]! && v >= pw[k + 1]! && v > 0)) continue;
+      const after = pw[k + 1]!, here = v;
+      const max = here > before && here >= after && here > 0;
+      before = here;
+      v = after;
+      if (!max) continue;
       const l2 = pw[k - 2]!, r2 = pw[k + 2]!;
-      if (v < weakLevel && (v < l2 || v < r2)) continue;
+      if (here < weakLevel && (here < l2 || here < r2)) continue;
       if (hann) {
-        const lobe = SIDE_LOBE * v;
+        const lobe = SIDE_LOBE * here;
         if (l2 > lobe || r2 > lobe || (k >= 3 && pw[k - 3]! > lobe) || (k + 3 <= last && pw[k + 3]! > lobe)) continue;
       }
       peaks[count++] = k;
@@ -214,7 +230,7 @@ export class PhaseLocker {
     const channels = this.channelCount;
     const binRad = TWO_PI / n;
     const advance = hs - hopIn;
-    if (advance !== this.#stepDelta) this.#buildSteps(advance);
+    if (advance !== this.#stepDelta) this.#useSteps(advance);
     const stepRe = this.#stepRe, stepIm = this.#stepIm, fracRe = this.#fracRe, fracIm = this.#fracIm;
     const weak = top * WEAK_PEAK;
     let regionStart = 0;
@@ -284,18 +300,40 @@ export class PhaseLocker {
       if (p + 1 < count) {
         const next = peaks[p + 1]!;
         regionEnd = kp;
-        for (let k = kp + 1; k < next; k++) if (pw[k]! < pw[regionEnd]!) regionEnd = k;
+        let low = pw[kp]!;
+        for (let k = kp + 1; k < next; k++) {
+          const e = pw[k]!;
+          if (e < low) {
+            low = e;
+            regionEnd = k;
+          }
+        }
       }
-      for (let k = regionStart; k <= regionEnd; k++) {
-        rr[k] = nr;
-        ri[k] = ni;
-      }
-      for (let c = 0; c < channels; c++) {
-        const x = xw[c]!, out = y[c]!;
+      if (channels === 2) {
+        // Both channels in one pass (the same products as below).
+        const x0 = xw[0]!, x1 = xw[1]!, o0 = y[0]!, o1 = y[1]!;
         for (let k = regionStart; k <= regionEnd; k++) {
-          const re = x[2 * k]!, im = x[2 * k + 1]!;
-          out[2 * k] = re * nr - im * ni;
-          out[2 * k + 1] = re * ni + im * nr;
+          rr[k] = nr;
+          ri[k] = ni;
+          const j = 2 * k;
+          const re0 = x0[j]!, im0 = x0[j + 1]!, re1 = x1[j]!, im1 = x1[j + 1]!;
+          o0[j] = re0 * nr - im0 * ni;
+          o0[j + 1] = re0 * ni + im0 * nr;
+          o1[j] = re1 * nr - im1 * ni;
+          o1[j + 1] = re1 * ni + im1 * nr;
+        }
+      } else {
+        for (let k = regionStart; k <= regionEnd; k++) {
+          rr[k] = nr;
+          ri[k] = ni;
+        }
+        for (let c = 0; c < channels; c++) {
+          const x = xw[c]!, out = y[c]!;
+          for (let k = regionStart; k <= regionEnd; k++) {
+            const re = x[2 * k]!, im = x[2 * k + 1]!;
+            out[2 * k] = re * nr - im * ni;
+            out[2 * k + 1] = re * ni + im * nr;
+          }
         }
       }
       if (leak) {
@@ -555,10 +593,26 @@ export class PhaseLocker {
     }
   }
 
+  /** Swaps in the other set of tables, built for `advance` unless it already is. */
+  #useSteps(advance: number): void {
+    const re = this.#stepRe, im = this.#stepIm, fr = this.#fracRe, fi = this.#fracIm, delta = this.#stepDelta;
+    this.#stepRe = this.#otherRe;
+    this.#stepIm = this.#otherIm;
+    this.#fracRe = this.#otherFracRe;
+    this.#fracIm = this.#otherFracIm;
+    this.#stepDelta = this.#otherDelta;
+    this.#otherRe = re;
+    this.#otherIm = im;
+    this.#otherFracRe = fr;
+    this.#otherFracIm = fi;
+    this.#otherDelta = delta;
+    if (advance !== this.#stepDelta) this.#buildSteps(advance);
+  }
+
   /** Tables e^{jΔω_k} (by recurrence) and e^{jΔ·2π(q/64)/N} for the advance Δ = H_s − H_a. */
   #buildSteps(advance: number): void {
     this.#stepDelta = advance;
-    const n = this.fftSize, bins = this.#bins;
+    const n = this.fftSize, bins = this.#active; // only bins below `active` are read
     const a = (TWO_PI * advance) / n;
     const ur = Math.cos(a), ui = Math.sin(a);
     const sr = this.#stepRe, si = this.#stepIm;

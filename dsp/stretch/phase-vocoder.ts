@@ -216,6 +216,15 @@ export class TimeStretcher {
 
   /** Feeds planar input; returns the output that became final (possibly zero-length). */
   push(block: readonly Float64Array[]): Float64Array[] {
+    return this.pushShared(block, false);
+  }
+
+  /**
+   * `push`, with `shared` (default true) returning views of the stretcher's output staging
+   * instead of copies: valid only until the next push or flush (for a caller that copies them at
+   * once, such as the transposer's resampler).
+   */
+  pushShared(block: readonly Float64Array[], shared = true): Float64Array[] {
     if (this.#ended) throw new BugError('push after flush');
     if (block.length !== this.channelCount) throw new ParameterError(`expected ${this.channelCount} channels, got ${block.length}`);
     const len = block[0]?.length ?? 0;
@@ -229,17 +238,22 @@ export class TimeStretcher {
       at += take;
       this.#advance();
     }
-    return this.#output.take();
+    return this.#output.take(shared);
   }
 
   /** Ends the input and returns the rest of the output. */
   flush(): Float64Array[] {
+    return this.flushShared(false);
+  }
+
+  /** `flush`, with `shared` (default true) returning views as `pushShared` does. */
+  flushShared(shared = true): Float64Array[] {
     if (!this.#ended) {
       this.#ended = true;
       this.#outputFrames = Math.round(this.ratio * this.#input.written);
       this.#advance();
     }
-    return this.#output.take();
+    return this.#output.take(shared);
   }
 
   // ---------------------------------------------------------------------------------------------

@@ -105,12 +105,12 @@ export class Transposer {
 
   push(block: readonly Float64Array[]): Float64Array[] {
     this.#inputFrames += block[0]?.length ?? 0;
-    const s = this.#stretch.push(block);
-    return this.#trim(s[0]!.length > 0 ? this.#resample.process(s) : s, false);
+    const s = this.#stretch.pushShared(block); // views, copied by the resampler at once
+    return this.#trim(s[0]!.length > 0 ? this.#resample.process(s) : s.map(() => new Float64Array(0)), false);
   }
 
   flush(): Float64Array[] {
-    const s = this.#stretch.flush();
+    const s = this.#stretch.flushShared();
     const a = s[0]!.length > 0 ? this.#resample.process(s) : s;
     const b = this.#resample.flush();
     const joined = a.map((ch, c) => {

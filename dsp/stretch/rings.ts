@@ -30,7 +30,12 @@ export class InputRing {
     const mask = this.mask, from = this.written;
     for (let c = 0; c < this.rings.length; c++) {
       const src = block[c]!, ring = this.rings[c]!;
-      for (let i = 0; i < take; i++) ring[(from + i) & mask] = src[at + i]!;
+      // At most two contiguous pieces of the ring.
+      for (let done = 0; done < take; ) {
+        const idx = (from + done) & mask, len = Math.min(take - done, mask + 1 - idx);
+        ring.set(src.subarray(at + done, at + done + len), idx);
+        done += len;
+      }
     }
     this.written += take;
   }
@@ -75,20 +80,24 @@ export class OverlapAddRing {
     const mask = this.mask;
     for (let c = 0; c < this.rings.length; c++) {
       const ring = this.rings[c]!, st = this.#stage[c]!;
-      const base = this.#staged, from = this.emitted;
-      for (let i = 0; i < count; i++) {
-        const idx = (from + i) & mask;
-        st[base + i] = ring[idx]!;
-        ring[idx] = 0;
+      // At most two contiguous pieces of the ring: copied out, then cleared.
+      for (let done = 0; done < count; ) {
+        const idx = (this.emitted + done) & mask, len = Math.min(count - done, mask + 1 - idx);
+        st.set(ring.subarray(idx, idx + len), this.#staged + done);
+        ring.fill(0, idx, idx + len);
+        done += len;
       }
     }
     this.#staged += count;
     this.emitted = stop;
   }
 
-  /** The staged output (copies), emptying the staging. */
-  take(): Float64Array[] {
-    const out = this.#stage.map((s) => s.slice(0, this.#staged));
+  /**
+   * The staged output, emptying the staging: copies, or with `shared` views of the staging
+   * buffers, valid only until the next `emitUpTo`.
+   */
+  take(shared = false): Float64Array[] {
+    const out = this.#stage.map((s) => (shared ? s.subarray(0, this.#staged) : s.slice(0, this.#staged)));
     this.#staged = 0;
     return out;
   }

@@ -94,7 +94,8 @@ export class TransientTracker {
       for (let m = this.#monoWritten; m < limit; m++) {
         const start = m * d, stop = start + d <= written ? start + d : written;
         let v = 0;
-        for (let i = start; i < stop; i++) v += r[i & inMask]!;
+        if (d === 2 && stop === start + 2) v = 0 + r[start & inMask]! + r[(start + 1) & inMask]!; // the loop below, unrolled
+        else for (let i = start; i < stop; i++) v += r[i & inMask]!;
         mono[m & monoMask] = c === 0 ? v * scale : mono[m & monoMask]! + v * scale;
       }
     }
@@ -108,9 +109,13 @@ export class TransientTracker {
         if (start >= this.#monoWritten + (ONSET_LOOKAHEAD_FRAMES + 1) * hop) break;
       } else if (start + size > this.#monoWritten) break;
       const have = this.#monoWritten;
-      for (let i = 0; i < size; i++) {
-        const t = start + i;
-        buf[i] = t < have ? mono[t & monoMask]! : 0;
+      const from = start & monoMask;
+      if (start + size <= have && from + size <= monoMask + 1) buf.set(mono.subarray(from, from + size));
+      else {
+        for (let i = 0; i < size; i++) {
+          const t = start + i;
+          buf[i] = t < have ? mono[t & monoMask]! : 0;
+        }
       }
       det.analyze(buf);
       const j = det.decide();

@@ -183,14 +183,14 @@ describe('Resampler: WebAssembly SIMD and plain engines agree', () => {
 
 describe('SIMD dot2Run: a run of outputs in one call', () => {
   // Source: exact identity — dot2Run performs dot2's operations in the same order for each output,
-  // so every sum must equal the one dot2 gives, bit for bit (tap counts that are and are not multiples of four, phase wraps).
+  // so every sum must equal the one dot2 gives, bit for bit (tap counts that are and are not multiples of four and of eight, phase wraps).
   it('equals dot2 called once per output along the bank', () => {
     const k = createSimdKernels(8 * 20000)!;
     expect(k).not.toBeNull();
     const rng = seededRng(5);
     const f = k.f64;
     for (let i = 0; i < 12000; i++) f[i] = rng() - 0.5;
-    for (const [T, den, num] of [[16, 147, 160], [10, 7, 5], [24, 89, 106]] as const) {
+    for (const [T, den, num] of [[16, 147, 160], [10, 7, 5], [24, 89, 106], [146, 37, 44], [122, 44, 37], [20, 3, 4], [2, 5, 3], [4, 5, 3]] as const) {
       const advInt = Math.floor(num / den), advRem = num - advInt * den;
       const bank = 0, x0 = 8 * 6000, x1 = 8 * 9000, count = 60, out = 8 * 12000, one = 8 * 14000;
       let phase = 3 % den;
