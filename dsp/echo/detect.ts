@@ -35,7 +35,7 @@ import { type EchoKernel, singleEchoKernel } from './kernel.ts';
 import { nextPowerOfTwo, releaseSharedPlans } from '../core/fft.ts';
 import { reclaim } from '../core/reclaim.ts';
 import { MixScratch, mixBlock } from './mix.ts';
-import { PrintThroughCollector, refinePrintThroughLags, searchPrintThrough, type LagCandidate } from './print-through.ts';
+import { PrintThroughCollector, refinePrintThroughLags, searchPrintThrough, type LagCandidate, type RefinedLag } from './print-through.ts';
 import { type Excerpt, MAX_CANCEL_GAIN, quietAndLoudGains, refineSingleEcho } from './refine.ts';
 
 export const DEFAULT_RANGE_SECONDS: readonly [number, number] = [0.0005, 0.5];
@@ -112,9 +112,12 @@ export interface PrintThroughResult {
   reason: string | null;
   /** Signed delay of the copy (negative = before the loud passage), null when nothing could be measured. */
   delaySeconds: number | null;
-  /** Level of the copy relative to the passage it copies, dB. */
+  /**
+   * Level of the copy relative to the passage it copies, dB, read below 2 kHz where the
+   * refinement ran (tape prints the highs less; `gain` is the whole band's).
+   */
   levelDb: number | null;
-  /** Signed linear gain of the copy (for cancellation). */
+  /** Signed linear gain of the copy over the whole band (least squares: for cancellation). */
   gain: number | null;
   confidence: number;
   z: number;
@@ -663,31 +666,30 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     }
     const found = searchPrintThrough(stream, rate, PRINT_THROUGH_RANGE_SECONDS[0] * rate, maxPt * rate, exclude);
     const pick = [found.pre, found.post].filter((c): c is LagCandidate => c !== null).sort((a, b) => b.z - a.z)[0];
-    if (pick) {
-      let confidence = confidenceFromZ(pick.z);
-      let lagSamples = pick.lag * pt.factor, gain = pick.gain, refinedOk = false;
+    /** Judges a coarse peak from its full-rate refinements (its own first, then its neighbours'; none: not refined). */
+    const judge = (cand: LagCandidate, refined: ReadonlyArray<RefinedLag | null>): PrintThroughResult => {
+      let confidence = confidenceFromZ(cand.z);
+      let lagSamples = cand.lag * pt.factor, gain = cand.gain, levelGain = cand.gain, refinedOk = false;
       let verdict: { present: boolean | null; reason: string } | null = null;
       let detail: PrintThroughResult['detail'] = null;
-      if (confidence >= 0.5) {
+      if (refined.length) {
         // Print-through is a faint copy of the loud passages in the quiet ones (about −40 to
         // −65 dB, highs reduced): the full-rate look must confirm the copy the coarse search saw,
         // at its lag and strength, in every band, and at a level a tape can print.
-        reclaim();
-        // The top coarse peak and its neighbours within ±35 ms, refined in one pass: on held chords
+        // The top coarse peak and its neighbours within ±35 ms are refined in one pass: on held chords
         // the copy's correlation repeats every period of the notes and the decimated top can sit
         // one period off. One period off, the harmonics still line up but the rest of the sound
         // (bow and breath noise, inharmonic partials) does not, and that lives mostly high up: so
         // a neighbour replaces the top only where it holds better at the full rate overall (z and
         // level) and in the 2–5 kHz band, by at least 0.5 dB there. Where no band that high has
         // programme (a held bass note) nothing tells the periods apart and the top stays.
-        const coarse = [{ lag: pick.lag, gain: pick.gain, z: pick.z }, ...(pick.neighbours ?? [])];
-        const refined = await refinePrintThroughLags(source, channel, coarse.map((c) => c.lag * pt.factor), found.masks, pt.factor, { signal: options.signal, cancel: fullRateCancel });
+        const coarse = lagsOf(cand);
         const confirmed = (i: number) => {
           const ri = refined[i];
           return ri && Math.abs(ri.lagSamples - coarse[i]!.lag * pt.factor) <= 1.5 * pt.factor && ri.gain !== 0 ? ri : null;
         };
         const top = confirmed(0);
-        let r = top, coarseGain = pick.gain;
+        let r = top, coarseGain = cand.gain;
         for (let i = 1; top && i < coarse.length; i++) {
           const ri = confirmed(i);
           const hiTop = r!.bandGains[2], hi = ri?.bandGains[2];
@@ -705,6 +707,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
           detail = { bandGains: r.bandGains, halves: r.halves, middle: r.middle };
           lagSamples = r.lagSamples;
           gain = r.gain;
+          levelGain = r.levelGain;
           refinedOk = true;
           const db = 20 * Math.log10(Math.abs(gain));
           const when = `${(Math.abs(lagSamples) / fs).toFixed(2)} s ${lagSamples > 0 ? 'before' : 'after'}`;
@@ -731,18 +734,27 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
           confidence = Math.min(confidence, confidenceFromZ(r.z), confidenceFromZ(top!.z));
         }
       }
-      const present = verdict ? verdict.present : confidence >= 0.5;
-      printThrough = {
-        present,
+      return {
+        present: verdict ? verdict.present : confidence >= 0.5,
         reason: verdict ? verdict.reason : null,
         delaySeconds: -lagSamples / fs,
-        levelDb: gain !== 0 ? 20 * Math.log10(Math.abs(gain)) : null,
+        levelDb: levelGain !== 0 ? 20 * Math.log10(Math.abs(levelGain)) : null,
         gain,
         confidence: verdict ? Math.min(confidence, 0.49) : confidence,
-        z: pick.z,
+        z: cand.z,
         refined: refinedOk,
         detail,
       };
+    };
+    const lagsOf = (c: LagCandidate) => [{ lag: c.lag, gain: c.gain, z: c.z }, ...(c.neighbours ?? [])];
+    if (pick) {
+      // Refined only when the coarse score alone would report it (confidence ≥ 0.5).
+      let refined: Array<RefinedLag | null> = [];
+      if (confidenceFromZ(pick.z) >= 0.5) {
+        reclaim();
+        refined = await refinePrintThroughLags(source, channel, lagsOf(pick).map((c) => c.lag * pt.factor), found.masks, pt.factor, { signal: options.signal, cancel: fullRateCancel });
+      }
+      printThrough = judge(pick, refined);
     }
   }
   options.progress?.(1);

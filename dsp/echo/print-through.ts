@@ -307,7 +307,15 @@ export function searchPrintThrough(
 export interface RefinedLag {
   /** Lag in full-rate samples (+ = pre-echo). */
   lagSamples: number;
+  /** Least-squares gain over the whole band (what cancels the copy best with one coefficient). */
   gain: number;
+  /**
+   * The gain below 2 kHz, or `gain` where the loud frames hold under 2 % of their energy there:
+   * the copy's level as printed. Tape prints its highs less (the copy is low-passed), so the
+   * whole-band gain of programme with much energy above a few kHz (cymbals) reads the copy lower:
+   * a −40 dB copy under a rock kit read −43.1 dB whole-band and −40.0 dB here.
+   */
+  levelGain: number;
   /** Frame pairs used. */
   pairs: number;
   /**
@@ -555,6 +563,7 @@ function finishRefinement(st: LagSums, n: number, fs: number, factor: number, se
   let vSum = 0;
   for (let k = 0; k <= n / 2; k++) vSum += V[k]!;
   const bandGains: Array<number | null> = [];
+  let lowRe = 0, lowE = 0;
   for (const [fLo, fHi] of [[100, 700], [700, 2000], [2000, 5000]] as const) {
     const kLo = Math.max(1, Math.round((fLo * n) / fs)), kHi = Math.min(n / 2, Math.round((Math.min(fHi, 0.45 * fs) * n) / fs));
     let br = 0, be = 0;
@@ -565,6 +574,14 @@ function finishRefinement(st: LagSums, n: number, fs: number, factor: number, se
     }
     bandGains.push(kHi > kLo && be > 0.02 * eSum ? br / be : null);
   }
+  // The copy's level where the tape prints it fully (below 2 kHz; it prints the highs less).
+  const kLevel = Math.min(n / 2, Math.round((2000 * n) / fs));
+  for (let k = 1; k < kLevel; k++) {
+    const w = (2 * Math.PI * k) / n;
+    lowRe += S[2 * k]! * Math.cos(w * bestD) + S[2 * k + 1]! * Math.sin(w * bestD);
+    lowE += E[k]!;
+  }
+  const levelGain = lowE > 0.02 * eSum ? lowRe / lowE : re / eSum;
   // The two halves at the common lag: the later from S2, the earlier as the whole less the later.
   let re2 = 0, e2 = 0, var2 = 0;
   for (let k = 0; k <= n / 2; k++) {
@@ -586,7 +603,7 @@ function finishRefinement(st: LagSums, n: number, fs: number, factor: number, se
     varM += st.VM[k]!;
   }
   const middle = st.pairsM >= 8 && eM > 0 && varM > 0 ? { gain: reM / eM, std: Math.sqrt(0.5 * varM) / eM, pairs: st.pairsM } : null;
-  return { lagSamples: t0 + bestD, gain: re / eSum, pairs, z: vSum > 0 ? re / Math.sqrt(0.5 * vSum) : 0, bandGains, halves, middle };
+  return { lagSamples: t0 + bestD, gain: re / eSum, levelGain, pairs, z: vSum > 0 ? re / Math.sqrt(0.5 * vSum) : 0, bandGains, halves, middle };
 }
 
 /**

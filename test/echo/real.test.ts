@@ -63,7 +63,7 @@ async function load(name: string): Promise<{ source: MemorySource; x: Float64Arr
 }
 
 describe('clean real recordings: no reflection, no print-through', () => {
-  for (const name of ['bass-c2', 'piano-a#1', 'guitar-strum', 'voice-clean', 'piano-entry-clean']) {
+  for (const name of ['bass-c2', 'piano-a#1', 'guitar-strum', 'voice-clean', 'piano-entry-clean', 'drums-clean']) {
     it(name, async () => {
       // Source: nothing was added to these recordings (real_clips.py); a note's period, a strum
       // repeated every bar and a voice's own colouring are not echoes (REAL-MATERIAL.md, common

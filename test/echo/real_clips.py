@@ -24,11 +24,12 @@ os.makedirs(OUT, exist_ok=True)
 truth = {}
 
 
-def render(program, notes, rate, seconds):
-    """notes: (start s, midi key, duration s, velocity); 120 bpm, 480 ticks per beat."""
-    ev = [(0.0, 0, bytes([0xC0, program]))]
+def render(program, notes, rate, seconds, channel=0):
+    """notes: (start s, midi key, duration s, velocity); 120 bpm, 480 ticks per beat. Channel 9 is
+    the General MIDI percussion channel (the key picks the drum)."""
+    ev = [(0.0, 0, bytes([0xC0 | channel, program]))]
     for t, k, d, v in notes:
-        ev += [(t, 2, bytes([0x90, k, v])), (t + d, 1, bytes([0x80, k, 0]))]
+        ev += [(t, 2, bytes([0x90 | channel, k, v])), (t + d, 1, bytes([0x80 | channel, k, 0]))]
     ev.sort(key=lambda e: (e[0], e[1]))
     data, last = bytearray(vlq(0) + bytes([0xFF, 0x51, 3, 0x07, 0xA1, 0x20])), 0
     for t, _, msg in ev:
@@ -132,6 +133,16 @@ for i, root in enumerate([45, 50, 43, 48, 45]):
 piano = render(0, chords, 48000, 10.5)
 piano = save('piano-entry-clean', piano, 48000, clean=True)
 save('piano-entry-pre', piano + print_copy(piano, 48000, -1.37, -40, 5000), 48000, printThrough={'delaySeconds': -1.37, 'levelDb': -40})
+
+# A rock drum loop (GM standard kit: kick 36, snare 38, closed hi-hat 42) at 120 bpm after 2 s of
+# digital silence: the loop repeats every second, and neither that nor the gaps between the hits
+# are echoes.
+beats = []
+for b in range(12):
+    t = 2.0 + 0.5 * b
+    beats += [(t, 36 if b % 2 == 0 else 38, 0.3, 110), (t, 42, 0.1, 90), (t + 0.25, 42, 0.1, 70)]
+drums = render(0, beats, 44100, 10.0, channel=9)
+save('drums-clean', drums, 44100, clean=True)
 
 for f in os.listdir(OUT):
     if f.endswith(('.mid', '.txt', '.raw.wav')) or f == 'x.wav':
