@@ -666,6 +666,8 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     }
     const found = searchPrintThrough(stream, rate, PRINT_THROUGH_RANGE_SECONDS[0] * rate, maxPt * rate, exclude);
     const pick = [found.pre, found.post].filter((c): c is LagCandidate => c !== null).sort((a, b) => b.z - a.z)[0];
+    /** A coarse peak and its neighbours, the lags refined together. */
+    const lagsOf = (c: LagCandidate) => [{ lag: c.lag, gain: c.gain, z: c.z }, ...(c.neighbours ?? [])];
     /** Judges a coarse peak from its full-rate refinements (its own first, then its neighbours'; none: not refined). */
     const judge = (cand: LagCandidate, refined: ReadonlyArray<RefinedLag | null>): PrintThroughResult => {
       let confidence = confidenceFromZ(cand.z);
@@ -746,7 +748,6 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         detail,
       };
     };
-    const lagsOf = (c: LagCandidate) => [{ lag: c.lag, gain: c.gain, z: c.z }, ...(c.neighbours ?? [])];
     if (pick) {
       // Refined only when the coarse score alone would report it (confidence ≥ 0.5).
       let refined: Array<RefinedLag | null> = [];
