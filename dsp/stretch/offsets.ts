@@ -18,8 +18,8 @@
  * as it does at onsets (the main band carries the low band there).
  *
  * A stop: `STOP_RUN_BLOCKS` consecutive level blocks (N/32 each: N/8 ≈ 10.7 ms at 4096 and
- * 48 kHz) each at most `STOP_QUIET_RATIO` (−40 dB) of the loudest block before them in the
- * window. Why −40 dB: without the reset the smear after a cut into silence was measured at −11 …
+ * 48 kHz) each at most `STOP_QUIET_RATIO` (−40 dB) of the loudest block before them in the analysis
+ * window; why −40 dB: without the reset the smear after a cut into silence was measured at −11 …
  * −44 dB re the loudest 2 ms before the cut over the 5–45 ms after it (noise, decaying noise, a
  * 60 Hz kick, a 220 Hz tone with 8 harmonics; stretch 1.3 at 48 kHz, long band off), so a part
  * 40 dB or more under the sound before it is filled by the smear; above that the input's own

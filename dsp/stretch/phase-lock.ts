@@ -36,6 +36,39 @@ const FRACTION_STEPS = 64;
 /** Farthest bin a partial's leakage is corrected at (Hann leakage there ≈ −98 dB). */
 const MAX_REACH = 24;
 
+/**
+ * Rotates bins lo…hi of every channel's packed spectrum (xw → y) by the unit phasor (nr, ni) and
+ * records it in (rr, ri); two channels in one pass (the same products).
+ */
+function rotateRegion(xw: readonly Float64Array[], y: readonly Float64Array[], channels: number, rr: Float64Array, ri: Float64Array, lo: number, hi: number, nr: number, ni: number): void {
+  if (channels === 2) {
+    const x0 = xw[0]!, x1 = xw[1]!, o0 = y[0]!, o1 = y[1]!;
+    for (let k = lo; k <= hi; k++) {
+      rr[k] = nr;
+      ri[k] = ni;
+      const j = 2 * k;
+      const re0 = x0[j]!, im0 = x0[j + 1]!, re1 = x1[j]!, im1 = x1[j + 1]!;
+      o0[j] = re0 * nr - im0 * ni;
+      o0[j + 1] = re0 * ni + im0 * nr;
+      o1[j] = re1 * nr - im1 * ni;
+      o1[j + 1] = re1 * ni + im1 * nr;
+    }
+    return;
+  }
+  for (let k = lo; k <= hi; k++) {
+    rr[k] = nr;
+    ri[k] = ni;
+  }
+  for (let c = 0; c < channels; c++) {
+    const x = xw[c]!, out = y[c]!;
+    for (let k = lo; k <= hi; k++) {
+      const re = x[2 * k]!, im = x[2 * k + 1]!;
+      out[2 * k] = re * nr - im * ni;
+      out[2 * k + 1] = re * ni + im * nr;
+    }
+  }
+}
+
 export class PhaseLocker {
   readonly fftSize: number;
   readonly synthesisHop: number;
@@ -309,33 +342,7 @@ export class PhaseLocker {
           }
         }
       }
-      if (channels === 2) {
-        // Both channels in one pass (the same products as below).
-        const x0 = xw[0]!, x1 = xw[1]!, o0 = y[0]!, o1 = y[1]!;
-        for (let k = regionStart; k <= regionEnd; k++) {
-          rr[k] = nr;
-          ri[k] = ni;
-          const j = 2 * k;
-          const re0 = x0[j]!, im0 = x0[j + 1]!, re1 = x1[j]!, im1 = x1[j + 1]!;
-          o0[j] = re0 * nr - im0 * ni;
-          o0[j + 1] = re0 * ni + im0 * nr;
-          o1[j] = re1 * nr - im1 * ni;
-          o1[j + 1] = re1 * ni + im1 * nr;
-        }
-      } else {
-        for (let k = regionStart; k <= regionEnd; k++) {
-          rr[k] = nr;
-          ri[k] = ni;
-        }
-        for (let c = 0; c < channels; c++) {
-          const x = xw[c]!, out = y[c]!;
-          for (let k = regionStart; k <= regionEnd; k++) {
-            const re = x[2 * k]!, im = x[2 * k + 1]!;
-            out[2 * k] = re * nr - im * ni;
-            out[2 * k + 1] = re * ni + im * nr;
-          }
-        }
-      }
+      rotateRegion(xw, y, channels, rr, ri, regionStart, regionEnd, nr, ni);
       if (leak) {
         this.#regionLo[p] = regionStart;
         this.#regionHi[p] = regionEnd;
@@ -447,19 +454,7 @@ export class PhaseLocker {
       const g = 1.5 - 0.5 * (nr * nr + ni * ni);
       nr *= g;
       ni *= g;
-      const lo = this.#regionLo[p]!, hiK = this.#regionHi[p]!;
-      for (let k = lo; k <= hiK; k++) {
-        rr[k] = nr;
-        ri[k] = ni;
-      }
-      for (let c = 0; c < channels; c++) {
-        const x = xw[c]!, out = y[c]!;
-        for (let k = lo; k <= hiK; k++) {
-          const re = x[2 * k]!, im = x[2 * k + 1]!;
-          out[2 * k] = re * nr - im * ni;
-          out[2 * k + 1] = re * ni + im * nr;
-        }
-      }
+      rotateRegion(xw, y, channels, rr, ri, this.#regionLo[p]!, this.#regionHi[p]!, nr, ni);
     }
   }
 
