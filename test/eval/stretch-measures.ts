@@ -327,8 +327,8 @@ export function findHits(x: Float64Array, rateHz: number): number[] {
  * Autocorrelation pitch (Rabiner 1977, "On the use of autocorrelation analysis for pitch
  * detection", IEEE Trans. ASSP 25(1)): the signal averaged over blocks of ⌊fs/8 kHz⌋ samples,
  * 40 ms frames every 10 ms, a frame voiced when its RMS is within 30 dB of the loudest frame's and
- * its normalised autocorrelation has a maximum ≥ 0.7 at a lag of 1/450 … 1/60 s (the largest
- * such maximum gives the period). NaN when no frame is voiced.
+ * its normalised autocorrelation reaches 0.7 at a lag of 1/450 … 1/60 s; the period is the
+ * shortest lag with a local maximum within 10 % of the largest. NaN when no frame is voiced.
  */
 export function voicedPitchHz(x: Float64Array, rateHz: number, quantile = 0.9): number {
   const d = Math.max(1, Math.floor(rateHz / 8000));
@@ -349,23 +349,29 @@ export function voicedPitchHz(x: Float64Array, rateHz: number, quantile = 0.9): 
   }
   const loud = Math.max(0, ...energy);
   const pitches: number[] = [];
+  const r = new Float64Array(lagHi + 1);
   for (let f = 0; f < energy.length; f++) {
     const e0 = energy[f]!, s = f * hop;
     if (!(e0 > 0) || e0 < loud * 1e-3) continue;
-    let best = 0, bestLag = 0;
+    let best = 0;
     for (let l = lagLo; l <= lagHi; l++) {
       let c = 0, e1 = 0;
       for (let i = 0; i < w; i++) {
         c += u[s + i]! * u[s + i + l]!;
         e1 += u[s + i + l]! ** 2;
       }
-      const r = c / Math.sqrt(e0 * e1 + 1e-300);
-      if (r > best) {
-        best = r;
-        bestLag = l;
+      r[l] = c / Math.sqrt(e0 * e1 + 1e-300);
+      if (r[l]! > best) best = r[l]!;
+    }
+    if (best < 0.7) continue;
+    // The shortest lag with a maximum within 10 % of the largest: a periodic signal correlates as
+    // well at two periods as at one, and better when two periods land nearer a whole sample.
+    for (let l = lagLo + 1; l < lagHi; l++) {
+      if (r[l]! >= 0.9 * best && r[l]! >= r[l - 1]! && r[l]! >= r[l + 1]!) {
+        pitches.push(rate / l);
+        break;
       }
     }
-    if (best >= 0.7 && bestLag > lagLo && bestLag < lagHi) pitches.push(rate / bestLag);
   }
   if (!pitches.length) return NaN;
   pitches.sort((a, b) => a - b);
