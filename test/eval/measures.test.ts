@@ -5,8 +5,9 @@
 import { describe, expect, it } from 'vitest';
 import { bandDeviationDb, echoReductionDb, offsetTrack, residualSpeedPercent, thirdOctaveDb, powerSpectrum } from './measures.ts';
 import { numbersFromJson, numbersToJson } from './pool.ts';
-import { occupiedBandHz } from './stretch-measures.ts';
+import { envelopeDeviationDb, hannSmoothed, longTermEnvelopeDeviationDb, occupiedBandHz, voicedPitchHz } from './stretch-measures.ts';
 import { delayExact } from '../helpers/delay.ts';
+import { intonedVoice } from '../helpers/voice-like.ts';
 import { gaussian, seededRng } from '../helpers/rng.ts';
 
 const RATE = 48000;
@@ -79,5 +80,68 @@ describe('the band a recording occupies (keep-formants judging)', () => {
     const [lo, hi] = occupiedBandHz(x, fs);
     expect(lo).toBeCloseTo((1 + 2 * 51) * (fs / 8192), 6);
     expect(hi).toBeCloseTo((1 + 31 * 51) * (fs / 8192), 6);
+  });
+});
+
+describe('the envelope deviation of a transposed voice (keep-formants judging)', () => {
+  it('a harmonic comb smoothed over at least twice its spacing has the same level wherever it lies', () => {
+    // Source: Poisson summation — Σ_h w(hΔ − c) = (1/Δ) Σ_k Ŵ(k/Δ) e^{−2πikc/Δ}; for a Hann kernel of
+    // full width W, Ŵ(ν)/Ŵ(0) = sinc(νW)/(1 − (νW)²): zero at νW = 2, 3, … (so W = 2Δ is exactly
+    // flat), |·| ≤ 0.027 beyond 2 (±5.4 % at W = 2.35Δ), 0.17 at W = 1.5Δ (±34 %).
+    const comb = (offset: number) => Float64Array.from({ length: 4001 }, (_, k) => ((k - offset) % 200 === 0 && k >= offset ? 1 : 0));
+    const spread = (widthHz: number) => {
+      let lo = Infinity, hi = 0;
+      for (const offset of [0, 37, 73, 111, 150]) {
+        const v = hannSmoothed(comb(offset), 1, widthHz);
+        for (let k = 1000; k <= 3000; k += 7) {
+          lo = Math.min(lo, v[k]!);
+          hi = Math.max(hi, v[k]!);
+        }
+      }
+      return hi / lo;
+    };
+    expect(spread(400)).toBeLessThan(1 + 1e-9);
+    expect(spread(600)).toBeLessThan(1 + 1e-9);
+    expect(spread(470)).toBeLessThan(1.12); // (1 + 0.054)/(1 − 0.054)
+    expect(spread(470)).toBeGreaterThan(1.08);
+    expect(spread(300)).toBeGreaterThan(1.8); // (1 + 0.34)/(1 − 0.34) ≈ 2.0
+  });
+
+  it('reads the pitch of a harmonic tone', () => {
+    // Source: construction — 10 equal harmonics of 180 Hz; the period is found to the nearest lag
+    // at fs/⌊fs/8 kHz⌋ (8 kHz at 16 kHz: 44 samples, 181.8 Hz; 8.82 kHz at 44.1 kHz: 49, 180.0 Hz).
+    for (const fs of [16000, 44100]) {
+      const x = Float64Array.from({ length: 2 * fs }, (_, i) => {
+        let s = 0;
+        for (let h = 1; h <= 10; h++) s += Math.cos((2 * Math.PI * 180 * h * i) / fs);
+        return s;
+      });
+      expect(Math.abs(voicedPitchHz(x, fs) / 180 - 1)).toBeLessThan(0.011);
+    }
+  });
+
+  it('passes a perfect transposition of a 200 Hz telephone voice and fails a moved envelope', () => {
+    // Source: construction — the same syllables made again at f0·2^(±4/12) through the same Klatt
+    // cascade and the same telephone band (test/helpers/voice-like.ts) keep the envelope exactly:
+    // a fair measure passes them. Made with the formants raised by 2 semitones, or moved with the
+    // pitch (what a transposition without --keep-formants does), the envelope is wrong: a strict
+    // measure fails them. The long-term bands used before read where the harmonics fall.
+    const fs = 16000, seconds = 8;
+    const x = intonedVoice(fs, seconds, 200, { telephone: true });
+    const rows: string[] = [];
+    for (const semitones of [-4, 4]) {
+      const f = 2 ** (semitones / 12);
+      const perfect = intonedVoice(fs, seconds, 200, { telephone: true, pitchFactor: f });
+      const shifted = intonedVoice(fs, seconds, 200, { telephone: true, pitchFactor: f, formantScale: 2 ** (2 / 12) });
+      const moved = intonedVoice(fs, seconds, 200, { telephone: true, pitchFactor: f, formantScale: f });
+      const now = [perfect, shifted, moved].map((y) => envelopeDeviationDb(x, y, fs, f));
+      const before = longTermEnvelopeDeviationDb(x, perfect, fs, f);
+      rows.push(`${semitones > 0 ? '+' : ''}${semitones}: perfect ${now[0]!.toFixed(2)} dB (long-term ${before.toFixed(2)}), formants +2 st ${now[1]!.toFixed(2)}, moved ${now[2]!.toFixed(2)}`);
+      expect(now[0]).toBeLessThanOrEqual(3.5);
+      expect(before).toBeGreaterThan(5);
+      expect(now[1]).toBeGreaterThan(4);
+      expect(now[2]).toBeGreaterThan(6);
+    }
+    console.log('[formants] 200 Hz telephone voice, envelope deviation: ' + rows.join('; '));
   });
 });

@@ -149,7 +149,7 @@ function correctionCases(clips: readonly CorpusClip[]): CorrectionCase[] {
     }
     if (clip.set === 'clean' && clip.kind === 'voice' && !clip.tags?.includes('long')) {
       for (const semitones of [-4, 4]) {
-        out.push({ clip, group: `transpose --semitones ${semitones} --keep-formants, voice`, bars: 'envelope within ±3 dB from 300 Hz to 3.5 kHz (bands the original can fill)',
+        out.push({ clip, group: `transpose --semitones ${semitones} --keep-formants, voice`, bars: 'envelope within ±3 dB from 300 Hz to 3.5 kHz (frame by frame at the voice’s harmonic spacing; bands the original can fill)',
           op: 'transpose', params: { semitones, keepFormants: true }, measure: 'formants' });
         out.push({ clip, group: `transpose --semitones ${semitones} (formants move), voice`, bars: 'none: the envelope moving without --keep-formants, for comparison',
           op: 'transpose', params: { semitones }, measure: 'formants' });

@@ -322,6 +322,88 @@ export function findHits(x: Float64Array, rateHz: number): number[] {
   return hits;
 }
 
+/**
+ * Voiced pitch of a recording, Hz: the `quantile` of the per-frame pitch over voiced frames.
+ * Autocorrelation pitch (Rabiner 1977, "On the use of autocorrelation analysis for pitch
+ * detection", IEEE Trans. ASSP 25(1)): the signal averaged over blocks of ⌊fs/8 kHz⌋ samples,
+ * 40 ms frames every 10 ms, a frame voiced when its RMS is within 30 dB of the loudest frame's and
+ * its normalised autocorrelation reaches 0.7 at a lag of 1/450 … 1/60 s; the period is the
+ * shortest lag with a local maximum within 10 % of the largest. NaN when no frame is voiced.
+ */
+export function voicedPitchHz(x: Float64Array, rateHz: number, quantile = 0.9): number {
+  const d = Math.max(1, Math.floor(rateHz / 8000));
+  const rate = rateHz / d;
+  const u = new Float64Array(Math.floor(x.length / d));
+  for (let i = 0; i < u.length; i++) {
+    let s = 0;
+    for (let j = 0; j < d; j++) s += x[i * d + j]!;
+    u[i] = s / d;
+  }
+  const w = Math.round(0.04 * rate), hop = Math.round(0.01 * rate);
+  const lagLo = Math.floor(rate / 450), lagHi = Math.ceil(rate / 60);
+  const energy: number[] = [];
+  for (let s = 0; s + w + lagHi <= u.length; s += hop) {
+    let e = 0;
+    for (let i = 0; i < w; i++) e += u[s + i]! ** 2;
+    energy.push(e);
+  }
+  const loud = Math.max(0, ...energy);
+  const pitches: number[] = [];
+  const r = new Float64Array(lagHi + 1);
+  for (let f = 0; f < energy.length; f++) {
+    const e0 = energy[f]!, s = f * hop;
+    if (!(e0 > 0) || e0 < loud * 1e-3) continue;
+    let best = 0;
+    for (let l = lagLo; l <= lagHi; l++) {
+      let c = 0, e1 = 0;
+      for (let i = 0; i < w; i++) {
+        c += u[s + i]! * u[s + i + l]!;
+        e1 += u[s + i + l]! ** 2;
+      }
+      r[l] = c / Math.sqrt(e0 * e1 + 1e-300);
+      if (r[l]! > best) best = r[l]!;
+    }
+    if (best < 0.7) continue;
+    // The shortest lag with a maximum within 10 % of the largest: a periodic signal correlates as
+    // well at two periods as at one, and better when two periods land nearer a whole sample.
+    for (let l = lagLo + 1; l < lagHi; l++) {
+      if (r[l]! >= 0.9 * best && r[l]! >= r[l - 1]! && r[l]! >= r[l + 1]!) {
+        pitches.push(rate / l);
+        break;
+      }
+    }
+  }
+  if (!pitches.length) return NaN;
+  pitches.sort((a, b) => a - b);
+  return pitches[Math.floor(quantile * (pitches.length - 1))]!;
+}
+
+/**
+ * `p` (a half spectrum, bins of `binHz`) smoothed along frequency by a Hann kernel `widthHz` wide
+ * (full width; cut at 0 Hz and at the top, each output bin divided by the kernel weight it kept).
+ * A harmonic comb with spacing Δ ≤ widthHz/2 sums through it to the same value wherever the comb
+ * lies (exactly when widthHz is a whole multiple ≥ 2 of Δ, within ±6 % between: Poisson
+ * summation; the Hann transform is sinc(νW)/(1 − (νW)²), zero at νW = 2, 3, …, at most 0.027
+ * beyond 2).
+ */
+export function hannSmoothed(p: Float64Array, binHz: number, widthHz: number): Float64Array {
+  const half = widthHz / 2 / binHz;
+  if (!(half > 1)) return p.slice();
+  const reach = Math.floor(half);
+  const k = Float64Array.from({ length: 2 * reach + 1 }, (_, i) => 0.5 + 0.5 * Math.cos((Math.PI * (i - reach)) / half));
+  const out = new Float64Array(p.length);
+  for (let b = 0; b < p.length; b++) {
+    let s = 0, sw = 0;
+    for (let j = Math.max(0, b - reach); j <= Math.min(p.length - 1, b + reach); j++) {
+      const wt = k[j - b + reach]!;
+      s += wt * p[j]!;
+      sw += wt;
+    }
+    out[b] = s / sw;
+  }
+  return out;
+}
+
 /** Third-octave long-term spectrum (dB), bands 315 Hz … 3.15 kHz (IEC 61260 base-2 centres), Welch with 8192-point Hann frames. */
 const ltas = (x: Float64Array, rateHz: number) => thirdOctaveDb(powerSpectrum(x, 8192), rateHz, 300, 3500);
 
@@ -346,20 +428,93 @@ export function occupiedBandHz(x: Float64Array, rateHz: number): [number, number
   return [(1 + lo * per) * binHz, (1 + (hi + 1) * per) * binHz];
 }
 
-/**
- * Spectral envelope deviation of a transposed voice: third-octave long-term spectra of input and
- * output from 315 Hz to 3.15 kHz (bands 300 Hz–3.5 kHz), their difference with its mean removed
- * (a level change is no envelope change); the largest |deviation|, dB. A transposition by
- * `factor` fills an output band [lo, hi] from the input's [lo/factor, hi/factor]; a band whose
- * source reaches outside the band the original occupies (`occupiedBandHz`) has nothing to be made
- * from (a telephone recording transposed down leaves its top band empty) and is not judged.
- */
-export function envelopeDeviationDb(x: Float64Array, y: Float64Array, rateHz: number, factor = 1): number {
-  const a0 = ltas(x, rateHz), b0 = ltas(y, rateHz);
+/** Bands judged for a transposition by `factor`: the source [lo/factor, hi/factor] within the band `x` occupies. */
+function judgedBands(x: Float64Array, rateHz: number, factor: number, centresHz: readonly number[]): boolean[] {
   const [occLo, occHi] = occupiedBandHz(x, rateHz);
-  const judged = a0.map((band) => (band.centreHz * 2 ** (-1 / 6)) / factor >= occLo && (band.centreHz * 2 ** (1 / 6)) / factor <= occHi);
+  return centresHz.map((c) => (c * 2 ** (-1 / 6)) / factor >= occLo && (c * 2 ** (1 / 6)) / factor <= occHi);
+}
+
+/**
+ * The measure used before 2026-12-04, kept for comparison: third-octave long-term spectra of input
+ * and output from 315 Hz to 3.15 kHz (bands 300 Hz–3.5 kHz), their difference over the judged
+ * bands with its mean removed; the largest |deviation|, dB. It reads where the harmonics fall, not
+ * the envelope, wherever a band is narrower than f0 (see `envelopeDeviationDb`).
+ */
+export function longTermEnvelopeDeviationDb(x: Float64Array, y: Float64Array, rateHz: number, factor = 1): number {
+  const a0 = ltas(x, rateHz), b0 = ltas(y, rateHz);
+  const judged = judgedBands(x, rateHz, factor, a0.map((b) => b.centreHz));
   const a = a0.filter((_, i) => judged[i]), b = b0.filter((_, i) => judged[i]);
   const d = a.map((band, i) => b[i]!.db - band.db);
   const mean = d.reduce((s, v) => s + v, 0) / d.length;
   return Math.max(...d.map((v) => Math.abs(v - mean)));
+}
+
+/**
+ * Spectral envelope deviation of a transposed voice, dB, frame by frame (a transposition keeps
+ * the time line, so the output's frame t holds the input's frame t):
+ *
+ * - Hann frames of the power of two nearest 0.1 s, every half frame; a frame counts when the
+ *   input's energy in it is within 20 dB of its loudest frame's.
+ * - Each frame's power spectrum, input and output alike, is smoothed along frequency over
+ *   2·f0·max(1, factor) (`hannSmoothed`; f0 the input's 90th-percentile voiced pitch,
+ *   `voicedPitchHz`), then summed into third-octave bands 315 Hz … 3.15 kHz (IEC 61260 base-2
+ *   centres; 300 Hz–3.5 kHz). A voice's envelope is only sampled at its harmonics, every f0; a band
+ *   narrower than that reads whether a harmonic falls in it, and the transposition moves every
+ *   harmonic by design: unsmoothed long-term bands read 6–10 dB on a perfect transposition of a
+ *   synthetic voice around 200 Hz. After the smoothing a band's level does not depend on where
+ *   the harmonics lie.
+ * - Per frame, output dB − input dB over the judged bands (`judgedBands`: a band whose source
+ *   lies outside the band the original occupies has nothing to be made from, e.g. the top band of
+ *   a telephone recording transposed down), with the frame's mean removed (a level change is no
+ *   envelope change).
+ * - Per band, the median over the frames of |deviation|: how far the envelope typically is; the
+ *   result is the largest over the bands. (A long-term spectrum instead averages a moved envelope
+ *   over the vowels: a formant shift of 4 semitones read 1.5–2.3 dB on telephone prompts.)
+ */
+export function envelopeDeviationDb(x: Float64Array, y: Float64Array, rateHz: number, factor = 1): number {
+  const size = 2 ** Math.round(Math.log2(0.1 * rateHz));
+  const f0 = voicedPitchHz(x, rateHz);
+  const smoothHz = Number.isFinite(f0) ? 2 * f0 * Math.max(1, factor) : 0;
+  const fft = planOf(size);
+  const w = Float64Array.from({ length: size }, (_, i) => 0.5 - 0.5 * Math.cos((2 * Math.PI * i) / size));
+  const buf = new Array<number>(size).fill(0);
+  const spec = fft.createComplexArray() as number[];
+  const p = new Float64Array(size / 2 + 1);
+  const bandsOf = (u: Float64Array, at: number) => {
+    for (let i = 0; i < size; i++) buf[i] = (u[at + i] ?? 0) * w[i]!;
+    fft.realTransform(spec, buf);
+    for (let k = 0; k <= size / 2; k++) p[k] = spec[2 * k]! ** 2 + spec[2 * k + 1]! ** 2 + 1e-30;
+    return thirdOctaveDb(smoothHz > 0 ? hannSmoothed(p, rateHz / size, smoothHz) : p, rateHz, 300, 3500);
+  };
+  const starts: number[] = [], energy: number[] = [];
+  for (let s = 0; s + size <= x.length; s += size / 2) {
+    let e = 0;
+    for (let i = 0; i < size; i++) e += x[s + i]! ** 2;
+    starts.push(s);
+    energy.push(e);
+  }
+  const loud = Math.max(0, ...energy);
+  let judged: boolean[] | null = null;
+  let perBand: number[][] = [];
+  for (let f = 0; f < starts.length; f++) {
+    if (!(energy[f]! > 0) || energy[f]! < loud * 0.01) continue;
+    const a = bandsOf(x, starts[f]!), b = bandsOf(y, starts[f]!);
+    if (!judged) {
+      judged = judgedBands(x, rateHz, factor, a.map((q) => q.centreHz));
+      perBand = a.map(() => []);
+    }
+    const d = a.map((q, i) => b[i]!.db - q.db);
+    let mean = 0, n = 0;
+    for (let i = 0; i < d.length; i++) if (judged[i]) { mean += d[i]!; n++; }
+    mean /= n;
+    for (let i = 0; i < d.length; i++) if (judged[i]) perBand[i]!.push(Math.abs(d[i]! - mean));
+  }
+  let worst = NaN;
+  for (const v of perBand) {
+    if (!v.length) continue;
+    v.sort((q, r) => q - r);
+    const m = v.length % 2 ? v[(v.length - 1) / 2]! : 0.5 * (v[v.length / 2 - 1]! + v[v.length / 2]!);
+    worst = Number.isNaN(worst) ? m : Math.max(worst, m);
+  }
+  return worst;
 }

@@ -12,7 +12,7 @@ import type { ParamValues } from '../../dsp/ops/types.ts';
 import type { ClipResult, CorrectionResult } from './types.ts';
 import { numbersToJson } from './pool.ts';
 import { bandDeviationDb, echoReductionDb, monoMix, offsetTrack, residualSpeedPercent } from './measures.ts';
-import { comparePartials, envelopeDeviationDb, findHits, readOnsets } from './stretch-measures.ts';
+import { comparePartials, envelopeDeviationDb, findHits, longTermEnvelopeDeviationDb, readOnsets } from './stretch-measures.ts';
 
 export interface DiagnoseTask {
   task: 'diagnose';
@@ -97,6 +97,8 @@ async function correct(t: CorrectTask): Promise<CorrectionResult> {
         metrics.attackDb = Math.min(...o.map((q) => q.attackDb));
       } else {
         metrics.envelopeDb = envelopeDeviationDb(reference, output, rate, factor);
+        // The long-term measure used before (not the bar; for comparison).
+        metrics.longTermEnvelopeDb = longTermEnvelopeDeviationDb(reference, output, rate, factor);
       }
     } else {
       const track = offsetTrack(output, reference, rate);

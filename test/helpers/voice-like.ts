@@ -153,3 +153,78 @@ export function rosenbergVoice(sampleRateHz: number, durationSeconds: number, se
   for (let i = 0; i < n; i++) src[i]! *= amplitude / peak;
   return src;
 }
+
+export interface IntonedVoiceOptions {
+  /** Multiplies the whole f0 contour (a transposition of the source; default 1). */
+  readonly pitchFactor?: number;
+  /** Multiplies every formant frequency (default 1). */
+  readonly formantScale?: number;
+  /** Telephone-like band: 4th-order high-pass at 300 Hz and low-pass at 3400 Hz. */
+  readonly telephone?: boolean;
+}
+
+/**
+ * Intoned "speech" for envelope checks: 0.25 s syllables (raised-cosine level) cycling through
+ * the five vowels, on a band-limited harmonic source with a −6 dB/octave spectrum (harmonic h at
+ * 1/h) whose f0 follows a slow contour between 0.70 and 1.40 × `f0Hz`,
+ * through the Klatt cascade. With `pitchFactor` the same material is made at f0·factor with the
+ * same filter: a perfect transposition that keeps the envelope.
+ */
+export function intonedVoice(sampleRateHz: number, durationSeconds: number, f0Hz: number, options: IntonedVoiceOptions = {}): Float64Array {
+  const fs = sampleRateHz, n = Math.round(durationSeconds * fs);
+  const pitch = options.pitchFactor ?? 1, scale = options.formantScale ?? 1;
+  const x = new Float64Array(n);
+  const syllable = Math.round(0.25 * fs);
+  let rs: Resonator[] = [];
+  const y1 = new Float64Array(3), y2 = new Float64Array(3);
+  let phase = 0;
+  for (let i = 0; i < n; i++) {
+    const t = i / fs;
+    const f0 = pitch * f0Hz * (1.05 + 0.3 * Math.sin(2 * Math.PI * 0.37 * t) * Math.cos(2 * Math.PI * 0.11 * t) + 0.05 * Math.sin(2 * Math.PI * 2.3 * t));
+    phase += f0 / fs;
+    phase -= Math.floor(phase);
+    let s = 0;
+    for (let h = 1; h * f0 < 0.45 * fs; h++) s += Math.cos(2 * Math.PI * h * phase) / h;
+    if (i % syllable === 0) {
+      const v = VOWELS[(3 * Math.floor(i / syllable)) % VOWELS.length]!;
+      rs = v.formantsHz.map((f, k) => resonator(f * scale, FORMANT_BANDWIDTHS_HZ[k]!, fs));
+    }
+    let v = s * (0.5 - 0.5 * Math.cos((2 * Math.PI * (i % syllable)) / syllable));
+    for (let k = 0; k < 3; k++) {
+      const r = rs[k]!;
+      const y = r.a * v + r.b * y1[k]! + r.c * y2[k]!;
+      y2[k] = y1[k]!;
+      y1[k] = y;
+      v = y;
+    }
+    x[i] = v;
+  }
+  if (options.telephone) {
+    for (const [type, f] of [['hp', 300], ['hp', 300], ['lp', 3400], ['lp', 3400]] as const) biquadInPlace(x, type, f, fs);
+  }
+  let peak = 0;
+  for (let i = 0; i < n; i++) peak = Math.max(peak, Math.abs(x[i]!));
+  for (let i = 0; i < n; i++) x[i]! *= 0.4 / peak;
+  return x;
+}
+
+/**
+ * Second-order Butterworth (Q = 1/√2) high- or low-pass in place (R. Bristow-Johnson, "Cookbook
+ * formulae for audio EQ biquad filter coefficients": HPF b = ((1+cos w)/2, −(1+cos w), (1+cos w)/2),
+ * LPF b = ((1−cos w)/2, 1−cos w, (1−cos w)/2), a = (1+α, −2 cos w, 1−α), α = sin w/(2Q)).
+ */
+function biquadInPlace(x: Float64Array, type: 'hp' | 'lp', frequencyHz: number, sampleRateHz: number): void {
+  const w = (2 * Math.PI * frequencyHz) / sampleRateHz, c = Math.cos(w), alpha = Math.sin(w) / Math.SQRT2;
+  const b0 = type === 'hp' ? (1 + c) / 2 : (1 - c) / 2, b1 = type === 'hp' ? -(1 + c) : 1 - c, b2 = b0;
+  const a0 = 1 + alpha, a1 = -2 * c, a2 = 1 - alpha;
+  let x1 = 0, x2 = 0, z1 = 0, z2 = 0;
+  for (let i = 0; i < x.length; i++) {
+    const v = x[i]!;
+    const y = (b0 * v + b1 * x1 + b2 * x2 - a1 * z1 - a2 * z2) / a0;
+    x2 = x1;
+    x1 = v;
+    z2 = z1;
+    z1 = y;
+    x[i] = y;
+  }
+}
