@@ -39,6 +39,8 @@ export const reversed = defineAnalysis<ReversedResult>()({
             ? `${ch.staggeredStops ?? 0} hard stops whose frequency bands drop out one after another, as a natural attack builds up, read backwards; no hard start`
           : ch.basis === 'mirrors-channel'
             ? `its level follows channel ${ch.mirrorOf} played backwards, and of the two it is the one that swells into hard stops in ${Math.round((ch.bandsAgreeing ?? 0) * (ch.bands ?? 0))} of its ${ch.bands ?? 0} frequency bands while channel ${ch.mirrorOf} starts hard and fades`
+          : ch.basis === 'one-note'
+            ? `one swell into a hard stop that is a struck or plucked note's decay played backwards: its frequency bands rise at rates of their own, the high ones fastest (rank correlation of band rate with frequency ${(ch.rampBandTilt ?? 0).toFixed(2)}), and it ends in the note's attack, the top bands ${(ch.edgeAttackDb ?? 0).toFixed(0)} dB above their swell's line at the stop and ${(ch.edgeAttackTiltDb ?? 0).toFixed(0)} dB more than the bottom bands — a fade moves every band alike and ends on no attack`
           : ch.basis === 'bands-agree'
             ? `in ${Math.round((ch.bandsAgreeing ?? 0) * (ch.bands ?? 0))} of its ${ch.bands ?? 0} frequency bands the level fades in and cuts off (band skew ${(ch.bandSkew ?? 0).toFixed(2)}, median over the bands ${(ch.bandMedian ?? 0).toFixed(2)})`
             : `${ch.swellsIntoStops ?? 0} swells straight into hard stops and no decay after a hard start`;

@@ -340,3 +340,56 @@ export function bandRateTilt(b: BandDb, from: number, to: number): { bands: numb
   const relativeSpread = overall !== 0 ? (meanOf(slopes.slice(m - third)) - meanOf(slopes.slice(0, third))) / Math.abs(overall) : 0;
   return { bands: m, correlation: syy > 0 ? sxy / Math.sqrt(sxx * syy) : 0, relativeSpread };
 }
+
+/** The attack at an edge (attackAtEdge): frames left out of the ramp's fit beside the edge, and the fewest frames a band's fit needs. */
+const ATTACK_GAP_FRAMES = 6;
+const ATTACK_MIN_FIT_FRAMES = 20;
+
+/**
+ * Does the hard edge at block `at` carry a struck or plucked sound's attack, read against the
+ * ramp beside it (blocks `first` … `last`: the swell before a stop, or the decay after a start)?
+ * A hammer, a stick or a pick excites the upper partials most at the first instant, and that
+ * excess dies away within a fraction of a second (the prompt sound of a struck string, before the
+ * slower aftersound; losses grow with frequency — from memory: Fletcher & Rossing, The Physics of
+ * Musical Instruments, §2 and §12), so the upper bands decay in two stages: their level in dB is
+ * convex in time (a sum of exponentials with different rates always is: log-sum-exp of straight
+ * lines is convex, an exact identity), and at the attack they stand well above the line of the
+ * decay that follows, the lower bands barely. Each
+ * used band's level is fitted with a straight line in dB over the ramp's frames (leaving out the
+ * 60 ms beside the edge), and the level of the frame at the edge (as in edgeStagger: for a stop the
+ * last frame wholly before it, for a start the first wholly after it) is compared with that line
+ * carried to it. Returned: the mean excess (dB) of the top third of the bands and of the bottom
+ * third, and their difference `tilt`. A gain — an editor's fade of any curve — adds the same dB to
+ * every band, in the frame and in the fit alike, so it cancels from `tilt`; and the usual fade
+ * curves are straight or concave in dB, so over a fade-in the last frame lies on or below the
+ * line, never above it. Time reversal maps a stop onto a start frame for frame.
+ */
+export function attackAtEdge(b: BandDb, at: number, up: boolean, first: number, last: number): { bands: number; high: number; low: number; tilt: number } {
+  const ref = up ? at + 5 : at;
+  // The ramp's band frames (wholly inside it: frame k spans about blocks k − 3 … k), less the gap.
+  const lo = up ? Math.max(first + 3, at + 7 + ATTACK_GAP_FRAMES) : first + 3;
+  const hi = up ? last : Math.min(last, at - 2 - ATTACK_GAP_FRAMES);
+  const none = { bands: 0, high: 0, low: 0, tilt: 0 };
+  if (ref < 0 || ref >= b.frames || hi - lo + 1 < ATTACK_MIN_FIT_FRAMES) return none;
+  const excess: number[] = [];
+  for (let k = 0; k < b.bands; k++) {
+    if (!b.used[k]) continue;
+    let n = 0, st = 0, sy = 0, stt = 0, sty = 0;
+    for (let t = Math.max(0, lo); t <= Math.min(b.frames - 1, hi); t++) {
+      const y = b.db[t * b.bands + k]!;
+      if (y <= -FLOOR_DB + 10) continue;
+      n++; st += t; sy += y; stt += t * t; sty += t * y;
+    }
+    if (n < ATTACK_MIN_FIT_FRAMES) continue;
+    const sxx = stt - (st * st) / n;
+    if (sxx <= 0) continue;
+    const slope = (sty - (st * sy) / n) / sxx;
+    excess.push(b.db[ref * b.bands + k]! - (sy / n + slope * (ref - st / n)));
+  }
+  const m = excess.length;
+  if (m < 4) return { ...none, bands: m };
+  const third = Math.max(1, Math.floor(m / 3));
+  const meanOf = (xs: number[]) => xs.reduce((p, v) => p + v, 0) / xs.length;
+  const high = meanOf(excess.slice(m - third)), low = meanOf(excess.slice(0, third));
+  return { bands: m, high, low, tilt: high - low };
+}

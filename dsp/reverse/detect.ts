@@ -46,7 +46,22 @@
  *  - swells into stops: S ≥ 0.3, at least two swells into hard stops, no decay after a start and
  *    no more hard starts than stops (reversed struck or plucked notes, or notes that were damped:
  *    each damper release became a hard start followed by a swell);
- *  - one swell never decides ('one-ramp', not determined): one swell into a hard stop (or one decay
+ *  - one note played backwards ('one-note'): S ≥ 0.3, one swell into a hard stop (at most one
+ *    hard start, no decay after a start) whose bands move as a free decay's do (the band tests
+ *    under "a fade is not a decay" below) and whose stop carries the note's attack (bands.ts
+ *    attackAtEdge: the top third of the bands ≥ 4 dB above their swell's line carried to the
+ *    stop, and ≥ 4 dB more than the bottom third). A struck or plucked note's upper bands decay
+ *    in two stages, so at the attack they stand above the line of the slower decay; a gain adds
+ *    the same dB to every band (it cancels from the difference), a fade-in is straight or concave
+ *    in dB (it never ends above its line), and a forward excerpt is cut wherever its programme
+ *    was, not at an attack. Mirrored: one decay after a hard start with the attack at the start
+ *    reads as forward. Measured (test/reverse/fade-stress.ts): no forward excerpt faded in and cut
+ *    off is called reversed (dev 0/13,320, holdout 0/2,040; the 4 forward excerpts whose one swell
+ *    passed the band tests had top-third excesses of −6.6 … 0 dB, tilts ≤ 1.8 dB), backwards found
+ *    dev 2,985 → 3,018, holdout 472 → 498, none called forward; on the corpus the reversed piano A0
+ *    and C1, a taiko, a melodic tom and TimGM bells (top thirds 4.4–10.9 dB, tilts 4.8–11.2 dB)
+ *    are found, none read as forward, no forward channel called reversed;
+ *  - otherwise one swell never decides ('one-ramp', not determined): one swell into a hard stop (or one decay
  *    after a hard start), however long and whatever its bands, is one sound only. Measured
  *    (test/reverse/fade-stress.ts, holdout): a forward TimGM string excerpt faded in and cut off
  *    had a swell into the cut that passed every band test below and was called reversed; time
@@ -113,7 +128,7 @@ import { powerToDb } from '../units.ts';
 import type { AudioSource } from '../source.ts';
 import { reclaim } from '../core/reclaim.ts';
 import { REVERSED_MIN_ACTIVE_SECONDS, REVERSED_SCORE_THRESHOLD } from './limits.ts';
-import { BandEnvelopes, bandAsymmetry, bandDb, bandHeterogeneity, bandRateTilt, edgeStagger, segmentAgreement, type BandAsymmetry, type BandDb } from './bands.ts';
+import { BandEnvelopes, attackAtEdge, bandAsymmetry, bandDb, bandHeterogeneity, bandRateTilt, edgeStagger, segmentAgreement, type BandAsymmetry, type BandDb } from './bands.ts';
 
 export interface ReversedChannel {
   /** 1-based channel number. */
@@ -156,6 +171,10 @@ export interface ReversedChannel {
   readonly rampBandTilt?: number;
   /** …and the rates of the top third of the bands less the bottom third's, over the mean rate (bands.ts bandRateTilt; the largest in size). */
   readonly rampRelativeSpread?: number;
+  /** For the ramps whose edge was read for an attack (bands.ts attackAtEdge; the one with the largest tilt): the top
+   * third of the bands' excess over the ramp's line at the edge, and that less the bottom third's, in dB. */
+  readonly edgeAttackDb?: number;
+  readonly edgeAttackTiltDb?: number;
   /** Which rule decided, or why nothing did. */
   readonly basis?: ReversedBasis;
   /** For basis 'mirrors-channel': the 1-based channel whose level envelope this one's mirrors in time. */
@@ -164,7 +183,7 @@ export interface ReversedChannel {
   readonly confidence?: number;
 }
 
-export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'one-ramp' | 'bands-agree' | 'staggered-edges' | 'mirrors-channel' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
+export type ReversedBasis = 'many-events' | 'ramps-at-edges' | 'one-note' | 'one-ramp' | 'bands-agree' | 'staggered-edges' | 'mirrors-channel' | 'too-little-sound' | 'no-hard-edges' | 'cues-disagree' | 'fade-like' | 'thin';
 
 export interface ReversedResult {
   readonly channels: ReversedChannel[];
@@ -202,6 +221,13 @@ const RAMP_BAND_SPREAD = 10;
 const RAMP_TILT = 0.5;
 /** …with the top and bottom thirds of the bands apart by this share of the mean rate (a fade adds one rate to all). */
 const RAMP_RELATIVE_SPREAD = 0.5;
+/**
+ * One swell decides only when its stop carries a struck or plucked sound's attack (bands.ts
+ * attackAtEdge): the top third of the bands at least this many dB above their swell's line carried
+ * to the stop, and at least this many dB more than the bottom third.
+ */
+const ATTACK_HIGH_DB = 4;
+const ATTACK_TILT_DB = 4;
 /** Mirrored channels (decideMirroredPairs): correlation against the other played backwards, margin over forwards, lags tried, band skew. */
 const MIRROR_MIN_CORRELATION = 0.85;
 const MIRROR_MIN_MARGIN = 0.5;
@@ -451,7 +477,7 @@ export interface Verdict {
  * says whether a ramp's bands move apart (not a fade); it decides the rule that rests on ramps. */
 function stopsWin(
   s: number, t: number, stops: number, starts: number, openStops: number, openStarts: number, swells: readonly Ramp[], decays: readonly Ramp[],
-  moves: (r: Ramp) => boolean = () => true, quietStarts = 0,
+  moves: (r: Ramp) => boolean = () => true, quietStarts = 0, attacked: (r: Ramp) => boolean = () => false,
 ): { basis: ReversedBasis; confidence: number } | { fadeLike: true } | { oneRamp: true } | null {
   if (s <= 0) return null;
   // Abrupt starts a fade-in has brought below the hard edges' level count against the stops too.
@@ -466,8 +492,10 @@ function stopsWin(
     if (swells.filter(moves).length >= 2) return { basis: 'ramps-at-edges', confidence: 0.8 };
     return { fadeLike: true };
   }
-  // One swell never decides: one sound with one cut (see the module comment, "one swell").
+  // One swell decides only as a whole note played backwards: a free decay in its bands that ends
+  // in the note's attack (see the module comment, "one swell"); else one sound with one cut.
   if (s > 0 && starts <= 1 && stops >= Math.max(1, starts) && decays.length === 0 && swells.length >= 1) {
+    if (s >= REVERSED_SCORE_THRESHOLD && swells.length === 1 && moves(swells[0]!) && attacked(swells[0]!)) return { basis: 'one-note', confidence: 0.7 };
     return swells.some(moves) ? { oneRamp: true } : { fadeLike: true };
   }
   return null;
@@ -484,11 +512,11 @@ function staggerWin(s: number, bandSkew: number, share: number, bands: number, s
 }
 
 /** The decision for one channel from its cues (see the module comment). */
-export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry, moves?: (r: Ramp) => boolean, staggered?: { starts: number; stops: number }): Verdict {
+export function judgeDirection(a: Asymmetry, activeSeconds: number, b?: BandAsymmetry, moves?: (r: Ramp) => boolean, staggered?: { starts: number; stops: number }, attacked?: (r: Ramp) => boolean): Verdict {
   if (activeSeconds < REVERSED_MIN_ACTIVE_SECONDS) return { likely: null, basis: 'too-little-sound', confidence: 0 };
-  const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.openStops, a.openStarts, a.swells, a.decays, moves, a.quietStarts);
+  const back = stopsWin(a.score, a.segmentT, a.hardStops, a.hardStarts, a.openStops, a.openStarts, a.swells, a.decays, moves, a.quietStarts, attacked);
   if (back && 'basis' in back) return { likely: true, ...back };
-  const fwd = stopsWin(-a.score, -a.segmentT, a.hardStarts, a.hardStops, a.openStarts, a.openStops, a.decays, a.swells, moves, a.quietStops);
+  const fwd = stopsWin(-a.score, -a.segmentT, a.hardStarts, a.hardStops, a.openStarts, a.openStops, a.decays, a.swells, moves, a.quietStops, attacked);
   if (fwd && 'basis' in fwd) return { likely: false, ...fwd };
   if (b && bandsWin(a.score, b.score, b.bandMedian, b.positiveShare, b.bands, a.openStops, a.openStarts)) return { likely: true, basis: 'bands-agree', confidence: 0.7 };
   if (b && bandsWin(-a.score, -b.score, -b.bandMedian, b.negativeShare, b.bands, a.openStarts, a.openStops)) return { likely: false, basis: 'bands-agree', confidence: 0.7 };
@@ -559,11 +587,25 @@ export function judgeEnvelope(
     const sign = swellSet.has(r) ? 1 : -1, q = tilt(r);
     return sign * q.correlation >= RAMP_TILT && sign * q.relativeSpread >= RAMP_RELATIVE_SPREAD;
   };
+  // The attack at the ramp's edge (a stop after a swell, a start before a decay), read against the
+  // ramp's own bands (bands.ts attackAtEdge); the edge of a swell is 2 blocks after its last, of a
+  // decay 4 before its first (asymmetryScore).
+  const attacks = new Map<Ramp, { high: number; tilt: number }>();
+  const attack = (r: Ramp) => {
+    let q = attacks.get(r);
+    if (q === undefined) {
+      const up = !swellSet.has(r);
+      attacks.set(r, (q = bd ? attackAtEdge(bd, up ? r.first - 4 : r.last + 2, up, r.first, r.last) : { high: 0, tilt: 0 }));
+    }
+    return q;
+  };
+  const attacked = (r: Ramp) => bd !== undefined && attack(r).high >= ATTACK_HIGH_DB && attack(r).tilt >= ATTACK_TILT_DB;
   // Hard edges whose bands cross them at different moments, as a natural attack's do.
   let staggeredStarts = 0, staggeredStops = 0;
   if (bd) for (const e of a.edges) if (edgeStagger(bd, e.at, e.up)) e.up ? staggeredStarts++ : staggeredStops++;
-  const v = judgeDirection(a, activeSeconds, bands, moves, bd ? { starts: staggeredStarts, stops: staggeredStops } : undefined);
+  const v = judgeDirection(a, activeSeconds, bands, moves, bd ? { starts: staggeredStarts, stops: staggeredStops } : undefined, attacked);
   const weighed = [...spreads.values()];
+  const steepest = [...attacks.values()].reduce<{ high: number; tilt: number } | undefined>((p, q) => (p === undefined || q.tilt > p.tilt ? q : p), undefined);
   return {
     likely: v.likely,
     score: v.likely === null ? a.score / 4 : a.score,
@@ -582,6 +624,7 @@ export function judgeEnvelope(
       : {}),
     ...(weighed.length > 0 ? { rampBandSpread: Math.max(...weighed) } : {}),
     ...(tilts.size > 0 ? { rampBandTilt: [...tilts.values()].map((q) => q.correlation).reduce((p, q) => (Math.abs(q) > Math.abs(p) ? q : p), 0), rampRelativeSpread: [...tilts.values()].map((q) => q.relativeSpread).reduce((p, q) => (Math.abs(q) > Math.abs(p) ? q : p), 0) } : {}),
+    ...(steepest ? { edgeAttackDb: steepest.high, edgeAttackTiltDb: steepest.tilt } : {}),
     basis: v.basis,
     confidence: v.confidence,
   };

@@ -168,19 +168,21 @@ describe('reversed channels on real recordings', () => {
     expect(claims).toEqual([]);
   });
 
-  it('never reads a single reversed low piano note (the corpus clip reversed by scipy) as forward, and says its one swell is one sound only', async () => {
+  it('finds a single reversed low piano note (the corpus clip reversed by scipy) by the attack it ends in, and reads it forwards as forward', async () => {
     // Source: corpus truth (reversed-00-piano-low-A0: the Fluid R3 GM piano A0 held 5 s, reversed
-    // by build_corpus.py). Its swell into the stop is found, but one swell and one cut is also what
-    // a forward excerpt faded in and cut off can give (test/reverse/fade-stress.ts, holdout: a
-    // string excerpt whose swell passed every band test of a decay), so it is not determined.
+    // by build_corpus.py), and exact reversal of its samples for the forward note. Its one swell
+    // into the stop moves its bands as a free decay does and ends in the note's attack (the upper
+    // bands above the line of their slower decay), which no forward excerpt faded in and cut off
+    // showed (test/reverse/fade-stress.ts: 0 of 15,360 channels called reversed).
     const [c] = await judge(reversedPiano.channels, reversedPiano.sampleRateHz);
-    console.log('[reversed] ' + line(reversedPiano.clip.id, c!));
-    expect([c!.likely, c!.basis, c!.abruptStarts]).toEqual([null, 'one-ramp', 0]);
-    expect(c!.swellsIntoStops).toBeGreaterThanOrEqual(1);
+    const [f] = await judge(reversedPiano.channels.map(flip), reversedPiano.sampleRateHz);
+    console.log('[reversed] ' + line(reversedPiano.clip.id, c!) + `, attack ${c!.edgeAttackDb?.toFixed(1)} dB (tilt ${c!.edgeAttackTiltDb?.toFixed(1)})\n  ` + line('played forwards', f!));
+    expect([c!.likely, c!.basis, c!.abruptStarts, c!.swellsIntoStops]).toEqual([true, 'one-note', 0, 1]);
+    expect(f!.likely).not.toBe(true);
     const res = await detectReversedChannels(new MemorySource(reversedPiano.channels, reversedPiano.sampleRateHz));
-    const f = reversed.findings!(res, { sampleRateHz: reversedPiano.sampleRateHz, channelCount: 1, frames: reversedPiano.channels[0]!.length });
-    expect(f.map((x) => x.severity)).toEqual(['info']);
-    expect(f[0]!.sentence).toMatch(/one swell into a hard stop is one sound only/);
-    expect(f[0]!.suggestion).toBeUndefined();
+    const why = reversed.findings!(res, { sampleRateHz: reversedPiano.sampleRateHz, channelCount: 1, frames: reversedPiano.channels[0]!.length });
+    expect(why.map((x) => [x.severity, x.title])).toEqual([['warn', 'Channel 1 plays backwards']]);
+    expect(why[0]!.sentence).toMatch(/ends in the note's attack/);
+    expect(why[0]!.suggestion).toEqual({ op: 'reverse', params: { channels: [1] } });
   });
 });
