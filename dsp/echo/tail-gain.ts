@@ -119,13 +119,32 @@ export async function tailBlockSums(source: AudioSource, delaySamples: number, g
   return sums;
 }
 
-/** Blocks at least `floor` in input energy whose cancelled energy is under `ratio` of their input's. */
-function selectBlocks(s: BlockSums, ratio: number): Int32Array {
+/**
+ * Consecutive blocks a selected run must hold: a tail lasts τ, about τ/L blocks; half of that, at
+ * least 2 and at most 4. A steady note's block can also come out nearly empty by chance, where
+ * its cancelled signal and w happen to be in phase, at a gain of its own; such blocks come one at
+ * a time (on the corpus, a xylophone's notes 0.6 s apart read 303 ms / −0.10 as −0.127 from three
+ * such blocks, an oboe's −0.30 as −0.313 from eleven).
+ */
+export function tailRunBlocks(delaySamples: number, blockSamples: number): number {
+  return Math.max(2, Math.min(4, Math.floor(delaySamples / blockSamples / 2)));
+}
+
+/**
+ * Blocks at least FLOOR_DB under the loudest in input energy whose cancelled energy is under
+ * `ratio` of their input's, in runs of at least `run` consecutive blocks.
+ */
+function selectBlocks(s: BlockSums, ratio: number, run: number): Int32Array {
   let top = 0;
   for (let b = 0; b < s.count; b++) top = Math.max(top, s.yy[b]!);
   const floor = top * Math.pow(10, -FLOOR_DB / 10);
   const out: number[] = [];
-  for (let b = 0; b < s.count; b++) if (s.yy[b]! > floor && s.ee[b]! < ratio * s.yy[b]!) out.push(b);
+  for (let b = 0; b < s.count; ) {
+    let e = b;
+    while (e < s.count && s.yy[e]! > floor && s.ee[e]! < ratio * s.yy[e]!) e++;
+    if (e - b >= run) for (let k = b; k < e; k++) out.push(k);
+    b = e > b ? e : b + 1;
+  }
   return Int32Array.from(out);
 }
 
@@ -166,6 +185,7 @@ export async function tailGain(source: AudioSource, estimate: { delaySamples: nu
   const tau = estimate.delaySamples;
   if (!(tau >= 1)) return null;
   const blockSamples = tailBlockSamples(tau, source.sampleRateHz);
+  const run = tailRunBlocks(tau, blockSamples);
   let g = estimate.gain;
   let sums: BlockSums | undefined;
   const stages: { ratioDb: number; span: number; passes: number }[] = [
@@ -177,7 +197,7 @@ export async function tailGain(source: AudioSource, estimate: { delaySamples: nu
     const ratio = Math.pow(10, -stage.ratioDb / 10);
     for (let pass = 0; pass < stage.passes; pass++) {
       sums = await tailBlockSums(source, tau, g, blockSamples, options, sums);
-      sel = selectBlocks(sums, ratio);
+      sel = selectBlocks(sums, ratio, run);
       if (sel.length < MIN_BLOCKS) return null;
       const step = bestStep(sums, sel, stage.span);
       g = Math.max(-MAX_GAIN, Math.min(MAX_GAIN, g + step));
@@ -186,7 +206,7 @@ export async function tailGain(source: AudioSource, estimate: { delaySamples: nu
   }
   // What is left in the deep blocks at the final gain.
   sums = await tailBlockSums(source, tau, g, blockSamples, options, sums);
-  sel = selectBlocks(sums, Math.pow(10, -DEEP_EMPTIED_DB / 10));
+  sel = selectBlocks(sums, Math.pow(10, -DEEP_EMPTIED_DB / 10), run);
   if (sel.length < MIN_BLOCKS) return null;
   const ratios = Array.from(sel, (b) => sums!.ee[b]! / sums!.yy[b]!).sort((p, q) => p - q);
   const depthDb = 10 * Math.log10(Math.max(1e-30, ratios[Math.floor(ratios.length / 2)]!));

@@ -84,6 +84,20 @@ describe('tailGain', () => {
     expect(Math.abs(tail!.gain - 0.5)).toBeLessThanOrEqual(0.003);
   });
 
+  it('a programme that never stops (a held chord whose level swells): no reading', async () => {
+    // Source: construction (the chord sounds throughout, so no stretch holds the copy alone; for a
+    // steady programme the cancelled level stays within 20·log10(1 + |g|) dB of the input's).
+    const n = 8 * fs;
+    const x = Float64Array.from({ length: n }, (_, i) => {
+      const t = i / fs, level = 0.6 + 0.4 * Math.sin(2 * Math.PI * 0.7 * t);
+      return level * (Math.sin(2 * Math.PI * 220 * t) + 0.5 * Math.sin(2 * Math.PI * 277.2 * t + 1) + 0.3 * Math.sin(2 * Math.PI * 329.6 * t + 2));
+    });
+    const copy = delayExact(x, delay);
+    const y = Float64Array.from(x, (v, i) => v + 0.5 * copy[i]!);
+    const tail = await tailGain(new MemorySource([y], fs), { delaySamples: delay, gain: 0.47 }, { channel: 0, excerpt: excerpt(n) });
+    expect(tail).toBeNull();
+  });
+
   it('bestStep finds the minimum of a sum of log quadratics', () => {
     // Source: exact identity: with E_b = (Δ − d_b)²·W_b the minimum of Σ log(E_b + ε·Y_b) over
     // identical blocks (d_b = 0.013 for all) lies at Δ = 0.013 (common practice: the parabola
