@@ -37,6 +37,7 @@ import { reclaim } from '../core/reclaim.ts';
 import { MixScratch, mixBlock } from './mix.ts';
 import { PrintThroughCollector, refinePrintThroughLags, searchPrintThrough, type LagCandidate, type RefinedLag } from './print-through.ts';
 import { type Excerpt, MAX_CANCEL_GAIN, quietAndLoudGains, refineSingleEcho } from './refine.ts';
+import { tailGain, tailGainAgrees } from './tail-gain.ts';
 
 export const DEFAULT_RANGE_SECONDS: readonly [number, number] = [0.0005, 0.5];
 export const PRINT_THROUGH_RANGE_SECONDS: readonly [number, number] = [0.3, 4];
@@ -576,8 +577,17 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         }
       }
       if (verdict === null && confidenceFromZ(z) >= 0.5) {
-        const f = await fitReflectionFilter(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal, gateNoise });
-        if (f) filter = { firstTapSamples: f.kernel.offset, firstTapDelaySeconds: f.kernel.offset / fs, taps: Array.from(f.kernel.taps) };
+        // Where the programme stops into silence, its copy is alone for τ: the gain that empties
+        // those stretches does not share the programme's own likeness at τ (tail-gain.ts). A
+        // single gain that empties them by 30 dB is the reflection's, so no filter is fitted then.
+        reclaim();
+        const tail = await tailGain(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal });
+        if (tail !== null && tailGainAgrees(tail, gain)) {
+          gain = tail.gain;
+        } else {
+          const f = await fitReflectionFilter(source, { delaySamples: delay, gain }, { channel, excerpt, signal: options.signal, gateNoise });
+          if (f) filter = { firstTapSamples: f.kernel.offset, firstTapDelaySeconds: f.kernel.offset / fs, taps: Array.from(f.kernel.taps) };
+        }
       }
     }
     // With fewer than FEW_FRAMES frames the frame-by-frame checks are medians of a handful of

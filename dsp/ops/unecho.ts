@@ -15,10 +15,10 @@ import type { AudioSource } from '../source.ts';
 import { defineCorrection, type OpContext, type ParamValues } from './types.ts';
 
 const algorithms = async () => {
-  const [{ analyseEcho }, { singleEchoKernel }, { MAX_CANCEL_GAIN, refineSingleEcho }, { renderCancellation }] = await Promise.all([
-    import('../echo/detect.ts'), import('../echo/kernel.ts'), import('../echo/refine.ts'), import('../echo/render.ts'),
+  const [{ analyseEcho }, { singleEchoKernel }, { MAX_CANCEL_GAIN, refineSingleEcho }, { renderCancellation }, { tailGain, tailGainAgrees }] = await Promise.all([
+    import('../echo/detect.ts'), import('../echo/kernel.ts'), import('../echo/refine.ts'), import('../echo/render.ts'), import('../echo/tail-gain.ts'),
   ]);
-  return { analyseEcho, singleEchoKernel, MAX_CANCEL_GAIN, refineSingleEcho, renderCancellation };
+  return { analyseEcho, singleEchoKernel, MAX_CANCEL_GAIN, refineSingleEcho, renderCancellation, tailGain, tailGainAgrees };
 };
 
 interface EchoToCancel {
@@ -40,7 +40,7 @@ function clampGain(g: number, ctx: OpContext, MAX_CANCEL_GAIN: number): number {
 
 /** Measures the gain of an echo at a given delay (refined around it). */
 async function measureAt(source: AudioSource, delaySeconds: number, channel: number, ctx: OpContext): Promise<number> {
-  const { analyseEcho, refineSingleEcho } = await algorithms();
+  const { analyseEcho, refineSingleEcho, tailGain, tailGainAgrees } = await algorithms();
   const fs = source.sampleRateHz;
   if (delaySeconds < 0) {
     const a = await analyseEcho(source, { channel, warn: (m) => ctx.warn(m), signal: ctx.signal });
@@ -53,8 +53,12 @@ async function measureAt(source: AudioSource, delaySeconds: number, channel: num
   const d = delaySeconds * fs;
   const n = Math.min(source.frames, Math.round(30 * fs));
   // The first pass starts from no cancellation (gain 0) and fits the delay within ±0.6 sample.
-  const r = await refineSingleEcho(source, { delaySamples: d, gain: 0 }, { channel, excerpt: { start: 0, end: n, warmup: 0 }, signal: ctx.signal, searchSamples: 0.6 });
-  return r.fit.gain;
+  const excerpt = { start: 0, end: n, warmup: 0 };
+  const r = await refineSingleEcho(source, { delaySamples: d, gain: 0 }, { channel, excerpt, signal: ctx.signal, searchSamples: 0.6 });
+  // Where the programme stops into silence the copy is alone for τ: read the gain there when it
+  // can be (tail-gain.ts), as the automatic analysis does.
+  const tail = r.fit.delaySamples >= 1 ? await tailGain(source, { delaySamples: r.fit.delaySamples, gain: r.fit.gain }, { channel, excerpt, signal: ctx.signal }) : null;
+  return tail !== null && tailGainAgrees(tail, r.fit.gain) ? tail.gain : r.fit.gain;
 }
 
 export const unecho = defineCorrection({

@@ -140,12 +140,15 @@ describe('unecho, measuring first', () => {
     const r1 = addEchoes(v, [{ delaySamples: 0.0234 * fs, gain: 0.4 }]);
     const y = addEchoes(r1, [{ delaySamples: 1.5 * fs, gain: Math.pow(10, -40 / 20) }]);
     const r = await unecho.prepare(new MemorySource([y], fs), {}, silentContext);
-    expect(String(r.resolved.cancelled)).toMatch(/^reflection 23\.4\d* ms, gain 0\.4\d*; print-through 1\.5\d* s after, -40\.\d dB$/);
+    const said = /^reflection 23\.4\d* ms, gain (0\.\d+); print-through 1\.5\d* s after, -40\.\d dB$/.exec(String(r.resolved.cancelled));
+    expect(said, String(r.resolved.cancelled)).not.toBeNull();
+    // The gain as built (0.4) within a fifth of the ±0.01 bar of the analyses issue.
+    expect(Math.abs(Number(said![1]) - 0.4)).toBeLessThanOrEqual(0.002);
     expect(r.resolved.delaySeconds as number).toBeCloseTo(0.0234, 6);
     expect(r.resolved.secondDelaySeconds as number).toBeCloseTo(1.5, 4);
     const [out] = await collectBlocks(r.blocks, 1);
     expect(residualRatioDb(out!, y, v)).toBeLessThanOrEqual(-30);
-    expect(unecho.history(r.resolved)).toMatch(/^reelwright unecho delay=0\.0234\d*s gain=0\.4\d* then delay=1\.5\d*s gain=0\.0(09|10)\d*$/);
+    expect(unecho.history(r.resolved)).toMatch(/^reelwright unecho delay=0\.0234\d*s gain=0\.(39|40)\d* then delay=1\.5\d*s gain=0\.0(09|10)\d*$/);
   }, 60_000);
 });
 
