@@ -64,6 +64,8 @@ export interface SpeedOptions {
 const clamp01 = (x: number) => Math.max(0, Math.min(1, x));
 /** A quiet-weighted series this close (relative) to a stronger hum series is read as its sideband. */
 const SIDEBAND_SHARE = 0.05;
+/** A lone line's weight (seriesShown): below 0.5 at full evidence. */
+const LONE_LINE_SHARE = 0.45;
 
 /**
  * Evidence (0–1) that a measured series is mains hum: it must stand clearly above noise (coherent
@@ -91,8 +93,9 @@ function humEvidence(m: HumMeasurement): number {
  * Mains hum is a series of lines (odd harmonics often stronger, common practice). One line alone,
  * with no second harmonic of it established in this measurement or in another one of the same
  * fundamental (plain and quiet-weighted tracks see different parts of the file), is weaker
- * evidence (a steady low component of the programme can be one line): × 0.55, below 0.5,
- * unless the line shows at its level in nearly every segment.
+ * evidence (a steady low component of the programme can be one line): × LONE_LINE_SHARE, so that
+ * even at full evidence it stays below the 0.5 a claim needs (it can still be corroborated by the
+ * tuning or a tone), unless the line shows at its level in nearly every segment.
  */
 function seriesShown(m: HumMeasurement, all: readonly HumMeasurement[], durationSeconds: number): number {
   const tol = Math.max(5e-4 * m.meanFundamentalHz, 2 / durationSeconds);
@@ -102,7 +105,7 @@ function seriesShown(m: HumMeasurement, all: readonly HumMeasurement[], duration
   // A hum that is one pure line (filtered, or its harmonics masked) must then show in nearly every
   // segment at its level: judged in ≥ 95 % of them, off its level in ≤ 5 %.
   const f = m.persistence.perHarmonic[m.harmonicsUsed.indexOf(1)];
-  return f && f.coverage >= 0.95 && f.inconsistentShare <= 0.05 ? 1 : 0.55;
+  return f && f.coverage >= 0.95 && f.inconsistentShare <= 0.05 ? 1 : LONE_LINE_SHARE;
 }
 
 /**
