@@ -340,6 +340,37 @@ function orderCandidates(cands: readonly CoarseCandidate[], fs: number): CoarseC
   return [cands.reduce((a, b) => (b.z > a.z ? b : a))];
 }
 
+/**
+ * Smallest score a weaker peak needs to be taken as the root of a stronger one (rootOf): well
+ * above what chance gives at one given lag (a maximum over 10⁴ lags reaches 3–5, one lag rarely
+ * 3), below the 8.5 that reports a peak by itself.
+ */
+export const ROOT_MIN_Z = 5;
+
+/**
+ * The candidate at τ of which `c` is the k-th rahmonic (k = 2…8), or null. An echo's cepstrum
+ * is (−1)^{k+1}·g^k/k at k·τ (the series of log(1 + g·z^−τ); Oppenheim & Schafer, DTSP, ch. 13):
+ * the sign at k·τ is that of g for odd k and negative for even k, while a periodic source puts
+ * positive peaks at every multiple of its period. A strong reflection's first peak can score
+ * under 8.5 in the short frames (the programme's own structure at a few ms raises the noise
+ * there) while its rahmonics, in the longer frames, score more (a jazz guitar's 17.5 ms / 0.9:
+ * z 7.3 at τ, 11.0 at 2τ). The root comes back with the score of the two peaks together, (z_τ +
+ * z_kτ)/√2 (two independent matched-filter outputs added, so unit noise stays unit noise), and
+ * must then pass every check a peak does on its own. Roots under 1 ms are not looked for.
+ */
+export function rootOf(c: CoarseCandidate, all: readonly CoarseCandidate[], fs: number): CoarseCandidate | null {
+  let best: CoarseCandidate | null = null;
+  for (const p of all) {
+    if (p.z < ROOT_MIN_Z || p.z >= c.z || p.quefrency < 0.001 * fs) continue;
+    const k = Math.round(c.quefrency / p.quefrency);
+    if (k < 2 || k > 8 || Math.abs(c.quefrency - k * p.quefrency) > Math.max(2, 0.005 * c.quefrency)) continue;
+    const sign = k % 2 ? Math.sign(p.amplitude) : -1;
+    if (Math.sign(c.amplitude) !== sign) continue;
+    if (!best || p.z > best.z) best = p;
+  }
+  return best ? { ...best, z: (best.z + c.z) / Math.SQRT2 } : null;
+}
+
 /** The most active stretch of at most `length` frames, from per-second energies. */
 function chooseExcerpt(energies: readonly number[], fs: number, frames: number, length: number): { start: number; end: number } {
   if (frames <= length) return { start: 0, end: frames };
@@ -608,8 +639,19 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
     const k = Math.round(q / t);
     return k >= 1 && Math.abs(q - k * t) <= Math.max(2, 0.005 * q);
   });
+  const roots: number[] = [];
   for (let i = 0, looked = 0; i < order.length && looked < 3; i++) {
-    if (isMultiple(order[i]!.quefrency)) continue;
+    if (isMultiple(order[i]!.quefrency) || roots.some((q) => Math.abs(q - order[i]!.quefrency) <= 2)) continue;
+    // A peak that is a rahmonic of a weaker one is looked at from that one first (see rootOf).
+    const root = rootOf(order[i]!, all, fs);
+    if (root && !roots.some((q) => Math.abs(q - root.quefrency) <= 2)) {
+      roots.push(root.quefrency);
+      const r = await measure(root);
+      if (r.present === true) {
+        reflection = r;
+        break;
+      }
+    }
     seen.push(order[i]!.quefrency);
     looked++;
     const r = await measure(order[i]!);
