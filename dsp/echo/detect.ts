@@ -356,7 +356,8 @@ export const ROOT_MIN_Z = 5;
  * there) while its rahmonics, in the longer frames, score more (a jazz guitar's 17.5 ms / 0.9:
  * z 7.3 at τ, 11.0 at 2τ). The root comes back with the score of the two peaks together, (z_τ +
  * z_kτ)/√2 (two independent matched-filter outputs added, so unit noise stays unit noise), and
- * must then pass every check a peak does on its own. Roots under 1 ms are not looked for.
+ * must then pass every check a peak does on its own. Roots under 1 ms are not looked for, nor
+ * roots whose rahmonic would need a gain of 1 or more.
  */
 export function rootOf(c: CoarseCandidate, all: readonly CoarseCandidate[], fs: number): CoarseCandidate | null {
   let best: CoarseCandidate | null = null;
@@ -366,6 +367,9 @@ export function rootOf(c: CoarseCandidate, all: readonly CoarseCandidate[], fs: 
     if (k < 2 || k > 8 || Math.abs(c.quefrency - k * p.quefrency) > Math.max(2, 0.005 * c.quefrency)) continue;
     const sign = k % 2 ? Math.sign(p.amplitude) : -1;
     if (Math.sign(c.amplitude) !== sign) continue;
+    // The gain the peak at k·τ implies, (k·|a_k|)^{1/k}, must be that of a reflection, under 1
+    // (accordion chords: −0.34 at four periods of the notes' 7.6 ms would need 1.08).
+    if (!((k * Math.abs(c.amplitude)) ** (1 / k) < 1)) continue;
     if (!best || p.z > best.z) best = p;
   }
   return best ? { ...best, z: (best.z + c.z) / Math.SQRT2 } : null;
@@ -634,17 +638,23 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   // (an echo's cepstrum has (−1)^{k+1}·g^k/k there) or the same note's period again:
   // it is skipped (a 61.7 ms / 0.35 reflection set aside on a music box came back as one at
   // 185.2 ms with g = 0.015 = g³/3, and a 9.1 ms / 0.9 one on a voice as 91.2 ms, −0.035).
-  const seen: number[] = [];
-  const isMultiple = (q: number) => seen.some((t) => {
-    const k = Math.round(q / t);
-    return k >= 1 && Math.abs(q - k * t) <= Math.max(2, 0.005 * q);
+  // Not skipped, though, is a negative peak at k·τ (k ≥ 2) far stronger than the rahmonic an echo
+  // at τ puts there (|a|^k/k, a the first look's gain): a note's period puts positive peaks at its
+  // multiples, so that is neither (accordion chords with a true 30.5 ms / −0.3 reflection at
+  // four periods, 7.6 ms, of the notes: −0.34 against 0.44⁴/4 = 0.01).
+  const seen: Array<{ q: number; a: number }> = [];
+  const isMultiple = (c: CoarseCandidate) => seen.some(({ q: t, a }) => {
+    const k = Math.round(c.quefrency / t);
+    if (!(k >= 1 && Math.abs(c.quefrency - k * t) <= Math.max(2, 0.005 * c.quefrency))) return false;
+    return k === 1 || !(c.amplitude < 0 && -c.amplitude > (2 * Math.abs(a) ** k) / k);
   });
   const roots: number[] = [];
   for (let i = 0, looked = 0; i < order.length && looked < 3; i++) {
-    if (isMultiple(order[i]!.quefrency) || roots.some((q) => Math.abs(q - order[i]!.quefrency) <= 2)) continue;
+    if (isMultiple(order[i]!) || roots.some((q) => Math.abs(q - order[i]!.quefrency) <= 2)) continue;
     // A peak that is a rahmonic of a weaker one is looked at from that one first (see rootOf).
     const root = rootOf(order[i]!, all, fs);
-    if (root && !roots.some((q) => Math.abs(q - root.quefrency) <= 2)) {
+    // (A peak already looked at on its own has had its verdict.)
+    if (root && !roots.some((q) => Math.abs(q - root.quefrency) <= 2) && !seen.some(({ q }) => Math.abs(q - root.quefrency) <= 2)) {
       roots.push(root.quefrency);
       const r = await measure(root);
       if (r.present === true) {
@@ -652,7 +662,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         break;
       }
     }
-    seen.push(order[i]!.quefrency);
+    seen.push({ q: order[i]!.quefrency, a: order[i]!.amplitude });
     looked++;
     const r = await measure(order[i]!);
     if (looked === 1) reflection = r;

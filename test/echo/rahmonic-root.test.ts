@@ -45,5 +45,9 @@ describe('rahmonic roots', () => {
     expect(rootOf(c, [cand(800, 0.5, 12)], fs)).toBeNull();
     expect(rootOf(c, [cand(790, 0.5, 7)], fs)).toBeNull();
     expect(rootOf(cand(2 * 40, -0.2, 11), [cand(40, 0.5, 7)], fs)).toBeNull();
+    // Source: the same series — |a_k| = |g|^k/k, so a peak of −0.34 at 4·τ would need |g| =
+    // (4·0.34)^{1/4} = 1.08, more than the direct sound (a reflection loses energy; common practice).
+    expect(rootOf(cand(4 * 336, -0.34, 18.8, 1), [cand(336, 0.44, 9.8)], fs)).toBeNull();
+    expect(rootOf(cand(4 * 336, -0.2, 18.8, 1), [cand(336, 0.44, 7)], fs)).not.toBeNull();
   });
 });
