@@ -346,6 +346,7 @@ function orderCandidates(cands: readonly CoarseCandidate[], fs: number): CoarseC
  * 3), below the 8.5 that reports a peak by itself.
  */
 export const ROOT_MIN_Z = 5;
+// (A root is taken only where the two scores together exceed its own.)
 
 /**
  * The candidate at τ of which `c` is the k-th rahmonic (k = 2…8), or null. An echo's cepstrum
@@ -362,7 +363,7 @@ export const ROOT_MIN_Z = 5;
 export function rootOf(c: CoarseCandidate, all: readonly CoarseCandidate[], fs: number): CoarseCandidate | null {
   let best: CoarseCandidate | null = null;
   for (const p of all) {
-    if (p.z < ROOT_MIN_Z || p.z >= c.z || p.quefrency < 0.001 * fs) continue;
+    if (p.z < ROOT_MIN_Z || (p.z + c.z) / Math.SQRT2 <= p.z || p.quefrency < 0.001 * fs) continue;
     const k = Math.round(c.quefrency / p.quefrency);
     if (k < 2 || k > 8 || Math.abs(c.quefrency - k * p.quefrency) > Math.max(2, 0.005 * c.quefrency)) continue;
     const sign = k % 2 ? Math.sign(p.amplitude) : -1;
@@ -650,11 +651,11 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   });
   const roots: number[] = [];
   for (let i = 0, looked = 0; i < order.length && looked < 3; i++) {
-    if (isMultiple(order[i]!) || roots.some((q) => Math.abs(q - order[i]!.quefrency) <= 2)) continue;
-    // A peak that is a rahmonic of a weaker one is looked at from that one first (see rootOf).
+    // A peak that is a rahmonic of another is looked at from that one first, with the two scores
+    // together (see rootOf); also when the root was looked at on its own before (the rules give
+    // it the same verdict, only its score can differ).
     const root = rootOf(order[i]!, all, fs);
-    // (A peak already looked at on its own has had its verdict.)
-    if (root && !roots.some((q) => Math.abs(q - root.quefrency) <= 2) && !seen.some(({ q }) => Math.abs(q - root.quefrency) <= 2)) {
+    if (root && !roots.some((q) => Math.abs(q - root.quefrency) <= 2)) {
       roots.push(root.quefrency);
       const r = await measure(root);
       if (r.present === true) {
@@ -662,6 +663,7 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
         break;
       }
     }
+    if (isMultiple(order[i]!) || roots.some((q) => Math.abs(q - order[i]!.quefrency) <= 2)) continue;
     seen.push({ q: order[i]!.quefrency, a: order[i]!.amplitude });
     looked++;
     const r = await measure(order[i]!);

@@ -38,11 +38,12 @@ describe('rahmonic roots', () => {
     for (const k of [2, 4, 6, 8]) expect(rootOf(cand(k * p, 0.1, 11, 1), [root], fs), `k = ${k}`).toBeNull();
   });
 
-  it('no root below ROOT_MIN_Z, above the peak itself, off the multiple, or under 1 ms', () => {
+  it('no root below ROOT_MIN_Z, where the scores together add nothing, off the multiple, under 1 ms, or needing |g| ≥ 1', () => {
     // Source: the rule as stated in detect.ts (common practice for a detection threshold).
     const c = cand(2 * 800, -0.2, 11, 1);
     expect(rootOf(c, [cand(800, 0.5, ROOT_MIN_Z - 0.1)], fs)).toBeNull();
-    expect(rootOf(c, [cand(800, 0.5, 12)], fs)).toBeNull();
+    expect(rootOf(c, [cand(800, 0.5, 30)], fs)).toBeNull(); // (30 + 11)/√2 = 29 < 30: nothing to add
+    expect(rootOf(c, [cand(800, 0.5, 12)], fs)!.z).toBeCloseTo(23 / Math.SQRT2, 12);
     expect(rootOf(c, [cand(790, 0.5, 7)], fs)).toBeNull();
     expect(rootOf(cand(2 * 40, -0.2, 11), [cand(40, 0.5, 7)], fs)).toBeNull();
     // Source: the same series — |a_k| = |g|^k/k, so a peak of −0.34 at 4·τ would need |g| =
