@@ -341,12 +341,11 @@ function orderCandidates(cands: readonly CoarseCandidate[], fs: number): CoarseC
 }
 
 /**
- * Smallest score a weaker peak needs to be taken as the root of a stronger one (rootOf): well
- * above what chance gives at one given lag (a maximum over 10⁴ lags reaches 3–5, one lag rarely
- * 3), below the 8.5 that reports a peak by itself.
+ * Smallest score a peak needs to be taken as the root of another (rootOf): well above what chance
+ * gives at one given lag (a maximum over 10⁴ lags reaches 3–5, one lag rarely 3), below the 8.5
+ * that reports a peak by itself. A root is taken only where the two scores together exceed its own.
  */
 export const ROOT_MIN_Z = 5;
-// (A root is taken only where the two scores together exceed its own.)
 
 /**
  * The candidate at τ of which `c` is the k-th rahmonic (k = 2…8), or null. An echo's cepstrum
