@@ -341,6 +341,41 @@ function orderCandidates(cands: readonly CoarseCandidate[], fs: number): CoarseC
   return [cands.reduce((a, b) => (b.z > a.z ? b : a))];
 }
 
+/**
+ * Smallest score a peak needs to be taken as the root of another (rootOf): well above what chance
+ * gives at one given lag (a maximum over 10⁴ lags reaches 3–5, one lag rarely 3), below the 8.5
+ * that reports a peak by itself. A root is taken only where the two scores together exceed its own.
+ */
+export const ROOT_MIN_Z = 5;
+
+/**
+ * The candidate at τ of which `c` is the k-th rahmonic (k = 2…8), or null. An echo's cepstrum
+ * is (−1)^{k+1}·g^k/k at k·τ (the series of log(1 + g·z^−τ); Oppenheim & Schafer, DTSP, ch. 13):
+ * the sign at k·τ is that of g for odd k and negative for even k, while a periodic source puts
+ * positive peaks at every multiple of its period. A strong reflection's first peak can score
+ * under 8.5 in the short frames (the programme's own structure at a few ms raises the noise
+ * there) while its rahmonics, in the longer frames, score more (a jazz guitar's 17.5 ms / 0.9:
+ * z 7.3 at τ, 11.0 at 2τ). The root comes back with the score of the two peaks together, (z_τ +
+ * z_kτ)/√2 (two independent matched-filter outputs added, so unit noise stays unit noise), and
+ * must then pass every check a peak does on its own. Roots under 1 ms are not looked for, nor
+ * roots whose rahmonic would need a gain of 1 or more.
+ */
+export function rootOf(c: CoarseCandidate, all: readonly CoarseCandidate[], fs: number): CoarseCandidate | null {
+  let best: CoarseCandidate | null = null;
+  for (const p of all) {
+    if (p.z < ROOT_MIN_Z || (p.z + c.z) / Math.SQRT2 <= p.z || p.quefrency < 0.001 * fs) continue;
+    const k = Math.round(c.quefrency / p.quefrency);
+    if (k < 2 || k > 8 || Math.abs(c.quefrency - k * p.quefrency) > Math.max(2, 0.005 * c.quefrency)) continue;
+    const sign = k % 2 ? Math.sign(p.amplitude) : -1;
+    if (Math.sign(c.amplitude) !== sign) continue;
+    // The gain the peak at k·τ implies, (k·|a_k|)^{1/k}, must be that of a reflection, under 1
+    // (accordion chords: −0.34 at four periods of the notes' 7.6 ms would need 1.08).
+    if (!((k * Math.abs(c.amplitude)) ** (1 / k) < 1)) continue;
+    if (!best || p.z > best.z) best = p;
+  }
+  return best ? { ...best, z: (best.z + c.z) / Math.SQRT2 } : null;
+}
+
 /** The most active stretch of at most `length` frames, from per-second energies. */
 function chooseExcerpt(energies: readonly number[], fs: number, frames: number, length: number): { start: number; end: number } {
   if (frames <= length) return { start: 0, end: frames };
@@ -613,14 +648,32 @@ export async function analyseEcho(source: AudioSource, options: EchoAnalysisOpti
   // (an echo's cepstrum has (−1)^{k+1}·g^k/k there) or the same note's period again:
   // it is skipped (a 61.7 ms / 0.35 reflection set aside on a music box came back as one at
   // 185.2 ms with g = 0.015 = g³/3, and a 9.1 ms / 0.9 one on a voice as 91.2 ms, −0.035).
-  const seen: number[] = [];
-  const isMultiple = (q: number) => seen.some((t) => {
-    const k = Math.round(q / t);
-    return k >= 1 && Math.abs(q - k * t) <= Math.max(2, 0.005 * q);
+  // Not skipped, though, is a negative peak at k·τ (k ≥ 2) far stronger than the rahmonic an echo
+  // at τ puts there (|a|^k/k, a the first look's gain): a note's period puts positive peaks at its
+  // multiples, so that is neither (accordion chords with a true 30.5 ms / −0.3 reflection at
+  // four periods, 7.6 ms, of the notes: −0.34 against 0.44⁴/4 = 0.01).
+  const seen: Array<{ q: number; a: number }> = [];
+  const isMultiple = (c: CoarseCandidate) => seen.some(({ q: t, a }) => {
+    const k = Math.round(c.quefrency / t);
+    if (!(k >= 1 && Math.abs(c.quefrency - k * t) <= Math.max(2, 0.005 * c.quefrency))) return false;
+    return k === 1 || !(c.amplitude < 0 && -c.amplitude > (2 * Math.abs(a) ** k) / k);
   });
+  const roots: number[] = [];
   for (let i = 0, looked = 0; i < order.length && looked < 3; i++) {
-    if (isMultiple(order[i]!.quefrency)) continue;
-    seen.push(order[i]!.quefrency);
+    // A peak that is a rahmonic of another is looked at from that one first, with the two scores
+    // together (see rootOf); also when the root was looked at on its own before (the rules give
+    // it the same verdict, only its score can differ).
+    const root = rootOf(order[i]!, all, fs);
+    if (root && !roots.some((q) => Math.abs(q - root.quefrency) <= 2)) {
+      roots.push(root.quefrency);
+      const r = await measure(root);
+      if (r.present === true) {
+        reflection = r;
+        break;
+      }
+    }
+    if (isMultiple(order[i]!) || roots.some((q) => Math.abs(q - order[i]!.quefrency) <= 2)) continue;
+    seen.push({ q: order[i]!.quefrency, a: order[i]!.amplitude });
     looked++;
     const r = await measure(order[i]!);
     if (looked === 1) reflection = r;

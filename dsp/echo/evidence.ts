@@ -352,6 +352,18 @@ export async function frameEvidence(
         cx.set(cep);
         for (let q = 0; q < n; q++) cx[q] = cx[q]! - model[q]!;
         let locked = pitchLocked(cx, tau, fs, true);
+        if (locked && empty) {
+          // The echo's share of the frame's cepstrum is that of the bins that carry it: where the
+          // bins far under the strongest are rounding noise added after the reflection, about
+          // the bins with programme only, so taking the whole model out leaves −(its rest) at τ,
+          // a peak of the opposite sign (Festival voices at 44.1 kHz with 13 ms / −0.45: 427 of
+          // 437 frames locked so, 0 with the model scaled). Where those bins do carry the echo
+          // (a low note's weak upper partials), the whole model is right. The frame is locked
+          // only when its period is at τ either way.
+          const share = 1 - empty / (n / 2 + 1);
+          for (let q = 0; q < n; q++) cx[q] = cep[q]! - share * model[q]!;
+          locked = pitchLocked(cx, tau, fs, true);
+        }
         if (empty && !locked) {
           plan.realInverse(lockLogs, cx);
           for (let q = 0; q < n; q++) cx[q] = cx[q]! - model[q]!;

@@ -15,6 +15,7 @@
 import { describe, expect, it } from 'vitest';
 import { nextPowerOfTwo, sharedPlan } from '../../dsp/core/fft.ts';
 import { analyseEcho } from '../../dsp/echo/detect.ts';
+import { frameEvidence } from '../../dsp/echo/evidence.ts';
 import { singleEchoKernel } from '../../dsp/echo/kernel.ts';
 import { renderCancellation } from '../../dsp/echo/render.ts';
 import { collectBlocks, MemorySource } from '../../dsp/source.ts';
@@ -67,4 +68,37 @@ describe('reflections on speech band-limited to 8 kHz (the empty band holds only
       expect(residualRatioDb(out!, y, x)).toBeLessThanOrEqual(-30);
     }, 120_000);
   }
+});
+
+describe('pitch lock on band-limited speech (the frame reading of the echo is diluted by the empty band)', () => {
+  // Source: truth by construction (as above: DFT shift theorem, 24-bit rounding). In a frame
+  // whose upper two thirds hold only rounding noise, the echo's ripple is in the lower third
+  // alone, so the frame's cepstrum carries about a third of g·ρ at τ; taking the full-band model
+  // out leaves about −(2/3)·g·ρ there, a positive peak for g < 0, which passed for the frame's
+  // own period (Festival voices at 44.1 kHz with 13 ms / −0.45: 427 of 437 frames "locked").
+  const fs = 44100, tauMs = 13.0, g = -0.45;
+  const d = (tauMs * fs) / 1000;
+  const { x: wide } = voiceLike({ sampleRateHz: fs, seconds: 10, seed: 5 });
+  const x = bandLimit(wide, fs, 7600, 8000);
+
+  it(`${tauMs} ms / ${g} at ${fs / 1000} kHz: few frames locked, the frames read the echo`, async () => {
+    const y = quantise24(addEchoes(x, [{ delaySamples: d, gain: g }]));
+    const e = await frameEvidence(new MemorySource([y], fs), d, g, { channel: 0, start: 0, end: y.length });
+    // A voice's pitch moves: few of its frames have their period at τ or a whole share of it
+    // (common practice; the synthetic voice glides between syllables from 95–210 Hz bases, test/helpers/voice.ts).
+    expect(e.locked).toBeLessThanOrEqual(0.1 * e.frames);
+    expect(Math.sign(e.medianGain!)).toBe(-1);
+    expect(Math.abs(e.medianGain!)).toBeGreaterThan(0.5 * Math.abs(g));
+  }, 60_000);
+
+  it('the same hypothesis on the echo-free speech: the frames read about nothing at τ', async () => {
+    // Source: by construction — no reflection was added, so every frame's cepstrum at τ is the
+    // voice's own, near zero where its pitch moves (from memory: a voice's cepstrum is small
+    // away from its period and the envelope's quefrencies). (Taking out a model of an echo that
+    // is not there leaves its opposite at τ, so some frames lock; those hold no evidence.)
+    const y = quantise24(x);
+    const e = await frameEvidence(new MemorySource([y], fs), d, g, { channel: 0, start: 0, end: y.length });
+    expect(e.frames - e.locked).toBeGreaterThanOrEqual(0.5 * e.frames);
+    expect(Math.abs(e.medianGain!)).toBeLessThan(0.2 * Math.abs(g));
+  }, 60_000);
 });

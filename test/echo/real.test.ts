@@ -63,7 +63,7 @@ async function load(name: string): Promise<{ source: MemorySource; x: Float64Arr
 }
 
 describe('clean real recordings: no reflection, no print-through', () => {
-  for (const name of ['bass-c2', 'piano-a#1', 'guitar-strum', 'voice-clean', 'piano-entry-clean', 'drums-clean']) {
+  for (const name of ['bass-c2', 'piano-a#1', 'guitar-strum', 'voice-clean', 'voice44-clean', 'piano-entry-clean', 'drums-clean']) {
     it(name, async () => {
       // Source: nothing was added to these recordings (real_clips.py); a note's period, a strum
       // repeated every bar and a voice's own colouring are not echoes (REAL-MATERIAL.md, common
@@ -98,6 +98,20 @@ describe('impaired real recordings', () => {
     const left = residualRatioDb(out!, y, x);
     console.info(`voice, 2 periods (${(t.reflection!.delaySeconds * 1e3).toFixed(3)} ms / 0.42): g ${r.reflection.gain!.toFixed(4)}, echo left ${left.toFixed(1)} dB`);
     expect(left).toBeLessThanOrEqual(-30);
+  }, 120_000);
+
+  it('finds a 13 ms / −0.45 reflection on a real voice resampled from 16 to 44.1 kHz (delay ≤ 0.1 sample, gain ≤ 0.01)', async () => {
+    // Source: y = x − 0.45·x(t − 13 ms) by the DFT shift theorem on the resampled voice
+    // (real_clips.py; scipy resample_poly); bars of the analyses issue. Above 8 kHz the file holds
+    // only rounding noise, which carries no echo: taking the full-band echo model out of a frame
+    // left its opposite at τ, and nearly every frame passed for one whose period is τ.
+    const t = truth['voice44-refl']!;
+    const { source, fs } = await load('voice44-refl');
+    const r = await analyseEcho(source, { printThrough: false });
+    expect(r.reflection.present).toBe(true);
+    expect(r.reflection.evidence!.locked).toBeLessThanOrEqual(0.1 * r.reflection.evidence!.frames);
+    expect(Math.abs(r.reflection.delaySeconds! - t.reflection!.delaySeconds) * fs).toBeLessThanOrEqual(0.1);
+    expect(Math.abs(r.reflection.gain! - t.reflection!.gain)).toBeLessThanOrEqual(0.01);
   }, 120_000);
 
   it('with a reflection and a faint print-through, unecho cancels the reflection first and says so', async () => {
