@@ -175,8 +175,6 @@ export function intonedVoice(sampleRateHz: number, durationSeconds: number, f0Hz
   const pitch = options.pitchFactor ?? 1, scale = options.formantScale ?? 1;
   const x = new Float64Array(n);
   const syllable = Math.round(0.25 * fs);
-  let rs: Resonator[] = [];
-  const y1 = new Float64Array(3), y2 = new Float64Array(3);
   let phase = 0;
   for (let i = 0; i < n; i++) {
     const t = i / fs;
@@ -185,20 +183,10 @@ export function intonedVoice(sampleRateHz: number, durationSeconds: number, f0Hz
     phase -= Math.floor(phase);
     let s = 0;
     for (let h = 1; h * f0 < 0.45 * fs; h++) s += Math.cos(2 * Math.PI * h * phase) / h;
-    if (i % syllable === 0) {
-      const v = VOWELS[(3 * Math.floor(i / syllable)) % VOWELS.length]!;
-      rs = v.formantsHz.map((f, k) => resonator(f * scale, FORMANT_BANDWIDTHS_HZ[k]!, fs));
-    }
-    let v = s * (0.5 - 0.5 * Math.cos((2 * Math.PI * (i % syllable)) / syllable));
-    for (let k = 0; k < 3; k++) {
-      const r = rs[k]!;
-      const y = r.a * v + r.b * y1[k]! + r.c * y2[k]!;
-      y2[k] = y1[k]!;
-      y1[k] = y;
-      v = y;
-    }
-    x[i] = v;
+    x[i] = s * (0.5 - 0.5 * Math.cos((2 * Math.PI * (i % syllable)) / syllable));
   }
+  // One vowel per syllable, its formants scaled, through the same resonator cascade.
+  cascade(x, (i) => VOWELS[(3 * Math.floor(i / syllable)) % VOWELS.length]!.formantsHz.map((f) => f * scale), FORMANT_BANDWIDTHS_HZ, fs, syllable);
   if (options.telephone) {
     for (const [type, f] of [['hp', 300], ['hp', 300], ['lp', 3400], ['lp', 3400]] as const) biquadInPlace(x, type, f, fs);
   }
